@@ -1,0 +1,981 @@
+"""Time-domain energisation of a transformer: the saturating circuit solved over many cases.
+
+Each energised winding obeys
+
+    e(t) = R*i + L_s*di/dt + d(lambda)/dt,    i = f(lambda),
+
+i.e. d(lambda)/dt = (e - R*f(lambda)) / (1 + L_s*f'(lambda)), with e the source voltage, R the
+series resistance (winding plus source), L_s the source inductance and f the magnetising curve
+(:mod:`core.magnetizing`). The state is the flux linkage, so a residual flux is an initial
+condition.
+
+Connections (``topology``):
+
+* single phase and grounded wye -- each winding is an independent circuit (a grounded-wye
+  source of equal zero- and positive-sequence impedance is assumed);
+* ungrounded wye -- the neutral voltage is whatever keeps the sum of the currents constant:
+  v_n = sum(w_k*(e_k - R*i_k))/sum(w_k) with w_k = f'_k/(1 + L_s*f'_k); a phase with its pole
+  still open carries no current and keeps its flux;
+* delta -- winding currents c_ab, c_bc, c_ca; line currents are their differences
+  (i_a = c_ab - c_ca, ...). Through the source impedance the three windings are coupled:
+  (I + L_s*M*D) lambda' = e_LL - R_s*M*c - R_w*c with M = [[2,-1,-1],[-1,2,-1],[-1,-1,2]] and
+  D = diag(f'), solved as a 3x3 system at every stage.
+
+Approximations, reported with every result: phases are magnetically independent (a bank of
+single-phase cores; the coupling of a three-limb or five-limb core is not modelled, which is
+usually conservative for the peak phase); no hysteresis or core loss; while only one of a delta
+winding's two poles is closed, that winding is taken as unenergised (the series path through the
+other two windings is neglected); pole closing instants are rounded to the internal step.
+
+Numerics: classical fourth-order Runge-Kutta at a fixed step of at least 128 steps per cycle,
+compiled with numba and looped over cases; the equation is not stiff (its fastest time
+constant, (L_air + L_s)/R, is many steps long), and the solver is checked against scipy's LSODA
+and Radau at rtol 1e-9 in the tests. Independent windings with a piecewise-linear curve integrate
+the loop flux psi = lambda + L_s*i instead of lambda (d(psi)/dt = e - R*i is continuous at the
+knee, d(lambda)/dt is not when L_s > 0). The coupled connections (ungrounded wye, delta through
+a source impedance) integrate lambda, whose derivative jumps at a sharp knee: there the fixed
+step is only first-order accurate (about 0.1 % on the peaks for a stiff utility source, around
+1 % for a weak one or a floating neutral).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numba
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from core.errors import LimitError, ParameterError
+from core.magnetizing import PiecewiseLinearCurve, SmoothKneeCurve
+from core.transformer import EquivalentCircuit
+
+FloatArray = NDArray[np.float64]
+
+__all__ = [
+    "APPROXIMATIONS",
+    "MIN_STEPS_PER_CYCLE",
+    "Simulation",
+    "WorstCase",
+    "refined_abs_peak",
+    "simulate",
+    "step_plan",
+    "worst_closing_angle",
+]
+
+MIN_STEPS_PER_CYCLE = 128
+MAX_STEPS_PER_CYCLE = 16384
+TOPOLOGY = {"single_phase": 0, "wye_grounded": 0, "wye": 1, "delta": 2}
+APPROXIMATIONS = {
+    "single_phase": (
+        "no hysteresis or core loss: residual flux is an initial condition on a single-valued "
+        "curve",
+    ),
+    "wye_grounded": (
+        "phases magnetically independent (bank of single-phase cores); three-limb core "
+        "coupling not modelled (usually conservative for the peak phase)",
+        "source zero-sequence impedance taken equal to its positive-sequence impedance",
+        "no hysteresis or core loss: residual flux is an initial condition on a single-valued "
+        "curve",
+    ),
+    "wye": (
+        "phases magnetically independent (bank of single-phase cores); three-limb core "
+        "coupling not modelled (usually conservative for the peak phase)",
+        "floating neutral: currents flow only once two poles are closed",
+        "no hysteresis or core loss: residual flux is an initial condition on a single-valued "
+        "curve",
+    ),
+    "delta": (
+        "phases magnetically independent (bank of single-phase cores); three-limb core "
+        "coupling not modelled (usually conservative for the peak phase)",
+        "a delta winding is energised when the later of its two poles closes; the series path "
+        "through the other two windings before that is neglected",
+        "no hysteresis or core loss: residual flux is an initial condition on a single-valued "
+        "curve",
+    ),
+}
+_PHASE_SHIFT = np.array([0.0, -2.0 * math.pi / 3.0, 2.0 * math.pi / 3.0])
+
+
+@numba.njit(cache=True, inline="always")
+def _curve(
+    c: int,
+    k: int,
+    lam: float,
+    kind: NDArray[np.int64],
+    flux: FloatArray,
+    cur: FloatArray,
+    npts: NDArray[np.int64],
+    fslope: FloatArray,
+    hyp: FloatArray,
+) -> tuple[float, float]:  # pragma: no cover - compiled
+    # Indexes the full arrays (no slices: a slice costs a reference-count update per call).
+    x = abs(lam)
+    sgn = 1.0 if lam >= 0.0 else -1.0
+    if kind[c, k] == 0:
+        top = npts[c, k] - 1
+        if x >= flux[c, k, top]:
+            return sgn * (cur[c, k, top] + (x - flux[c, k, top]) * fslope[c, k]), fslope[c, k]
+        lo = 0
+        hi = top
+        while hi - lo > 1:
+            mid = (lo + hi) // 2
+            if flux[c, k, mid] < x:
+                lo = mid
+            else:
+                hi = mid
+        s = (cur[c, k, hi] - cur[c, k, lo]) / (flux[c, k, hi] - flux[c, k, lo])
+        return sgn * (cur[c, k, lo] + (x - flux[c, k, lo]) * s), s
+    a = hyp[c, k, 0]
+    b = hyp[c, k, 1]
+    s = x - hyp[c, k, 2]
+    e = hyp[c, k, 3]
+    r = math.sqrt(s * s + e * e)
+    g = 0.5 * (s + r) - hyp[c, k, 4]
+    return sgn * (a * x + b * g), a + b * 0.5 * (1.0 + s / r)
+
+
+@numba.njit(cache=True, inline="always")
+def _rhs(
+    topo: int,
+    t: float,
+    lam: FloatArray,
+    en: NDArray[np.bool_],
+    c: int,
+    omega: float,
+    vpk: FloatArray,
+    phase: FloatArray,
+    r_el: FloatArray,
+    r_src: FloatArray,
+    l_src: FloatArray,
+    kind: NDArray[np.int64],
+    flux: FloatArray,
+    cur: FloatArray,
+    npts: NDArray[np.int64],
+    fslope: FloatArray,
+    hyp: FloatArray,
+    dl: FloatArray,
+    ival: FloatArray,
+    dval: FloatArray,
+    xval: FloatArray,
+) -> None:  # pragma: no cover - compiled
+    m = lam.size
+    for k in range(m):
+        if en[k]:
+            i, d = _curve(c, k, lam[k], kind, flux, cur, npts, fslope, hyp)
+        else:
+            i = 0.0
+            d = 0.0
+        ival[k] = i
+        dval[k] = d
+    ls = l_src[c]
+    if topo == 0:
+        for k in range(m):
+            if en[k]:
+                e = vpk[c, k] * math.sin(omega * t + phase[c, k])
+                dl[k] = (e - r_el[c, k] * ival[k]) / (1.0 + ls * dval[k])
+            else:
+                dl[k] = 0.0
+    elif topo == 1:
+        count = 0
+        sw = 0.0
+        sx = 0.0
+        for k in range(m):
+            if en[k]:
+                count += 1
+                x = vpk[c, k] * math.sin(omega * t + phase[c, k]) - r_el[c, k] * ival[k]
+                xval[k] = x
+                w = dval[k] / (1.0 + ls * dval[k])
+                sw += w
+                sx += w * x
+        for k in range(m):
+            if en[k] and count >= 2:
+                dl[k] = (xval[k] - sx / sw) / (1.0 + ls * dval[k])
+            else:
+                dl[k] = 0.0
+    else:
+        ea = vpk[c, 0] * math.sin(omega * t + phase[c, 0])
+        eb = vpk[c, 1] * math.sin(omega * t + phase[c, 1])
+        ec = vpk[c, 2] * math.sin(omega * t + phase[c, 2])
+        e0 = ea - eb
+        e1 = eb - ec
+        e2 = ec - ea
+        c0 = ival[0]
+        c1 = ival[1]
+        c2 = ival[2]
+        rs = r_src[c]
+        b0 = e0 - rs * (2.0 * c0 - c1 - c2) - r_el[c, 0] * c0 if en[0] else 0.0
+        b1 = e1 - rs * (2.0 * c1 - c2 - c0) - r_el[c, 1] * c1 if en[1] else 0.0
+        b2 = e2 - rs * (2.0 * c2 - c0 - c1) - r_el[c, 2] * c2 if en[2] else 0.0
+        if ls == 0.0:
+            dl[0] = b0
+            dl[1] = b1
+            dl[2] = b2
+        else:
+            d0 = ls * dval[0]
+            d1 = ls * dval[1]
+            d2 = ls * dval[2]
+            # A = I + L_s * M * D; rows of unenergised windings are the identity.
+            a00 = 1.0 + 2.0 * d0
+            a01 = -d1
+            a02 = -d2
+            a10 = -d0
+            a11 = 1.0 + 2.0 * d1
+            a12 = -d2
+            a20 = -d0
+            a21 = -d1
+            a22 = 1.0 + 2.0 * d2
+            if not en[0]:
+                a00, a01, a02 = 1.0, 0.0, 0.0
+            if not en[1]:
+                a10, a11, a12 = 0.0, 1.0, 0.0
+            if not en[2]:
+                a20, a21, a22 = 0.0, 0.0, 1.0
+            det = (
+                a00 * (a11 * a22 - a12 * a21)
+                - a01 * (a10 * a22 - a12 * a20)
+                + a02 * (a10 * a21 - a11 * a20)
+            )
+            dl[0] = (
+                b0 * (a11 * a22 - a12 * a21)
+                - a01 * (b1 * a22 - a12 * b2)
+                + a02 * (b1 * a21 - a11 * b2)
+            ) / det
+            dl[1] = (
+                a00 * (b1 * a22 - a12 * b2)
+                - b0 * (a10 * a22 - a12 * a20)
+                + a02 * (a10 * b2 - b1 * a20)
+            ) / det
+            dl[2] = (
+                a00 * (a11 * b2 - b1 * a21)
+                - a01 * (a10 * b2 - b1 * a20)
+                + b0 * (a10 * a21 - a11 * a20)
+            ) / det
+
+
+@numba.njit(cache=True)
+def _kernel(
+    topo: int,
+    n_steps: int,
+    decimate: int,
+    h: float,
+    omega: float,
+    vpk: FloatArray,
+    phase: FloatArray,
+    r_el: FloatArray,
+    r_src: FloatArray,
+    l_src: FloatArray,
+    close_step: NDArray[np.int64],
+    lam0: FloatArray,
+    kind: NDArray[np.int64],
+    flux: FloatArray,
+    cur: FloatArray,
+    npts: NDArray[np.int64],
+    fslope: FloatArray,
+    hyp: FloatArray,
+    out: FloatArray,
+) -> None:  # pragma: no cover - compiled
+    n_cases, m = vpk.shape
+    lam = np.empty(m)
+    tmp = np.empty(m)
+    k1 = np.empty(m)
+    k2 = np.empty(m)
+    k3 = np.empty(m)
+    k4 = np.empty(m)
+    ival = np.empty(m)
+    dval = np.empty(m)
+    xval = np.empty(m)
+    en = np.zeros(m, dtype=np.bool_)
+    for c in range(n_cases):
+        for k in range(m):
+            lam[k] = lam0[c, k]
+        for j in range(n_steps + 1):
+            for k in range(m):
+                en[k] = j >= close_step[c, k]
+            if j % decimate == 0:
+                col = j // decimate
+                for k in range(m):
+                    if en[k]:
+                        i, _ = _curve(c, k, lam[k], kind, flux, cur, npts, fslope, hyp)
+                        out[c, k, col] = i
+                    else:
+                        out[c, k, col] = 0.0
+            if j == n_steps:
+                break
+            t = j * h
+            _rhs(
+                topo,
+                t,
+                lam,
+                en,
+                c,
+                omega,
+                vpk,
+                phase,
+                r_el,
+                r_src,
+                l_src,
+                kind,
+                flux,
+                cur,
+                npts,
+                fslope,
+                hyp,
+                k1,
+                ival,
+                dval,
+                xval,
+            )
+            for k in range(m):
+                tmp[k] = lam[k] + 0.5 * h * k1[k]
+            _rhs(
+                topo,
+                t + 0.5 * h,
+                tmp,
+                en,
+                c,
+                omega,
+                vpk,
+                phase,
+                r_el,
+                r_src,
+                l_src,
+                kind,
+                flux,
+                cur,
+                npts,
+                fslope,
+                hyp,
+                k2,
+                ival,
+                dval,
+                xval,
+            )
+            for k in range(m):
+                tmp[k] = lam[k] + 0.5 * h * k2[k]
+            _rhs(
+                topo,
+                t + 0.5 * h,
+                tmp,
+                en,
+                c,
+                omega,
+                vpk,
+                phase,
+                r_el,
+                r_src,
+                l_src,
+                kind,
+                flux,
+                cur,
+                npts,
+                fslope,
+                hyp,
+                k3,
+                ival,
+                dval,
+                xval,
+            )
+            for k in range(m):
+                tmp[k] = lam[k] + h * k3[k]
+            _rhs(
+                topo,
+                t + h,
+                tmp,
+                en,
+                c,
+                omega,
+                vpk,
+                phase,
+                r_el,
+                r_src,
+                l_src,
+                kind,
+                flux,
+                cur,
+                npts,
+                fslope,
+                hyp,
+                k4,
+                ival,
+                dval,
+                xval,
+            )
+            for k in range(m):
+                lam[k] += h / 6.0 * (k1[k] + 2.0 * k2[k] + 2.0 * k3[k] + k4[k])
+
+
+def _independent(
+    n_steps: int,
+    decimate: int,
+    h: float,
+    omega: float,
+    vpk: FloatArray,
+    phase: FloatArray,
+    r_el: FloatArray,
+    l_src: FloatArray,
+    close_step: NDArray[np.int64],
+    lam0: FloatArray,
+    kind: NDArray[np.int64],
+    par: FloatArray,
+    flux: FloatArray,
+    cur: FloatArray,
+    npts: NDArray[np.int64],
+    out: FloatArray,
+) -> None:  # pragma: no cover - compiled
+    """RK4 for windings that are independent circuits; one element = one winding of one case.
+
+    kind 0: two-slope (par = 1/L_m, lambda_S, 1/L_air, i_S); kind 1: smooth knee
+    (par = 1/L_m, 1/L_air - 1/L_m, lambda_S, width, g0); kind 2: table (flux, cur, npts; par[0]
+    = final 1/L). Scalar locals keep the hot loop in registers.
+    """
+    n_el = vpk.shape[0]
+    for e in numba.prange(n_el):
+        lam = lam0[e]
+        v = vpk[e]
+        p = phase[e]
+        r = r_el[e]
+        ls = l_src[e]
+        kd = kind[e]
+        p0 = par[e, 0]
+        p1 = par[e, 1]
+        p2 = par[e, 2]
+        p3 = par[e, 3]
+        p4 = par[e, 4]
+        top = npts[e] - 1
+        seg = 1
+        start = close_step[e]
+        ch = math.cos(0.5 * omega * h)
+        sh = math.sin(0.5 * omega * h)
+        s0 = c0 = s1 = c1 = s2 = c2 = 0.0
+        for j in range(n_steps + 1):
+            energised = j >= start
+            if energised:
+                # source phase at t_j, t_j + h/2, t_j + h by rotation; exact every 64 steps
+                if j == start or (j - start) % 64 == 0:
+                    s0 = math.sin(omega * j * h + p)
+                    c0 = math.cos(omega * j * h + p)
+                else:
+                    s0 = s2
+                    c0 = c2
+                s1 = s0 * ch + c0 * sh
+                c1 = c0 * ch - s0 * sh
+                s2 = s1 * ch + c1 * sh
+                c2 = c1 * ch - s1 * sh
+            acc = 0.0
+            lx = lam
+            for st in range(4):
+                x = abs(lx)
+                if kd == 0:
+                    if x > p1:
+                        i = p3 + (x - p1) * p2
+                        d = p2
+                    else:
+                        i = x * p0
+                        d = p0
+                elif kd == 1:
+                    sq = x - p2
+                    q = math.sqrt(sq * sq + p3 * p3)
+                    i = p0 * x + p1 * (0.5 * (sq + q) - p4)
+                    d = p0 + p1 * 0.5 * (1.0 + sq / q)
+                else:
+                    if x >= flux[e, top]:
+                        i = cur[e, top] + (x - flux[e, top]) * p0
+                        d = p0
+                    else:
+                        while seg > 1 and flux[e, seg - 1] > x:
+                            seg -= 1
+                        while flux[e, seg] < x:
+                            seg += 1
+                        d = (cur[e, seg] - cur[e, seg - 1]) / (flux[e, seg] - flux[e, seg - 1])
+                        i = cur[e, seg - 1] + (x - flux[e, seg - 1]) * d
+                if lx < 0.0:
+                    i = -i
+                if st == 0:
+                    if j % decimate == 0:
+                        out[e, j // decimate] = i if energised else 0.0
+                    if j == n_steps or not energised:
+                        break
+                    sv = s0
+                elif st == 3:
+                    sv = s2
+                else:
+                    sv = s1
+                kk = (v * sv - r * i) / (1.0 + ls * d)
+                if st == 0 or st == 3:
+                    acc += kk
+                else:
+                    acc += 2.0 * kk
+                lx = lam + (h if st == 2 else 0.5 * h) * kk
+                if st == 3:
+                    lam += h / 6.0 * acc
+
+
+# The same kernel compiled twice: serially for small batches, and with its element loop spread
+# over the available cores (numba's prange) for large ones. Elements are independent, so both
+# give identical results.
+_kernel_independent = numba.njit(cache=True)(_independent)
+_kernel_independent_parallel = numba.njit(cache=True, parallel=True)(_independent)
+PARALLEL_MIN_ELEMENTS = 64
+
+
+@dataclass(frozen=True)
+class Simulation:
+    """Result of :func:`simulate`.
+
+    Attributes
+    ----------
+    time_s : ndarray, shape (n_samples,)
+        Sample instants from the closing command, t = 0 [s].
+    winding_current_a : ndarray, shape (n_cases, n_windings, n_samples)
+        Current in each energised winding [A].
+    line_current_a : ndarray, shape (n_cases, n_phases, n_samples)
+        Line currents [A]: the winding currents for wye and single-phase, their differences for
+        delta.
+    samples_per_cycle : int
+        Output samples per cycle.
+    steps_per_cycle : int
+        Internal integration steps per cycle.
+    pole_delay_s : ndarray, shape (n_cases, n_phases)
+        Pole closing instants actually used, after rounding to the internal step [s].
+    approximations : tuple of str
+        What the model approximates for this connection.
+    """
+
+    time_s: FloatArray
+    winding_current_a: FloatArray
+    line_current_a: FloatArray
+    samples_per_cycle: int
+    steps_per_cycle: int
+    pole_delay_s: FloatArray
+    approximations: tuple[str, ...]
+
+
+def step_plan(
+    frequency_hz: float,
+    duration_s: float,
+    samples_per_cycle: int,
+    min_time_constant_s: float = math.inf,
+) -> tuple[int, int, int]:
+    """Internal steps per cycle, decimation and total step count for a simulation.
+
+    Parameters
+    ----------
+    frequency_hz : float
+        Source frequency [Hz].
+    duration_s : float
+        Simulated time [s].
+    samples_per_cycle : int
+        Output samples per cycle [-].
+    min_time_constant_s : float
+        Shortest time constant of the circuit, (L_air + L_s)/R [s]; the step is kept at or below
+        a quarter of it (accuracy and stability of the explicit integrator).
+
+    Returns
+    -------
+    tuple of int
+        (steps per cycle, decimation, number of steps).
+
+    Raises
+    ------
+    ParameterError
+        When the time constant is so short that more than MAX_STEPS_PER_CYCLE steps per cycle
+        would be needed.
+    """
+    if not (isinstance(samples_per_cycle, int) and 4 <= samples_per_cycle <= 100_000):
+        raise ParameterError("samples_per_cycle", samples_per_cycle, "an integer in [4, 100000]")
+    if not (math.isfinite(duration_s) and duration_s > 0.0):
+        raise ParameterError("duration_s", duration_s, "a finite number > 0")
+    need = float(MIN_STEPS_PER_CYCLE)
+    if min_time_constant_s < math.inf:
+        need = max(need, 4.0 / (frequency_hz * min_time_constant_s))
+    if need > MAX_STEPS_PER_CYCLE:
+        raise ParameterError(
+            "resistance_ohm",
+            min_time_constant_s,
+            "a saturated-loop time constant (L_air + L_s)/R of at least "
+            f"{4.0 / (frequency_hz * MAX_STEPS_PER_CYCLE):.3g} s; this circuit is almost purely "
+            "resistive when saturated",
+        )
+    decimate = max(1, math.ceil(need / samples_per_cycle))
+    spc = samples_per_cycle * decimate
+    n_steps = max(decimate, round(duration_s * frequency_hz * samples_per_cycle) * decimate)
+    return spc, decimate, n_steps
+
+
+def _curve_arrays(
+    circuits: Sequence[EquivalentCircuit],
+) -> tuple[NDArray[np.int64], FloatArray, FloatArray, NDArray[np.int64], FloatArray, FloatArray]:
+    n = len(circuits)
+    width = max(
+        (c.curve.flux_wb.size if isinstance(c.curve, PiecewiseLinearCurve) else 2) for c in circuits
+    )
+    kind = np.zeros(n, dtype=np.int64)
+    flux = np.zeros((n, width))
+    cur = np.zeros((n, width))
+    npts = np.full(n, 2, dtype=np.int64)
+    fslope = np.zeros(n)
+    hyp = np.zeros((n, 5))
+    for idx, circ in enumerate(circuits):
+        cv = circ.curve
+        if isinstance(cv, PiecewiseLinearCurve):
+            p = cv.flux_wb.size
+            flux[idx, :p] = cv.flux_wb
+            cur[idx, :p] = cv.current_a
+            flux[idx, p:] = cv.flux_wb[-1]
+            cur[idx, p:] = cv.current_a[-1]
+            npts[idx] = p
+            fslope[idx] = 1.0 / cv.final_inductance_h
+        elif isinstance(cv, SmoothKneeCurve):
+            kind[idx] = 1
+            a = 1.0 / cv.unsaturated_inductance_h
+            e = cv.knee_width_wb
+            g0 = 0.5 * (-cv.knee_flux_wb + math.hypot(cv.knee_flux_wb, e))
+            hyp[idx] = (a, 1.0 / cv.saturated_inductance_h - a, cv.knee_flux_wb, e, g0)
+            flux[idx, 1] = 1.0
+            cur[idx, 1] = 1.0
+        else:  # pragma: no cover - typing guard
+            raise ParameterError("curve", type(cv).__name__, "a magnetising curve")
+    return kind, flux, cur, npts, fslope, hyp
+
+
+def _element_curves(
+    circuits: Sequence[EquivalentCircuit],
+) -> tuple[NDArray[np.int64], FloatArray, FloatArray, FloatArray, NDArray[np.int64]]:
+    """Curve parameters for :func:`_kernel_independent`, one row per circuit.
+
+    A piecewise-linear curve is returned as current against the loop flux psi = lambda + L_s*i
+    (breakpoints shifted by L_s*i_k, final inductance L_final + L_s), the state that
+    :func:`simulate` integrates for it: d(psi)/dt = e - R*i(psi) is continuous at the knee,
+    whereas d(lambda)/dt = (e - R*i)/(1 + L_s*f') jumps there when L_s > 0 and a fixed-step
+    Runge-Kutta step across the jump loses its order (errors of several per cent in the decay
+    for a weak source).
+    """
+    n = len(circuits)
+    width = max(
+        (c.curve.flux_wb.size if isinstance(c.curve, PiecewiseLinearCurve) else 2) for c in circuits
+    )
+    kind = np.zeros(n, dtype=np.int64)
+    par = np.zeros((n, 5))
+    flux = np.zeros((n, width))
+    cur = np.zeros((n, width))
+    npts = np.full(n, 2, dtype=np.int64)
+    for idx, circ in enumerate(circuits):
+        cv = circ.curve
+        if isinstance(cv, PiecewiseLinearCurve):
+            p = cv.flux_wb.size
+            ls = circ.source_inductance_h
+            psi = cv.flux_wb + ls * cv.current_a
+            flux[idx, :p] = psi
+            cur[idx, :p] = cv.current_a
+            flux[idx, p:] = psi[-1]
+            cur[idx, p:] = cv.current_a[-1]
+            npts[idx] = p
+            final = 1.0 / (cv.final_inductance_h + ls)
+            if p == 2:
+                a = cv.current_a[1] / psi[1]
+                par[idx] = (a, psi[1], final, cv.current_a[1], 0.0)
+            else:
+                kind[idx] = 2
+                par[idx, 0] = final
+        else:
+            kind[idx] = 1
+            a = 1.0 / cv.unsaturated_inductance_h
+            e = cv.knee_width_wb
+            g0 = 0.5 * (-cv.knee_flux_wb + math.hypot(cv.knee_flux_wb, e))
+            par[idx] = (a, 1.0 / cv.saturated_inductance_h - a, cv.knee_flux_wb, e, g0)
+    return kind, par, flux, cur, npts
+
+
+def simulate(
+    circuits: EquivalentCircuit | Sequence[EquivalentCircuit],
+    closing_angle_deg: ArrayLike,
+    residual_flux_pu: ArrayLike,
+    pole_delay_s: ArrayLike = 0.0,
+    *,
+    duration_s: float,
+    samples_per_cycle: int = 128,
+    extra_resistance_ohm: ArrayLike = 0.0,
+    max_steps: int | None = None,
+) -> Simulation:
+    """Simulate the energisation of many cases at once.
+
+    Parameters
+    ----------
+    circuits : EquivalentCircuit or sequence of them
+        One circuit shared by every case, or one per case (all with the same number of phases,
+        connection and frequency).
+    closing_angle_deg : array_like, shape (n_cases,) or scalar
+        Angle of the phase-A source voltage e_a = sqrt(2)*V*sin(omega*t + alpha) at t = 0, the
+        closing command [deg].
+    residual_flux_pu : array_like, shape (n_cases, n_windings), (n_windings,) or scalar
+        Flux linkage of each winding at t = 0 [pu of lambda_N].
+    pole_delay_s : array_like, shape (n_cases, n_phases), (n_phases,) or scalar
+        Closing instant of each pole after t = 0, >= 0 [s].
+    duration_s : float
+        Simulated time [s].
+    samples_per_cycle : int
+        Output samples per cycle [-].
+    extra_resistance_ohm : array_like, shape (n_cases,) or scalar
+        Resistance added in series with every winding, e.g. a pre-insertion resistor [ohm].
+    max_steps : int or None
+        Compute limit: most integration steps (cases x windings x steps) allowed [-].
+
+    Returns
+    -------
+    Simulation
+
+    Raises
+    ------
+    ParameterError
+        On inconsistent shapes or values out of range.
+    LimitError
+        When the work exceeds ``max_steps``.
+
+    Notes
+    -----
+    See the module docstring for the equations. Phase B and C source voltages lag and lead
+    phase A by 120 degrees (ABC sequence).
+
+    References
+    ----------
+    Circuit equation: e.g. Y. Wang, S. G. Abdulsalam, W. Xu, IEEE Trans. Power Delivery 23(2),
+    2008 (from memory); integrator: classical Runge-Kutta (Kutta 1901).
+    """
+    circ_list = [circuits] if isinstance(circuits, EquivalentCircuit) else list(circuits)
+    if not circ_list:
+        raise ParameterError("circuits", 0, "at least one circuit")
+    first = circ_list[0]
+    for c in circ_list[1:]:
+        if (c.phases, c.connection, c.frequency_hz) != (
+            first.phases,
+            first.connection,
+            first.frequency_hz,
+        ):
+            raise ParameterError("circuits", c.connection, "the same phases, connection, frequency")
+    m = first.phases
+    alpha = np.atleast_1d(np.asarray(closing_angle_deg, dtype=float))
+    res = np.asarray(residual_flux_pu, dtype=float)
+    delay = np.asarray(pole_delay_s, dtype=float)
+    extra = np.atleast_1d(np.asarray(extra_resistance_ohm, dtype=float))
+    n = max(
+        alpha.shape[0],
+        len(circ_list),
+        extra.shape[0],
+        res.shape[0] if res.ndim == 2 else 1,
+        delay.shape[0] if delay.ndim == 2 else 1,
+    )
+    try:
+        alpha = np.broadcast_to(alpha, (n,))
+        res = np.broadcast_to(res if res.ndim == 2 else np.broadcast_to(res, (m,)), (n, m))
+        delay = np.broadcast_to(delay if delay.ndim == 2 else np.broadcast_to(delay, (m,)), (n, m))
+        extra = np.broadcast_to(extra, (n,))
+    except ValueError as exc:
+        raise ParameterError("cases", n, f"arrays broadcastable to {n} cases x {m} phases") from exc
+    if len(circ_list) == 1:
+        circ_list = circ_list * n
+    elif len(circ_list) != n:
+        raise ParameterError("circuits", len(circ_list), f"1 or {n} circuits")
+    for name, arr in (
+        ("closing_angle_deg", alpha),
+        ("residual_flux_pu", res),
+        ("pole_delay_s", delay),
+        ("extra_resistance_ohm", extra),
+    ):
+        if not np.all(np.isfinite(arr)):
+            raise ParameterError(name, "non-finite", "finite numbers")
+    if np.any(np.abs(res) > 5.0):
+        raise ParameterError("residual_flux_pu", float(np.abs(res).max()), "in [-5, 5]")
+    if np.any(delay < 0.0) or np.any(delay > duration_s):
+        raise ParameterError("pole_delay_s", float(delay.max()), f"in [0, {duration_s:g}] s")
+    if np.any(extra < 0.0):
+        raise ParameterError("extra_resistance_ohm", float(extra.min()), ">= 0")
+
+    f = first.frequency_hz
+    omega = 2.0 * math.pi * f
+    tau = min(
+        (c.air_core_inductance_h + c.source_inductance_h)
+        / max(c.winding_resistance_ohm + 2.0 * c.source_resistance_ohm + float(ex), 1e-300)
+        for c, ex in zip(circ_list, extra, strict=True)
+    )
+    spc, decimate, n_steps = step_plan(f, duration_s, samples_per_cycle, tau)
+    if max_steps is not None and n * m * n_steps > max_steps:
+        raise LimitError("integration steps (cases x windings x steps)", n * m * n_steps, max_steps)
+    h = 1.0 / (f * spc)
+    topo = TOPOLOGY[first.connection]
+
+    pole_step = np.rint(delay / h).astype(np.int64)
+    if topo == 2:
+        # winding ab energised by poles a and b, bc by b and c, ca by c and a
+        close_step = np.maximum(pole_step, np.roll(pole_step, -1, axis=1))
+    else:
+        close_step = pole_step.copy()
+
+    alpha_rad = np.deg2rad(alpha)
+    if m == 1:
+        vpk = np.array([math.sqrt(2.0) * c.winding_voltage_v for c in circ_list])[:, None]
+        phase = alpha_rad[:, None]
+    else:
+        vpk = np.repeat(
+            np.array([math.sqrt(2.0) * c.line_voltage_v / math.sqrt(3.0) for c in circ_list])[
+                :, None
+            ],
+            3,
+            axis=1,
+        )
+        phase = alpha_rad[:, None] + _PHASE_SHIFT[None, :]
+    r_w = np.array([c.winding_resistance_ohm for c in circ_list]) + extra
+    r_s = np.array([c.source_resistance_ohm for c in circ_list])
+    l_s = np.array([c.source_inductance_h for c in circ_list])
+    r_el = np.repeat((r_w if topo == 2 else r_w + r_s)[:, None], m, axis=1)
+    lam0 = res * np.array([c.nominal_flux_wb for c in circ_list])[:, None]
+    n_samples = n_steps // decimate + 1
+    out = np.zeros((n, m, n_samples))
+    independent = topo == 0 or (topo == 2 and not np.any(l_s) and not np.any(r_s))
+    if independent:
+        if topo == 2:  # delta on an ideal source: each winding sees a line-to-line voltage
+            vpk = vpk * math.sqrt(3.0)
+            phase = phase + math.pi / 6.0
+        kind_e, par_e, flux_e, cur_e, npts_e = _element_curves(circ_list)
+        # piecewise-linear curves: integrate the loop flux psi = lambda + L_s*i (see
+        # _element_curves), so the kernel sees no source inductance and starts from psi_0
+        pwl = np.array([isinstance(c.curve, PiecewiseLinearCurve) for c in circ_list])
+        l_el = np.where(pwl, 0.0, l_s)
+        state0 = lam0.copy()
+        for idx, c in enumerate(circ_list):
+            if pwl[idx] and l_s[idx] > 0.0:
+                state0[idx] = lam0[idx] + l_s[idx] * c.curve.current(lam0[idx])
+        rep = lambda a: np.ascontiguousarray(np.repeat(a, m, axis=0))  # noqa: E731
+        kernel = (
+            _kernel_independent_parallel if n * m >= PARALLEL_MIN_ELEMENTS else _kernel_independent
+        )
+        kernel(
+            n_steps, decimate, h, omega,
+            np.ascontiguousarray(vpk, dtype=float).ravel(),
+            np.ascontiguousarray(phase, dtype=float).ravel(),
+            np.ascontiguousarray(r_el).ravel(), np.repeat(l_el, m),
+            np.ascontiguousarray(close_step).ravel(), np.ascontiguousarray(state0).ravel(),
+            rep(kind_e), rep(par_e), rep(flux_e), rep(cur_e), rep(npts_e),
+            out.reshape(n * m, n_samples),
+        )  # fmt: skip
+    else:
+        kind1, flux1, cur1, npts1, fslope1, hyp1 = _curve_arrays(circ_list)
+        rep3 = lambda a: np.ascontiguousarray(np.repeat(a[:, None, ...], m, axis=1))  # noqa: E731
+        _kernel(
+            topo, n_steps, decimate, h, omega,
+            np.ascontiguousarray(vpk, dtype=float), np.ascontiguousarray(phase, dtype=float),
+            np.ascontiguousarray(r_el), r_s, l_s, np.ascontiguousarray(close_step),
+            np.ascontiguousarray(lam0), rep3(kind1), rep3(flux1), rep3(cur1), rep3(npts1),
+            rep3(fslope1), rep3(hyp1), out,
+        )  # fmt: skip
+    if not np.all(np.isfinite(out)):
+        raise ParameterError(
+            "circuit", "non-finite current", "a circuit whose simulated current stays finite"
+        )
+    # delta: i_a = c_ab - c_ca, i_b = c_bc - c_ab, i_c = c_ca - c_bc
+    line = out - np.roll(out, 1, axis=1) if topo == 2 else out
+    time: FloatArray = np.arange(n_samples, dtype=float) * (h * decimate)
+    delays_used: FloatArray = pole_step.astype(float) * h
+    return Simulation(
+        time_s=time,
+        winding_current_a=out,
+        line_current_a=line,
+        samples_per_cycle=samples_per_cycle,
+        steps_per_cycle=spc,
+        pole_delay_s=delays_used,
+        approximations=APPROXIMATIONS[first.connection]
+        + (
+            (f"pole closing instants rounded to the internal step of {h * 1e3:.4g} ms",)
+            if np.any(delay > 0.0)
+            else ()
+        ),
+    )
+
+
+def refined_abs_peak(y: FloatArray) -> FloatArray:
+    """Largest |y| along the last axis with a parabola through the three samples around it."""
+    a = np.abs(y)
+    k = np.argmax(a, axis=-1)
+    n = a.shape[-1]
+    km = np.clip(k, 1, n - 2)
+    y0 = np.take_along_axis(a, (km - 1)[..., None], -1)[..., 0]
+    y1 = np.take_along_axis(a, km[..., None], -1)[..., 0]
+    y2 = np.take_along_axis(a, (km + 1)[..., None], -1)[..., 0]
+    den = y0 - 2.0 * y1 + y2
+    with np.errstate(divide="ignore", invalid="ignore"):
+        off = np.where(den < 0.0, 0.5 * (y0 - y2) / den, 0.0)
+    peak: FloatArray = np.where(
+        (k == km) & (den < 0.0), y1 - 0.25 * (y0 - y2) * off, np.max(a, axis=-1)
+    )
+    out: FloatArray = np.maximum(peak, np.max(a, axis=-1))
+    return out
+
+
+@dataclass(frozen=True)
+class WorstCase:
+    """Result of :func:`worst_closing_angle`."""
+
+    closing_angle_deg: float
+    peak_a: float
+    phase_index: int
+    peaks_by_phase_a: FloatArray
+
+
+def worst_closing_angle(
+    circuit: EquivalentCircuit,
+    residual_flux_pu: ArrayLike,
+    pole_delay_s: ArrayLike = 0.0,
+    *,
+    cycles: float = 2.0,
+    max_steps: int | None = None,
+) -> WorstCase:
+    """Closing angle that gives the largest first-cycles inrush peak on any line.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit.
+    residual_flux_pu : array_like
+        Residual flux per winding [pu of lambda_N].
+    pole_delay_s : array_like
+        Pole closing delays [s].
+    cycles : float
+        Window searched for the peak after t = 0 [cycles].
+    max_steps : int or None
+        Compute limit per simulation call, see :func:`simulate` [-].
+
+    Returns
+    -------
+    WorstCase
+        Angle of phase-A voltage at t = 0 [deg], the peak [A], the line that carries it, and
+        every line's peak at that angle [A].
+
+    Notes
+    -----
+    A scan over 0-360 degrees in 2.5-degree steps, then two local refinements (0.25 and 0.025
+    degrees), each a single vectorised :func:`simulate` call.
+    """
+    duration = cycles / circuit.frequency_hz
+    center, span, step = 180.0, 180.0, 2.5
+    best_angle = 0.0
+    for _ in range(3):
+        angles = np.arange(center - span, center + span + 0.5 * step, step)
+        sim = simulate(
+            circuit,
+            angles,
+            residual_flux_pu,
+            pole_delay_s,
+            duration_s=duration,
+            max_steps=max_steps,
+        )
+        peaks = refined_abs_peak(sim.line_current_a)
+        worst = np.max(peaks, axis=1)
+        j = int(np.argmax(worst))
+        best_angle = float(angles[j])
+        center, span, step = best_angle, step, step / 10.0
+    sim = simulate(circuit, best_angle, residual_flux_pu, pole_delay_s, duration_s=duration)
+    peaks = refined_abs_peak(sim.line_current_a)[0]
+    ph = int(np.argmax(peaks))
+    return WorstCase(float(np.mod(best_angle, 360.0)), float(peaks[ph]), ph, peaks)
