@@ -1,0 +1,1 @@
+"""firstcycle HTTP layer: FastAPI app, request/response models, problem documents, CLI."""

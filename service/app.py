@@ -1,0 +1,141 @@
+"""The FastAPI application: routers, problem handlers, body-size limit, CORS, health checks."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from fastapi import FastAPI
+from fastapi.middleware.cors import CORSMiddleware
+from starlette.types import ASGIApp, Message, Receive, Scope, Send
+
+from service import problems
+from service.routers import inrush
+from service.settings import get_settings
+
+API_VERSION = "1.0.0"
+DESCRIPTION = """
+What happens when a transformer is switched on, and whether the system around it copes:
+first inrush peak and its worst case, the decay envelope (per-cycle peaks, rms over time,
+second harmonic), from nameplate data or an SI equivalent circuit.
+
+Every response lists the assumptions actually used with their provenance, warnings, the method
+and its references. **Results are engineering estimates: verify with the equipment
+manufacturers' data; local codes and licensed engineering practice govern.**
+
+Errors are RFC 9457 problem documents (`application/problem+json`).
+"""
+
+
+class BodyLimit:
+    """Reject request bodies larger than ``max_bytes`` with a 413 problem document."""
+
+    def __init__(self, app: ASGIApp, max_bytes: int) -> None:
+        self.app = app
+        self.max_bytes = max_bytes
+
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        if scope["type"] != "http":
+            await self.app(scope, receive, send)
+            return
+        for name, value in scope.get("headers", []):
+            if name == b"content-length" and value.isdigit() and int(value) > self.max_bytes:
+                await self._reject(scope, receive, send)
+                return
+        seen = 0
+
+        async def limited() -> Message:
+            nonlocal seen
+            message = await receive()
+            if message["type"] == "http.request":
+                seen += len(message.get("body", b""))
+                if seen > self.max_bytes:
+                    raise _TooLargeError
+            return message
+
+        try:
+            await self.app(scope, limited, send)
+        except _TooLargeError:
+            await self._reject(scope, receive, send)
+
+    async def _reject(self, scope: Scope, receive: Receive, send: Send) -> None:
+        response = problems.problem_response(
+            413,
+            "Request body too large",
+            f"the body exceeds the limit of {self.max_bytes} bytes",
+            "body-too-large",
+        )
+        await response(scope, receive, send)
+
+
+class _TooLargeError(Exception):
+    pass
+
+
+def create_app() -> FastAPI:
+    """Build the application from the current settings."""
+    settings = get_settings()
+    app = FastAPI(
+        title="firstcycle",
+        version=API_VERSION,
+        description=DESCRIPTION,
+        openapi_url="/v1/openapi.json",
+        docs_url=None,
+        redoc_url=None,
+        license_info={"name": "MIT", "identifier": "MIT"},
+    )
+    problems.install(app)
+    app.include_router(inrush.router)
+
+    @app.get("/healthz", tags=["operations"], operation_id="healthz", include_in_schema=True)
+    def healthz() -> dict[str, str]:
+        """Liveness: the process answers."""
+        return {"status": "ok"}
+
+    @app.get("/readyz", tags=["operations"], operation_id="readyz")
+    def readyz() -> dict[str, str]:
+        """Readiness: the compute core is importable and compiled."""
+        return {"status": "ready"}
+
+    app.openapi_schema = None
+    _add_problem_schema(app)
+    app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
+    if settings.cors_origins:
+        app.add_middleware(
+            CORSMiddleware,
+            allow_origins=settings.cors_origins,
+            allow_methods=["GET", "POST"],
+            allow_headers=["*"],
+        )
+    return app
+
+
+def _add_problem_schema(app: FastAPI) -> None:
+    """Put the Problem schema in the components (the responses reference it by $ref)."""
+    original = app.openapi
+
+    def openapi() -> dict[str, Any]:
+        if app.openapi_schema:
+            return app.openapi_schema
+        schema = original()
+        comps = schema.setdefault("components", {}).setdefault("schemas", {})
+        comps["Problem"] = problems.Problem.model_json_schema(
+            ref_template="#/components/schemas/{model}"
+        )
+        defs = comps["Problem"].pop("$defs", {})
+        comps.update(defs)
+        # FastAPI documents its own 422 under application/json; ours is problem+json only.
+        for path in schema.get("paths", {}).values():
+            for op in path.values():
+                r422 = op.get("responses", {}).get("422")
+                if r422 is not None:
+                    r422["content"] = dict(problems.PROBLEM_RESPONSES[422]["content"])
+                    r422["description"] = problems.PROBLEM_RESPONSES[422]["description"]
+        comps.pop("HTTPValidationError", None)
+        comps.pop("ValidationError", None)
+        app.openapi_schema = schema
+        return schema
+
+    app.openapi = openapi  # type: ignore[method-assign]
+
+
+app = create_app()

@@ -1,0 +1,76 @@
+"""Deterministic export of the contract: ``openapi/v1/``.
+
+* ``openapi.json`` -- the document the app serves at ``/v1/openapi.json``;
+* ``schemas/<Model>.json`` -- one JSON Schema per component schema;
+* ``examples/<operation>.<name>.json`` -- the demo requests with the responses the service gives.
+
+Output is byte-for-byte reproducible: sorted keys, two-space indent, trailing newline.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Any
+
+from service.examples import ENVELOPE_REQUESTS, PEAK_REQUESTS
+
+
+def dumps(obj: Any) -> str:
+    """Canonical JSON text."""
+    return json.dumps(obj, indent=2, sort_keys=True, ensure_ascii=False) + "\n"
+
+
+def example_pairs() -> dict[str, dict[str, Any]]:
+    """Every demo request with the response the app returns for it."""
+    from fastapi.testclient import TestClient
+
+    from service.app import create_app
+
+    client = TestClient(create_app())
+    out: dict[str, dict[str, Any]] = {}
+    for op, path, requests in (
+        ("inrush_peak", "/v1/inrush/peak", PEAK_REQUESTS),
+        ("inrush_envelope", "/v1/inrush/envelope", ENVELOPE_REQUESTS),
+    ):
+        for name, body in requests.items():
+            resp = client.post(path, json=body)
+            if resp.status_code != 200:
+                raise RuntimeError(f"example {op}.{name} failed: {resp.status_code} {resp.text}")
+            out[f"{op}.{name}"] = {
+                "operation_id": op,
+                "method": "POST",
+                "path": path,
+                "request": body,
+                "status": 200,
+                "response": resp.json(),
+            }
+    return out
+
+
+def render(schema: dict[str, Any], with_examples: bool = True) -> dict[str, str]:
+    """Relative path -> file text of the whole contract directory."""
+    files = {"openapi.json": dumps(schema)}
+    for name, sub in sorted(schema.get("components", {}).get("schemas", {}).items()):
+        files[f"schemas/{name}.json"] = dumps(sub)
+    if with_examples:
+        for key, pair in example_pairs().items():
+            files[f"examples/{key}.json"] = dumps(pair)
+    return files
+
+
+def write(target: Path, schema: dict[str, Any]) -> list[Path]:
+    """Write the contract under ``target`` (removing stale files) and return the paths."""
+    files = render(schema)
+    written = []
+    for sub in ("schemas", "examples"):
+        d = target / sub
+        d.mkdir(parents=True, exist_ok=True)
+        for old in d.glob("*.json"):
+            if f"{sub}/{old.name}" not in files:
+                old.unlink()
+    for rel, text in files.items():
+        path = target / rel
+        path.write_text(text, encoding="utf-8")
+        written.append(path)
+    return written

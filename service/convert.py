@@ -1,0 +1,217 @@
+"""Request models to core inputs (SI units), and core results to response models.
+
+Unit conversions only (kVA to VA, kV to V, MVA to VA, ms to s) and the bookkeeping of
+provenance; no physics lives here.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+
+import numpy as np
+
+from core import inrush, magnetizing, transformer
+from core.errors import LimitError
+from core.transformer import EquivalentCircuit
+from service.models.common import (
+    Assumption,
+    FaultLevelSource,
+    ImpedanceSource,
+    Method,
+    SmoothCurve,
+    Study,
+    TableCurve,
+    TwoSlopeCurve,
+    WarningItem,
+)
+from service.settings import Settings
+
+RESIDUAL_DEFAULT_SOURCE = (
+    "default: 0.8 pu on the first winding (upper end of the typical 0.2-0.8 pu range, from "
+    "memory), the other windings -0.4 pu each so that the three sum to zero"
+)
+
+
+def _circuit(study: Study) -> EquivalentCircuit:
+    if study.transformer is not None:
+        t = study.transformer
+        c = t.core
+        oc = c.open_circuit_test or []
+        npl = transformer.Nameplate(
+            rating_va=t.rating_kva * 1e3,
+            phases=t.phases,
+            frequency_hz=t.frequency_hz,
+            line_voltage_v=t.energized_winding.voltage_kv * 1e3,
+            connection=t.energized_winding.connection,
+            position=t.energized_winding.position,
+            impedance_percent=t.impedance_percent,
+            x_over_r=t.x_over_r,
+            no_load_current_percent=t.no_load_current_percent,
+            material=c.material,
+            nominal_flux_density_t=c.nominal_flux_density_t,
+            saturation_flux_density_t=c.saturation_flux_density_t,
+            geometry=(
+                transformer.WindingGeometry(
+                    t.winding_geometry.turns,
+                    t.winding_geometry.mean_diameter_m,
+                    t.winding_geometry.height_m,
+                )
+                if t.winding_geometry is not None
+                else None
+            ),
+            curve=c.curve,
+            knee_width_pu=c.knee_width_pu,
+            open_circuit_voltage_percent=tuple(p.voltage_percent for p in oc),
+            open_circuit_current_percent=tuple(p.current_percent for p in oc),
+        )
+        src = study.source
+        if isinstance(src, FaultLevelSource):
+            core_src = transformer.Source("fault_level", src.fault_mva * 1e6, src.x_over_r)
+        elif isinstance(src, ImpedanceSource):
+            core_src = transformer.Source(
+                "impedance", resistance_ohm=src.resistance_ohm, reactance_ohm=src.reactance_ohm
+            )
+        elif src is not None:
+            core_src = transformer.Source("ideal")
+        else:
+            core_src = None
+        return transformer.equivalent_circuit(npl, core_src)
+    assert study.circuit is not None
+    ci = study.circuit
+    m = ci.magnetizing
+    curve: magnetizing.MagnetizingCurve
+    if isinstance(m, TwoSlopeCurve):
+        curve = magnetizing.two_slope(
+            m.unsaturated_inductance_h, m.knee_flux_wb, m.saturated_inductance_h
+        )
+    elif isinstance(m, SmoothCurve):
+        curve = magnetizing.smooth_knee(
+            m.unsaturated_inductance_h, m.knee_flux_wb, m.saturated_inductance_h, m.knee_width_wb
+        )
+    else:
+        assert isinstance(m, TableCurve)
+        curve = magnetizing.from_table(m.flux_wb, m.current_a, m.final_inductance_h)
+    return transformer.circuit_from_si(
+        ci.voltage_rms_v,
+        ci.frequency_hz,
+        ci.resistance_ohm,
+        ci.inductance_h,
+        curve,
+        ci.rated_current_a,
+    )
+
+
+def study_inputs(
+    study: Study,
+) -> tuple[EquivalentCircuit, np.ndarray, np.ndarray, list[Assumption]]:
+    """Circuit, residual flux [pu], pole delays [s] and the assumptions, from a request."""
+    circuit = _circuit(study)
+    m = circuit.phases
+    sw = study.switching
+    extra: list[Assumption] = []
+    if sw.residual_flux_wb is not None:
+        res = np.asarray(sw.residual_flux_wb, dtype=float) / circuit.nominal_flux_wb
+        extra.append(
+            Assumption(
+                name="residual_flux_wb",
+                value=list(sw.residual_flux_wb),
+                unit="Wb-turn",
+                source="given",
+            )
+        )
+        res_source = "from residual_flux_wb"
+    elif sw.residual_flux_pu is not None:
+        res = np.asarray(sw.residual_flux_pu, dtype=float)
+        res_source = "given"
+    else:
+        res = np.array([0.8]) if m == 1 else np.array([0.8, -0.4, -0.4])
+        res_source = RESIDUAL_DEFAULT_SOURCE
+    delay = (
+        np.asarray(sw.pole_delay_ms, dtype=float) * 1e-3
+        if sw.pole_delay_ms is not None
+        else np.zeros(m)
+    )
+    assumptions = [
+        Assumption(
+            name=a.name,
+            value=list(a.value) if isinstance(a.value, tuple) else a.value,
+            unit=a.unit,
+            source=a.source,
+        )
+        for a in circuit.assumptions
+    ]
+    assumptions += extra
+    assumptions.append(
+        Assumption(
+            name="closing_angle_deg",
+            value=sw.closing_angle_deg,
+            unit="deg",
+            source="given or default 0 (rising voltage zero)",
+        )
+    )
+    assumptions.append(
+        Assumption(
+            name="residual_flux_pu",
+            value=[float(x) for x in res],
+            unit="pu of nominal peak flux",
+            source=res_source,
+        )
+    )
+    assumptions.append(
+        Assumption(
+            name="pole_delay_ms",
+            value=[float(x) * 1e3 for x in delay],
+            unit="ms",
+            source="given" if sw.pole_delay_ms else "default 0",
+        )
+    )
+    return circuit, res, delay, assumptions
+
+
+def check_work(
+    settings: Settings, lines: int, frequency_hz: float, duration_s: float, samples_per_cycle: int
+) -> None:
+    """Raise LimitError when a simulation would exceed the configured limits."""
+    if duration_s > settings.max_duration_s:
+        raise LimitError("options.duration_s", duration_s, settings.max_duration_s)
+    if samples_per_cycle > settings.max_samples_per_cycle:
+        raise LimitError(
+            "options.samples_per_cycle", samples_per_cycle, settings.max_samples_per_cycle
+        )
+    total = lines * (duration_s * frequency_hz * samples_per_cycle + 1)
+    if total > settings.max_total_samples:
+        raise LimitError(
+            "lines x duration_s x frequency_hz x samples_per_cycle",
+            total,
+            settings.max_total_samples,
+        )
+
+
+def x_rated(value: float, rated: float) -> float | None:
+    """value/rated, or None when no rating is known."""
+    return value / rated if math.isfinite(rated) and rated > 0 else None
+
+
+def maybe(value: float) -> float | None:
+    """None for nan/inf (JSON has neither)."""
+    return float(value) if math.isfinite(value) else None
+
+
+def floats(values: Sequence[float] | np.ndarray) -> list[float]:
+    """Plain floats for JSON."""
+    return [float(v) for v in values]
+
+
+def warnings_out(items: Sequence[tuple[str, str]]) -> list[WarningItem]:
+    """Core (code, message) pairs to response items."""
+    return [WarningItem(code=c, message=msg) for c, msg in items]
+
+
+def method_out(analytic: bool, simulated: bool, approximations: Sequence[str]) -> Method:
+    """The method block of a response."""
+    return Method(
+        analytic=inrush.ANALYTIC_METHOD if analytic else None,
+        simulated=inrush.SIMULATED_METHOD if simulated else None,
+        approximations=list(approximations),
+    )

@@ -1,0 +1,125 @@
+"""Demo requests: the invented "Northgate Cold Storage" plant.
+
+A refrigerated warehouse on a 13.8 kV utility feeder (250 MVA, X/R 12). Main unit 2500 kVA,
+13.8 kV delta - 480Y/277 V, Z 5.75 %, X/R 7, no-load current 0.8 %, grain-oriented core. A
+1250 kVA standby generator (X''d 0.15 pu) on the 480 V bus back-feeds the unit from its
+low-voltage (inner) winding. A 112.5 kVA 480 - 208Y/120 V dry-type lighting transformer sits
+behind a fused disconnect. All of it is fictional; the values are for demonstration only.
+
+These dictionaries feed the OpenAPI examples and ``openapi/v1/examples/`` (request/response
+pairs that a test keeps equal to what the service returns).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+MAIN_UNIT: dict[str, Any] = {
+    "rating_kva": 2500,
+    "phases": 3,
+    "frequency_hz": 60,
+    "energized_winding": {"voltage_kv": 13.8, "connection": "delta", "position": "outer"},
+    "impedance_percent": 5.75,
+    "x_over_r": 7,
+    "no_load_current_percent": 0.8,
+    "core": {"material": "grain_oriented"},
+}
+UTILITY: dict[str, Any] = {"kind": "fault_level", "fault_mva": 250, "x_over_r": 12}
+
+BACKFEED_UNIT: dict[str, Any] = {
+    **MAIN_UNIT,
+    "energized_winding": {"voltage_kv": 0.48, "connection": "wye_grounded", "position": "inner"},
+}
+# 1250 kVA generator, X''d 0.15 pu on 480 V: X = 0.15 * 0.48^2 / 1.25 = 0.02765 ohm; R taken as
+# X/20 (invented demo value). A subtransient-reactance stand-in for the machine.
+GENERATOR_SUBTRANSIENT: dict[str, Any] = {
+    "kind": "impedance",
+    "resistance_ohm": 0.00138,
+    "reactance_ohm": 0.02765,
+}
+
+LIGHTING_UNIT: dict[str, Any] = {
+    "rating_kva": 112.5,
+    "phases": 3,
+    "frequency_hz": 60,
+    "energized_winding": {"voltage_kv": 0.48, "connection": "delta", "position": "outer"},
+    "impedance_percent": 4.0,
+    "x_over_r": 2.5,
+    "no_load_current_percent": 2.0,
+    "core": {"material": "grain_oriented"},
+}
+BUS_480: dict[str, Any] = {"kind": "fault_level", "fault_mva": 38, "x_over_r": 6}
+
+# Single-phase SI circuit of one low-voltage winding of the main unit (values rounded from the
+# nameplate-derived circuit), for cross-checking with any circuit simulator.
+CIRCUIT: dict[str, Any] = {
+    "voltage_rms_v": 277.0,
+    "frequency_hz": 60,
+    "resistance_ohm": 0.000374,
+    "inductance_h": 0.0,
+    "magnetizing": {
+        "kind": "two_slope",
+        "unsaturated_inductance_h": 0.0306,
+        "knee_flux_wb": 1.2406,
+        "saturated_inductance_h": 2.09e-5,
+    },
+    "rated_current_a": 3007.0,
+}
+
+PEAK_REQUESTS: dict[str, dict[str, Any]] = {
+    "northgate_main_unit": {
+        "transformer": MAIN_UNIT,
+        "source": UTILITY,
+        "switching": {"closing_angle_deg": 0.0},
+        "method": "both",
+    },
+    "northgate_backfeed": {
+        "transformer": BACKFEED_UNIT,
+        "source": GENERATOR_SUBTRANSIENT,
+        "switching": {"closing_angle_deg": 0.0, "residual_flux_pu": [0.8, -0.4, -0.4]},
+        "method": "both",
+    },
+    "northgate_lighting": {
+        "transformer": LIGHTING_UNIT,
+        "source": BUS_480,
+        "method": "both",
+    },
+    "circuit_mode": {
+        "circuit": CIRCUIT,
+        "switching": {"closing_angle_deg": 0.0, "residual_flux_wb": [0.83]},
+        "method": "both",
+    },
+}
+ENVELOPE_REQUESTS: dict[str, dict[str, Any]] = {
+    "northgate_main_unit": {
+        "transformer": MAIN_UNIT,
+        "source": UTILITY,
+        "switching": {"closing_angle_deg": 0.0},
+        "options": {"duration_s": 1.0, "samples_per_cycle": 64},
+    },
+    "northgate_backfeed": {
+        "transformer": BACKFEED_UNIT,
+        "source": GENERATOR_SUBTRANSIENT,
+        "options": {"duration_s": 2.0, "samples_per_cycle": 64, "below_x_rated": 1.0},
+    },
+    "northgate_lighting": {
+        "transformer": LIGHTING_UNIT,
+        "source": BUS_480,
+        "options": {"duration_s": 1.0, "samples_per_cycle": 64},
+    },
+}
+
+_SUMMARIES = {
+    "northgate_main_unit": "Demo: 2500 kVA main unit energised from the 13.8 kV utility feeder",
+    "northgate_backfeed": "Demo: the same unit back-fed from the standby generator at 480 V",
+    "northgate_lighting": "Demo: 112.5 kVA dry-type lighting transformer on the 480 V bus",
+    "circuit_mode": "Demo: SI equivalent circuit of one low-voltage winding",
+}
+
+
+def _openapi(requests: dict[str, dict[str, Any]]) -> dict[str, dict[str, Any]]:
+    return {k: {"summary": _SUMMARIES[k], "value": v} for k, v in requests.items()}
+
+
+PEAK_EXAMPLES = _openapi(PEAK_REQUESTS)
+ENVELOPE_EXAMPLES = _openapi(ENVELOPE_REQUESTS)

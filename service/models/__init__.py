@@ -1,0 +1,1 @@
+"""Pydantic request/response models, one module per operation family."""

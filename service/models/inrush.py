@@ -1,0 +1,158 @@
+"""Request and response models of the inrush operations (peak, envelope)."""
+
+from __future__ import annotations
+
+from typing import Literal
+
+from pydantic import Field
+
+from service.models.common import CAUTION, Assumption, Method, Model, Study, WarningItem
+
+
+class PeakRequest(Study):
+    """First inrush peak of one switching event, and its worst case."""
+
+    method: Literal["analytic", "simulated", "both"] = Field(
+        "both", description="Closed form, time-domain simulation, or both side by side"
+    )
+
+
+class AnalyticWindingPeak(Model):
+    """Closed-form first peak of one winding."""
+
+    winding: str
+    closing_angle_deg: float = Field(description="Winding voltage angle when energised [deg]")
+    flux_offset_pu: float = Field(description="Centre of the first flux swing [pu of nominal]")
+    first_peak_a: float = Field(description="First peak [A]")
+    first_peak_x_rated: float | None = Field(description="First peak / rated rms line current")
+
+
+class SimulatedLinePeak(Model):
+    """Simulated first peak of one line current."""
+
+    line: str
+    first_peak_a: float = Field(description="Largest |i| in the first cycles [A]")
+    first_peak_x_rated: float | None = Field(description="First peak / rated rms line current")
+    time_of_peak_s: float = Field(description="Instant of the peak after t = 0 [s]")
+
+
+class WorstCase(Model):
+    """The largest first peak over the free parameter named in ``over``."""
+
+    over: str = Field(description="What was varied to find it")
+    peak_a: float
+    peak_x_rated: float | None
+    closing_angle_deg: float | None = Field(None, description="Phase-A angle giving it [deg]")
+    line: str | None = None
+    residual_flux_pu: float | None = Field(None, description="Residual flux assumed [pu]")
+
+
+class PeakResponse(Model):
+    """First peak per winding/line, worst cases, and how they were obtained."""
+
+    rated_current_a: float | None = Field(description="Rated rms line current [A]")
+    first_peak_a: float = Field(
+        description="Largest first peak of this event, simulated when simulated, else analytic [A]"
+    )
+    first_peak_x_rated: float | None
+    analytic: list[AnalyticWindingPeak] | None
+    simulated: list[SimulatedLinePeak] | None
+    worst_case_simulated: WorstCase | None
+    worst_case_analytic: WorstCase | None
+    saturation_flux_pu: float = Field(description="Knee B_S/B_N used [pu]")
+    loop_resistance_ohm: float = Field(description="Saturated-loop resistance [ohm]")
+    loop_inductance_h: float = Field(description="Saturated-loop inductance [H]")
+    assumptions: list[Assumption]
+    warnings: list[WarningItem]
+    method: Method
+    caution: str = CAUTION
+
+
+class EnvelopeOptions(Model):
+    """Simulation and analysis options."""
+
+    duration_s: float = Field(
+        1.0, gt=0.0, le=10.0, description="Simulated time [s] (also capped by the service limit)"
+    )
+    samples_per_cycle: int = Field(128, ge=16, le=4096, description="Output samples per cycle")
+    below_x_rated: float = Field(
+        1.0,
+        gt=0.0,
+        le=100.0,
+        description="Threshold for time_below_s: per-cycle peak / rated rms current",
+    )
+    below_current_a: float | None = Field(
+        None, gt=0.0, le=1e9, description="Threshold in A (overrides below_x_rated)"
+    )
+    harmonic_cycles: int = Field(
+        5,
+        ge=1,
+        le=600,
+        description="First cycles over which the minimum second-harmonic ratio is taken",
+    )
+    waveform_points: int = Field(
+        0,
+        ge=0,
+        le=200_000,
+        description="Return the line currents with at most this many points per line; 0 for none",
+    )
+
+
+class EnvelopeRequest(Study):
+    """Decay envelope of one switching event."""
+
+    options: EnvelopeOptions = Field(default_factory=EnvelopeOptions)
+
+
+class LineEnvelopeOut(Model):
+    """Decay of one line current."""
+
+    line: str
+    cycle_peaks_a: list[float] = Field(description="Peak |i| of each cycle [A]")
+    cycle_peaks_x_rated: list[float] | None
+    second_harmonic_ratio: list[float | None] = Field(description="|I2|/|I1| per cycle [-]")
+    min_second_harmonic_ratio: float | None = Field(
+        description="Minimum over the first harmonic_cycles cycles [-]"
+    )
+    min_second_harmonic_cycle: int = Field(description="Cycle (0-based) of that minimum")
+    decay_time_constant_s: float | None = Field(
+        description="Equivalent exponential time constant of the peaks [s]"
+    )
+    decay_fit_cycles: list[int] = Field(description="First and last cycle of the fit")
+    time_below_s: float | None = Field(
+        description="Time after which every peak stays below "
+        "the threshold [s]; null when not reached"
+    )
+    equivalent_rms_a: list[float] = Field(description="I_eq(t) at equivalent_rms_times_s [A]")
+    equivalent_rms_x_rated: list[float] | None
+
+
+class AnalyticEnvelope(Model):
+    """Closed-form per-cycle peaks of one winding."""
+
+    winding: str
+    cycle_peaks_a: list[float]
+
+
+class Waveform(Model):
+    """Sampled line currents."""
+
+    time_s: list[float]
+    current_a: dict[str, list[float]]
+
+
+class EnvelopeResponse(Model):
+    """Per-cycle envelope, rms over time, harmonics."""
+
+    rated_current_a: float | None
+    frequency_hz: float
+    threshold_a: float | None = Field(description="Threshold used for time_below_s [A]")
+    equivalent_rms_times_s: list[float]
+    lines: list[LineEnvelopeOut]
+    analytic: list[AnalyticEnvelope]
+    waveform: Waveform | None
+    steps_per_cycle: int = Field(description="Internal integration steps per cycle")
+    assumptions: list[Assumption]
+    warnings: list[WarningItem]
+    method: Method
+    caution: str = CAUTION

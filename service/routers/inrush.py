@@ -1,0 +1,204 @@
+"""``/v1/inrush``: the first peak and the decay envelope of an energisation.
+
+Handlers are plain ``def`` so FastAPI runs them in its thread pool and the CPU-bound core never
+blocks the event loop.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import numpy as np
+from fastapi import APIRouter, Body, Depends
+
+from core import inrush
+from service import convert
+from service.examples import ENVELOPE_EXAMPLES, PEAK_EXAMPLES
+from service.models.inrush import (
+    AnalyticEnvelope,
+    AnalyticWindingPeak,
+    EnvelopeRequest,
+    EnvelopeResponse,
+    LineEnvelopeOut,
+    PeakRequest,
+    PeakResponse,
+    SimulatedLinePeak,
+    Waveform,
+    WorstCase,
+)
+from service.problems import PROBLEM_RESPONSES
+from service.settings import Settings, get_settings
+
+router = APIRouter(prefix="/v1/inrush", tags=["inrush"], responses=PROBLEM_RESPONSES)
+SettingsDep = Annotated[Settings, Depends(get_settings)]
+
+
+@router.post(
+    "/peak",
+    operation_id="inrush_peak",
+    summary="First inrush peak and its worst case",
+    response_description="First peak per winding (closed form) and per line (simulated), the "
+    "worst cases, assumptions, warnings and method",
+)
+def peak(
+    body: Annotated[PeakRequest, Body(openapi_examples=PEAK_EXAMPLES)],
+    settings: SettingsDep,
+) -> PeakResponse:
+    """First peak of one switching event; the worst closing angle for the same residual flux
+    (simulated) and the worst case of the closed form (voltage-zero closing, residual aligned).
+    """
+    circuit, res, delay, assumptions = convert.study_inputs(body)
+    study = inrush.peak_study(
+        circuit,
+        body.switching.closing_angle_deg,
+        res,
+        delay,
+        method=body.method,
+        max_steps=settings.max_total_steps,
+    )
+    rated = study.rated_current_a
+    analytic = (
+        [
+            AnalyticWindingPeak(
+                winding=w.winding,
+                closing_angle_deg=w.closing_angle_deg,
+                flux_offset_pu=w.flux_offset_pu,
+                first_peak_a=w.first_peak_a,
+                first_peak_x_rated=convert.x_rated(w.first_peak_a, rated),
+            )
+            for w in study.analytic
+        ]
+        if study.analytic is not None
+        else None
+    )
+    simulated = (
+        [
+            SimulatedLinePeak(
+                line=p.line,
+                first_peak_a=p.first_peak_a,
+                first_peak_x_rated=convert.x_rated(p.first_peak_a, rated),
+                time_of_peak_s=p.time_of_peak_s,
+            )
+            for p in study.simulated
+        ]
+        if study.simulated is not None
+        else None
+    )
+    if simulated is not None:
+        first = max(p.first_peak_a for p in simulated)
+    else:
+        first = max(w.first_peak_a for w in analytic or [])
+    ws = (
+        WorstCase(
+            over="closing angle, for the given residual flux and pole delays (simulated)",
+            peak_a=study.simulated_worst_a,
+            peak_x_rated=convert.x_rated(study.simulated_worst_a, rated),
+            closing_angle_deg=study.simulated_worst_angle_deg,
+            line=study.simulated_worst_line,
+        )
+        if study.simulated_worst_a is not None
+        else None
+    )
+    wa = (
+        WorstCase(
+            over="closing at a voltage zero with the largest given residual flux aligned "
+            "(closed form)",
+            peak_a=study.analytic_worst_a,
+            peak_x_rated=convert.x_rated(study.analytic_worst_a, rated),
+            residual_flux_pu=study.analytic_worst_residual_pu,
+        )
+        if study.analytic_worst_a is not None
+        else None
+    )
+    return PeakResponse(
+        rated_current_a=convert.maybe(rated),
+        first_peak_a=first,
+        first_peak_x_rated=convert.x_rated(first, rated),
+        analytic=analytic,
+        simulated=simulated,
+        worst_case_simulated=ws,
+        worst_case_analytic=wa,
+        saturation_flux_pu=study.saturation_flux_pu,
+        loop_resistance_ohm=study.loop_resistance_ohm,
+        loop_inductance_h=study.loop_inductance_h,
+        assumptions=assumptions,
+        warnings=convert.warnings_out(study.warnings),
+        method=convert.method_out(
+            study.analytic is not None, study.simulated is not None, study.approximations
+        ),
+    )
+
+
+@router.post(
+    "/envelope",
+    operation_id="inrush_envelope",
+    summary="Decay envelope: per-cycle peaks, rms over time, second harmonic",
+    response_description="Per-line envelope, I_eq(t) table, harmonic ratios, optional waveform",
+)
+def envelope(
+    body: Annotated[EnvelopeRequest, Body(openapi_examples=ENVELOPE_EXAMPLES)],
+    settings: SettingsDep,
+) -> EnvelopeResponse:
+    """Simulated decay of one switching event with the closed-form envelope beside it."""
+    circuit, res, delay, assumptions = convert.study_inputs(body)
+    opt = body.options
+    convert.check_work(
+        settings, circuit.phases, circuit.frequency_hz, opt.duration_s, opt.samples_per_cycle
+    )
+    points = min(opt.waveform_points, settings.max_waveform_points)
+    study = inrush.envelope_study(
+        circuit,
+        body.switching.closing_angle_deg,
+        res,
+        delay,
+        duration_s=opt.duration_s,
+        samples_per_cycle=opt.samples_per_cycle,
+        below_x_rated=opt.below_x_rated,
+        below_current_a=opt.below_current_a,
+        harmonic_cycles=opt.harmonic_cycles,
+        waveform_points=points,
+        max_steps=settings.max_total_steps,
+    )
+    rated = study.rated_current_a
+    known = convert.x_rated(1.0, rated) is not None
+    lines = [
+        LineEnvelopeOut(
+            line=ln.line,
+            cycle_peaks_a=convert.floats(ln.cycle_peaks_a),
+            cycle_peaks_x_rated=convert.floats(ln.cycle_peaks_a / rated) if known else None,
+            second_harmonic_ratio=[convert.maybe(v) for v in ln.second_harmonic_ratio],
+            min_second_harmonic_ratio=convert.maybe(ln.min_second_harmonic_ratio),
+            min_second_harmonic_cycle=ln.min_second_harmonic_cycle,
+            decay_time_constant_s=convert.maybe(ln.decay_time_constant_s),
+            decay_fit_cycles=list(ln.decay_fit_cycles),
+            time_below_s=convert.maybe(ln.time_below_s),
+            equivalent_rms_a=convert.floats(ln.equivalent_rms_a),
+            equivalent_rms_x_rated=convert.floats(ln.equivalent_rms_a / rated) if known else None,
+        )
+        for ln in study.lines
+    ]
+    wave = None
+    if study.waveform_time_s is not None and study.waveform_current_a is not None:
+        wave = Waveform(
+            time_s=convert.floats(study.waveform_time_s),
+            current_a={
+                ln.line: convert.floats(row)
+                for ln, row in zip(study.lines, study.waveform_current_a, strict=True)
+            },
+        )
+    return EnvelopeResponse(
+        rated_current_a=convert.maybe(rated),
+        frequency_hz=study.frequency_hz,
+        threshold_a=convert.maybe(study.below_threshold_a),
+        equivalent_rms_times_s=convert.floats(np.asarray(study.equivalent_rms_times_s)),
+        lines=lines,
+        analytic=[
+            AnalyticEnvelope(winding=w, cycle_peaks_a=convert.floats(p))
+            for w, p in study.analytic_cycle_peaks_a
+        ],
+        waveform=wave,
+        steps_per_cycle=study.steps_per_cycle,
+        assumptions=assumptions,
+        warnings=convert.warnings_out(study.warnings),
+        method=convert.method_out(True, True, study.approximations),
+    )

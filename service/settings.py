@@ -1,0 +1,42 @@
+"""Service settings, read once from the environment (prefix ``FIRSTCYCLE_``).
+
+Compute limits bound the work any single request can cause; the defaults keep one request
+well under a second of CPU and a few tens of MB on a 2-core machine.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+from pydantic import Field
+from pydantic_settings import BaseSettings, SettingsConfigDict
+
+
+class Settings(BaseSettings):
+    """All settings; each can be set as ``FIRSTCYCLE_<NAME>`` in the environment."""
+
+    model_config = SettingsConfigDict(env_prefix="FIRSTCYCLE_", extra="ignore")
+
+    max_duration_s: float = Field(5.0, gt=0, description="Longest simulated time per request [s]")
+    max_samples_per_cycle: int = Field(1024, ge=16, description="Most output samples per cycle")
+    max_total_samples: int = Field(
+        4_000_000,
+        ge=10_000,
+        description="Most samples (lines x samples) simulated per request, a memory bound",
+    )
+    max_total_steps: int = Field(
+        30_000_000,
+        ge=100_000,
+        description="Most integration steps (cases x windings x steps) per simulation call, a "
+        "CPU-time bound",
+    )
+    max_waveform_points: int = Field(20_000, ge=100, description="Most waveform points per line")
+    max_cases: int = Field(1000, ge=1, description="Most cases in one batch request")
+    max_body_bytes: int = Field(1_048_576, ge=1024, description="Largest request body [bytes]")
+    cors_origins: list[str] = Field(default_factory=list, description="Allowed CORS origins")
+
+
+@lru_cache
+def get_settings() -> Settings:
+    """The process-wide settings (cached; tests clear the cache to change them)."""
+    return Settings()

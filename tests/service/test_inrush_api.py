@@ -1,0 +1,201 @@
+"""HTTP behaviour of /v1/inrush/peak and /v1/inrush/envelope: results, provenance, errors."""
+
+from __future__ import annotations
+
+import copy
+import math
+
+import pytest
+from fastapi.testclient import TestClient
+
+from service.examples import ENVELOPE_REQUESTS, PEAK_REQUESTS
+
+PROBLEM = "application/problem+json"
+
+
+def _problem(resp: object, status: int) -> dict[str, object]:
+    r = resp  # httpx response
+    assert r.status_code == status, r.text  # type: ignore[attr-defined]
+    assert r.headers["content-type"].startswith(PROBLEM)  # type: ignore[attr-defined]
+    body: dict[str, object] = r.json()  # type: ignore[attr-defined]
+    assert body["status"] == status
+    assert str(body["type"]).startswith("urn:firstcycle:problem:")
+    return body
+
+
+@pytest.mark.parametrize("name", sorted(PEAK_REQUESTS))
+def test_peak_examples_answer(client: TestClient, name: str) -> None:
+    r = client.post("/v1/inrush/peak", json=PEAK_REQUESTS[name])
+    assert r.status_code == 200, r.text
+    body = r.json()
+    assert body["first_peak_a"] > 0
+    assert body["worst_case_simulated"]["peak_a"] >= body["first_peak_a"] * (1 - 1e-9)
+    assert "manufacturer" in body["caution"]
+    assert all(a["source"] for a in body["assumptions"])
+    assert body["method"]["analytic"]
+    assert body["method"]["simulated"]
+
+
+def test_peak_main_unit_is_plausible(client: TestClient) -> None:
+    # common practice: a distribution/plant transformer's first peak is several to ~30 x rated
+    body = client.post("/v1/inrush/peak", json=PEAK_REQUESTS["northgate_main_unit"]).json()
+    assert 3 < body["worst_case_simulated"]["peak_x_rated"] < 30
+    assert body["rated_current_a"] == pytest.approx(2500e3 / (math.sqrt(3) * 13.8e3))
+
+
+def test_peak_method_analytic_only(client: TestClient) -> None:
+    req = copy.deepcopy(PEAK_REQUESTS["northgate_lighting"])
+    req["method"] = "analytic"
+    body = client.post("/v1/inrush/peak", json=req).json()
+    assert body["simulated"] is None
+    assert body["worst_case_simulated"] is None
+    assert body["analytic"]
+    assert body["worst_case_analytic"]["peak_a"] > 0
+    assert body["method"]["simulated"] is None
+
+
+def test_default_residual_flux_is_reported_with_provenance(client: TestClient) -> None:
+    body = client.post("/v1/inrush/peak", json=PEAK_REQUESTS["northgate_main_unit"]).json()
+    res = next(a for a in body["assumptions"] if a["name"] == "residual_flux_pu")
+    assert res["value"] == [0.8, -0.4, -0.4]
+    assert "default" in res["source"]
+
+
+def test_deterministic_bytes(client: TestClient) -> None:
+    req = PEAK_REQUESTS["northgate_backfeed"]
+    a = client.post("/v1/inrush/peak", json=req).content
+    b = client.post("/v1/inrush/peak", json=req).content
+    assert a == b
+
+
+@pytest.mark.parametrize("name", sorted(ENVELOPE_REQUESTS))
+def test_envelope_examples_answer(client: TestClient, name: str) -> None:
+    r = client.post("/v1/inrush/envelope", json=ENVELOPE_REQUESTS[name])
+    assert r.status_code == 200, r.text
+    body = r.json()
+    for line in body["lines"]:
+        peaks = line["cycle_peaks_a"]
+        assert len(peaks) == round(
+            ENVELOPE_REQUESTS[name]["options"]["duration_s"] * body["frequency_hz"]
+        )
+        assert len(line["equivalent_rms_a"]) == len(body["equivalent_rms_times_s"])
+    assert body["equivalent_rms_times_s"][0] == 0.01
+
+
+def test_envelope_waveform_is_capped(client: TestClient) -> None:
+    req = copy.deepcopy(ENVELOPE_REQUESTS["northgate_lighting"])
+    req["options"]["waveform_points"] = 500
+    body = client.post("/v1/inrush/envelope", json=req).json()
+    wave = body["waveform"]
+    assert len(wave["time_s"]) <= 500
+    assert set(wave["current_a"]) == {"A", "B", "C"}
+
+
+def test_invalid_field_names_field_and_range(client: TestClient) -> None:
+    req = copy.deepcopy(PEAK_REQUESTS["northgate_main_unit"])
+    req["transformer"]["impedance_percent"] = 55
+    body = _problem(client.post("/v1/inrush/peak", json=req), 422)
+    errors = body["errors"]
+    assert isinstance(errors, list)
+    assert errors[0]["field"] == "transformer.impedance_percent"
+    assert errors[0]["allowed"] == "<= 30.0"
+    assert errors[0]["value"] == "55"
+
+
+@pytest.mark.parametrize("token", ["NaN", "Infinity", "-Infinity"])
+def test_non_finite_numbers_rejected(client: TestClient, token: str) -> None:
+    text = (
+        '{"circuit": {"voltage_rms_v": 277, "resistance_ohm": 0.001, "inductance_h": 0, '
+        '"magnetizing": {"kind": "two_slope", "unsaturated_inductance_h": 0.03, '
+        f'"knee_flux_wb": {token}, "saturated_inductance_h": 2e-5}}}}}}'
+    )
+    r = client.post("/v1/inrush/peak", content=text, headers={"content-type": "application/json"})
+    body = _problem(r, 422)
+    assert "knee_flux_wb" in str(body["errors"])
+
+
+def test_inconsistent_physics_is_422_naming_field(client: TestClient) -> None:
+    req = {
+        "circuit": {
+            "voltage_rms_v": 277,
+            "resistance_ohm": 0.001,
+            "inductance_h": 0,
+            "magnetizing": {
+                "kind": "two_slope",
+                "unsaturated_inductance_h": 1e-5,
+                "knee_flux_wb": 1.2,
+                "saturated_inductance_h": 2e-5,
+            },
+        }
+    }
+    body = _problem(client.post("/v1/inrush/peak", json=req), 422)
+    assert body["errors"][0]["field"] == "saturated_inductance_h"  # type: ignore[index]
+
+
+def test_non_monotone_table_is_422(client: TestClient) -> None:
+    req = copy.deepcopy(PEAK_REQUESTS["circuit_mode"])
+    req["circuit"]["magnetizing"] = {
+        "kind": "table",
+        "flux_wb": [1.0, 0.9],
+        "current_a": [1.0, 2.0],
+        "final_inductance_h": 2e-5,
+    }
+    body = _problem(client.post("/v1/inrush/peak", json=req), 422)
+    assert body["errors"][0]["field"] == "flux_wb"  # type: ignore[index]
+
+
+def test_both_modes_rejected(client: TestClient) -> None:
+    req = copy.deepcopy(PEAK_REQUESTS["northgate_main_unit"])
+    req["circuit"] = PEAK_REQUESTS["circuit_mode"]["circuit"]
+    _problem(client.post("/v1/inrush/peak", json=req), 422)
+
+
+def test_wrong_residual_length_rejected(client: TestClient) -> None:
+    req = copy.deepcopy(PEAK_REQUESTS["northgate_main_unit"])
+    req["switching"] = {"residual_flux_pu": [0.5]}
+    body = _problem(client.post("/v1/inrush/peak", json=req), 422)
+    assert "residual_flux_pu" in str(body["detail"])
+
+
+def test_duration_over_limit_is_422_limit(
+    client: TestClient, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    req = copy.deepcopy(ENVELOPE_REQUESTS["northgate_lighting"])
+    req["options"]["duration_s"] = 8.0
+    body = _problem(client.post("/v1/inrush/envelope", json=req), 422)
+    assert body["type"] == "urn:firstcycle:problem:limit-exceeded"
+    assert "5" in str(body["errors"])
+
+
+def test_stiff_circuit_is_rejected_not_hung(client: TestClient) -> None:
+    req = copy.deepcopy(PEAK_REQUESTS["circuit_mode"])
+    req["circuit"]["resistance_ohm"] = 10_000.0
+    req["circuit"]["magnetizing"]["saturated_inductance_h"] = 1e-9
+    req["switching"] = {"closing_angle_deg": 0.0}
+    body = _problem(client.post("/v1/inrush/peak", json=req), 422)
+    assert body["errors"][0]["field"] == "resistance_ohm"  # type: ignore[index]
+
+
+def test_body_too_large_is_413(client: TestClient) -> None:
+    big = b'{"x": "' + b"a" * 2_000_000 + b'"}'
+    r = client.post("/v1/inrush/peak", content=big, headers={"content-type": "application/json"})
+    _problem(r, 413)
+
+
+def test_malformed_json_is_422(client: TestClient) -> None:
+    r = client.post(
+        "/v1/inrush/peak", content=b"{not json", headers={"content-type": "application/json"}
+    )
+    _problem(r, 422)
+
+
+def test_unknown_path_and_method(client: TestClient) -> None:
+    _problem(client.get("/v1/nothing-here"), 404)
+    r = client.get("/v1/inrush/peak")
+    _problem(r, 405)
+    assert r.headers["allow"] == "POST"
+
+
+def test_health(client: TestClient) -> None:
+    assert client.get("/healthz").json() == {"status": "ok"}
+    assert client.get("/readyz").json() == {"status": "ready"}
