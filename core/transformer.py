@@ -18,7 +18,8 @@ three-limb core's magnetic coupling between phases is not represented here (see
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from collections.abc import Mapping
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.constants import mu_0
@@ -166,6 +167,10 @@ class Nameplate:
     open_circuit_voltage_percent, open_circuit_current_percent : tuple of float
         Optional open-circuit test points [% of rated voltage, % of rated current]; when given,
         the magnetising curve is converted from them (the air-core slope continues it).
+    provenance : mapping of str to str
+        Where a value came from when the caller did not give it (field name -> text); fields
+        not named are recorded as "given". The dataclass defaults are conveniences (a typical
+        distribution unit, common practice); a caller relying on one should say so here.
     """
 
     rating_va: float
@@ -182,9 +187,10 @@ class Nameplate:
     saturation_flux_density_t: float | None = None
     geometry: WindingGeometry | None = None
     curve: str = "two_slope"
-    knee_width_pu: float = 0.05
+    knee_width_pu: float = 0.01
     open_circuit_voltage_percent: tuple[float, ...] = ()
     open_circuit_current_percent: tuple[float, ...] = ()
+    provenance: Mapping[str, str] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -243,6 +249,28 @@ def _check(name: str, value: float, low: float, high: float, *, low_open: bool =
         bracket = "(" if low_open else "["
         raise ParameterError(name, value, f"in {bracket}{low:g}, {high:g}]")
     return float(value)
+
+
+def _calibrated_unsaturated_inductance(
+    l_m: float, lam_n: float, lam_s: float, l_air: float, width: float
+) -> float:
+    """Unsaturated slope of the smooth curve through the two-slope curve's rated-flux point.
+
+    The rounded knee adds current below lambda_S; without correction the smooth curve would
+    draw several times the nameplate no-load current at rated voltage. With
+    g = the hyperbolic excess at lambda_N, i(lambda_N) = a*lambda_N + (1/L_air - a)*g is set
+    equal to lambda_N/L_m and solved for a = 1/L_m'.
+    """
+    s = lam_n - lam_s
+    g = 0.5 * (s + math.hypot(s, width)) - 0.5 * (-lam_s + math.hypot(lam_s, width))
+    a = (lam_n / l_m - g / l_air) / (lam_n - g)
+    if not (a > 0.0 and 1.0 / a > l_air):
+        raise ParameterError(
+            "knee_width_pu",
+            width / lam_n,
+            "narrow enough that the smooth curve can pass through the rated no-load point",
+        )
+    return 1.0 / a
 
 
 def air_core_inductance_solenoid(turns: float, mean_diameter_m: float, height_m: float) -> float:
@@ -362,6 +390,8 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
     assumptions: list[Assumption] = []
 
     def note(name: str, value: float | str | tuple[float, ...], unit: str, prov: str) -> None:
+        if prov == "given":
+            prov = npl.provenance.get(name, "given")
         assumptions.append(Assumption(name, value, unit, prov))
 
     s_va = _check("rating_va", npl.rating_va, 0.0, 1e10)
@@ -413,7 +443,7 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
         raise ParameterError(
             "saturation_flux_density_t", b_s, f"above the nominal flux density {b_n:g} T"
         )
-    note("material", npl.material, "-", "given")
+    note("material", npl.material, "-", "given")  # provenance applies
     note("nominal_flux_density_t", b_n, "T", prov_n)
     note("saturation_flux_density_t", b_s, "T", prov_s)
 
@@ -470,22 +500,24 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
             )
         if npl.curve == "two_slope":
             curve = magnetizing.two_slope(l_m, lam_s, l_air)
-            note("magnetizing_curve", "two_slope", "-", "given" if npl.curve else "default")
+            note("magnetizing_curve", "two_slope", "-", npl.provenance.get("curve", "given"))
         else:
             width = _check("knee_width_pu", npl.knee_width_pu, 0.0, b_s / b_n)
+            l_m = _calibrated_unsaturated_inductance(l_m, lam_n, lam_s, l_air, width * lam_n)
             curve = magnetizing.smooth_knee(l_m, lam_s, l_air, width * lam_n)
-            note("magnetizing_curve", "smooth", "-", "given")
-            note(
-                "knee_width_pu",
-                width,
-                "pu of nominal flux",
-                "given or default 0.05 (modelling choice)",
-            )
+            note("magnetizing_curve", "smooth", "-", npl.provenance.get("curve", "given"))
+            note("knee_width_pu", width, "pu of nominal flux", "given")
         note(
             "magnetizing_inductance_h",
             l_m,
             "H",
-            "from no_load_current_percent, the no-load current taken as wholly magnetising",
+            "from no_load_current_percent, the no-load current taken as wholly magnetising"
+            + (
+                "; the smooth curve's slope set so that it passes through the same crest "
+                "current at rated flux"
+                if npl.curve == "smooth"
+                else ""
+            ),
         )
 
     r_s, x_s = source_impedance(src, v_ll, npl.phases)

@@ -87,12 +87,12 @@ def create_app() -> FastAPI:
     app.include_router(inrush.router)
 
     @app.get("/healthz", tags=["operations"], operation_id="healthz", include_in_schema=True)
-    def healthz() -> dict[str, str]:
+    async def healthz() -> dict[str, str]:
         """Liveness: the process answers."""
         return {"status": "ok"}
 
     @app.get("/readyz", tags=["operations"], operation_id="readyz")
-    def readyz() -> dict[str, str]:
+    async def readyz() -> dict[str, str]:
         """Readiness: the compute core is importable and compiled."""
         return {"status": "ready"}
 

@@ -22,6 +22,7 @@ from service.models.common import (
     SmoothCurve,
     Study,
     TableCurve,
+    TransformerNameplate,
     TwoSlopeCurve,
     WarningItem,
 )
@@ -31,6 +32,36 @@ RESIDUAL_DEFAULT_SOURCE = (
     "default: 0.8 pu on the first winding (upper end of the typical 0.2-0.8 pu range, from "
     "memory), the other windings -0.4 pu each so that the three sum to zero"
 )
+
+
+# Provenance of the API's own defaults, recorded when the caller leaves a field out.
+DEFAULT_PROVENANCE = {
+    "phases": "default: 3 phases",
+    "frequency_hz": "default: 60 Hz",
+    "no_load_current_percent": (
+        "default: 1.0 % (typical of distribution and plant transformers; from memory)"
+    ),
+    "connection": "default: wye_grounded",
+    "material": "default: grain_oriented",
+    "curve": "default: two_slope",
+    "knee_width_pu": "default: 0.01 pu (modelling choice)",
+}
+
+
+def _provenance(t: TransformerNameplate) -> dict[str, str]:
+    unset = {
+        n
+        for n in ("phases", "frequency_hz", "no_load_current_percent")
+        if n not in t.model_fields_set
+    }
+    if "connection" not in t.energized_winding.model_fields_set:
+        unset.add("connection")
+    unset |= {
+        n
+        for n in ("material", "curve", "knee_width_pu")
+        if "core" not in t.model_fields_set or n not in t.core.model_fields_set
+    }
+    return {n: DEFAULT_PROVENANCE[n] for n in unset}
 
 
 def _circuit(study: Study) -> EquivalentCircuit:
@@ -64,6 +95,7 @@ def _circuit(study: Study) -> EquivalentCircuit:
             knee_width_pu=c.knee_width_pu,
             open_circuit_voltage_percent=tuple(p.voltage_percent for p in oc),
             open_circuit_current_percent=tuple(p.current_percent for p in oc),
+            provenance=_provenance(t),
         )
         src = study.source
         if isinstance(src, FaultLevelSource):
@@ -147,7 +179,9 @@ def study_inputs(
             name="closing_angle_deg",
             value=sw.closing_angle_deg,
             unit="deg",
-            source="given or default 0 (rising voltage zero)",
+            source="given"
+            if "closing_angle_deg" in sw.model_fields_set
+            else "default: 0 (phase A at a rising voltage zero)",
         )
     )
     assumptions.append(

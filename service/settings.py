@@ -40,3 +40,8 @@ class Settings(BaseSettings):
 def get_settings() -> Settings:
     """The process-wide settings (cached; tests clear the cache to change them)."""
     return Settings()
+
+
+async def settings_dependency() -> Settings:
+    """FastAPI dependency (async, so it costs no thread-pool hop per request)."""
+    return get_settings()

@@ -39,9 +39,10 @@ class EnergizedWinding(Model):
         "wye_grounded", description="Winding connection (ignored for a single-phase unit)"
     )
     position: Literal["inner", "outer"] = Field(
-        "outer",
-        description="Where the winding sits on the leg. The inner winding (usually the "
-        "low-voltage one) has the smaller air-core inductance and draws the larger inrush",
+        description="Where the winding sits on the leg (required: it sets the air-core "
+        "inductance). The inner winding, usually the low-voltage one, has the smaller air-core "
+        "inductance and draws the larger inrush: energising a step-down unit from its "
+        "low-voltage side is the inner case",
     )
 
 
@@ -70,7 +71,12 @@ class CoreSpec(Model):
         "two_slope", description="Shape of the magnetising curve"
     )
     knee_width_pu: float = Field(
-        0.05, gt=0.001, le=0.5, description="Knee rounding of the smooth curve [pu of B_N]"
+        0.01,
+        gt=0.0005,
+        le=0.5,
+        description="Knee rounding of the smooth curve [pu of B_N]; the unsaturated slope is "
+        "then set so the curve still passes through the rated no-load point, which limits how "
+        "wide the knee can be",
     )
     open_circuit_test: list[OpenCircuitPoint] | None = Field(
         None,

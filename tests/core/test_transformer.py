@@ -144,9 +144,30 @@ def test_open_circuit_points_define_the_curve_and_reproduce_the_no_load_current(
 
 
 def test_smooth_curve_variant() -> None:
-    circ = transformer.equivalent_circuit(_demo(curve="smooth", knee_width_pu=0.1))
+    circ = transformer.equivalent_circuit(_demo(curve="smooth", knee_width_pu=0.01))
     assert isinstance(circ.curve, magnetizing.SmoothKneeCurve)
-    assert circ.curve.knee_width_wb == pytest.approx(0.1 * circ.nominal_flux_wb)
+    assert circ.curve.knee_width_wb == pytest.approx(0.01 * circ.nominal_flux_wb)
+
+
+def test_smooth_curve_passes_through_the_no_load_point() -> None:
+    # the rounded knee must not inflate the magnetising current at rated voltage: the crest
+    # current at lambda_N equals the two-slope curve's, sqrt(2) x I_0 (nameplate arithmetic)
+    npl = _demo(curve="smooth", knee_width_pu=0.01)
+    smooth = transformer.equivalent_circuit(npl)
+    sharp = transformer.equivalent_circuit(_demo())
+    lam_n = smooth.nominal_flux_wb
+    assert float(smooth.curve.current(lam_n)) == pytest.approx(
+        float(sharp.curve.current(lam_n)), rel=1e-12
+    )
+    i0 = npl.no_load_current_percent / 100.0 * smooth.rated_winding_current_a
+    assert float(sharp.curve.current(lam_n)) == pytest.approx(math.sqrt(2.0) * i0, rel=1e-12)
+
+
+def test_too_wide_smooth_knee_is_rejected_naming_the_field() -> None:
+    # a knee so wide that its tail alone exceeds the no-load current cannot be calibrated
+    with pytest.raises(ParameterError) as err:
+        transformer.equivalent_circuit(_demo(curve="smooth", knee_width_pu=0.1))
+    assert err.value.parameter == "knee_width_pu"
 
 
 CASES = {

@@ -199,3 +199,24 @@ def test_unknown_path_and_method(client: TestClient) -> None:
 def test_health(client: TestClient) -> None:
     assert client.get("/healthz").json() == {"status": "ok"}
     assert client.get("/readyz").json() == {"status": "ready"}
+
+
+def test_api_defaults_are_labelled_as_defaults(client: TestClient) -> None:
+    req = copy.deepcopy(PEAK_REQUESTS["northgate_main_unit"])
+    del req["transformer"]["no_load_current_percent"]
+    del req["transformer"]["core"]
+    req["method"] = "analytic"
+    body = client.post("/v1/inrush/peak", json=req).json()
+    src = {a["name"]: a["source"] for a in body["assumptions"]}
+    assert src["no_load_current_percent"].startswith("default")
+    assert src["material"].startswith("default")
+    assert src["magnetizing_curve"].startswith("default")
+    assert src["impedance_percent"] == "given"
+    assert src["closing_angle_deg"] == "given"
+
+
+def test_winding_position_is_required(client: TestClient) -> None:
+    req = copy.deepcopy(PEAK_REQUESTS["northgate_main_unit"])
+    del req["transformer"]["energized_winding"]["position"]
+    body = _problem(client.post("/v1/inrush/peak", json=req), 422)
+    assert body["errors"][0]["field"] == "transformer.energized_winding.position"  # type: ignore[index]
