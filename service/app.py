@@ -9,10 +9,10 @@ from fastapi.middleware.cors import CORSMiddleware
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
 from service import problems
-from service.routers import inrush
+from service.routers import inrush, sheet
 from service.settings import get_settings
+from service.version import API_VERSION
 
-API_VERSION = "1.0.0"
 DESCRIPTION = """
 What happens when a transformer is switched on, and whether the system around it copes:
 first inrush peak and its worst case, the decay envelope (per-cycle peaks, rms over time,
@@ -85,6 +85,7 @@ def create_app() -> FastAPI:
     )
     problems.install(app)
     app.include_router(inrush.router)
+    app.include_router(sheet.router)
 
     @app.get("/healthz", tags=["operations"], operation_id="healthz", include_in_schema=True)
     async def healthz() -> dict[str, str]:

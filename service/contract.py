@@ -13,7 +13,7 @@ import json
 from pathlib import Path
 from typing import Any
 
-from service.examples import ENVELOPE_REQUESTS, PEAK_REQUESTS
+from service.examples import ENVELOPE_REQUESTS, PEAK_REQUESTS, SHEET_REQUESTS
 
 
 def dumps(obj: Any) -> str:
@@ -45,6 +45,18 @@ def example_pairs() -> dict[str, dict[str, Any]]:
                 "status": 200,
                 "response": resp.json(),
             }
+    for name, (op, url) in SHEET_REQUESTS.items():
+        resp = client.get(url)
+        if resp.status_code != 200:
+            raise RuntimeError(f"example {op}.{name} failed: {resp.status_code} {resp.text}")
+        out[f"{op}.{name}"] = {
+            "operation_id": op,
+            "method": "GET",
+            "path": url,
+            "status": 200,
+            "media_type": resp.headers["content-type"].split(";")[0],
+            "response_text": resp.text,
+        }
     return out
 
 

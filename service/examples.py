@@ -123,3 +123,27 @@ def _openapi(requests: dict[str, dict[str, Any]]) -> dict[str, dict[str, Any]]:
 
 PEAK_EXAMPLES = _openapi(PEAK_REQUESTS)
 ENVELOPE_EXAMPLES = _openapi(ENVELOPE_REQUESTS)
+
+_SHEET_CASE = (
+    "rating_kva=2500&voltage_kv=13.8&connection=delta&position=outer&impedance_percent=5.75"
+    "&x_over_r=7&no_load_current_percent=0.8&fault_mva=250&source_x_over_r=12"
+)
+# Spreadsheet GET calls of the demo main unit (path with query string).
+SHEET_REQUESTS: dict[str, tuple[str, str]] = {
+    "northgate_main_unit": (
+        "sheet_inrush_peak",
+        "/v1/sheet/inrush/peak.txt?quantity=worst_peak_x_rated&" + _SHEET_CASE,
+    ),
+    "northgate_main_unit_ieq": (
+        "sheet_inrush_ieq",
+        "/v1/sheet/inrush/ieq.txt?time_s=0.1&" + _SHEET_CASE,
+    ),
+    "northgate_main_unit_envelope": (
+        "sheet_inrush_envelope",
+        "/v1/sheet/inrush/envelope.csv?" + _SHEET_CASE,
+    ),
+    "northgate_main_unit_ieq_table": (
+        "sheet_inrush_ieq_table",
+        "/v1/sheet/inrush/ieq.csv?" + _SHEET_CASE,
+    ),
+}

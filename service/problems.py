@@ -116,8 +116,8 @@ def problem_response(
 
 def _loc(loc: tuple[Any, ...]) -> str:
     parts = [str(p) for p in loc]
-    if parts and parts[0] in ("body", "query", "path", "header"):
-        parts = parts[1:] if parts[0] == "body" else parts
+    if parts and parts[0] in ("body", "query"):
+        parts = parts[1:]
     return ".".join(parts) or "body"
 
 

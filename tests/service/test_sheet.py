@@ -1,0 +1,77 @@
+"""Spreadsheet GET endpoints: exactly the URLs the README shows, bare numbers, CSV, caching."""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import re
+from pathlib import Path
+
+import pytest
+from fastapi.testclient import TestClient
+
+README = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
+# Every spreadsheet URL the README shows, on a line of its own inside a code block.
+URLS = re.findall(r"http://127\.0\.0\.1:8000(/v1/sheet/[^\s\"'<>]+)", README)
+
+
+def test_readme_shows_spreadsheet_urls() -> None:
+    assert len(URLS) >= 3
+    for url in URLS:
+        assert len("http://127.0.0.1:8000" + url) < 2000  # desktop spreadsheet URL limit
+
+
+@pytest.mark.parametrize("url", URLS)
+def test_readme_urls_answer(client: TestClient, url: str) -> None:
+    r = client.get(url)
+    assert r.status_code == 200, r.text
+    if ".txt" in url:
+        assert r.headers["content-type"].startswith("text/plain")
+        assert re.fullmatch(r"-?[0-9]+(\.[0-9]+)?(e[-+]?[0-9]+)?", r.text), r.text
+        assert math.isfinite(float(r.text))
+    else:
+        assert r.headers["content-type"].startswith("text/csv")
+        rows = list(csv.reader(io.StringIO(r.text)))
+        assert len(rows) > 2
+        assert all(len(row) == len(rows[0]) for row in rows)
+
+
+BASE = (
+    "/v1/sheet/inrush/peak.txt?rating_kva=2500&voltage_kv=13.8&connection=delta&position=outer"
+    "&impedance_percent=5.75&x_over_r=7&no_load_current_percent=0.8&fault_mva=250"
+    "&source_x_over_r=12"
+)
+
+
+def test_number_matches_the_json_operation(client: TestClient) -> None:
+    from service.examples import PEAK_REQUESTS
+
+    text = client.get(BASE + "&quantity=worst_peak_x_rated").text
+    body = client.post("/v1/inrush/peak", json=PEAK_REQUESTS["northgate_main_unit"]).json()
+    assert float(text) == body["worst_case_simulated"]["peak_x_rated"]
+
+
+def test_etag_and_not_modified(client: TestClient) -> None:
+    r = client.get(BASE + "&quantity=first_peak_a")
+    assert r.headers["cache-control"].startswith("public")
+    again = client.get(
+        BASE + "&quantity=first_peak_a", headers={"if-none-match": r.headers["etag"]}
+    )
+    assert again.status_code == 304
+    assert again.text == ""
+
+
+def test_bad_query_names_the_parameter(client: TestClient) -> None:
+    r = client.get(BASE.replace("rating_kva=2500", "rating_kva=lots") + "&quantity=first_peak_a")
+    assert r.status_code == 422
+    assert r.headers["content-type"].startswith("application/problem+json")
+    assert r.json()["errors"][0]["field"] == "rating_kva"
+    r = client.get(BASE + "&quantity=first_peak_a&ratingkva=1")
+    assert r.status_code == 422
+    assert r.json()["errors"][0]["field"] == "ratingkva"
+
+
+def test_nan_in_query_rejected(client: TestClient) -> None:
+    r = client.get(BASE.replace("x_over_r=7", "x_over_r=nan") + "&quantity=first_peak_a")
+    assert r.status_code == 422
