@@ -6,9 +6,10 @@ from typing import Any
 
 from fastapi import FastAPI
 from fastapi.middleware.cors import CORSMiddleware
+from fastapi.responses import Response
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
-from service import problems
+from service import observability, problems
 from service.routers import inrush, sheet
 from service.settings import get_settings
 from service.version import API_VERSION
@@ -97,9 +98,24 @@ def create_app() -> FastAPI:
         """Readiness: the compute core is importable and compiled."""
         return {"status": "ready"}
 
+    @app.get(
+        "/metrics",
+        tags=["operations"],
+        operation_id="metrics",
+        response_class=Response,
+        responses={200: {"content": {"text/plain": {"schema": {"type": "string"}}},
+                         "description": "Prometheus text exposition format"}},
+    )  # fmt: skip
+    async def metrics() -> Response:
+        """Request counts and latencies (Prometheus text format; per worker process)."""
+        body, media = observability.metrics_text()
+        return Response(body, media_type=media)
+
     app.openapi_schema = None
     _add_problem_schema(app)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
+    app.add_middleware(observability.RequestContext)
+    observability.configure_logging()
     if settings.cors_origins:
         app.add_middleware(
             CORSMiddleware,
