@@ -9,7 +9,7 @@ from fastapi.middleware.cors import CORSMiddleware
 from fastapi.responses import Response
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
-from service import observability, problems
+from service import auth, observability, problems
 from service.routers import inrush, sheet
 from service.settings import get_settings
 from service.version import API_VERSION
@@ -113,6 +113,9 @@ def create_app() -> FastAPI:
 
     app.openapi_schema = None
     _add_problem_schema(app)
+    keys = settings.keys()
+    if keys:
+        app.add_middleware(auth.ApiKeyAuth, keys=keys)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
     app.add_middleware(observability.RequestContext)
     observability.configure_logging()
@@ -147,6 +150,16 @@ def _add_problem_schema(app: FastAPI) -> None:
                 if r422 is not None:
                     r422["content"] = dict(problems.PROBLEM_RESPONSES[422]["content"])
                     r422["description"] = problems.PROBLEM_RESPONSES[422]["description"]
+        schema["components"]["securitySchemes"] = {
+            "apiKey": {
+                "type": "apiKey",
+                "in": "header",
+                "name": "X-API-Key",
+                "description": "Only when the operator configures keys "
+                "(FIRSTCYCLE_API_KEYS / FIRSTCYCLE_API_KEY_FILE); then every /v1 call without "
+                "a valid key gets 401. Authorization: Bearer <key> is accepted too.",
+            }
+        }
         comps.pop("HTTPValidationError", None)
         comps.pop("ValidationError", None)
         app.openapi_schema = schema

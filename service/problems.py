@@ -55,6 +55,7 @@ PROBLEM_RESPONSES: dict[int | str, dict[str, Any]] = {
     }
     for status, desc in (
         (400, "Body that cannot be read as JSON text (e.g. not UTF-8)"),
+        (401, "Missing or invalid API key (only when the operator enables keys)"),
         (413, "Request body larger than the configured limit"),
         (422, "Invalid input, a physically inconsistent combination, or work over a limit"),
         (500, "Unexpected server error (no details are disclosed)"),

@@ -34,6 +34,22 @@ class Settings(BaseSettings):
     max_cases: int = Field(1000, ge=1, description="Most cases in one batch request")
     max_body_bytes: int = Field(1_048_576, ge=1024, description="Largest request body [bytes]")
     cors_origins: list[str] = Field(default_factory=list, description="Allowed CORS origins")
+    api_keys: list[str] = Field(
+        default_factory=list,
+        description="API keys accepted on /v1 (JSON list); empty with no key file: no "
+        "authentication",
+    )
+    api_key_file: str | None = Field(
+        None, description="File with one API key per line (e.g. a mounted secret)"
+    )
+
+    def keys(self) -> list[str]:
+        """Every configured key: the list plus the lines of the key file."""
+        keys = [k for k in self.api_keys if k]
+        if self.api_key_file:
+            with open(self.api_key_file, encoding="utf-8") as fh:
+                keys += [line.strip() for line in fh if line.strip()]
+        return keys
 
 
 @lru_cache
