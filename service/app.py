@@ -2,17 +2,24 @@
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any
 
 from fastapi import FastAPI
 from fastapi.middleware.cors import CORSMiddleware
-from fastapi.responses import Response
+from fastapi.openapi.docs import get_swagger_ui_html
+from fastapi.responses import HTMLResponse, Response
+from fastapi.staticfiles import StaticFiles
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
 from service import auth, observability, problems
 from service.routers import inrush, sheet
 from service.settings import get_settings
 from service.version import API_VERSION
+
+# Swagger UI 5.35.0 (swagger-ui-dist, Apache-2.0, LICENSE and NOTICE beside it), vendored so the
+# docs page needs no network: version 4 cannot render OpenAPI 3.1.
+STATIC = Path(__file__).resolve().parent / "static"
 
 DESCRIPTION = """
 What happens when a transformer is switched on, and whether the system around it copes:
@@ -85,6 +92,21 @@ def create_app() -> FastAPI:
         license_info={"name": "MIT", "identifier": "MIT"},
     )
     problems.install(app)
+    app.mount("/static", StaticFiles(directory=STATIC), name="static")
+
+    @app.get("/docs", include_in_schema=False)
+    async def docs() -> HTMLResponse:
+        """Interactive documentation, every asset served by this app (works offline)."""
+        return get_swagger_ui_html(
+            openapi_url="/v1/openapi.json",
+            title="firstcycle API",
+            swagger_js_url="/static/swagger-ui/swagger-ui-bundle.js",
+            swagger_css_url="/static/swagger-ui/swagger-ui.css",
+            swagger_favicon_url="/static/swagger-ui/favicon-32x32.png",
+            # no validator badge: it would call an external validation service
+            swagger_ui_parameters={"validatorUrl": None, "tryItOutEnabled": True},
+        )
+
     app.include_router(inrush.router)
     app.include_router(sheet.router)
 
