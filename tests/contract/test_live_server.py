@@ -1,0 +1,63 @@
+"""Schemathesis's command line against a real uvicorn on 127.0.0.1: every operation, all checks
+(but positive_data_acceptance, see test_fuzz.py), a fixed seed, a bounded number of examples.
+"""
+
+from __future__ import annotations
+
+import shutil
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        port: int = s.getsockname()[1]
+        return port
+
+
+@pytest.fixture(scope="module")
+def base_url() -> Iterator[str]:
+    port = _free_port()
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "uvicorn", "service.app:app", "--host", "127.0.0.1",
+         "--port", str(port), "--log-level", "warning"],
+        stderr=subprocess.DEVNULL,
+    )  # fmt: skip
+    url = f"http://127.0.0.1:{port}"
+    try:
+        for _ in range(150):
+            try:
+                with urllib.request.urlopen(url + "/readyz", timeout=1) as r:
+                    if r.status == 200:
+                        break
+            except OSError:
+                time.sleep(0.2)
+        yield url
+    finally:
+        proc.terminate()
+        proc.wait(timeout=10)
+
+
+def test_schemathesis_cli_all_checks(base_url: str, tmp_path: Path) -> None:
+    exe = shutil.which("schemathesis", path=str(Path(sys.executable).parent)) or shutil.which(
+        "schemathesis"
+    )
+    assert exe, "schemathesis is a test dependency"
+    out = subprocess.run(
+        [
+            exe, "run", base_url + "/v1/openapi.json",
+            "--checks", "all", "--exclude-checks", "positive_data_acceptance",
+            "--max-examples", "15", "--seed", "20261201", "--workers", "1",
+            "--report", "junit", "--report-dir", str(tmp_path),
+        ],
+        capture_output=True, text=True, timeout=900, check=False, cwd=tmp_path,
+    )  # fmt: skip
+    assert out.returncode == 0, out.stdout[-4000:] + out.stderr[-2000:]
