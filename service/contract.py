@@ -13,7 +13,12 @@ import json
 from pathlib import Path
 from typing import Any
 
-from service.examples import ENVELOPE_REQUESTS, PEAK_REQUESTS, SHEET_REQUESTS
+from service.examples import (
+    ENVELOPE_REQUESTS,
+    PEAK_BATCH_REQUESTS,
+    PEAK_REQUESTS,
+    SHEET_REQUESTS,
+)
 
 
 def dumps(obj: Any) -> str:
@@ -32,6 +37,7 @@ def example_pairs() -> dict[str, dict[str, Any]]:
     for op, path, requests in (
         ("inrush_peak", "/v1/inrush/peak", PEAK_REQUESTS),
         ("inrush_envelope", "/v1/inrush/envelope", ENVELOPE_REQUESTS),
+        ("inrush_peak_batch", "/v1/inrush/peak/batch", PEAK_BATCH_REQUESTS),
     ):
         for name, body in requests.items():
             resp = client.post(path, json=body)

@@ -147,3 +147,18 @@ SHEET_REQUESTS: dict[str, tuple[str, str]] = {
         "/v1/sheet/inrush/ieq.csv?" + _SHEET_CASE,
     ),
 }
+
+PEAK_BATCH_REQUESTS: dict[str, dict[str, Any]] = {
+    "northgate_sizing_loop": {
+        "cases": [
+            {**PEAK_REQUESTS["northgate_main_unit"], "method": "analytic"},
+            {**PEAK_REQUESTS["northgate_lighting"], "method": "analytic"},
+            {**PEAK_REQUESTS["northgate_backfeed"], "method": "analytic"},
+            {"transformer": {**MAIN_UNIT, "impedance_percent": 55}, "method": "analytic"},
+        ]
+    }
+}
+_SUMMARIES["northgate_sizing_loop"] = (
+    "Demo: three plant units and one deliberately invalid case, answered item by item"
+)
+PEAK_BATCH_EXAMPLES = _openapi(PEAK_BATCH_REQUESTS)

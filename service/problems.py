@@ -89,6 +89,65 @@ def _allowed(err: dict[str, Any]) -> str | None:
     return ", ".join(parts) or None
 
 
+def batch_problem(index: int, exc: Exception) -> Problem:
+    """The problem document of one failed batch item (validation or domain error)."""
+    from pydantic import ValidationError
+
+    if isinstance(exc, ValidationError):
+        errors = [
+            FieldProblem(
+                field=".".join(str(p) for p in e.get("loc", ())) or "case",
+                message=str(e.get("msg", "invalid")),
+                value=_text(e.get("input")),
+                allowed=_allowed(dict(e)),
+            )
+            for e in exc.errors(include_context=True)
+        ]
+        detail = f"{errors[0].field}: {errors[0].message}" if errors else "invalid case"
+        return Problem(
+            type=_TYPE + "invalid-input",
+            title="Invalid input",
+            status=422,
+            detail=detail,
+            instance=f"cases[{index}]",
+            errors=errors,
+        )
+    if isinstance(exc, LimitError):
+        err = FieldProblem(
+            field=exc.parameter,
+            message=str(exc),
+            value=_text(exc.value),
+            allowed=f"<= {exc.limit:g}",
+        )
+        return Problem(
+            type=_TYPE + "limit-exceeded",
+            title="Over a compute limit",
+            status=422,
+            detail=str(exc),
+            instance=f"cases[{index}]",
+            errors=[err],
+        )
+    if isinstance(exc, ParameterError):
+        err = FieldProblem(
+            field=exc.parameter, message=str(exc), value=_text(exc.value), allowed=exc.allowed
+        )
+        return Problem(
+            type=_TYPE + "invalid-input",
+            title="Inconsistent or out-of-range input",
+            status=422,
+            detail=str(exc),
+            instance=f"cases[{index}]",
+            errors=[err],
+        )
+    return Problem(
+        type=_TYPE + "invalid-input",
+        title="Invalid case",
+        status=422,
+        detail=str(exc),
+        instance=f"cases[{index}]",
+    )
+
+
 def problem_response(
     status: int,
     title: str,

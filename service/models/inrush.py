@@ -2,11 +2,12 @@
 
 from __future__ import annotations
 
-from typing import Literal
+from typing import Any, Literal
 
 from pydantic import Field
 
 from service.models.common import CAUTION, Assumption, Method, Model, Study, WarningItem
+from service.problems import Problem
 
 
 class PeakRequest(Study):
@@ -156,3 +157,32 @@ class EnvelopeResponse(Model):
     warnings: list[WarningItem]
     method: Method
     caution: str = CAUTION
+
+
+class PeakBatchRequest(Model):
+    """Many peak requests; each item has the shape of a PeakRequest."""
+
+    cases: list[dict[str, Any]] = Field(
+        min_length=1,
+        max_length=100_000,
+        description="The cases, each a PeakRequest body; at most the service's max_cases "
+        "(default 1000). Each is validated on its own.",
+        json_schema_extra={"items": {"$ref": "#/components/schemas/PeakRequest"}},
+    )
+
+
+class BatchItem(Model):
+    """The answer for one case: a result (status 200) or a problem (status 422)."""
+
+    index: int = Field(description="Position of the case in the request")
+    status: int = Field(description="200, or the status the case alone would have had")
+    result: PeakResponse | None = None
+    problem: Problem | None = None
+
+
+class PeakBatchResponse(Model):
+    """Answers in the order of the cases."""
+
+    count: int
+    failed: int
+    results: list[BatchItem]

@@ -8,36 +8,42 @@ response model is serialised once, by pydantic, and returned as bytes (the decla
 
 from __future__ import annotations
 
-from typing import Annotated
+from typing import Annotated, Any
 
 import numpy as np
 from fastapi import APIRouter, Body, Depends
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
+from pydantic import BaseModel, ValidationError
 
 from core import inrush
+from core.errors import CoreError, LimitError
 from service import convert
-from service.examples import ENVELOPE_EXAMPLES, PEAK_EXAMPLES
+from service.examples import ENVELOPE_EXAMPLES, PEAK_BATCH_EXAMPLES, PEAK_EXAMPLES
+from service.models.common import Assumption
 from service.models.inrush import (
     AnalyticEnvelope,
     AnalyticWindingPeak,
+    BatchItem,
     EnvelopeRequest,
     EnvelopeResponse,
     LineEnvelopeOut,
+    PeakBatchRequest,
+    PeakBatchResponse,
     PeakRequest,
     PeakResponse,
     SimulatedLinePeak,
     Waveform,
     WorstCase,
 )
-from service.problems import PROBLEM_RESPONSES
+from service.problems import PROBLEM_RESPONSES, batch_problem
 from service.settings import Settings, settings_dependency
 
 router = APIRouter(prefix="/v1/inrush", tags=["inrush"], responses=PROBLEM_RESPONSES)
 SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 
 
-def _json(model: PeakResponse | EnvelopeResponse) -> Response:
+def _json(model: BaseModel) -> Response:
     return Response(model.model_dump_json(), media_type="application/json")
 
 
@@ -71,6 +77,10 @@ def _peak(body: PeakRequest, settings: Settings) -> PeakResponse:
         method=body.method,
         max_steps=settings.max_total_steps,
     )
+    return _peak_response(study, assumptions)
+
+
+def _peak_response(study: inrush.PeakStudy, assumptions: list[Assumption]) -> PeakResponse:
     rated = study.rated_current_a
     analytic = (
         [
@@ -221,4 +231,66 @@ def _envelope(body: EnvelopeRequest, settings: Settings) -> EnvelopeResponse:
         assumptions=assumptions,
         warnings=convert.warnings_out(study.warnings),
         method=convert.method_out(True, True, study.approximations),
+    )
+
+
+@router.post(
+    "/peak/batch",
+    response_model=PeakBatchResponse,
+    operation_id="inrush_peak_batch",
+    summary="First peaks of many cases in one call",
+    response_description="One result or one problem per case, in the order given",
+)
+async def peak_batch(
+    body: Annotated[PeakBatchRequest, Body(openapi_examples=PEAK_BATCH_EXAMPLES)],
+    settings: SettingsDep,
+) -> Response:
+    """Each case is validated and answered on its own: a bad case gets its own problem document
+    and never fails the others. The simulations of all valid cases with the same ``method`` run
+    vectorised together.
+    """
+    if len(body.cases) > settings.max_cases:
+        raise LimitError("cases", len(body.cases), settings.max_cases)
+    return _json(await run_in_threadpool(_peak_batch, body, settings))
+
+
+def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse:
+    items: list[BatchItem | None] = [None] * len(body.cases)
+    valid: dict[str, list[tuple[int, tuple[Any, ...], list[Assumption]]]] = {}
+    for idx, raw in enumerate(body.cases):
+        try:
+            req = PeakRequest.model_validate(raw)
+            circuit, res, delay, assumptions = convert.study_inputs(req)
+        except ValidationError as exc:
+            items[idx] = BatchItem(index=idx, status=422, problem=batch_problem(idx, exc))
+            continue
+        except CoreError as exc:
+            items[idx] = BatchItem(index=idx, status=422, problem=batch_problem(idx, exc))
+            continue
+        case = (circuit, req.switching.closing_angle_deg, res, delay)
+        valid.setdefault(req.method, []).append((idx, case, assumptions))
+    for method, group in valid.items():
+        studies: list[inrush.PeakStudy | None]
+        try:
+            studies = inrush.peak_studies(  # type: ignore[assignment]
+                [c for _, c, _ in group], method=method, max_steps=settings.max_total_steps
+            )
+        except CoreError:  # one case breaks the vectorised call: answer each on its own
+            studies = []
+            for idx, case, _ in group:
+                try:
+                    studies.append(
+                        inrush.peak_study(*case, method=method, max_steps=settings.max_total_steps)
+                    )
+                except CoreError as exc:
+                    items[idx] = BatchItem(index=idx, status=422, problem=batch_problem(idx, exc))
+                    studies.append(None)
+        for (idx, _, assumptions), study in zip(group, studies, strict=True):
+            if study is not None:
+                items[idx] = BatchItem(
+                    index=idx, status=200, result=_peak_response(study, assumptions)
+                )
+    done = [it for it in items if it is not None]
+    return PeakBatchResponse(
+        count=len(done), failed=sum(1 for it in done if it.status != 200), results=done
     )

@@ -1,0 +1,278 @@
+"""SVG figures: the time-current characteristic (TCC) plot and the inrush waveform.
+
+Plain arrays in, SVG text out; nothing here computes physics (the caller takes the curves from
+:mod:`core.ridethrough`, :mod:`core.damage` and :mod:`core.waveform`). Rendering uses
+matplotlib's object-oriented :class:`~matplotlib.figure.Figure` with the SVG canvas (no pyplot,
+so no global backend or figure registry) and is byte-for-byte deterministic: a fixed
+``svg.hashsalt`` for element ids, text kept as text (``svg.fonttype = 'none'``), no date in the
+metadata; rc settings are applied in a context, so global state is left as found.
+"""
+
+from __future__ import annotations
+
+import io
+from collections.abc import Sequence
+from contextlib import AbstractContextManager
+from dataclasses import dataclass
+
+import matplotlib as mpl
+import numpy as np
+import numpy.typing as npt
+from matplotlib.axes import Axes
+from matplotlib.backends.backend_svg import FigureCanvasSVG
+from matplotlib.figure import Figure
+
+from core.errors import ParameterError
+
+FloatArray = npt.NDArray[np.float64]
+
+#: Salt of the SVG element ids: fixed, so the same figure gives the same bytes.
+SVG_HASHSALT = "firstcycle"
+TCC_FIGSIZE_IN = (8.5, 8.0)  # log-log TCC near square; the legend sits below the axes
+WAVEFORM_FIGSIZE_IN = (10.0, 6.5)
+POINTS_LABEL = "Inrush points (common practice: 12 × I_r at 0.1 s, 25 × I_r at 0.01 s)"
+DAMAGE_LABEL = "Through-fault damage limit (IEEE C57.109)"
+
+
+@dataclass(frozen=True, eq=False)
+class CurveTrace:
+    """One device on the TCC: a curve, or a band when ``upper_time_s`` is given.
+
+    Attributes
+    ----------
+    label : str
+        Legend label, e.g. "Fuse 65E: minimum melt / total clearing".
+    current_a : array_like, shape (n,)
+        Currents [A].
+    time_s : array_like, shape (n,)
+        Lower edge (minimum melt, minimum band, relay curve); +inf or NaN leaves a gap [s].
+    upper_time_s : array_like, shape (n,), optional
+        Upper edge (total clearing, maximum band, relay curve plus opening time) [s].
+    """
+
+    label: str
+    current_a: npt.ArrayLike
+    time_s: npt.ArrayLike
+    upper_time_s: npt.ArrayLike | None = None
+
+
+def _vec(value: npt.ArrayLike, name: str, size: int | None = None) -> FloatArray:
+    try:
+        a = np.array(value, dtype=np.float64)
+    except (TypeError, ValueError):
+        raise ParameterError(name, value, "numbers") from None
+    if a.ndim != 1 or (size is not None and a.size != size):
+        raise ParameterError(name, a.shape, f"a 1-D array of {size or 'n'} values")
+    return a
+
+
+def _positive(a: FloatArray) -> FloatArray:
+    """Values a log axis can show; the rest (<= 0, inf, NaN) become gaps."""
+    with np.errstate(invalid="ignore"):
+        return np.where(np.isfinite(a) & (a > 0.0), a, np.nan)
+
+
+def _rows(value: npt.ArrayLike, name: str, names: Sequence[str], size: int) -> FloatArray:
+    a = np.array(value, dtype=np.float64)
+    a = a.reshape(1, -1) if a.ndim == 1 else a
+    if a.ndim != 2 or a.shape != (len(names), size):
+        raise ParameterError(name, a.shape, f"({len(names)}, {size}): one row per line name")
+    return a
+
+
+def _rc() -> AbstractContextManager[None]:
+    """rc settings of every figure: fixed id salt, text kept as <text> (searchable, no glyphs)."""
+    return mpl.rc_context({"svg.hashsalt": SVG_HASHSALT, "svg.fonttype": "none"})
+
+
+def _render(fig: Figure) -> str:
+    FigureCanvasSVG(fig)  # attaches the SVG canvas: no pyplot, no global backend
+    buf = io.StringIO()
+    fig.savefig(buf, format="svg", metadata={"Date": None})
+    return buf.getvalue()
+
+
+def _limits(ax: Axes, xs: list[FloatArray], ys: list[FloatArray]) -> None:
+    x = np.concatenate([v[np.isfinite(v)] for v in xs] + [np.empty(0)])
+    y = np.concatenate([v[np.isfinite(v)] for v in ys] + [np.empty(0)])
+    if x.size:
+        ax.set_xlim(x.min() / 1.5, x.max() * 1.5)
+    if y.size:  # TCC sheets span about 0.01-1000 s (common practice); keep data, clip extremes
+        ax.set_ylim(max(y.min() / 2.0, 1e-3), min(max(y.max() * 2.0, 0.1), 1e5))
+
+
+def tcc_svg(
+    title: str,
+    *,
+    eq_time_s: npt.ArrayLike | None = None,
+    eq_current_a: npt.ArrayLike | None = None,
+    line_names: Sequence[str] = ("A", "B", "C"),
+    points_current_a: npt.ArrayLike = (),
+    points_time_s: npt.ArrayLike = (),
+    devices: Sequence[CurveTrace] = (),
+    damage_current_a: npt.ArrayLike | None = None,
+    damage_time_s: npt.ArrayLike | None = None,
+    points_label: str = POINTS_LABEL,
+    damage_label: str = DAMAGE_LABEL,
+) -> str:
+    """Time-current characteristic on log-log axes as SVG text.
+
+    Parameters
+    ----------
+    title : str
+        Figure title.
+    eq_time_s, eq_current_a : array_like, optional
+        I_eq(t) per line: times, shape (n_t,) [s], and currents, shape (n_lines, n_t) [A],
+        e.g. ``InrushCurves.eq_time_s`` and ``.eq_current_a``; drawn as current against time.
+    line_names : sequence of str
+        One label per row of ``eq_current_a``.
+    points_current_a, points_time_s : array_like
+        The common-practice inrush points, drawn as markers [A], [s].
+    devices : sequence of CurveTrace
+        Device curves or bands.
+    damage_current_a, damage_time_s : array_like, optional
+        The through-fault damage curve [A], [s].
+    points_label, damage_label : str
+        Legend labels of the points and of the damage curve.
+
+    Returns
+    -------
+    str
+        The SVG document.
+
+    Raises
+    ------
+    ParameterError
+        On arrays of mismatched shapes.
+    """
+    fig = Figure(figsize=TCC_FIGSIZE_IN, layout="constrained")
+    ax = fig.add_subplot()
+    xs: list[FloatArray] = []
+    ys: list[FloatArray] = []
+
+    def draw(x: FloatArray, y: FloatArray, **style: object) -> None:
+        x, y = _positive(x), _positive(y)
+        ax.plot(x, y, **style)  # type: ignore[arg-type]
+        xs.append(x)
+        ys.append(y)
+
+    with _rc():
+        if (eq_time_s is None) != (eq_current_a is None):
+            raise ParameterError("eq_current_a", None, "given together with eq_time_s")
+        if eq_time_s is not None and eq_current_a is not None:
+            t = _vec(eq_time_s, "eq_time_s")
+            for name, row in zip(
+                line_names, _rows(eq_current_a, "eq_current_a", line_names, t.size), strict=True
+            ):
+                draw(row, t, linewidth=1.8, label=f"Inrush I_eq(t), line {name}")
+        px = _vec(points_current_a, "points_current_a")
+        py = _vec(points_time_s, "points_time_s", px.size)
+        if px.size:
+            draw(
+                px,
+                py,
+                linestyle="none",
+                marker="D",
+                markersize=7,
+                color="tab:red",
+                label=points_label,
+            )
+        for k, dev in enumerate(devices):
+            colour = f"C{(k + 3) % 10}"
+            x = _vec(dev.current_a, f"devices[{k}].current_a")
+            lo = _vec(dev.time_s, f"devices[{k}].time_s", x.size)
+            draw(x, lo, color=colour, linewidth=1.4, label=dev.label)
+            if dev.upper_time_s is not None:
+                hi = _vec(dev.upper_time_s, f"devices[{k}].upper_time_s", x.size)
+                draw(x, hi, color=colour, linewidth=1.4, linestyle="--")
+                lo_p, hi_p = _positive(lo), _positive(hi)
+                ax.fill_between(
+                    _positive(x), lo_p, hi_p, where=np.isfinite(lo_p) & np.isfinite(hi_p),
+                    color=colour, alpha=0.15, linewidth=0.0,
+                )  # fmt: skip
+        if (damage_current_a is None) != (damage_time_s is None):
+            raise ParameterError("damage_time_s", None, "given together with damage_current_a")
+        if damage_current_a is not None and damage_time_s is not None:
+            dx = _vec(damage_current_a, "damage_current_a")
+            draw(
+                dx,
+                _vec(damage_time_s, "damage_time_s", dx.size),
+                color="black",
+                linewidth=2.2,
+                label=damage_label,
+            )
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        _limits(ax, xs, ys)
+        ax.set_xlabel("Current [A]")
+        ax.set_ylabel("Time [s]")
+        ax.set_title(title)
+        ax.grid(True, which="major", linewidth=0.6, alpha=0.6)
+        ax.grid(True, which="minor", linewidth=0.3, alpha=0.35)
+        if ax.get_legend_handles_labels()[0]:
+            fig.legend(loc="outside lower center", ncols=2, fontsize="small")
+        return _render(fig)
+
+
+def waveform_svg(
+    title: str,
+    time_s: npt.ArrayLike,
+    current_a: npt.ArrayLike,
+    *,
+    line_names: Sequence[str] = ("A", "B", "C"),
+    envelope_time_s: npt.ArrayLike | None = None,
+    envelope_a: npt.ArrayLike | None = None,
+) -> str:
+    """Inrush current against time per line, with its per-cycle peak envelope, as SVG text.
+
+    Parameters
+    ----------
+    title : str
+        Figure title.
+    time_s : array_like, shape (n,)
+        Sample times [s].
+    current_a : array_like, shape (n_lines, n) or (n,)
+        Line currents [A].
+    line_names : sequence of str
+        One label per line.
+    envelope_time_s : array_like, shape (n_cycles,), optional
+        Time at which each cycle's peak is drawn (e.g. the cycle's start or its peak) [s].
+    envelope_a : array_like, shape (n_lines, n_cycles), optional
+        Per-cycle peak |i|, e.g. :func:`core.waveform.cycle_peaks`; drawn dashed on the side
+        where the line's current mostly lies (the sign of its mean), so the envelope meets the
+        lobes it describes [A].
+
+    Returns
+    -------
+    str
+        The SVG document.
+
+    Raises
+    ------
+    ParameterError
+        On arrays of mismatched shapes.
+    """
+    fig = Figure(figsize=WAVEFORM_FIGSIZE_IN, layout="constrained")
+    ax = fig.add_subplot()
+    with _rc():
+        t = _vec(time_s, "time_s")
+        cur = _rows(current_a, "current_a", line_names, t.size)
+        if (envelope_time_s is None) != (envelope_a is None):
+            raise ParameterError("envelope_a", None, "given together with envelope_time_s")
+        env_t = None if envelope_time_s is None else _vec(envelope_time_s, "envelope_time_s")
+        env = None
+        if env_t is not None and envelope_a is not None:
+            env = _rows(envelope_a, "envelope_a", line_names, env_t.size)
+        for k, name in enumerate(line_names):
+            ax.plot(t, cur[k], color=f"C{k}", linewidth=0.8, label=f"Line {name}")
+            if env is not None and env_t is not None:
+                label = f"Line {name}: per-cycle peak envelope"
+                side = -1.0 if float(np.mean(cur[k])) < 0.0 else 1.0
+                ax.plot(env_t, side * env[k], color=f"C{k}", linestyle="--", label=label)
+        ax.axhline(0.0, color="0.4", linewidth=0.6)
+        ax.set_xlabel("Time [s]")
+        ax.set_ylabel("Current [A]")
+        ax.set_title(title)
+        ax.grid(True, linewidth=0.5, alpha=0.5)
+        fig.legend(loc="outside lower center", ncols=2, fontsize="small")
+        return _render(fig)
