@@ -4,14 +4,16 @@ All of schemathesis's checks run except ``positive_data_acceptance``: the servic
 some schema-valid bodies with a 422 naming the field, for rules JSON Schema cannot express
 (exactly one of ``transformer``/``circuit``; the air-core inductance below the magnetising
 inductance; a circuit whose saturated time constant is too short to simulate). Those 422s are
-still checked to be problem documents that conform to the contract.
+still checked to be problem documents that conform to the contract. For the batch operation
+``negative_data_rejection`` is off too: an invalid case inside a valid batch is answered with
+its own problem document in a 200, by design.
 """
 
 from __future__ import annotations
 
 import schemathesis
 from hypothesis import HealthCheck, settings
-from schemathesis.specs.openapi.checks import positive_data_acceptance
+from schemathesis.specs.openapi.checks import negative_data_rejection, positive_data_acceptance
 
 from service.app import create_app
 
@@ -26,4 +28,8 @@ schema = schemathesis.openapi.from_asgi("/v1/openapi.json", create_app())
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much],
 )
 def test_operation(case: schemathesis.Case) -> None:
-    case.call_and_validate(excluded_checks=[positive_data_acceptance])
+    excluded = [positive_data_acceptance]
+    if case.operation.definition.raw.get("operationId") == "inrush_peak_batch":
+        # a batch answers 200 with a per-item problem for an invalid case, by design
+        excluded.append(negative_data_rejection)
+    case.call_and_validate(excluded_checks=excluded)
