@@ -14,6 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from service.examples import (
+    CLEARANCE_REQUESTS,
     ENVELOPE_REQUESTS,
     PEAK_BATCH_REQUESTS,
     PEAK_REQUESTS,
@@ -38,6 +39,7 @@ def example_pairs() -> dict[str, dict[str, Any]]:
         ("inrush_peak", "/v1/inrush/peak", PEAK_REQUESTS),
         ("inrush_envelope", "/v1/inrush/envelope", ENVELOPE_REQUESTS),
         ("inrush_peak_batch", "/v1/inrush/peak/batch", PEAK_BATCH_REQUESTS),
+        ("clearance", "/v1/clearance", CLEARANCE_REQUESTS),
     ):
         for name, body in requests.items():
             resp = client.post(path, json=body)
@@ -51,6 +53,21 @@ def example_pairs() -> dict[str, dict[str, Any]]:
                 "status": 200,
                 "response": resp.json(),
             }
+    for name, body in CLEARANCE_REQUESTS.items():
+        resp = client.post("/v1/clearance/figure", json=body)
+        if resp.status_code != 200:
+            raise RuntimeError(f"example clearance_figure.{name} failed: {resp.status_code}")
+        # SVG bytes depend on the plotting library's version: consumers get the labels to check
+        labels = [d["name"] for d in body["devices"]] + ["Current [A]", "Time [s]"]
+        out[f"clearance_figure.{name}"] = {
+            "operation_id": "clearance_figure",
+            "method": "POST",
+            "path": "/v1/clearance/figure",
+            "request": body,
+            "status": 200,
+            "media_type": resp.headers["content-type"].split(";")[0],
+            "response_contains": [x for x in labels if x in resp.text],
+        }
     for name, (op, url) in SHEET_REQUESTS.items():
         resp = client.get(url)
         if resp.status_code != 200:

@@ -162,3 +162,73 @@ _SUMMARIES["northgate_sizing_loop"] = (
     "Demo: three plant units and one deliberately invalid case, answered item by item"
 )
 PEAK_BATCH_EXAMPLES = _openapi(PEAK_BATCH_REQUESTS)
+
+# Invented device data for the demo (no manufacturer's curves): a 13.8 kV power fuse in the
+# main unit's fused switch, the feeder relay upstream, and the lighting transformer's fuse.
+MAIN_FUSE: dict[str, Any] = {
+    "kind": "fuse",
+    "name": "F-main 13.8 kV",
+    "minimum_melt": [
+        {"current_a": 180, "time_s": 1000}, {"current_a": 209, "time_s": 150},
+        {"current_a": 300, "time_s": 20}, {"current_a": 400, "time_s": 6},
+        {"current_a": 600, "time_s": 1.5}, {"current_a": 1000, "time_s": 0.35},
+        {"current_a": 1500, "time_s": 0.12}, {"current_a": 2500, "time_s": 0.035},
+        {"current_a": 4000, "time_s": 0.012},
+    ],
+    "total_clearing": [
+        {"current_a": 180, "time_s": 1500}, {"current_a": 209, "time_s": 220},
+        {"current_a": 300, "time_s": 30}, {"current_a": 400, "time_s": 9},
+        {"current_a": 600, "time_s": 2.2}, {"current_a": 1000, "time_s": 0.55},
+        {"current_a": 1500, "time_s": 0.2}, {"current_a": 2500, "time_s": 0.06},
+        {"current_a": 4000, "time_s": 0.022},
+    ],
+}  # fmt: skip
+FEEDER_RELAY: dict[str, Any] = {
+    "kind": "relay",
+    "name": "51 feeder",
+    "standard": "ieee_c37_112",
+    "curve": "very_inverse",
+    "pickup_a": 150,
+    "time_dial": 2.0,
+    "instantaneous_pickup_a": 2000,
+}
+LIGHTING_FUSE: dict[str, Any] = {
+    "kind": "fuse",
+    "name": "F-lighting 480 V",
+    "minimum_melt": [
+        {"current_a": 230, "time_s": 1000}, {"current_a": 271, "time_s": 150},
+        {"current_a": 400, "time_s": 12}, {"current_a": 600, "time_s": 2},
+        {"current_a": 1000, "time_s": 0.4}, {"current_a": 2000, "time_s": 0.06},
+        {"current_a": 4000, "time_s": 0.012},
+    ],
+    "total_clearing": [
+        {"current_a": 230, "time_s": 1500}, {"current_a": 271, "time_s": 220},
+        {"current_a": 400, "time_s": 18}, {"current_a": 600, "time_s": 3},
+        {"current_a": 1000, "time_s": 0.6}, {"current_a": 2000, "time_s": 0.1},
+        {"current_a": 4000, "time_s": 0.025},
+    ],
+}  # fmt: skip
+CLEARANCE_REQUESTS: dict[str, dict[str, Any]] = {
+    "northgate_main_unit": {
+        "transformer": MAIN_UNIT,
+        "source": UTILITY,
+        "devices": [MAIN_FUSE, FEEDER_RELAY],
+        "options": {"closing": "worst", "duration_s": 2.0},
+    },
+    "northgate_lighting": {
+        "transformer": LIGHTING_UNIT,
+        "source": BUS_480,
+        "devices": [LIGHTING_FUSE],
+        "options": {"closing": "worst", "duration_s": 1.0, "insulation": "dry"},
+    },
+}
+CLEARANCE_EXAMPLES = {
+    "northgate_main_unit": {
+        "summary": "Demo: the main unit's fused switch and the feeder relay (invented curves)",
+        "value": CLEARANCE_REQUESTS["northgate_main_unit"],
+    },
+    "northgate_lighting": {
+        "summary": "Demo: the dry-type lighting transformer's fuse (invented curve)",
+        "value": CLEARANCE_REQUESTS["northgate_lighting"],
+    },
+}

@@ -1,0 +1,228 @@
+"""Request and response models of the clearance operation (devices vs inrush vs damage)."""
+
+from __future__ import annotations
+
+from typing import Annotated, Literal
+
+from pydantic import Field, model_validator
+
+from service.models.common import (
+    CAUTION,
+    Assumption,
+    Method,
+    Model,
+    Study,
+    WarningItem,
+)
+
+Name = Annotated[str, Field(min_length=1, max_length=40, pattern=r"^[A-Za-z0-9 ._/()+-]+$")]
+RelayCurve = Literal[
+    "moderately_inverse",
+    "very_inverse",
+    "extremely_inverse",
+    "standard_inverse",
+    "long_time_inverse",
+]
+_IEEE = {"moderately_inverse", "very_inverse", "extremely_inverse"}
+_IEC = {"standard_inverse", "very_inverse", "extremely_inverse", "long_time_inverse"}
+
+
+class CurvePoint(Model):
+    """One point of a tabulated time-current curve."""
+
+    current_a: float = Field(gt=0.001, le=1e7, description="rms current [A]")
+    time_s: float = Field(gt=1e-5, le=1e6, description="time [s]")
+
+
+class RelayIn(Model):
+    """Inverse-time overcurrent relay (IEEE C37.112 or IEC 60255-151), optional instantaneous."""
+
+    kind: Literal["relay"]
+    name: Name
+    standard: Literal["ieee_c37_112", "iec_60255_151"]
+    curve: RelayCurve = Field(description="Curve name of the chosen standard")
+    pickup_a: float = Field(gt=0.01, le=1e6, description="Pickup, primary amperes [A]")
+    time_dial: float = Field(gt=0.005, le=20.0, description="Time dial (IEEE) or TMS (IEC)")
+    instantaneous_pickup_a: float | None = Field(None, gt=0.01, le=1e7, description="[A]")
+    reset: Literal["curve", "hold", "instantaneous"] = Field(
+        "curve", description="Reset below pickup: the standard's disk emulation, hold, or none"
+    )
+
+    @model_validator(mode="after")
+    def _curve_of_standard(self) -> RelayIn:
+        names = _IEEE if self.standard == "ieee_c37_112" else _IEC
+        if self.curve not in names:
+            raise ValueError(f"curve {self.curve} is not a {self.standard} curve: {sorted(names)}")
+        return self
+
+
+class FuseIn(Model):
+    """Fuse given by its published curves (tabulated)."""
+
+    kind: Literal["fuse"]
+    name: Name
+    minimum_melt: list[CurvePoint] = Field(
+        min_length=2, max_length=100, description="Minimum-melting curve, current increasing"
+    )
+    total_clearing: list[CurvePoint] | None = Field(
+        None, min_length=2, max_length=100, description="Total-clearing curve"
+    )
+    minimum_melting_i2t_a2s: float | None = Field(
+        None, gt=0.0, le=1e12, description="Melting I2t of a current-limiting fuse [A2s]"
+    )
+    melt_current_factor: float | None = Field(
+        None,
+        ge=0.5,
+        le=1.0,
+        description="Derating of the melt curve's current for preload and "
+        "ageing; default 0.8 (common practice range 0.75-0.9)",
+    )
+
+
+class BreakerIn(Model):
+    """Low-voltage breaker trip unit described by its settings."""
+
+    kind: Literal["breaker"]
+    name: Name
+    long_time_pickup_a: float = Field(gt=0.01, le=1e6, description="[A]")
+    long_time_delay_s: float = Field(gt=0.01, le=1000.0, description="Time at 6 x pickup [s]")
+    short_time_pickup_a: float | None = Field(None, gt=0.01, le=1e7, description="[A]")
+    short_time_delay_s: float = Field(0.0, ge=0.0, le=2.0, description="[s]")
+    instantaneous_pickup_a: float | None = Field(None, gt=0.01, le=1e7, description="[A]")
+    pickup_tolerance: float = Field(0.10, ge=0.0, le=0.5, description="+/- fraction [-]")
+    instantaneous_tolerance: float = Field(0.10, ge=0.0, le=0.5, description="+/- [-]")
+
+
+Device = Annotated[RelayIn | FuseIn | BreakerIn, Field(discriminator="kind")]
+
+
+class ClearanceOptions(Model):
+    """How the inrush and the damage limit are taken."""
+
+    closing: Literal["worst", "given"] = Field(
+        "worst",
+        description="Evaluate at the worst closing angle for the given residual flux, or at "
+        "switching.closing_angle_deg",
+    )
+    duration_s: float = Field(2.0, gt=0.1, le=10.0, description="Simulated inrush [s]")
+    frequent_faults: bool = Field(False, description="Use the frequent-fault damage curve")
+    insulation: Literal["liquid", "dry"] = Field("liquid", description="Liquid or dry type")
+    opening_time_s: float | None = Field(
+        None,
+        ge=0.0,
+        le=1.0,
+        description="Breaker opening time added to relay curves; default "
+        "5 cycles at 60 Hz (common practice)",
+    )
+    damage_current_factor: float | None = Field(
+        None,
+        gt=0.1,
+        le=1.0,
+        description="Damage-curve current multiplier (e.g. 0.58 for a "
+        "delta-wye unit and a secondary line-to-ground fault, common practice)",
+    )
+    coordination_window: bool = Field(True, description="Search each relay's time-dial window")
+
+
+class ClearanceRequest(Study):
+    """Devices to evaluate against a transformer's inrush and its damage limit."""
+
+    devices: list[Device] = Field(min_length=1, max_length=20)
+    options: ClearanceOptions = Field(default_factory=ClearanceOptions)
+
+    @model_validator(mode="after")
+    def _nameplate_and_names(self) -> ClearanceRequest:
+        if self.transformer is None:
+            raise ValueError("clearance needs transformer (nameplate mode) for the damage limit")
+        names = [d.name for d in self.devices]
+        if len(set(names)) != len(names):
+            raise ValueError("device names must be distinct")
+        return self
+
+
+class RideThroughOut(Model):
+    """Does the device ride through the inrush? (ratio > 1: yes)"""
+
+    trips: bool
+    trip_time_s: float | None = Field(description="Earliest operation on the inrush [s]")
+    margin_ratio: float | None = Field(
+        description="Factor by which its operating times could "
+        "shrink before it operates; > 1 rides through"
+    )
+    margin_time_s: float | None = Field(description="Where it is tightest [s]")
+    line: str
+    compared_current: str = Field(description="Which inrush curve the tightest check compares")
+    time_margin_ratio: float | None
+    instantaneous_margin_ratio: float | None
+
+
+class ProtectionOut(Model):
+    """Does the device clear through-faults before the damage limit? (ratio > 1: yes)"""
+
+    status: Literal["protects", "partial", "does_not_protect"]
+    clearing_curve: str
+    margin_ratio: float | None = Field(description="min over current of t_damage / t_clear")
+    margin_current_a: float | None = Field(description="Where it is tightest [A]")
+    unprotected_from_a: float | None
+    unprotected_to_a: float | None
+
+
+class PointOut(Model):
+    """A common-practice inrush point against the device's minimum curve."""
+
+    multiple_x_rated: float
+    current_a: float
+    time_s: float
+    device_time_s: float | None = Field(description="Device minimum time there; null: never")
+    ratio: float | None
+    above: bool = Field(description="The device curve lies above the point")
+
+
+class WindowOut(Model):
+    """Time-dial window of an inverse-time relay at its pickup."""
+
+    setting_range: list[float]
+    lowest_riding_through: float | None
+    highest_protecting: float | None
+    exists: bool
+    statement: str
+
+
+class DeviceOut(Model):
+    """The verdict on one device."""
+
+    name: str
+    kind: str
+    suitable: bool = Field(description="Rides through and protects")
+    margin_ratio: float | None = Field(description="Smaller of the two margins")
+    ride_through: RideThroughOut
+    protection: ProtectionOut | None
+    common_practice_points: list[PointOut]
+    coordination_window: WindowOut | None
+
+
+class DamageOut(Model):
+    """The through-fault damage limit used."""
+
+    category: str
+    insulation: str
+    frequent: bool
+    short_circuit_current_a: float
+    mechanical_from_current_a: float | None
+
+
+class ClearanceResponse(Model):
+    """Devices against the inrush and the damage limit, ranked."""
+
+    rated_current_a: float
+    closing_angle_deg: float
+    closing_angle_source: str
+    duration_s: float
+    first_peak_a: float | None
+    devices: list[DeviceOut]
+    ranking: list[str] = Field(description="Suitable devices, best margin first")
+    damage: DamageOut | None
+    assumptions: list[Assumption]
+    warnings: list[WarningItem]
+    method: Method
+    caution: str = CAUTION

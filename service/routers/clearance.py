@@ -1,0 +1,270 @@
+"""``/v1/clearance``: protective devices against the computed inrush and the damage limit."""
+
+from __future__ import annotations
+
+import math
+from typing import Annotated
+
+import numpy as np
+from fastapi import APIRouter, Body, Depends
+from fastapi.concurrency import run_in_threadpool
+from fastapi.responses import Response
+
+from core import clearance, curves, ridethrough
+from service import convert, figures
+from service.examples import CLEARANCE_EXAMPLES
+from service.models.clearance import (
+    BreakerIn,
+    ClearanceRequest,
+    ClearanceResponse,
+    CurvePoint,
+    DamageOut,
+    DeviceOut,
+    FuseIn,
+    PointOut,
+    ProtectionOut,
+    RelayIn,
+    RideThroughOut,
+    WindowOut,
+)
+from service.models.common import Assumption, Method
+from service.problems import PROBLEM_RESPONSES
+from service.settings import Settings, settings_dependency
+
+router = APIRouter(prefix="/v1/clearance", tags=["clearance"], responses=PROBLEM_RESPONSES)
+SettingsDep = Annotated[Settings, Depends(settings_dependency)]
+CLEARANCE_METHOD = (
+    "inrush simulated as for /v1/inrush (worst closing angle unless given); relays integrated "
+    "as 1/t(I) over the sliding one-cycle rms with the IEEE C37.112 reset (trip when the "
+    "integral reaches 1); fuses and breaker bands against I_eq(t) = sqrt((1/t) integral i^2); "
+    "instantaneous elements against the first peak and half-cycle rms; protection against the "
+    "IEEE C57.109 through-fault curve up to the maximum through-fault current"
+)
+
+
+def _table(points: list[CurvePoint]) -> curves.TabulatedCurve:
+    return curves.TabulatedCurve(
+        np.array([p.current_a for p in points]), np.array([p.time_s for p in points])
+    )
+
+
+def _device(d: RelayIn | FuseIn | BreakerIn) -> ridethrough.Device:
+    if isinstance(d, RelayIn):
+        return ridethrough.Relay(
+            d.name, d.standard, d.curve, d.pickup_a, d.time_dial, d.instantaneous_pickup_a,
+            d.reset,
+        )  # fmt: skip
+    if isinstance(d, FuseIn):
+        tc = d.total_clearing
+        return ridethrough.Fuse(
+            d.name,
+            _table(d.minimum_melt),
+            _table(tc) if tc else None,
+            d.minimum_melting_i2t_a2s,
+            d.melt_current_factor,
+        )
+    return ridethrough.Breaker(
+        d.name,
+        curves.LowVoltageBreaker(
+            long_time_pickup=d.long_time_pickup_a,
+            long_time_delay=d.long_time_delay_s,
+            short_time_pickup=d.short_time_pickup_a,
+            short_time_delay=d.short_time_delay_s,
+            instantaneous_pickup=d.instantaneous_pickup_a,
+            pickup_tolerance=d.pickup_tolerance,
+            instantaneous_tolerance=d.instantaneous_tolerance,
+        ),
+    )
+
+
+def _study(
+    body: ClearanceRequest, settings: Settings
+) -> tuple[clearance.ClearanceStudy, list[Assumption]]:
+    circuit, res, delay, assumptions = convert.study_inputs(body)
+    t = body.transformer
+    assert t is not None
+    opt = body.options
+    convert.check_work(settings, circuit.phases, circuit.frequency_hz, opt.duration_s, 128)
+    study = clearance.clearance_study(
+        circuit,
+        body.switching.closing_angle_deg if opt.closing == "given" else None,
+        res,
+        delay,
+        [_device(d) for d in body.devices],
+        rating_va=t.rating_kva * 1e3,
+        impedance_percent=t.impedance_percent,
+        duration_s=opt.duration_s,
+        frequent_faults=opt.frequent_faults,
+        insulation=opt.insulation,
+        opening_time_s=opt.opening_time_s,
+        damage_current_factor=opt.damage_current_factor,
+        windows=opt.coordination_window,
+        max_steps=settings.max_total_steps,
+    )
+    assumptions += [
+        Assumption(name=a.name, value=list(a.value) if isinstance(a.value, tuple) else a.value,
+                   unit=a.unit, source=a.source)
+        for a in study.evaluation.assumptions
+    ]  # fmt: skip
+    return study, assumptions
+
+
+def _response(study: clearance.ClearanceStudy, assumptions: list[Assumption]) -> ClearanceResponse:
+    windows = {w.device: w for w in study.windows}
+    m = convert.maybe
+    devices = []
+    for ev in study.evaluation.devices:
+        rt = ev.ride_through
+        pr = ev.protection
+        w = windows.get(ev.device)
+        devices.append(
+            DeviceOut(
+                name=ev.device,
+                kind=ev.kind,
+                suitable=ev.suitable,
+                margin_ratio=m(ev.margin_ratio) if ev.margin_ratio is not None else None,
+                ride_through=RideThroughOut(
+                    trips=rt.trips,
+                    trip_time_s=rt.trip_time_s,
+                    margin_ratio=m(rt.margin_ratio),
+                    margin_time_s=rt.margin_time_s,
+                    line=rt.line,
+                    compared_current=rt.compared_current,
+                    time_margin_ratio=m(rt.time_margin_ratio),
+                    instantaneous_margin_ratio=(
+                        m(rt.instantaneous_margin_ratio)
+                        if rt.instantaneous_margin_ratio is not None
+                        else None
+                    ),
+                ),
+                protection=ProtectionOut(
+                    status=pr.status,
+                    clearing_curve=pr.clearing_curve,
+                    margin_ratio=m(pr.margin_ratio),
+                    margin_current_a=m(pr.margin_current_a),
+                    unprotected_from_a=pr.unprotected_from_a,
+                    unprotected_to_a=pr.unprotected_to_a,
+                )
+                if pr is not None
+                else None,
+                common_practice_points=[
+                    PointOut(
+                        multiple_x_rated=p.multiple_x_rated,
+                        current_a=p.current_a,
+                        time_s=p.time_s,
+                        device_time_s=m(p.device_time_s),
+                        ratio=m(p.ratio),
+                        above=p.above,
+                    )
+                    for p in ev.points
+                ],
+                coordination_window=WindowOut(
+                    setting_range=list(w.setting_range),
+                    lowest_riding_through=w.lowest_riding_through,
+                    highest_protecting=w.highest_protecting,
+                    exists=w.exists,
+                    statement=w.statement,
+                )
+                if w is not None
+                else None,
+            )
+        )
+    dmg = study.damage
+    peak = study.inrush.peak
+    return ClearanceResponse(
+        rated_current_a=study.rated_current_a,
+        closing_angle_deg=study.closing_angle_deg,
+        closing_angle_source=study.closing_angle_source,
+        duration_s=study.duration_s,
+        first_peak_a=float(np.max(peak.value)) if peak is not None else None,
+        devices=devices,
+        ranking=list(study.evaluation.ranking),
+        damage=DamageOut(
+            category=dmg.category,
+            insulation=dmg.insulation,
+            frequent=dmg.frequent,
+            short_circuit_current_a=dmg.short_circuit_current,
+            mechanical_from_current_a=dmg.mechanical_from_current,
+        )
+        if dmg is not None
+        else None,
+        assumptions=assumptions,
+        warnings=convert.warnings_out(study.warnings),
+        method=Method(
+            analytic=None, simulated=CLEARANCE_METHOD, approximations=list(study.approximations)
+        ),
+    )
+
+
+@router.post(
+    "",
+    response_model=ClearanceResponse,
+    operation_id="clearance",
+    summary="Will these devices ride through the inrush and still protect the transformer?",
+    response_description="Per device: ride-through margin, protection margin, common-practice "
+    "points, coordination window; the suitable ones ranked",
+)
+async def clearance_op(
+    body: Annotated[ClearanceRequest, Body(openapi_examples=CLEARANCE_EXAMPLES)],
+    settings: SettingsDep,
+) -> Response:
+    """Evaluate candidate fuses, relays and breakers against the computed inrush (not a
+    rule-of-thumb point) and against the transformer's through-fault damage curve."""
+
+    def run() -> ClearanceResponse:
+        return _response(*_study(body, settings))
+
+    out = await run_in_threadpool(run)
+    return Response(out.model_dump_json(), media_type="application/json")
+
+
+def _figure(body: ClearanceRequest, settings: Settings) -> str:
+    study, _ = _study(body, settings)
+    inr = study.inrush
+    traces = []
+    for c in study.curves:
+        lower = np.where(np.isfinite(c.minimum_time_s), c.minimum_time_s, np.nan)
+        upper = np.where(np.isfinite(c.maximum_time_s), c.maximum_time_s, np.nan)
+        traces.append(
+            figures.CurveTrace(
+                c.name, c.current_a, lower, upper if np.any(np.isfinite(upper)) else None
+            )
+        )
+    i_r = study.rated_current_a
+    pts = ridethrough.INRUSH_POINTS
+    t = body.transformer
+    assert t is not None
+    dmg = study.damage
+    title = (
+        f"{t.rating_kva:g} kVA, {t.energized_winding.voltage_kv:g} kV "
+        f"{t.energized_winding.connection} energised: inrush, devices and damage limit"
+    )
+    return figures.tcc_svg(
+        title,
+        eq_time_s=inr.eq_time_s,
+        eq_current_a=inr.eq_current_a,
+        line_names=inr.lines,
+        points_current_a=[k * i_r for k, _ in pts] if math.isfinite(i_r) else [],
+        points_time_s=[s for _, s in pts] if math.isfinite(i_r) else [],
+        devices=traces,
+        damage_current_a=dmg.current if dmg is not None else None,
+        damage_time_s=dmg.time if dmg is not None else None,
+    )
+
+
+@router.post(
+    "/figure",
+    operation_id="clearance_figure",
+    summary="The TCC of a clearance request as SVG",
+    response_class=Response,
+    responses={200: {"content": {"image/svg+xml": {"schema": {"type": "string"}}},
+                     "description": "Log-log time-current characteristic"}},
+)  # fmt: skip
+async def clearance_figure(
+    body: Annotated[ClearanceRequest, Body(openapi_examples=CLEARANCE_EXAMPLES)],
+    settings: SettingsDep,
+) -> Response:
+    """Log-log axes: the inrush I_eq(t) per line, the common-practice inrush points, each
+    device's curve or band, and the transformer's through-fault damage curve."""
+    svg = await run_in_threadpool(_figure, body, settings)
+    return Response(svg, media_type="image/svg+xml")
