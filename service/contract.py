@@ -83,6 +83,21 @@ def example_pairs() -> dict[str, dict[str, Any]]:
     return out
 
 
+def figures() -> dict[str, str]:
+    """The demo figures (SVG), for the README and for looking at."""
+    from fastapi.testclient import TestClient
+
+    from service.app import create_app
+
+    client = TestClient(create_app())
+    out = {}
+    for name, body in CLEARANCE_REQUESTS.items():
+        out[f"examples/clearance_figure.{name}.svg"] = client.post(
+            "/v1/clearance/figure", json=body
+        ).text
+    return out
+
+
 def render(schema: dict[str, Any], with_examples: bool = True) -> dict[str, str]:
     """Relative path -> file text of the whole contract directory."""
     files = {"openapi.json": dumps(schema)}
@@ -91,6 +106,7 @@ def render(schema: dict[str, Any], with_examples: bool = True) -> dict[str, str]
     if with_examples:
         for key, pair in example_pairs().items():
             files[f"examples/{key}.json"] = dumps(pair)
+        files.update(figures())
     return files
 
 
@@ -101,7 +117,7 @@ def write(target: Path, schema: dict[str, Any]) -> list[Path]:
     for sub in ("schemas", "examples"):
         d = target / sub
         d.mkdir(parents=True, exist_ok=True)
-        for old in d.glob("*.json"):
+        for old in [*d.glob("*.json"), *d.glob("*.svg")]:
             if f"{sub}/{old.name}" not in files:
                 old.unlink()
     for rel, text in files.items():
