@@ -1,0 +1,637 @@
+"""Voltage dip when a transformer is energised from a generator or a weak utility source.
+
+The inrush current is drawn through the source; the terminal voltage dips and recovers as the
+inrush decays, the machine's d-axis fluxes decay and its regulator responds. This module
+simulates that in the time domain, compares it with the subtransient voltage-divider hand
+method, and finds the smallest generator that keeps the dip within a limit.
+
+Model (per case, three phases; SI, the machine states per unit on the machine rating):
+
+* Stator: a three-phase EMF e_k = sqrt(2)*V_r*E''_q(t)*sin(theta - 2*pi*k/3),
+  theta = omega*t + beta, behind L''_d = X''_d*Z_b/omega and R_a, solved instantaneously
+  together with the saturating transformer: the voltage-behind-subtransient-reactance form of
+  the machine with X''_q = X''_d. A utility source is a constant EMF behind R + jX from its
+  fault level and X/R; its dip is measured at the point of common coupling, which is the
+  transformer terminals.
+* Rotor d axis, the flux-decay equations of the subtransient model (leakage terms dropped)::
+
+      T''_do dE''_q/dt = E'_q - E''_q - (X'_d - X''_d)*i_d
+      T'_do  dE'_q/dt  = E_fd - E'_q - (X_d - X'_d)*i_d
+
+  i_d is the instantaneous d-axis (Park) component of the stator currents in the EMF's frame,
+  per unit of rated current, positive lagging. Its mean is the fundamental positive-sequence
+  reactive current; the inrush's DC offset and negative sequence appear in it as ripple at f and
+  2f that the rotor time constants filter, much as the rotor circuits of the machine see them.
+  (Driving the equations with a one-cycle average instead would delay the flux decay by half a
+  cycle.)
+  The EMF is the rate of change of the rotor flux as it turns,
+  e_k = sqrt(2)*V_r*(E''_q*sin(theta_k) - (dE''_q/dt/omega)*cos(theta_k)); the second term
+  (the transformer voltage of the decaying rotor flux) keeps the model passive: without it a
+  short T''_do and an undamped DC offset feed each other and the solution grows.
+* Excitation: T_A dE_fd/dt = K_A*(V_ref - V_s) - E_fd within [floor, ceiling] (non-windup),
+  V_s the magnitude of the terminal-voltage space vector (Park d and q components, no zero
+  sequence) through a transducer lag T_R (IEEE Std 421.5 structure, from memory); or a constant
+  field.
+* Transformer: each winding of the :class:`core.transformer.EquivalentCircuit` with its
+  magnetising curve; an optional constant-impedance bus load in parallel at the terminals.
+  Loop fluxes as states; see :mod:`core.dip_solver`.
+
+Numerics: classical fixed-step Runge-Kutta, at least 128 steps per cycle, compiled with numba.
+Per-cycle rms of the terminal voltages is taken from the step samples over the cycles
+[nT, (n+1)T) from closing. With a sharp (two-slope) knee the terminal voltage jumps at every
+knee crossing, so that rms carries an error of order 1/N for N steps per cycle: measured 5e-3 pu
+at 128 and 1.6e-3 pu at 512 on the demo case (tests/references/test_generator_references.py);
+raise ``steps_per_cycle`` or use the smooth knee where that matters.
+
+References
+----------
+P. Kundur, "Power System Stability and Control", McGraw-Hill, 1994, ch. 4-5 (d-axis model and
+time constants) and ch. 8 (excitation) -- from memory.
+J. Machowski, J. W. Bialek, J. R. Bumby, "Power System Dynamics: Stability and Control", 2nd
+ed., Wiley, 2008, ch. 11 (E'_q/E''_q generator model) -- from memory.
+IEEE Std 399-1997, ch. 9 (voltage-divider first dip) -- from memory.
+ISO 8528-5 (generating-set performance classes G1-G4) -- limits from memory, see
+:data:`core.generator.ISO_8528_5_CLASSES`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+from typing import Literal
+
+import numpy as np
+import scipy.optimize
+from numpy.typing import ArrayLike, NDArray
+
+from core import dip_solver
+from core.errors import ParameterError
+from core.generator import (
+    BusLoad,
+    DipLimit,
+    ExcitationSpec,
+    Generator,
+    Source,
+    first_dip_voltage_divider,
+    iso_8528_5_class,
+    source_assumptions,
+    source_parameters,
+)
+from core.transformer import Assumption, EquivalentCircuit
+
+FloatArray = NDArray[np.float64]
+
+__all__ = [
+    "APPROXIMATIONS",
+    "DipStudy",
+    "Sizing",
+    "dip_sweep",
+    "energize_from_source",
+    "smallest_generator",
+]
+
+_COMMON = (
+    "machine speed constant at synchronous speed: prime mover and governor not modelled, so no "
+    "frequency dip (the inrush draws little active power, only the losses)",
+    "q axis simplified: X''_q = X''_d and E''_d = 0 (no q-axis rotor circuits, no rotor-angle "
+    "swing); the EMF keeps its pre-event phase",
+    "unsaturated machine reactances; machine and transformer parameters constant",
+    "source zero-sequence impedance taken equal to its positive-sequence impedance (each phase "
+    "an independent loop through the machine neutral)",
+    "no hysteresis or core loss: residual flux is an initial condition on a single-valued curve",
+    "transformer phases magnetically independent (bank of single-phase cores); all poles close "
+    "together at t = 0",
+)
+APPROXIMATIONS: dict[str, tuple[str, ...]] = {
+    "wye_grounded": _COMMON,
+    "wye": (
+        *_COMMON,
+        "floating-neutral wye treated as grounded wye (independent windings); a floating "
+        "neutral gives lower inrush, so this is conservative for the dip",
+    ),
+    "delta": (
+        *_COMMON,
+        "delta windings as independent loops on the line-to-line EMF behind twice the per-phase "
+        "source impedance (exact while one winding carries the inrush); terminal voltages from "
+        "the line currents through the actual source impedance",
+        "delta: the bus load is its own loop on the phase EMF; it and the windings do not see "
+        "each other's drop",
+    ),
+}
+
+
+@dataclass(frozen=True)
+class DipStudy:
+    """Result of :func:`energize_from_source`.
+
+    Attributes
+    ----------
+    source_kind : str
+        ``"generator"`` or ``"utility"``.
+    frequency_hz : float
+        [Hz].
+    cycle_start_s : ndarray, shape (n_cycles,)
+        Start of each cycle after closing [s].
+    voltage_rms_pu : ndarray, shape (3, n_cycles)
+        Per-cycle rms phase-to-neutral terminal voltage [pu of rated phase voltage].
+    voltage_line_rms_pu : ndarray, shape (3, n_cycles)
+        Per-cycle rms line-to-line terminal voltage (ab, bc, ca) [pu of rated line voltage].
+    pre_event_voltage_pu : float
+        Terminal voltage before closing [pu].
+    voltage_measure : str
+        ``"worst"``, ``"line"`` or ``"phase"`` (see :func:`energize_from_source`).
+    min_voltage_pu, min_voltage_time_s : float
+        Lowest per-cycle rms of those voltages [pu] and the start of that cycle [s].
+    dip_percent : float
+        Headline dip, from the voltages chosen by ``voltage_measure`` [% of pre-event voltage].
+    dip_phase_percent, dip_line_percent : float
+        The two figures [%].
+    recovery_time_s : float
+        End of the last cycle in which any of those rms voltages is outside the band; 0 when
+        none is; nan when the last simulated cycle still is [s].
+    recovery_band_percent : float
+        Half-width of the band [% of the reference].
+    recovery_reference_pu : float
+        Centre of the band [pu].
+    inrush_peak_a : float
+        Largest transformer line current with this source [A].
+    cycle_peak_current_a : ndarray, shape (3, n_cycles)
+        Per-cycle peak of each transformer line current [A].
+    emf_pu, field_voltage_pu : ndarray, shape (n_cycles,)
+        Per-cycle mean of E''_q and E_fd [pu].
+    hand_method_load_va : float
+        First-cycle rms inrush on an ideal source at rated voltage, largest line, as
+        three-phase power [VA].
+    hand_method_dip_percent : float
+        :func:`first_dip_voltage_divider` with that load [%].
+    hand_method_difference_percent : float
+        Hand method minus simulated headline dip [percentage points].
+    steps_per_cycle : int
+        Integration steps per cycle used.
+    waveform_time_s, waveform_voltage_v, waveform_current_a : ndarray
+        Decimated terminal phase voltages and transformer line currents, shape (3, n) (empty
+        unless requested) [s], [V], [A].
+    approximations : tuple of str
+    assumptions : tuple of Assumption
+        Every source parameter used, with provenance.
+    warnings : tuple of (code, message)
+    """
+
+    source_kind: str
+    frequency_hz: float
+    cycle_start_s: FloatArray
+    voltage_rms_pu: FloatArray
+    voltage_line_rms_pu: FloatArray
+    pre_event_voltage_pu: float
+    voltage_measure: str
+    min_voltage_pu: float
+    min_voltage_time_s: float
+    dip_percent: float
+    dip_phase_percent: float
+    dip_line_percent: float
+    recovery_time_s: float
+    recovery_band_percent: float
+    recovery_reference_pu: float
+    inrush_peak_a: float
+    cycle_peak_current_a: FloatArray
+    emf_pu: FloatArray
+    field_voltage_pu: FloatArray
+    hand_method_load_va: float
+    hand_method_dip_percent: float
+    hand_method_difference_percent: float
+    steps_per_cycle: int
+    waveform_time_s: FloatArray
+    waveform_voltage_v: FloatArray
+    waveform_current_a: FloatArray
+    approximations: tuple[str, ...]
+    assumptions: tuple[Assumption, ...]
+    warnings: tuple[tuple[str, str], ...]
+
+
+Measure = Literal["worst", "line", "phase"]
+
+
+def _measure(value: str) -> None:
+    if value not in ("worst", "line", "phase"):
+        raise ParameterError("voltage_measure", value, "worst, line or phase")
+
+
+def _recovery(
+    both: FloatArray, v0: float, reference: str, band_percent: float, f: float
+) -> tuple[float, float]:
+    """Recovery time [s] (0 if never outside, nan if still outside) and the band centre [pu]."""
+    ref = v0 if reference == "pre_event" else float(both[:, -1].mean())
+    out = np.any(np.abs(both - ref) > band_percent / 100.0 * ref, axis=0)
+    if not np.any(out):
+        return 0.0, ref
+    if out[-1]:
+        return math.nan, ref
+    return (int(np.nonzero(out)[0][-1]) + 1) / f, ref
+
+
+def energize_from_source(
+    source: Source,
+    circuit: EquivalentCircuit,
+    closing_angle_deg: float = 0.0,
+    residual_flux_pu: ArrayLike = 0.0,
+    *,
+    excitation: ExcitationSpec = "unknown",
+    bus_load: BusLoad | None = None,
+    pre_event_voltage_pu: float = 1.0,
+    duration_s: float = 10.0,
+    steps_per_cycle: int = dip_solver.MIN_STEPS_PER_CYCLE,
+    recovery_band_percent: float = 3.0,
+    recovery_reference: Literal["pre_event", "final"] = "pre_event",
+    voltage_measure: Measure = "worst",
+    waveform_points: int = 0,
+) -> DipStudy:
+    """Energise a transformer from a generator or weak utility source: dip and recovery.
+
+    Parameters
+    ----------
+    source : Generator or UtilitySource
+        The supply.
+    circuit : EquivalentCircuit
+        Three-phase transformer circuit built with an ideal source.
+    closing_angle_deg : float
+        Angle of the phase-A terminal voltage at t = 0, sqrt(2)*V*sin(omega*t + alpha) [deg].
+    residual_flux_pu : array_like
+        Residual flux per winding (a, b, c; ab, bc, ca for delta) [pu of lambda_N].
+    excitation : Excitation, "unknown" or "constant_field"
+        Regulator; "unknown" is :func:`core.generator.unknown_excitation` (conservative
+        defaults). Ignored for a utility source.
+    bus_load : BusLoad or None
+        Load already on the bus, constant impedance.
+    pre_event_voltage_pu : float
+        Terminal voltage before closing [pu of the source's rated voltage].
+    duration_s : float
+        Simulated time; the default 10 s covers the longest ISO 8528-5 recovery limit (from
+        memory) [s].
+    steps_per_cycle : int
+        Runge-Kutta steps per cycle, >= 128 (raised when a time constant needs it) [-].
+    recovery_band_percent : float
+        Half-width of the recovery band; 3 % is a common practice default, set it to the
+        steady-state tolerance that applies [% of the reference].
+    recovery_reference : str
+        ``"pre_event"`` or ``"final"`` (mean of the last simulated cycle).
+    voltage_measure : str
+        Voltages the headline dip and the recovery use: ``"worst"`` (the deeper of the phase
+        and line figures, conservative), ``"line"`` (line-to-line: independent of the
+        zero-sequence simplification, what a regulator senses) or ``"phase"``.
+    waveform_points : int
+        Return the waveforms decimated to about this many points (0: none) [-].
+
+    Returns
+    -------
+    DipStudy
+
+    Raises
+    ------
+    ParameterError
+        On inputs outside the model's range, naming the parameter.
+
+    Notes
+    -----
+    Dip = 100*(V_0 - V_min)/V_0, V_min the lowest per-cycle rms of the voltages chosen by
+    ``voltage_measure``. With the source zero-sequence impedance taken equal to X''_d the
+    phase-to-neutral figure of a grounded-wye winding is the larger; a solidly grounded machine
+    has X_0 below X''_d (from memory), which the line-to-line figure does not depend on. The
+    hand method uses the first-cycle rms of the largest transformer line current on an ideal
+    source at rated voltage
+    as the load kVA of :func:`core.generator.first_dip_voltage_divider`.
+    """
+    res, warnings = dip_solver.check_inputs(
+        source, circuit, closing_angle_deg, residual_flux_pu, pre_event_voltage_pu, duration_s
+    )
+    dip_solver.check_range("recovery_band_percent", recovery_band_percent, 0.0, 50.0)
+    if recovery_reference not in ("pre_event", "final"):
+        raise ParameterError("recovery_reference", recovery_reference, "pre_event or final")
+    if not (isinstance(waveform_points, int) and 0 <= waveform_points <= 10_000_000):
+        raise ParameterError("waveform_points", waveform_points, "an integer >= 0")
+    _measure(voltage_measure)
+    v0 = float(pre_event_voltage_pu)
+    f = circuit.frequency_hz
+    v_ph = source.line_voltage_v / math.sqrt(3.0)
+    src = source_parameters(source, excitation, 2.0 * math.pi * f)
+    load = None if bus_load is None else (bus_load.active_power_w, bus_load.reactive_power_var)
+    case = dip_solver.build_case(src, circuit, closing_angle_deg, res, load, v0)
+    raw = dip_solver.run([case], f, v_ph, duration_s, steps_per_cycle, waveform_points)
+    ideal = dip_solver.SourceParameters(source.line_voltage_v, 0.0, 0.0, src.base_va)
+    first = dip_solver.run(
+        [dip_solver.build_case(ideal, circuit, closing_angle_deg, res, None, 1.0)],
+        f,
+        v_ph,
+        1.0 / f,
+        dip_solver.MIN_STEPS_PER_CYCLE,
+        0,
+    )
+    ph = raw.v_rms_pu[0].min(axis=0)
+    ln = raw.v_line_rms_pu[0].min(axis=0)
+    worst = {"worst": np.minimum(ph, ln), "line": ln, "phase": ph}[voltage_measure]
+    n_min = int(np.argmin(worst))
+    n_cyc = worst.size
+    dip_ph = 100.0 * (v0 - float(ph.min())) / v0
+    dip_ln = 100.0 * (v0 - float(ln.min())) / v0
+    dip = {"worst": max(dip_ph, dip_ln), "line": dip_ln, "phase": dip_ph}[voltage_measure]
+    if n_cyc > 2 and n_min >= n_cyc - max(1, n_cyc // 10):
+        warnings.append(
+            (
+                "dip_at_end",
+                "the lowest voltage is in the last tenth of the simulated time: simulate longer",
+            )
+        )
+    both = {
+        "worst": np.concatenate((raw.v_rms_pu[0], raw.v_line_rms_pu[0])),
+        "line": raw.v_line_rms_pu[0],
+        "phase": raw.v_rms_pu[0],
+    }[voltage_measure]
+    rec, ref = _recovery(both, v0, recovery_reference, recovery_band_percent, f)
+    if math.isnan(rec):
+        warnings.append(
+            (
+                "not_recovered",
+                f"voltage still outside ±{recovery_band_percent:g} % "
+                f"at the end of the simulated {n_cyc / f:g} s",
+            )
+        )
+    s_load = math.sqrt(3.0) * source.line_voltage_v * float(first.i_rms_a[0, :, 0].max())
+    if isinstance(source, Generator):
+        hand = float(first_dip_voltage_divider(source.x_d2_pu, source.rating_va, s_load))
+    else:
+        hand = float(first_dip_voltage_divider(1.0, source.fault_level_va, s_load))
+    return DipStudy(
+        source_kind="generator" if isinstance(source, Generator) else "utility",
+        frequency_hz=f,
+        cycle_start_s=np.arange(n_cyc) / f,
+        voltage_rms_pu=raw.v_rms_pu[0],
+        voltage_line_rms_pu=raw.v_line_rms_pu[0],
+        pre_event_voltage_pu=v0,
+        voltage_measure=voltage_measure,
+        min_voltage_pu=float(worst[n_min]),
+        min_voltage_time_s=n_min / f,
+        dip_percent=dip,
+        dip_phase_percent=dip_ph,
+        dip_line_percent=dip_ln,
+        recovery_time_s=rec,
+        recovery_band_percent=float(recovery_band_percent),
+        recovery_reference_pu=ref,
+        inrush_peak_a=float(raw.peaks_a[0].max()),
+        cycle_peak_current_a=raw.peaks_a[0],
+        emf_pu=raw.emf_pu[0],
+        field_voltage_pu=raw.field_pu[0],
+        hand_method_load_va=s_load,
+        hand_method_dip_percent=hand,
+        hand_method_difference_percent=hand - dip,
+        steps_per_cycle=raw.steps_per_cycle,
+        waveform_time_s=raw.wave_t_s,
+        waveform_voltage_v=raw.wave_v[0],
+        waveform_current_a=raw.wave_i[0],
+        approximations=APPROXIMATIONS[circuit.connection],
+        assumptions=source_assumptions(source, excitation, bus_load, v0),
+        warnings=tuple(warnings),
+    )
+
+
+def dip_sweep(
+    generator: Generator,
+    circuit: EquivalentCircuit,
+    ratings_va: ArrayLike,
+    closing_angle_deg: float = 0.0,
+    residual_flux_pu: ArrayLike = 0.0,
+    *,
+    excitation: ExcitationSpec = "unknown",
+    bus_load: BusLoad | None = None,
+    pre_event_voltage_pu: float = 1.0,
+    duration_s: float = 2.0,
+    steps_per_cycle: int = dip_solver.MIN_STEPS_PER_CYCLE,
+    voltage_measure: Measure = "worst",
+) -> FloatArray:
+    """Dip for the same per-unit generator data at several ratings, in one vectorised run.
+
+    Parameters
+    ----------
+    generator : Generator
+        Per-unit data, voltage and frequency kept; the rating is replaced.
+    circuit : EquivalentCircuit
+        As for :func:`energize_from_source`.
+    ratings_va : array_like, shape (n,)
+        Generator ratings [VA].
+    closing_angle_deg, residual_flux_pu, excitation, bus_load, pre_event_voltage_pu
+        As for :func:`energize_from_source`.
+    duration_s : float
+        Simulated time; the lowest voltage normally falls within the first second [s].
+    steps_per_cycle, voltage_measure
+        As for :func:`energize_from_source`.
+
+    Returns
+    -------
+    ndarray, shape (n,)
+        Dip [% of the pre-event voltage].
+    """
+    ratings = np.atleast_1d(np.asarray(ratings_va, dtype=float))
+    gens = [replace(generator, rating_va=float(s)) for s in ratings]
+    res, _ = dip_solver.check_inputs(
+        generator, circuit, closing_angle_deg, residual_flux_pu, pre_event_voltage_pu, duration_s
+    )
+    v0 = float(pre_event_voltage_pu)
+    f = circuit.frequency_hz
+    load = None if bus_load is None else (bus_load.active_power_w, bus_load.reactive_power_var)
+    cases = [
+        dip_solver.build_case(
+            source_parameters(g, excitation, 2.0 * math.pi * f),
+            circuit,
+            closing_angle_deg,
+            res,
+            load,
+            v0,
+        )
+        for g in gens
+    ]
+    v_ph = generator.line_voltage_v / math.sqrt(3.0)
+    raw = dip_solver.run(cases, f, v_ph, duration_s, steps_per_cycle, 0)
+    _measure(voltage_measure)
+    ph = raw.v_rms_pu.min(axis=(1, 2))
+    ln = raw.v_line_rms_pu.min(axis=(1, 2))
+    low = {"worst": np.minimum(ph, ln), "line": ln, "phase": ph}[voltage_measure]
+    out: FloatArray = 100.0 * (v0 - low) / v0
+    return out
+
+
+@dataclass(frozen=True)
+class Sizing:
+    """Result of :func:`smallest_generator`.
+
+    Attributes
+    ----------
+    limit : DipLimit
+        The limit sized for.
+    status : str
+        ``"found"``, ``"smallest_bound_passes"`` or ``"largest_bound_fails"``.
+    rating_va : float or None
+        Smallest passing rating; the lower bound when it already passes; None when even the
+        upper bound fails [VA].
+    dip_percent : float
+        Dip at ``rating_va`` (at the upper bound when it fails) [%].
+    recovery_time_s : float
+        Recovery time at ``rating_va`` (nan when not computed or not recovered) [s].
+    recovery_ok : bool or None
+        Whether that recovery meets the limit's recovery time; None when not judged.
+    bounds_va : tuple of float
+        Search bounds [VA].
+    evaluations : int
+        Simulations run [-].
+    statement : str
+        The answer in one plain sentence.
+    """
+
+    limit: DipLimit
+    status: str
+    rating_va: float | None
+    dip_percent: float
+    recovery_time_s: float
+    recovery_ok: bool | None
+    bounds_va: tuple[float, float]
+    evaluations: int
+    statement: str
+
+
+def smallest_generator(
+    generator: Generator,
+    circuit: EquivalentCircuit,
+    limit: DipLimit | str = "G2",
+    closing_angle_deg: float = 0.0,
+    residual_flux_pu: ArrayLike = 0.0,
+    *,
+    excitation: ExcitationSpec = "unknown",
+    bus_load: BusLoad | None = None,
+    bounds_va: tuple[float, float] | None = None,
+    dip_duration_s: float = 2.0,
+    rtol: float = 1e-3,
+    check_recovery: bool = True,
+    voltage_measure: Measure = "worst",
+) -> Sizing:
+    """Smallest rating, same per-unit data, that keeps the dip within a limit.
+
+    Parameters
+    ----------
+    generator : Generator
+        Machine data; its rating is only the starting point.
+    circuit : EquivalentCircuit
+        Transformer circuit, as for :func:`energize_from_source`.
+    limit : DipLimit or str
+        A limit, or an ISO 8528-5 class name ``"G1"``-``"G3"`` (values from memory).
+    closing_angle_deg, residual_flux_pu, excitation, bus_load
+        As for :func:`energize_from_source`.
+    bounds_va : tuple of float or None
+        Search range; default 0.1-20 x the given rating [VA].
+    dip_duration_s : float
+        Simulated time for each dip evaluation [s].
+    rtol : float
+        Relative tolerance on the rating [-].
+    check_recovery : bool
+        Also simulate the found rating for the limit's recovery time plus 1 s and judge it.
+    voltage_measure : str
+        As for :func:`energize_from_source`.
+
+    Returns
+    -------
+    Sizing
+
+    Raises
+    ------
+    ParameterError
+        On a limit without a dip value (G4: by agreement) or invalid bounds.
+
+    Notes
+    -----
+    The dip falls as the rating rises (checked by the tests); the root of
+    dip(S) - limit in u = ln S is bracketed by the bounds and found by Brent's method
+    (scipy.optimize.brentq; R. P. Brent, "Algorithms for Minimization without Derivatives",
+    1973).
+    """
+    lim = limit if isinstance(limit, DipLimit) else iso_8528_5_class(limit)
+    if lim.max_dip_percent is None:
+        raise ParameterError("limit", lim.name, "a limit with a dip value (G4 is by agreement)")
+    lo, hi = (
+        bounds_va
+        if bounds_va is not None
+        else (0.1 * generator.rating_va, 20.0 * generator.rating_va)
+    )
+    dip_solver.check_range("bounds_va", lo, 0.0, 1e10)
+    dip_solver.check_range("bounds_va", hi, lo, 1e10)
+    dip_solver.check_range("rtol", rtol, 0.0, 0.1)
+    target = lim.max_dip_percent
+
+    def dips(ratings: list[float]) -> FloatArray:
+        return dip_sweep(
+            generator,
+            circuit,
+            ratings,
+            closing_angle_deg,
+            residual_flux_pu,
+            excitation=excitation,
+            bus_load=bus_load,
+            duration_s=dip_duration_s,
+            voltage_measure=voltage_measure,
+        )
+
+    ends = dips([lo, hi])
+    count = 2
+    tag = f"{lim.name} ({target:g} %)"
+    if ends[0] <= target:
+        rating: float | None = lo
+        dip, status = float(ends[0]), "smallest_bound_passes"
+        text = (
+            f"Even the smallest rating searched, {lo / 1e3:,.0f} kVA, keeps the dip within "
+            f"{tag} at {dip:.1f} %: the answer is at or below it; lower the bound."
+        )
+    elif ends[1] > target:
+        rating, dip, status = None, float(ends[1]), "largest_bound_fails"
+        text = (
+            f"Even the largest rating searched, {hi / 1e3:,.0f} kVA, dips {dip:.1f} %, "
+            f"beyond {tag}: no rating in the range passes."
+        )
+    else:
+
+        def g(u: float) -> float:
+            nonlocal count
+            count += 1
+            return float(dips([math.exp(u)])[0]) - target
+
+        xtol = math.log1p(rtol)
+        u = scipy.optimize.brentq(g, math.log(lo), math.log(hi), xtol=xtol)
+        found = hi
+        for _ in range(4):  # report a rating on the passing side of the root
+            found = min(math.exp(u + xtol), hi)
+            dip = float(dips([found])[0])
+            count += 1
+            if dip <= target:
+                break
+            u += xtol
+        rating, status = found, "found"
+        text = (
+            f"The smallest rating with the same per-unit data that keeps the dip within "
+            f"{tag} is {found / 1e3:,.0f} kVA (dip {dip:.1f} %)."
+        )
+    rec, rec_ok = math.nan, None
+    if check_recovery and rating is not None and lim.max_recovery_s is not None:
+        study = energize_from_source(
+            replace(generator, rating_va=rating),
+            circuit,
+            closing_angle_deg,
+            residual_flux_pu,
+            excitation=excitation,
+            bus_load=bus_load,
+            duration_s=lim.max_recovery_s + 1.0,
+            voltage_measure=voltage_measure,
+        )
+        count += 1
+        rec = study.recovery_time_s
+        rec_ok = bool(math.isfinite(rec) and rec <= lim.max_recovery_s)
+        text += (
+            f" Its recovery time is {rec:.2f} s, "
+            if math.isfinite(rec)
+            else " It does not recover within the band in the time simulated, "
+        )
+        text += ("within" if rec_ok else "beyond") + f" the {lim.max_recovery_s:g} s limit."
+    return Sizing(lim, status, rating, dip, rec, rec_ok, (lo, hi), count, text)

@@ -1,0 +1,676 @@
+"""Numerical solver behind :mod:`core.dip`: a source with d-axis dynamics energising a transformer.
+
+This module holds only the numerics; the physics, its simplifications and references are in the
+docstrings of :mod:`core.dip` and :mod:`core.generator`. Per case and per loop (a wye phase, or
+a delta winding and a bus-load phase) the states are the loop fluxes
+
+    psi = lambda + L_s*(i_T + i_L),   d(psi)/dt = e - R_s*(i_T + i_L) - R_w*i_T
+    phi = L_L*i_L + L_s*(i_T + i_L),  d(phi)/dt = e - R_s*(i_T + i_L) - R_L*i_L
+
+(Kirchhoff's voltage law around the source-winding and source-load loops) and, per case, the
+machine states E''_q, E'_q, E_fd and the sensed voltage V_s. The currents follow from the states
+by lambda + L_p*f(lambda) = psi - phi*L_s/(L_L + L_s), L_p = L_s*L_L/(L_s + L_L), and
+i_L = (phi - L_s*i_T)/(L_L + L_s): for a piecewise-linear curve this is the same curve with its
+breakpoints moved by L_p*i (exact); for the smooth knee a Newton iteration. The right-hand side
+is then a continuous function of the state even at a sharp knee, so the classical fixed-step
+Runge-Kutta method (Kutta 1901) keeps its order there (the device of :mod:`core.energize`).
+The terminal voltage v_k = e_k - R_ph*i_k - L_ph*di_k/dt is evaluated from the same equations
+(di/dt solved from the two loop equations), so it is exact at every step, not differenced.
+
+Compiled with numba and looped over cases.
+"""
+
+from __future__ import annotations
+
+import cmath
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from typing import Protocol
+
+import numba
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from core.errors import ParameterError
+from core.magnetizing import PiecewiseLinearCurve, SmoothKneeCurve
+from core.transformer import EquivalentCircuit
+
+FloatArray = NDArray[np.float64]
+
+
+class SourceLike(Protocol):
+    """Anything with a rated line voltage [V] and frequency [Hz]."""
+
+    @property
+    def line_voltage_v(self) -> float: ...
+    @property
+    def frequency_hz(self) -> float: ...
+
+
+__all__ = ["Case", "Raw", "SourceParameters", "build_case", "check_inputs", "check_range", "run"]
+
+# steps per cycle floor: common practice of this project (core.energize uses the same floor);
+# the ceiling bounds the work.
+MIN_STEPS_PER_CYCLE = 128
+MAX_STEPS_PER_CYCLE = 16384
+
+# per-case parameter columns (cp)
+_BETA, _EB, _DYN, _AVR, _IB, _RPH, _LPH = range(7)
+_X2, _X1, _XD, _T2O, _T1O, _RA, _KA, _TA, _EMAX, _EMIN, _TR, _VREF = range(7, 19)
+_NCP = 19
+# per-loop parameter columns (lp)
+_AMP, _PHS, _RS, _LS, _HTR, _RW, _HLD, _RL, _LL = range(9)
+
+
+@numba.njit(cache=True)
+def _invert(
+    cv: FloatArray, tx: FloatArray, ti: FloatArray, lp: float, chi: float, guess: float
+) -> tuple[float, float, float]:  # pragma: no cover - compiled
+    """Current i, slope di/d(lambda) and lambda for lambda + lp*f(lambda) = chi.
+
+    cv = (kind, n_points, p0..p4): kind 0 a piecewise-linear table already in chi (p0 the final
+    slope di/d(chi)); kind 1 the smooth knee (p0..p4 = 1/L_m, 1/L_air - 1/L_m, lambda_S,
+    width, g0).
+    """
+    x = abs(chi)
+    sg = 1.0 if chi >= 0.0 else -1.0
+    if cv[0] == 0.0:
+        top = int(cv[1]) - 1
+        if x >= tx[top]:
+            sl = cv[2]
+            cur = ti[top] + (x - tx[top]) * sl
+        else:
+            lo = 0
+            hi = top
+            while hi - lo > 1:
+                mid = (lo + hi) // 2
+                if tx[mid] < x:
+                    lo = mid
+                else:
+                    hi = mid
+            sl = (ti[hi] - ti[lo]) / (tx[hi] - tx[lo])
+            cur = ti[lo] + (x - tx[lo]) * sl
+        return sg * cur, sl / (1.0 - lp * sl), guess
+    a, b, ks, e, g0 = cv[2], cv[3], cv[4], cv[5], cv[6]
+    lam = min(abs(guess), x)
+    for _ in range(60):
+        s = lam - ks
+        r = math.sqrt(s * s + e * e)
+        step = (lam + lp * (a * lam + b * (0.5 * (s + r) - g0)) - x) / (
+            1.0 + lp * (a + b * 0.5 * (1.0 + s / r))
+        )
+        lam = max(lam - step, 0.0)
+        if abs(step) <= 1e-14 * (x + 1e-300):
+            break
+    s = lam - ks
+    r = math.sqrt(s * s + e * e)
+    return sg * (a * lam + b * (0.5 * (s + r) - g0)), a + b * 0.5 * (1.0 + s / r), sg * lam
+
+
+# fmt: off
+@numba.njit(cache=True)
+def _eval(
+    t: float, y: FloatArray, omega: float, cp: FloatArray, lpar: FloatArray, cv: FloatArray,
+    tx: FloatArray, ti: FloatArray, inc: FloatArray, guess: FloatArray, dy: FloatArray,
+    i_line: FloatArray, i_tr: FloatArray, v: FloatArray, di: FloatArray, work: FloatArray,
+) -> None:  # pragma: no cover - compiled
+    """Derivatives of one case's states at t; fills line and transformer currents, voltages."""
+    nl = lpar.shape[0]
+    e2 = y[2 * nl]
+    e1 = y[2 * nl + 1]
+    efd = y[2 * nl + 2]
+    vs = y[2 * nl + 3]
+    th = omega * t + cp[_BETA]
+    for k in range(3):
+        di[k] = 0.0
+        i_line[k] = 0.0
+        i_tr[k] = 0.0
+    # currents from the loop fluxes (they do not depend on the EMF)
+    for j in range(nl):
+        p = lpar[j]
+        ls = p[_LS]
+        den = p[_LL] + ls
+        cur = 0.0
+        il = 0.0
+        fp = 0.0
+        if p[_HTR] > 0.0:
+            if p[_HLD] > 0.0:
+                chi = y[j] - y[nl + j] * ls / den
+                cur, fp, g = _invert(cv[j], tx[j], ti[j], ls * p[_LL] / den, chi, guess[j])
+                il = (y[nl + j] - ls * cur) / den
+            else:
+                cur, fp, g = _invert(cv[j], tx[j], ti[j], ls, y[j], guess[j])
+            guess[j] = g
+        elif p[_HLD] > 0.0:
+            il = y[nl + j] / den
+        work[0, j] = cur
+        work[1, j] = il
+        work[2, j] = fp
+        for k in range(3):
+            i_line[k] += inc[0, k, j] * cur + inc[1, k, j] * il
+            i_tr[k] += inc[0, k, j] * cur
+    # machine: Park d component of the current in the EMF's frame [pu of rated rms current],
+    # positive lagging; the d-axis flux-decay equations
+    sd = 0.0
+    for k in range(3):
+        sd -= i_line[k] * math.cos(th - 2.0 * math.pi * k / 3.0)
+    i_d = sd / (1.5 * math.sqrt(2.0) * cp[_IB])
+    for q in range(4):
+        dy[2 * nl + q] = 0.0
+    if cp[_DYN] > 0.0:
+        dy[2 * nl] = (e1 - e2 - (cp[_X1] - cp[_X2]) * i_d) / cp[_T2O]
+        dy[2 * nl + 1] = (efd - e1 - (cp[_XD] - cp[_X1]) * i_d) / cp[_T1O]
+    # EMF = d/dt of the rotating rotor flux: E''_q*sin(theta_k) - (dE''_q/dt/omega)*cos(theta_k)
+    rate = dy[2 * nl] / omega
+    for j in range(nl):
+        p = lpar[j]
+        ls = p[_LS]
+        ll = p[_LL]
+        den = ll + ls
+        cur = work[0, j]
+        il = work[1, j]
+        fp = work[2, j]
+        ang = th + p[_PHS]
+        e = cp[_EB] * p[_AMP] * (e2 * math.sin(ang) - rate * math.cos(ang))
+        itot = cur + il
+        dpsi = e - p[_RS] * itot - p[_RW] * cur
+        dphi = e - p[_RS] * itot - p[_RL] * il
+        htr = p[_HTR] > 0.0
+        hld = p[_HLD] > 0.0
+        dy[j] = dpsi if htr else 0.0
+        dy[nl + j] = dphi if hld else 0.0
+        dc = 0.0
+        dl = 0.0
+        if htr and hld:
+            dd = den + ls * ll * fp
+            dc = fp * (den * dpsi - ls * dphi) / dd
+            dl = ((1.0 + ls * fp) * dphi - ls * fp * dpsi) / dd
+        elif htr:
+            dc = fp * dpsi / (1.0 + ls * fp)
+        elif hld:
+            dl = dphi / den
+        for k in range(3):
+            di[k] += inc[0, k, j] * dc + inc[1, k, j] * dl
+    vd = 0.0
+    vq = 0.0
+    for k in range(3):
+        a = th - 2.0 * math.pi * k / 3.0
+        e = cp[_EB] * (e2 * math.sin(a) - rate * math.cos(a))
+        v[k] = e - cp[_RPH] * i_line[k] - cp[_LPH] * di[k]
+        vd += v[k] * math.cos(a)
+        vq += v[k] * math.sin(a)
+    if cp[_DYN] > 0.0 and cp[_AVR] > 0.0:
+        # magnitude of the terminal-voltage space vector (positive and negative sequence, no
+        # zero sequence) [pu of rated phase voltage]
+        valg = math.sqrt(vd * vd + vq * vq) / (1.5 * cp[_EB])
+        if cp[_TR] > 0.0:
+            dy[2 * nl + 3] = (valg - vs) / cp[_TR]
+        else:
+            vs = valg
+        de = (cp[_KA] * (cp[_VREF] - vs) - efd) / cp[_TA]
+        if (efd >= cp[_EMAX] and de > 0.0) or (efd <= cp[_EMIN] and de < 0.0):
+            de = 0.0
+        dy[2 * nl + 2] = de
+
+
+# fmt: on
+
+
+# fmt: off
+@numba.njit(cache=True)
+def _kernel(
+    n_steps: int, spc: int, h: float, omega: float, cp: FloatArray, lpar: FloatArray,
+    cv: FloatArray, tx: FloatArray, ti: FloatArray, inc: FloatArray, y0: FloatArray, stride: int,
+    out: FloatArray, means: FloatArray, wave: FloatArray,
+) -> None:  # pragma: no cover - compiled
+    """RK4 over every case.
+
+    out[c, 0..3] per-cycle sums of v^2 (phase), v^2 (line), i^2 (transformer line) and the
+    per-cycle peak |i| (refined by a parabola through a local maximum and its neighbours);
+    means[c, 0..1] per-cycle sums of E''_q and E_fd; wave[c, 0..1] decimated v and i.
+    """
+    n, ns = y0.shape
+    nl = lpar.shape[1]
+    ncyc = out.shape[3]
+    k1 = np.empty(ns)
+    k2 = np.empty(ns)
+    k3 = np.empty(ns)
+    k4 = np.empty(ns)
+    tmp = np.empty(ns)
+    il = np.empty(3)
+    it = np.empty(3)
+    v = np.empty(3)
+    di = np.empty(3)
+    work = np.empty((3, nl))
+    for c in range(n):
+        guess = np.zeros(nl)
+        y = y0[c].copy()
+        prev2 = np.zeros(3)
+        prev1 = np.zeros(3)
+        args = (omega, cp[c], lpar[c], cv[c], tx[c], ti[c], inc, guess)
+        for j in range(n_steps + 1):
+            t = j * h
+            _eval(t, y, *args, k1, il, it, v, di, work)
+            cyc = j // spc
+            for k in range(3):
+                a = abs(it[k])
+                if cyc < ncyc:
+                    vll = v[k] - v[(k + 1) % 3]
+                    out[c, 0, k, cyc] += v[k] * v[k]
+                    out[c, 1, k, cyc] += vll * vll
+                    out[c, 2, k, cyc] += a * a
+                    out[c, 3, k, cyc] = max(out[c, 3, k, cyc], a)
+                if j >= 2 and prev1[k] >= prev2[k] and prev1[k] >= a:
+                    den = 2.0 * prev1[k] - prev2[k] - a
+                    pc = (j - 1) // spc
+                    if den > 0.0 and pc < ncyc:
+                        vert = prev1[k] + (prev2[k] - a) ** 2 / (8.0 * den)
+                        out[c, 3, k, pc] = max(out[c, 3, k, pc], vert)
+                prev2[k] = prev1[k]
+                prev1[k] = a
+                if stride > 0 and j % stride == 0 and j // stride < wave.shape[3]:
+                    wave[c, 0, k, j // stride] = v[k]
+                    wave[c, 1, k, j // stride] = it[k]
+            if cyc < ncyc:
+                means[c, 0, cyc] += y[2 * nl]
+                means[c, 1, cyc] += y[2 * nl + 2]
+            if j == n_steps:
+                break
+            for q in range(ns):
+                tmp[q] = y[q] + 0.5 * h * k1[q]
+            _eval(t + 0.5 * h, tmp, *args, k2, il, it, v, di, work)
+            for q in range(ns):
+                tmp[q] = y[q] + 0.5 * h * k2[q]
+            _eval(t + 0.5 * h, tmp, *args, k3, il, it, v, di, work)
+            for q in range(ns):
+                tmp[q] = y[q] + h * k3[q]
+            _eval(t + h, tmp, *args, k4, il, it, v, di, work)
+            for q in range(ns):
+                y[q] += h / 6.0 * (k1[q] + 2.0 * k2[q] + 2.0 * k3[q] + k4[q])
+            if cp[c, _AVR] > 0.0:
+                y[2 * nl + 2] = min(max(y[2 * nl + 2], cp[c, _EMIN]), cp[c, _EMAX])
+
+
+# fmt: on
+
+
+@dataclass(frozen=True)
+class SourceParameters:
+    """A source reduced to numbers for :func:`build_case`.
+
+    Attributes
+    ----------
+    line_voltage_v : float
+        Rated line-to-line voltage, the voltage base [V].
+    resistance_ohm, inductance_h : float
+        Per-phase source impedance [ohm], [H].
+    base_va : float
+        Power base of the per-unit currents [VA].
+    machine : tuple of float or None
+        (X''_d, X'_d, X_d [pu], T''_do, T'_do [s], R_a [pu]) for a machine; None for a constant
+        EMF.
+    regulator : tuple of float or None
+        (K_A [pu], T_A [s], ceiling, floor [pu], T_R [s]); None for a constant field.
+    """
+
+    line_voltage_v: float
+    resistance_ohm: float
+    inductance_h: float
+    base_va: float
+    machine: tuple[float, float, float, float, float, float] | None = None
+    regulator: tuple[float, float, float, float, float] | None = None
+
+
+@dataclass(frozen=True)
+class Case:
+    """One case packed for the kernel, with its shortest time constant [s]."""
+
+    cp: FloatArray
+    lpar: FloatArray
+    cv: FloatArray
+    tx: FloatArray
+    ti: FloatArray
+    inc: FloatArray
+    y0: FloatArray
+    tau_min_s: float
+    field_voltage_pu: float
+
+
+def _pack_curve(circuit: EquivalentCircuit, lp: float) -> tuple[FloatArray, FloatArray, FloatArray]:
+    """Curve of one winding in the loop variable chi = lambda + lp*i (see :func:`_invert`)."""
+    cv = circuit.curve
+    out = np.zeros(7)
+    if isinstance(cv, PiecewiseLinearCurve):
+        out[:3] = (0.0, cv.flux_wb.size, 1.0 / (cv.final_inductance_h + lp))
+        return out, cv.flux_wb + lp * cv.current_a, cv.current_a.copy()
+    if isinstance(cv, SmoothKneeCurve):
+        a = 1.0 / cv.unsaturated_inductance_h
+        e = cv.knee_width_wb
+        g0 = 0.5 * (-cv.knee_flux_wb + math.hypot(cv.knee_flux_wb, e))
+        out[:] = (1.0, 2.0, a, 1.0 / cv.saturated_inductance_h - a, cv.knee_flux_wb, e, g0)
+        return out, np.zeros(2), np.zeros(2)
+    raise ParameterError("circuit.curve", type(cv).__name__, "a magnetising curve")
+
+
+def build_case(
+    src: SourceParameters,
+    circuit: EquivalentCircuit,
+    closing_angle_deg: float,
+    residual_flux_pu: FloatArray,
+    load_w_var: tuple[float, float] | None,
+    v0_pu: float,
+) -> Case:
+    """Pack one case and its pre-event steady state.
+
+    Parameters
+    ----------
+    src : SourceParameters
+        The source.
+    circuit : EquivalentCircuit
+        Three-phase transformer circuit (its own source impedance is ignored).
+    closing_angle_deg : float
+        Phase-A terminal voltage angle at t = 0 [deg].
+    residual_flux_pu : ndarray, shape (3,)
+        Residual flux per winding [pu of lambda_N].
+    load_w_var : tuple of float or None
+        Bus load (P [W], Q [var]) at rated voltage, constant impedance.
+    v0_pu : float
+        Pre-event terminal voltage [pu].
+
+    Returns
+    -------
+    Case
+
+    Notes
+    -----
+    Steady state before closing, phasors in the sine convention: V = V_0∠alpha,
+    I_L = V/Z_L, E'' = V + (R + jX)*I_L; in E'''s frame I_q - j*I_d = I_L*e^(-j*beta)/I_b;
+    E'_q = E''_q + (X'_d - X''_d)*I_d, E_fd = E'_q + (X_d - X'_d)*I_d (the d-axis equations at
+    rest), V_ref = V_0 + E_fd/K_A.
+    """
+    f = circuit.frequency_hz
+    omega = 2.0 * math.pi * f
+    v_ph = src.line_voltage_v / math.sqrt(3.0)
+    r_ph, l_ph = src.resistance_ohm, src.inductance_h
+    i_base = src.base_va / (math.sqrt(3.0) * src.line_voltage_v)
+    v_bus = cmath.rect(v0_pu * v_ph, math.radians(closing_angle_deg))
+    r_l = l_l = 0.0
+    i_l = 0j
+    if load_w_var is not None:
+        z_l = v_ph * v_ph / (complex(*load_w_var) / 3.0).conjugate()
+        r_l, l_l = z_l.real, z_l.imag / omega
+        i_l = v_bus / z_l
+    emf = v_bus + complex(r_ph, omega * l_ph) * i_l
+    beta = cmath.phase(emf)
+    i_d0 = -(i_l * cmath.rect(1.0, -beta) / i_base).imag
+    e2 = abs(emf) / v_ph
+    e1 = efd = e2
+    cp = np.zeros(_NCP)
+    cp[_T2O] = cp[_T1O] = cp[_TA] = 1.0
+    cp[[_BETA, _EB, _IB, _RPH, _LPH]] = (beta, math.sqrt(2.0) * v_ph, i_base, r_ph, l_ph)
+    tau = [math.inf]
+    if src.machine is not None:
+        x2, x1, xd, t2o, t1o, ra = src.machine
+        e1 = e2 + (x1 - x2) * i_d0
+        efd = e1 + (xd - x1) * i_d0
+        cp[[_DYN, _X2, _X1, _XD, _T2O, _T1O, _RA]] = (1.0, x2, x1, xd, t2o, t1o, ra)
+        tau.append(t2o)
+        if src.regulator is not None:
+            ka, ta, emax, emin, tr = src.regulator
+            if not emin <= efd <= emax:
+                raise ParameterError(
+                    "excitation.ceiling_pu",
+                    emax,
+                    f"at least the pre-event field voltage {efd:.4g} pu that the bus load needs",
+                )
+            cp[[_AVR, _KA, _TA, _EMAX, _EMIN, _TR]] = (1.0, ka, ta, emax, emin, tr)
+            cp[_VREF] = v0_pu + efd / ka
+            tau += [ta] + ([tr] if tr > 0.0 else [])
+    delta = circuit.connection == "delta"
+    nl = 6 if delta else 3
+    lpar = np.zeros((nl, 9))
+    inc = np.zeros((2, 3, nl))
+    y0 = np.zeros(2 * nl + 4)
+    width = circuit.curve.flux_wb.size if isinstance(circuit.curve, PiecewiseLinearCurve) else 2
+    cvs = np.zeros((nl, 7))
+    cvs[:, 1] = 2.0
+    tx = np.zeros((nl, width))
+    ti = np.zeros((nl, width))
+    for k in range(3):
+        shift = -2.0 * math.pi * k / 3.0
+        i_l0 = math.sqrt(2.0) * abs(i_l) * math.sin(cmath.phase(i_l) + shift)
+        lam0 = float(residual_flux_pu[k]) * circuit.nominal_flux_wb
+        c0 = float(circuit.curve.current(lam0))
+        jt, jl = (k, 3 + k) if delta else (k, k)
+        m = 2.0 if delta else 1.0  # delta: loop on the line-to-line EMF behind 2 x Z_s
+        lpar[jt, [_AMP, _PHS, _RS, _LS, _HTR, _RW]] = (
+            math.sqrt(3.0) if delta else 1.0,
+            shift + (math.pi / 6.0 if delta else 0.0),
+            m * r_ph,
+            m * l_ph,
+            1.0,
+            circuit.winding_resistance_ohm,
+        )
+        if delta:
+            lpar[jl, [_AMP, _PHS, _RS, _LS]] = (1.0, shift, r_ph, l_ph)
+            inc[0, k, k] += 1.0  # i_a = c_ab - c_ca, ...
+            inc[0, k, (k + 2) % 3] -= 1.0
+        else:
+            inc[0, k, k] = 1.0
+        inc[1, k, jl] = 1.0
+        ls_t = lpar[jt, _LS]
+        lp = ls_t
+        c_shared = 0.0 if delta else c0
+        i_shared = 0.0 if delta else i_l0
+        if load_w_var is not None:
+            lpar[jl, [_HLD, _RL, _LL]] = (1.0, r_l, l_l)
+            den = l_l + lpar[jl, _LS]
+            y0[nl + jl] = l_l * i_l0 + lpar[jl, _LS] * (i_l0 + c_shared)
+            r_loop = r_l + lpar[jl, _RS]
+            tau_l = den / r_loop if r_loop > 0.0 else math.inf
+            if tau_l * f * MAX_STEPS_PER_CYCLE < 4.0:
+                raise ParameterError(
+                    "bus_load.reactive_power_var",
+                    load_w_var[1],
+                    "enough reactive power that the load loop's time constant "
+                    f"(L_L + L_s)/(R_L + R_s) = {tau_l:.3g} s reaches "
+                    f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s (a nearly resistive load on the "
+                    "source inductance is too stiff for the fixed step)",
+                )
+            tau.append(tau_l)
+            if not delta:
+                lp = ls_t * l_l / den
+        y0[jt] = lam0 + ls_t * (c0 + i_shared)
+        cvs[jt], cx, ci = _pack_curve(circuit, lp)
+        tx[jt, : cx.size], ti[jt, : ci.size] = cx, ci
+        r_loop = circuit.winding_resistance_ohm + lpar[jt, _RS]
+        if r_loop > 0.0:
+            tau.append((circuit.air_core_inductance_h + ls_t) / r_loop)
+    y0[2 * nl :] = (e2, e1, efd, v0_pu)
+    return Case(cp, lpar, cvs, tx, ti, inc, y0, min(tau), efd)
+
+
+@dataclass(frozen=True)
+class Raw:
+    """Kernel output: per-cycle values, shapes (n_cases, 3, n_cycles) or (n_cases, n_cycles)."""
+
+    steps_per_cycle: int
+    v_rms_pu: FloatArray
+    v_line_rms_pu: FloatArray
+    i_rms_a: FloatArray
+    peaks_a: FloatArray
+    emf_pu: FloatArray
+    field_pu: FloatArray
+    wave_t_s: FloatArray
+    wave_v: FloatArray
+    wave_i: FloatArray
+
+
+def run(
+    cases: Sequence[Case],
+    frequency_hz: float,
+    voltage_base_v: float,
+    duration_s: float,
+    steps_per_cycle: int,
+    wave_points: int,
+) -> Raw:
+    """Integrate every case over whole cycles.
+
+    Parameters
+    ----------
+    cases : sequence of Case
+        Same connection for all.
+    frequency_hz : float
+        [Hz].
+    voltage_base_v : float
+        Rated phase voltage of the per-unit outputs [V].
+    duration_s : float
+        Whole cycles up to this time are simulated [s].
+    steps_per_cycle : int
+        At least 128; raised so that the step stays below a quarter of the shortest time
+        constant (accuracy and stability of the explicit method) [-].
+    wave_points : int
+        About this many waveform samples returned (0: none) [-].
+
+    Returns
+    -------
+    Raw
+    """
+    f = frequency_hz
+    if not (isinstance(steps_per_cycle, int) and steps_per_cycle >= MIN_STEPS_PER_CYCLE):
+        raise ParameterError("steps_per_cycle", steps_per_cycle, "an integer >= 128")
+    tau_min = min(c.tau_min_s for c in cases)
+    spc = max(steps_per_cycle, math.ceil(4.0 / (f * tau_min)) if tau_min < math.inf else 0)
+    if spc > MAX_STEPS_PER_CYCLE:
+        raise ParameterError(
+            "time_constants",
+            tau_min,
+            f"a shortest time constant of at least {4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s",
+        )
+    n_cyc = math.floor(duration_s * f + 1e-9)
+    if n_cyc < 1:
+        raise ParameterError("duration_s", duration_s, f">= one cycle ({1.0 / f:g} s)")
+    n_steps = n_cyc * spc
+    h = 1.0 / (f * spc)
+    n = len(cases)
+    width = max(c.tx.shape[1] for c in cases)
+
+    def pad(a: FloatArray) -> FloatArray:
+        # repeat the last breakpoint: the search never goes past npts
+        return np.concatenate([a, np.repeat(a[:, -1:], width - a.shape[1], axis=1)], axis=1)
+
+    stride = max(1, math.ceil((n_steps + 1) / wave_points)) if wave_points > 0 else 0
+    nw = n_steps // stride + 1 if stride else 1
+    out = np.zeros((n, 4, 3, n_cyc))
+    means = np.zeros((n, 2, n_cyc))
+    wave = np.zeros((n, 2, 3, nw))
+
+    def stack(get: Callable[[Case], FloatArray]) -> FloatArray:
+        return np.ascontiguousarray(np.stack([get(c) for c in cases]))
+
+    _kernel(
+        n_steps,
+        spc,
+        h,
+        2.0 * math.pi * f,
+        stack(lambda c: c.cp),
+        stack(lambda c: c.lpar),
+        stack(lambda c: c.cv),
+        stack(lambda c: pad(c.tx)),
+        stack(lambda c: pad(c.ti)),
+        np.ascontiguousarray(cases[0].inc),
+        stack(lambda c: c.y0),
+        stride,
+        out,
+        means,
+        wave,
+    )
+    if not np.all(np.isfinite(out)):
+        raise ParameterError("circuit", "non-finite result", "a circuit that stays finite")
+    t_wave: FloatArray = np.arange(nw, dtype=np.float64) * (h * stride) if stride else np.zeros(0)
+    return Raw(
+        steps_per_cycle=spc,
+        v_rms_pu=np.sqrt(out[:, 0] / spc) / voltage_base_v,
+        v_line_rms_pu=np.sqrt(out[:, 1] / spc) / (math.sqrt(3.0) * voltage_base_v),
+        i_rms_a=np.sqrt(out[:, 2] / spc),
+        peaks_a=out[:, 3],
+        emf_pu=means[:, 0] / spc,
+        field_pu=means[:, 1] / spc,
+        wave_t_s=t_wave,
+        wave_v=wave[:, 0] if stride else np.zeros((n, 3, 0)),
+        wave_i=wave[:, 1] if stride else np.zeros((n, 3, 0)),
+    )
+
+
+def check_range(
+    name: str, value: float, low: float, high: float, *, open_low: bool = True
+) -> float:
+    """``value`` as a float if finite and in (low, high] ([low, high] with open_low=False)."""
+    v = float(value)
+    if not (math.isfinite(v) and (v > low if open_low else v >= low) and v <= high):
+        raise ParameterError(name, value, f"in {'(' if open_low else '['}{low:g}, {high:g}]")
+    return v
+
+
+def check_inputs(
+    source: SourceLike,
+    circuit: EquivalentCircuit,
+    closing_angle_deg: float,
+    residual_flux_pu: ArrayLike,
+    pre_event_voltage_pu: float,
+    duration_s: float,
+) -> tuple[FloatArray, list[tuple[str, str]]]:
+    """Validate the inputs every dip simulation shares.
+
+    ``source`` needs ``line_voltage_v`` [V] and ``frequency_hz`` [Hz]; the angle is in [deg],
+    the residual flux in [pu of lambda_N], the pre-event voltage in [pu], the duration in [s].
+    Returns the residual flux per winding, shape (3,), and (code, message) warnings; raises
+    :class:`ParameterError` naming the offending input.
+    """
+    if not (hasattr(source, "line_voltage_v") and hasattr(source, "frequency_hz")):
+        raise ParameterError("source", type(source).__name__, "a Generator or UtilitySource")
+    if circuit.phases != 3:
+        raise ParameterError("circuit.phases", circuit.phases, "3 (a three-phase unit)")
+    if circuit.source_inductance_h != 0.0 or circuit.source_resistance_ohm != 0.0:
+        raise ParameterError(
+            "circuit.source_inductance_h",
+            circuit.source_inductance_h,
+            "0: build the circuit with an ideal source; the generator or utility model is the "
+            "source impedance",
+        )
+    if abs(circuit.frequency_hz - source.frequency_hz) > 1e-9 * source.frequency_hz:
+        raise ParameterError(
+            "circuit.frequency_hz",
+            circuit.frequency_hz,
+            f"the source frequency {source.frequency_hz:g} Hz",
+        )
+    if not math.isfinite(closing_angle_deg):
+        raise ParameterError("closing_angle_deg", closing_angle_deg, "a finite angle")
+    check_range("pre_event_voltage_pu", pre_event_voltage_pu, 0.5, 1.5, open_low=False)
+    check_range("duration_s", duration_s, 0.0, 600.0)
+    res = np.asarray(residual_flux_pu, dtype=float)
+    try:
+        res = np.broadcast_to(res, (3,)).astype(float)
+    except ValueError as exc:
+        raise ParameterError("residual_flux_pu", res.tolist(), "a scalar or 3 values") from exc
+    if not np.all(np.isfinite(res)) or np.any(np.abs(res) > 5.0):
+        raise ParameterError("residual_flux_pu", res.tolist(), "finite values in [-5, 5]")
+    warnings: list[tuple[str, str]] = []
+    ratio = circuit.line_voltage_v / source.line_voltage_v
+    if abs(ratio - 1.0) > 0.1:
+        warnings.append(
+            (
+                "voltage_mismatch",
+                f"transformer rated voltage is {ratio:.3g} x the "
+                "source's: the unit is energised off its rated flux",
+            )
+        )
+    if np.any(np.abs(res) > 0.9):
+        warnings.append(
+            (
+                "residual_flux_high",
+                "residual flux above the usual worst case of about 0.8-0.9 pu (from memory)",
+            )
+        )
+    return res, warnings
