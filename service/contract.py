@@ -15,6 +15,7 @@ from typing import Any
 
 from service.examples import (
     CLEARANCE_REQUESTS,
+    DIP_REQUESTS,
     ENVELOPE_REQUESTS,
     PEAK_BATCH_REQUESTS,
     PEAK_REQUESTS,
@@ -40,6 +41,7 @@ def example_pairs() -> dict[str, dict[str, Any]]:
         ("inrush_envelope", "/v1/inrush/envelope", ENVELOPE_REQUESTS),
         ("inrush_peak_batch", "/v1/inrush/peak/batch", PEAK_BATCH_REQUESTS),
         ("clearance", "/v1/clearance", CLEARANCE_REQUESTS),
+        ("generator_dip", "/v1/generator-dip", DIP_REQUESTS),
     ):
         for name, body in requests.items():
             resp = client.post(path, json=body)
@@ -68,6 +70,23 @@ def example_pairs() -> dict[str, dict[str, Any]]:
             "media_type": resp.headers["content-type"].split(";")[0],
             "response_contains": [x for x in labels if x in resp.text],
         }
+    for name, body in DIP_REQUESTS.items():
+        resp = client.post("/v1/generator-dip/figure", json=body)
+        if resp.status_code != 200:
+            raise RuntimeError(f"example generator_dip_figure.{name} failed: {resp.status_code}")
+        out[f"generator_dip_figure.{name}"] = {
+            "operation_id": "generator_dip_figure",
+            "method": "POST",
+            "path": "/v1/generator-dip/figure",
+            "request": body,
+            "status": 200,
+            "media_type": resp.headers["content-type"].split(";")[0],
+            "response_contains": [
+                x
+                for x in ("Time [s]", "Voltage [pu]", "Dip limit", "Recovery band")
+                if x in resp.text
+            ],
+        }
     for name, (op, url) in SHEET_REQUESTS.items():
         resp = client.get(url)
         if resp.status_code != 200:
@@ -94,6 +113,10 @@ def figures() -> dict[str, str]:
     for name, body in CLEARANCE_REQUESTS.items():
         out[f"examples/clearance_figure.{name}.svg"] = client.post(
             "/v1/clearance/figure", json=body
+        ).text
+    for name, body in DIP_REQUESTS.items():
+        out[f"examples/generator_dip_figure.{name}.svg"] = client.post(
+            "/v1/generator-dip/figure", json=body
         ).text
     return out
 

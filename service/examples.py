@@ -232,3 +232,29 @@ CLEARANCE_EXAMPLES = {
         "value": CLEARANCE_REQUESTS["northgate_lighting"],
     },
 }
+
+# The standby generator of the demo: X''d and X'd from the scenario; Xd, T''d and T'd are
+# invented demo values (typical magnitudes), not a manufacturer's data.
+STANDBY_GENERATOR: dict[str, Any] = {
+    "kind": "generator",
+    "rating_kva": 1250,
+    "x_d2_pu": 0.15,
+    "x_d1_pu": 0.25,
+    "x_d_pu": 2.0,
+    "t_d2_s": 0.03,
+    "t_d1_s": 0.8,
+}
+DIP_REQUESTS: dict[str, dict[str, Any]] = {
+    "northgate_backfeed": {
+        "transformer": BACKFEED_UNIT,
+        "supply": STANDBY_GENERATOR,
+        "switching": {"closing_angle_deg": 0.0, "residual_flux_pu": [0.8, -0.4, -0.4]},
+        "options": {"limits": "iso_8528_5", "size_for": "G2", "duration_s": 10.0},
+    },
+}
+DIP_EXAMPLES = {
+    "northgate_backfeed": {
+        "summary": "Demo: the 1250 kVA standby generator back-feeds the 2500 kVA unit at 480 V",
+        "value": DIP_REQUESTS["northgate_backfeed"],
+    }
+}

@@ -276,3 +276,63 @@ def waveform_svg(
         ax.grid(True, linewidth=0.5, alpha=0.5)
         fig.legend(loc="outside lower center", ncols=2, fontsize="small")
         return _render(fig)
+
+
+def voltage_dip_svg(
+    title: str,
+    time_s: npt.ArrayLike,
+    voltage_pu: npt.ArrayLike,
+    *,
+    line_names: Sequence[str] = ("A", "B", "C"),
+    dip_limit_percent: float | None = None,
+    band_percent: float | None = None,
+    recovery_time_s: float | None = None,
+    voltage_label: str = "Terminal voltage, rms per cycle",
+) -> str:
+    """Terminal voltage (rms per cycle) against time with the dip limit, band and recovery.
+
+    Parameters
+    ----------
+    title : str
+        Figure title.
+    time_s : array_like, shape (n_cycles,)
+        Start of each cycle [s].
+    voltage_pu : array_like, shape (n_lines, n_cycles) or (n_cycles,)
+        Rms voltage per cycle [pu].
+    line_names : sequence of str
+        One label per row.
+    dip_limit_percent : float or None
+        The limit's allowed dip, drawn at 1 - limit/100 [%].
+    band_percent : float or None
+        Recovery band around 1 pu [%].
+    recovery_time_s : float or None
+        Where the voltage re-enters the band for good [s].
+
+    Returns
+    -------
+    str
+        The SVG document.
+    """
+    fig = Figure(figsize=WAVEFORM_FIGSIZE_IN, layout="constrained")
+    ax = fig.add_subplot()
+    with _rc():
+        t = _vec(time_s, "time_s")
+        v = _rows(voltage_pu, "voltage_pu", line_names, t.size)
+        for k, name in enumerate(line_names):
+            ax.step(t, v[k], where="post", color=f"C{k}", linewidth=1.0,
+                    label=f"{voltage_label}, {name}")  # fmt: skip
+        if band_percent is not None:
+            lo, hi = 1.0 - band_percent / 100.0, 1.0 + band_percent / 100.0
+            ax.axhspan(lo, hi, color="0.85", alpha=0.6, label=f"Recovery band ±{band_percent:g} %")
+        if dip_limit_percent is not None:
+            ax.axhline(1.0 - dip_limit_percent / 100.0, color="C3", linestyle="--",
+                       label=f"Dip limit {dip_limit_percent:g} %")  # fmt: skip
+        if recovery_time_s is not None and np.isfinite(recovery_time_s):
+            ax.axvline(recovery_time_s, color="0.3", linestyle=":",
+                       label=f"Recovered at {recovery_time_s:.2f} s")  # fmt: skip
+        ax.set_xlabel("Time [s]")
+        ax.set_ylabel("Voltage [pu]")
+        ax.set_title(title)
+        ax.grid(True, linewidth=0.5, alpha=0.5)
+        fig.legend(loc="outside lower center", ncols=2, fontsize="small")
+        return _render(fig)

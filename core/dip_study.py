@@ -1,0 +1,106 @@
+"""Generator-dip study: the dip, its recovery, the verdicts, and the generator that would pass.
+
+One call for the ``/v1/generator-dip`` operation, combining :func:`core.dip.energize_from_source`
+(the coupled simulation and the hand method beside it), :func:`core.generator.verdicts` (ISO
+8528-5 classes or a caller's limit) and, for a generator source, :func:`core.dip.smallest_generator`
+(the smallest rating with the same per-unit data that keeps the dip within the limit).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from numpy.typing import ArrayLike
+
+from core import dip, generator
+from core.generator import DipLimit, ExcitationSpec, Source
+from core.transformer import EquivalentCircuit
+
+__all__ = ["DipReport", "dip_study"]
+
+
+@dataclass(frozen=True)
+class DipReport:
+    """Result of :func:`dip_study`."""
+
+    study: dip.DipStudy
+    verdicts: tuple[generator.Verdict, ...]
+    sizing: dip.Sizing | None
+
+
+def dip_study(
+    source: Source,
+    circuit: EquivalentCircuit,
+    closing_angle_deg: float,
+    residual_flux_pu: ArrayLike,
+    *,
+    limits: tuple[DipLimit, ...] = generator.ISO_8528_5_CLASSES,
+    size_for: DipLimit | None = None,
+    excitation: ExcitationSpec = "unknown",
+    bus_load: generator.BusLoad | None = None,
+    duration_s: float = 10.0,
+    recovery_band_percent: float = 3.0,
+    voltage_measure: dip.Measure = "worst",
+    waveform_points: int = 0,
+) -> DipReport:
+    """Dip and recovery of one energisation, judged, with the passing generator size.
+
+    Parameters
+    ----------
+    source : Generator or UtilitySource
+        The supply.
+    circuit : EquivalentCircuit
+        Transformer circuit (ideal source; the source model replaces it).
+    closing_angle_deg : float
+        Phase-A terminal-voltage angle at closing [deg].
+    residual_flux_pu : array_like
+        Residual flux per winding [pu of lambda_N].
+    limits : tuple of DipLimit
+        Limits to judge against (ISO 8528-5 classes by default, from memory).
+    size_for : DipLimit or None
+        Find the smallest generator meeting this limit (generator sources only).
+    excitation : Excitation, "unknown" or "constant_field"
+        Regulator model.
+    bus_load : BusLoad or None
+        Load already on the bus.
+    duration_s : float
+        Simulated time [s].
+    recovery_band_percent : float
+        Recovery band around the pre-event voltage [%].
+    voltage_measure : str
+        ``"worst"``, ``"line"`` or ``"phase"``: which rms voltage the dip is read from.
+    waveform_points : int
+        Return the terminal voltages and currents with at most this many points [-].
+
+    Returns
+    -------
+    DipReport
+    """
+    study = dip.energize_from_source(
+        source,
+        circuit,
+        closing_angle_deg,
+        residual_flux_pu,
+        excitation=excitation,
+        bus_load=bus_load,
+        duration_s=duration_s,
+        recovery_band_percent=recovery_band_percent,
+        voltage_measure=voltage_measure,
+        waveform_points=waveform_points,
+    )
+    judged = generator.verdicts(
+        study.dip_percent, study.recovery_time_s, limits, simulated_s=duration_s
+    )
+    sizing = None
+    if size_for is not None and isinstance(source, generator.Generator):
+        sizing = dip.smallest_generator(
+            source,
+            circuit,
+            size_for,
+            closing_angle_deg,
+            residual_flux_pu,
+            excitation=excitation,
+            bus_load=bus_load,
+            voltage_measure=voltage_measure,
+        )
+    return DipReport(study, judged, sizing)
