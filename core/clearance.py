@@ -4,8 +4,8 @@ One call for the ``/v1/clearance`` operation: simulate the energisation (at the 
 angle for the given residual flux, or at the given angle), derive the curves devices are compared
 with (:func:`core.ridethrough.inrush_from_waveform`), build the through-fault damage curve of the
 transformer (:mod:`core.damage`), evaluate every device on both sides
-(:func:`core.ridethrough.evaluate`), search the coordination window of each inverse-time relay
-(:func:`core.ridethrough.coordination_window`), and tabulate each device's curves for the TCC
+(:func:`core.coordination.evaluate`), search the coordination window of each inverse-time relay
+(:func:`core.coordination.coordination_window`), and tabulate each device's curves for the TCC
 figure. The devices are taken to sit on the energised side, seeing its line currents.
 """
 
@@ -18,7 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from core import damage, energize, ridethrough
+from core import coordination, damage, energize, ridethrough
 from core.errors import ParameterError
 from core.transformer import EquivalentCircuit
 
@@ -47,8 +47,8 @@ class ClearanceStudy:
     rated_current_a: float
     inrush: ridethrough.InrushCurves
     damage: damage.DamageCurve | None
-    evaluation: ridethrough.Evaluation
-    windows: tuple[ridethrough.CoordinationWindow, ...]
+    evaluation: coordination.Evaluation
+    windows: tuple[coordination.CoordinationWindow, ...]
     curves: tuple[DeviceCurves, ...]
     approximations: tuple[str, ...]
     warnings: tuple[tuple[str, str], ...]
@@ -180,19 +180,19 @@ def clearance_study(
         frequent=frequent_faults,
         insulation=insulation,
     )
-    evaluation = ridethrough.evaluate(
+    evaluation = coordination.evaluate(
         inrush,
         devices,
         curve,
         opening_time_s=opening_time_s,
         damage_current_factor=damage_current_factor,
     )
-    found: list[ridethrough.CoordinationWindow] = []
+    found: list[coordination.CoordinationWindow] = []
     if windows:
         for dev in devices:
             if isinstance(dev, ridethrough.Relay):
                 found.append(
-                    ridethrough.coordination_window(
+                    coordination.coordination_window(
                         dev,
                         inrush,
                         curve,

@@ -15,7 +15,7 @@ import pytest
 from scipy.integrate import quad
 from scipy.optimize import brentq
 
-from core import curves, damage, ridethrough
+from core import coordination, curves, damage, ridethrough
 from core.errors import ParameterError
 
 F = 60.0  # power frequency of the synthetic records [Hz]
@@ -333,12 +333,12 @@ def test_clearing_at_half_the_damage_time_has_margin_two() -> None:
         (c, 0.5 * s) for c, s in zip(DAMAGE.current, DAMAGE.time, strict=True)
     ]
     half = ridethrough.Fuse("f", table([(c * 0.9, s * 0.5) for c, s in pts]), table(pts))
-    got = ridethrough.protection_check(half, DAMAGE)
+    got = coordination.protection_check(half, DAMAGE)
     assert got.status == "protects"
     assert got.protects
     assert got.margin_ratio == pytest.approx(2.0, rel=1e-9)
     slow = ridethrough.Fuse("s", half.minimum_melt, table([(c, 20.0 * s) for c, s in pts]))
-    bad = ridethrough.protection_check(slow, DAMAGE)
+    bad = coordination.protection_check(slow, DAMAGE)
     assert bad.status == "does_not_protect"
     assert bad.margin_ratio == pytest.approx(0.1, rel=1e-9)
     assert bad.unprotected_from_a == pytest.approx(DAMAGE.current[0])
@@ -347,14 +347,14 @@ def test_clearing_at_half_the_damage_time_has_margin_two() -> None:
 
 def test_relay_protection_adds_opening_time_and_a_gap_is_partial() -> None:
     relay = ridethrough.Relay("51", "ieee_c37_112", "very_inverse", 1.2 * I_R, 1.0)
-    got = ridethrough.protection_check(relay, DAMAGE, opening_time_s=0.05)
+    got = coordination.protection_check(relay, DAMAGE, opening_time_s=0.05)
     m = DAMAGE.current / relay.pickup_a
     t_clear = 1.0 * (19.61 / (m**2 - 1) + 0.491) + 0.05
     assert got.margin_ratio <= float(np.min(DAMAGE.time / t_clear)) * (1 + 1e-12)
     assert got.clearing_curve == "relay curve + opening time"
     # pickup above the damage curve's 2 pu end: the lowest currents are never cleared (and just
     # above pickup too slowly), the highest are
-    high = ridethrough.protection_check(replace(relay, pickup_a=3.0 * I_R), DAMAGE)
+    high = coordination.protection_check(replace(relay, pickup_a=3.0 * I_R), DAMAGE)
     assert high.status == "partial"
     assert high.margin_ratio == 0.0
     assert high.unprotected_from_a == pytest.approx(2.0 * I_R)
@@ -371,14 +371,14 @@ def test_damage_factor_and_vertical_step() -> None:
     t_mech = float(cat4.time[np.searchsorted(cat4.current, step) + 1])
     clearing = [(1900.0, 0.6 * 1250 / 1.9**2), (step, 1.1 * t_mech), (1.1 * cat4.current[-1], 0.01)]
     fuse = ridethrough.Fuse("f", table([(1500.0, 1000.0), (20000.0, 0.01)]), table(clearing))
-    got = ridethrough.protection_check(fuse, cat4)
+    got = coordination.protection_check(fuse, cat4)
     assert not got.protects
     assert got.margin_current_a == pytest.approx(step, rel=1e-12)
     assert got.margin_ratio == pytest.approx(1 / 1.1, rel=1e-9)
     with pytest.raises(ParameterError, match="damage_current_factor"):
-        ridethrough.protection_check(fuse, cat4, damage_current_factor=1.5)
+        coordination.protection_check(fuse, cat4, damage_current_factor=1.5)
     with pytest.raises(ParameterError, match="total_clearing"):
-        ridethrough.protection_check(replace(fuse, total_clearing=None), cat4)
+        coordination.protection_check(replace(fuse, total_clearing=None), cat4)
 
 
 # ------------------------------------------------------------------------ coordination window
@@ -390,7 +390,7 @@ def test_window_limits_match_the_time_dial_scaling() -> None:
     t, i = record(12.0 * I_R, 1.0, 2.0, spc=32)
     inr = ridethrough.inrush_from_waveform(t, i, F, rated_current_a=I_R)
     relay = ridethrough.Relay("51", "ieee_c37_112", "very_inverse", 1.5 * I_R, 1.0)
-    win = ridethrough.coordination_window(relay, inr, DAMAGE, rtol=1e-6)
+    win = coordination.coordination_window(relay, inr, DAMAGE, rtol=1e-6)
     assert win.setting_range == (0.5, 15.0)
     assert win.exists
     assert win.lowest_riding_through is not None
@@ -406,8 +406,8 @@ def test_window_limits_match_the_time_dial_scaling() -> None:
     lo, hi = win.lowest_riding_through, win.highest_protecting
     assert not ridethrough.relay_ride_through(replace(relay, time_dial=lo), inr).trips
     assert ridethrough.relay_ride_through(replace(relay, time_dial=0.999 * lo), inr).trips
-    assert ridethrough.protection_check(replace(relay, time_dial=hi), DAMAGE).protects
-    assert not ridethrough.protection_check(replace(relay, time_dial=1.001 * hi), DAMAGE).protects
+    assert coordination.protection_check(replace(relay, time_dial=hi), DAMAGE).protects
+    assert not coordination.protection_check(replace(relay, time_dial=1.001 * hi), DAMAGE).protects
 
 
 def test_window_monotone_in_inrush_and_absent_cases() -> None:
@@ -416,7 +416,7 @@ def test_window_monotone_in_inrush_and_absent_cases() -> None:
     for amplitude, tau in ((12.0, 1.0), (12.0, 3.0), (14.0, 10.0)):  # longer inrush: higher TD
         t, i = record(amplitude * I_R, tau, 4.0, spc=32)
         inr = ridethrough.inrush_from_waveform(t, i, F)
-        win = ridethrough.coordination_window(relay, inr, DAMAGE)
+        win = coordination.coordination_window(relay, inr, DAMAGE)
         lows.append(win.lowest_riding_through or math.inf)
         highs.append(win.highest_protecting)
         assert win.exists == (lows[-1] <= (win.highest_protecting or 0.0))
@@ -432,13 +432,13 @@ def test_window_monotone_in_inrush_and_absent_cases() -> None:
     t, i = record(12.0 * I_R, 0.3, 1.0, spc=32)
     inr = ridethrough.inrush_from_waveform(t, i, F)
     inst = replace(relay, instantaneous_pickup_a=5.0 * I_R)
-    none = ridethrough.coordination_window(inst, inr, DAMAGE)
+    none = coordination.coordination_window(inst, inr, DAMAGE)
     assert not none.exists
     assert none.lowest_riding_through is None
     assert "rides through" in none.statement
     # none protects: the damage curve moved to 0.58 × its currents (delta-wye, line-to-ground)
     # starts at 1.16 pu, below the 1.5 pu pickup
-    unprotected = ridethrough.coordination_window(relay, inr, DAMAGE, damage_current_factor=0.58)
+    unprotected = coordination.coordination_window(relay, inr, DAMAGE, damage_current_factor=0.58)
     assert unprotected.highest_protecting is None
     assert not unprotected.exists
     assert unprotected.statement.endswith("protects against through-faults")
@@ -455,7 +455,7 @@ def test_evaluate_ranks_suitable_devices_and_reports_points_and_defaults() -> No
     better = ridethrough.Relay("better", "ieee_c37_112", "extremely_inverse", 1.5 * I_R, 1.0)
     melt = table([(1.8 * I_R, 2000.0), (40.0 * I_R, 0.01)])
     no_tc = ridethrough.Fuse("no_tc", melt)
-    ev = ridethrough.evaluate(inr, [fast, good, better, no_tc], DAMAGE)
+    ev = coordination.evaluate(inr, [fast, good, better, no_tc], DAMAGE)
     by = {e.device: e for e in ev.devices}
     assert by["fast"].ride_through.trips
     assert not by["fast"].suitable
@@ -479,7 +479,7 @@ def test_evaluate_ranks_suitable_devices_and_reports_points_and_defaults() -> No
     assert "common practice" in names["opening_time_s"].source
     assert names["no_tc.melt_current_factor"].value == 0.8
     with pytest.raises(ParameterError, match="devices"):
-        ridethrough.evaluate(inr, [good, good])
+        coordination.evaluate(inr, [good, good])
 
 
 def test_device_validation() -> None:
