@@ -218,7 +218,7 @@ def _eval(
 
 
 # fmt: off
-@numba.njit(cache=True)
+@numba.njit(cache=True, nogil=True)
 def _kernel(
     n_steps: int, spc: int, h: float, omega: float, cp: FloatArray, lpar: FloatArray,
     cv: FloatArray, tx: FloatArray, ti: FloatArray, inc: FloatArray, y0: FloatArray, stride: int,
