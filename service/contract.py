@@ -20,6 +20,7 @@ from service.examples import (
     PEAK_BATCH_REQUESTS,
     PEAK_REQUESTS,
     SHEET_REQUESTS,
+    STATISTICS_REQUESTS,
 )
 
 
@@ -42,6 +43,7 @@ def example_pairs() -> dict[str, dict[str, Any]]:
         ("inrush_peak_batch", "/v1/inrush/peak/batch", PEAK_BATCH_REQUESTS),
         ("clearance", "/v1/clearance", CLEARANCE_REQUESTS),
         ("generator_dip", "/v1/generator-dip", DIP_REQUESTS),
+        ("inrush_statistics", "/v1/inrush/statistics", STATISTICS_REQUESTS),
     ):
         for name, body in requests.items():
             resp = client.post(path, json=body)

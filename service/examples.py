@@ -258,3 +258,17 @@ DIP_EXAMPLES = {
         "value": DIP_REQUESTS["northgate_backfeed"],
     }
 }
+
+STATISTICS_REQUESTS: dict[str, dict[str, Any]] = {
+    "northgate_backfeed": {
+        "transformer": BACKFEED_UNIT,
+        "source": GENERATOR_SUBTRANSIENT,
+        "options": {"samples": 10000, "random_state": 1, "threshold_a": 15000},
+    },
+}
+STATISTICS_EXAMPLES = {
+    "northgate_backfeed": {
+        "summary": "Demo: P99 of the back-feed peak over random closing and residual flux",
+        "value": STATISTICS_REQUESTS["northgate_backfeed"],
+    }
+}
