@@ -22,7 +22,7 @@ schema = schemathesis.openapi.from_asgi("/v1/openapi.json", create_app())
 
 @schema.parametrize()
 @settings(
-    max_examples=40,
+    max_examples=25,
     deadline=None,
     derandomize=True,
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much],

@@ -1,5 +1,5 @@
 """Schemathesis's command line against a real uvicorn on 127.0.0.1: every operation, all checks
-(but positive_data_acceptance, see test_fuzz.py), a fixed seed, a bounded number of examples.
+(but positive_data_acceptance, see test_fuzz.py), a fixed random seed, a bounded number of examples.
 """
 
 from __future__ import annotations
@@ -61,7 +61,7 @@ def test_schemathesis_cli_all_checks(base_url: str, tmp_path: Path) -> None:
             [
                 exe, "run", base_url + "/v1/openapi.json", selector, "inrush_peak_batch",
                 "--checks", "all", "--exclude-checks", excluded,
-                "--max-examples", "15", "--seed", "20261201", "--workers", "1",
+                "--max-examples", "10", "--seed", "20261201", "--workers", "1",
             ],
             capture_output=True, text=True, timeout=900, check=False, cwd=tmp_path,
         )  # fmt: skip
