@@ -5,6 +5,7 @@ The comparison with scipy's integrators is in tests/references/test_solver_vs_sc
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
@@ -190,6 +191,40 @@ def test_grounded_wye_phases_are_independent_single_phase_circuits() -> None:
         )
 
 
+@pytest.mark.parametrize(
+    ("connection", "r_source_ohm"),
+    [("delta", 0.1), ("delta", 0.0), ("wye", 0.1)],
+    ids=["delta-coupled-kernel", "delta-ideal-source-kernel", "wye"],
+)
+def test_a_vanishing_source_inductance_is_the_limit_of_a_small_one(
+    connection: str, r_source_ohm: float
+) -> None:
+    # Limiting case L_s -> 0: the loop-flux state psi = lambda + L_s*M*c (delta; wye:
+    # lambda_k + L_s*i_k) becomes lambda and the flux solve becomes the identity, so
+    # L_s = 1e-12 H must give what L_s = 0 gives. For the delta with R_s = 0 the L_s = 0 case
+    # takes the independent-winding kernel (each winding on its line-to-line voltage) and the
+    # 1e-12 H case the coupled one, so this also ties the two kernels together. The physical
+    # difference is ~L_s/L_air ~ 1e-11 of the current and the flux solve stops at 1e-12 pu;
+    # measured 2.8e-11 of the peak at most, so 1e-9 of the peak leaves ample margin.
+    circuit = _demo_unit(connection, 13.8e3, "outer")
+    residual = np.array([0.8, -0.4, -0.4])
+    sims = [
+        energize.simulate(
+            dataclasses.replace(
+                circuit, source_resistance_ohm=r_source_ohm, source_inductance_h=ls
+            ),
+            (0.0, 100.0),
+            residual,
+            (0.0, 1.3e-3, 2.9e-3),
+            duration_s=3.0 / F_HZ,
+        )
+        for ls in (0.0, 1e-12)
+    ]
+    exact, tiny = (s.line_current_a for s in sims)
+    assert np.max(np.abs(exact)) > 2.0 * circuit.rated_line_current_a  # real inrush
+    np.testing.assert_allclose(tiny, exact, rtol=0.0, atol=1e-9 * np.max(np.abs(exact)))
+
+
 # ------------------------------------------------------------------ properties
 
 
@@ -279,6 +314,27 @@ def test_worst_closing_angle_single_phase_is_the_voltage_zero() -> None:
     assert worst.peak_a >= scanned.max() * (1.0 - 1e-12)
     assert worst.phase_index == 0
     assert worst.peaks_by_phase_a.shape == (1,)
+
+
+def test_worst_closing_angle_is_rounded_and_wrapped_into_a_turn() -> None:
+    # The search grid is built from floating-point steps centred on 180 deg, so the best angle
+    # near a voltage zero came out as -1e-14 and was reported as 359.99999999999997 deg; the
+    # angle is rounded to 1e-6 deg and wrapped into [0, 360).
+    circuit = _single_phase_unit()
+    for residual in (0.7, -0.7, 0.0):
+        worst = energize.worst_closing_angle(circuit, residual)
+        assert 0.0 <= worst.closing_angle_deg < 360.0
+        assert worst.closing_angle_deg == round(worst.closing_angle_deg, 6)
+    # b_r > 0: the worst instant is a rising voltage zero, alpha = 0 exactly on this grid
+    assert energize.worst_closing_angle(circuit, 0.7).closing_angle_deg == 0.0
+    # and the peak reported is the one simulated at the angle reported
+    worst = energize.worst_closing_angle(_demo_unit("delta", 13.8e3, "outer"), 0.3)
+    sim = energize.simulate(
+        _demo_unit("delta", 13.8e3, "outer"), worst.closing_angle_deg, 0.3, duration_s=2.0 / F_HZ
+    )
+    np.testing.assert_array_equal(
+        energize.refined_abs_peak(sim.line_current_a)[0], worst.peaks_by_phase_a
+    )
 
 
 # ------------------------------------------------------------------ shapes and validation
