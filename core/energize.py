@@ -368,7 +368,7 @@ def _rate(
     )
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, nogil=True)
 def _kernel(
     topo: int,
     n_steps: int,
@@ -665,8 +665,8 @@ def _independent(
 # The same kernel compiled twice: serially for small batches, and with its element loop spread
 # over the available cores (numba's prange) for large ones. Elements are independent, so both
 # give identical results.
-_kernel_independent = numba.njit(cache=True)(_independent)
-_kernel_independent_parallel = numba.njit(cache=True, parallel=True)(_independent)
+_kernel_independent = numba.njit(cache=True, nogil=True)(_independent)
+_kernel_independent_parallel = numba.njit(cache=True, nogil=True, parallel=True)(_independent)
 PARALLEL_MIN_ELEMENTS = 64
 
 
