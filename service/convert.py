@@ -164,15 +164,7 @@ def study_inputs(
         if sw.pole_delay_ms is not None
         else np.zeros(m)
     )
-    assumptions = [
-        Assumption(
-            name=a.name,
-            value=list(a.value) if isinstance(a.value, tuple) else a.value,
-            unit=a.unit,
-            source=a.source,
-        )
-        for a in circuit.assumptions
-    ]
+    assumptions = assumptions_out(circuit.assumptions)
     assumptions += extra
     assumptions.append(
         Assumption(
@@ -249,3 +241,16 @@ def method_out(analytic: bool, simulated: bool, approximations: Sequence[str]) -
         simulated=inrush.SIMULATED_METHOD if simulated else None,
         approximations=list(approximations),
     )
+
+
+def assumptions_out(items: Sequence[transformer.Assumption]) -> list[Assumption]:
+    """Core assumptions to response items."""
+    return [
+        Assumption(
+            name=a.name,
+            value=list(a.value) if isinstance(a.value, tuple) else a.value,
+            unit=a.unit,
+            source=a.source,
+        )
+        for a in items
+    ]

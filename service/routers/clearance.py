@@ -101,11 +101,7 @@ def _study(
         windows=opt.coordination_window,
         max_steps=settings.max_total_steps,
     )
-    assumptions += [
-        Assumption(name=a.name, value=list(a.value) if isinstance(a.value, tuple) else a.value,
-                   unit=a.unit, source=a.source)
-        for a in study.evaluation.assumptions
-    ]  # fmt: skip
+    assumptions += convert.assumptions_out(study.evaluation.assumptions)
     return study, assumptions
 
 

@@ -107,11 +107,7 @@ def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assump
         recovery_band_percent=opt.recovery_band_percent,
         voltage_measure=opt.voltage_measure,
     )
-    assumptions += [
-        Assumption(name=a.name, value=list(a.value) if isinstance(a.value, tuple) else a.value,
-                   unit=a.unit, source=a.source)
-        for a in report.study.assumptions
-    ]  # fmt: skip
+    assumptions += convert.assumptions_out(report.study.assumptions)
     return report, assumptions
 
 

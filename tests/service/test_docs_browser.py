@@ -1,7 +1,7 @@
 """The interactive docs work offline: headless Chromium against a real uvicorn on 127.0.0.1.
 
 Chromium records every request it makes in a NetLog; the test asserts the operations are
-listed on the page and that no request went anywhere but the loopback server. CI installs
+listed on the page and that no request went anywhere but the loopback live_server. CI installs
 Debian's ``chromium`` (.ci/run); elsewhere the test is skipped when no browser is present.
 """
 
@@ -10,12 +10,7 @@ from __future__ import annotations
 import json
 import os
 import shutil
-import socket
 import subprocess
-import sys
-import time
-import urllib.request
-from collections.abc import Iterator
 from pathlib import Path
 from urllib.parse import urlparse
 
@@ -27,37 +22,7 @@ pytestmark = pytest.mark.skipif(
 )
 
 
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        port: int = s.getsockname()[1]
-        return port
-
-
-@pytest.fixture(scope="module")
-def server() -> Iterator[str]:
-    port = _free_port()
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "uvicorn", "service.app:app", "--host", "127.0.0.1",
-         "--port", str(port), "--log-level", "warning"],
-        stderr=subprocess.DEVNULL,
-    )  # fmt: skip
-    base = f"http://127.0.0.1:{port}"
-    try:
-        for _ in range(150):
-            try:
-                with urllib.request.urlopen(base + "/readyz", timeout=1) as r:
-                    if r.status == 200:
-                        break
-            except OSError:
-                time.sleep(0.2)
-        yield base
-    finally:
-        proc.terminate()
-        proc.wait(timeout=10)
-
-
-def test_docs_page_lists_operations_offline(server: str, tmp_path: Path) -> None:
+def test_docs_page_lists_operations_offline(live_server: str, tmp_path: Path) -> None:
     assert BROWSER is not None, "CI must install Debian's chromium (.ci/run)"
     netlog = tmp_path / "netlog.json"
     out = subprocess.run(
@@ -66,7 +31,7 @@ def test_docs_page_lists_operations_offline(server: str, tmp_path: Path) -> None
             "--disable-background-networking", "--disable-component-update", "--no-first-run",
             "--disable-sync", "--disable-quic", f"--user-data-dir={tmp_path / 'profile'}",
             f"--log-net-log={netlog}", "--virtual-time-budget=15000", "--dump-dom",
-            server + "/docs",
+            live_server + "/docs",
         ],
         capture_output=True, text=True, timeout=120, check=False,
     )  # fmt: skip

@@ -1,0 +1,43 @@
+"""Shared fixtures: a real uvicorn serving the app on a free loopback port."""
+
+from __future__ import annotations
+
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from collections.abc import Iterator
+
+import pytest
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        port: int = s.getsockname()[1]
+        return port
+
+
+@pytest.fixture(scope="session")
+def live_server() -> Iterator[str]:
+    """Base URL of the service run by uvicorn on 127.0.0.1 for the whole session."""
+    port = _free_port()
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "uvicorn", "service.app:app", "--host", "127.0.0.1",
+         "--port", str(port), "--log-level", "warning"],
+        stderr=subprocess.DEVNULL,
+    )  # fmt: skip
+    url = f"http://127.0.0.1:{port}"
+    try:
+        for _ in range(300):
+            try:
+                with urllib.request.urlopen(url + "/readyz", timeout=1) as r:
+                    if r.status == 200:
+                        break
+            except OSError:
+                time.sleep(0.2)
+        yield url
+    finally:
+        proc.terminate()
+        proc.wait(timeout=10)
