@@ -55,15 +55,17 @@ is re-initialised from lambda, which is continuous. The solves stop at 1e-12 pu 
 that does not converge raises :class:`core.errors.ParameterError` rather than return a wrong
 current.
 
-Accuracy, measured against scipy's Radau at rtol 1e-9 (tests/references/test_solver_vs_scipy.py)
-as the worst of the first ten per-cycle peaks, relative to the first peak, read from the default
-128 samples per cycle: single phase and grounded wye at most 3.3e-5; delta 2.3e-6 on a 250 MVA
-source, 2.6e-4 on 50 MVA and 2.6e-4 on 20 MVA; ungrounded wye 2.3e-3 on an ideal source, 1.7e-3
-on 250 MVA and 1.6e-3 on 20 MVA. Against the same reference sampled at the output instants the
-integrator's own share is at most 4.2e-5 for both coupled connections; the rest is the reading of
-a peak from 128 samples per cycle (a parabola through the three around the largest), which the
-floating-neutral current, with a corner wherever a phase crosses the knee, defeats most. More
-samples per cycle reduce it.
+Accuracy (tests/references/test_solver_vs_scipy.py), as the worst of the first ten per-cycle
+peaks relative to the first peak, read from the default 128 samples per cycle, against scipy's
+Radau at rtol 1e-9 (for the floating neutral DOP853 at rtol 1e-10 on a system that holds the
+current sum exactly, Radau's own error being larger there): single phase and grounded wye at
+most 3.2e-5; delta 2.3e-6 on a 250 MVA source, 2.6e-4 on 50 MVA and 2.6e-4 on 20 MVA; ungrounded
+wye 2.3e-3 on an ideal source, 1.7e-3 on 250 MVA and 1.6e-3 on 20 MVA. Against the same
+references sampled at the output instants the coupled kernel is within 4.2e-5 (delta, most of it
+Radau's own error: against DOP853 at rtol 1e-12 the samples agree to 6e-6) and 8e-6 (wye). The
+rest is the reading of a peak from 128 samples per cycle (a parabola through the three around the
+largest), which the floating-neutral current, with a corner wherever a phase crosses the knee,
+defeats most; more samples per cycle reduce it (2.3e-3 becomes 1.2e-4 at 2048).
 """
 
 from __future__ import annotations
@@ -96,9 +98,12 @@ __all__ = [
 MIN_STEPS_PER_CYCLE = 128
 MAX_STEPS_PER_CYCLE = 16384
 # Newton's method recovering lambda from the coupled kernel's state: iteration cap and tolerance
-# on the flux residual and step [pu of lambda_N]. Warm-started from the previous stage, it takes
-# one iteration on a linear stretch and two or three across a knee (measured, module docstring);
-# 1e-12 pu is far below the integrator's error and some 1e3 times above double rounding.
+# on the flux residual and step [pu of lambda_N]. Warm-started from the previous stage it needs
+# few curve evaluations (measured per winding and RK4 step, 4 being the floor: delta 4.05 with a
+# two-slope curve, 4.2 with a table, 7.7 with the smooth knee; wye 12.5, 13.5 and 27, its
+# solves being nested). 1e-12 pu is far below the integrator's error and some 1e3 times above
+# double rounding. The cap is generous, bisection halving the wye's brackets and step halving
+# the delta's steps when a full step fails; it is a guard, not a budget.
 NEWTON_MAX_ITERATIONS = 60
 NEWTON_TOLERANCE_PU = 1e-12
 TOPOLOGY = {"single_phase": 0, "wye_grounded": 0, "wye": 1, "delta": 2}
@@ -249,15 +254,20 @@ def _delta_newton_step(
     on1: bool,
     on2: bool,
     ls: float,
+    tol: float,
 ) -> tuple[float, float, float, float]:  # pragma: no cover - compiled
     # Largest residual [Wb-turn] of lambda + L_s*M*f(lambda) = psi at lambda (currents i and
-    # slopes d there) and the Newton step, Jacobian I + L_s*M*D. Unenergised windings have a
-    # zero residual and an identity row, so their lambda stays.
+    # slopes d there) and the Newton step, Jacobian I + L_s*M*D (no step once the residual is
+    # within tol). Unenergised windings have a zero residual and an identity row, so their
+    # lambda stays.
     r0 = l0 + ls * (2.0 * i0 - i1 - i2) - y0 if on0 else 0.0
     r1 = l1 + ls * (2.0 * i1 - i2 - i0) - y1 if on1 else 0.0
     r2 = l2 + ls * (2.0 * i2 - i0 - i1) - y2 if on2 else 0.0
+    res = max(abs(r0), abs(r1), abs(r2))
+    if res <= tol:
+        return res, 0.0, 0.0, 0.0
     s0, s1, s2 = _solve_coupled(ls * d0, ls * d1, ls * d2, on0, on1, on2, r0, r1, r2)
-    return max(abs(r0), abs(r1), abs(r2)), -s0, -s1, -s2
+    return res, -s0, -s1, -s2
 
 
 @numba.njit(cache=True, inline="always")
@@ -469,13 +479,13 @@ def _kernel(
                         # not reduce the residual is halved (descent: the Newton direction
                         # shrinks every linearised residual alike)
                         b0, b1, b2 = l0, l1, l2  # last accepted point
-                        t0 = t1 = t2 = 0.0  # Newton step from it
+                        dl0 = dl1 = dl2 = 0.0  # Newton step from it
                         base = math.inf  # its residual
                         alpha = 1.0
                         for it in range(NEWTON_MAX_ITERATIONS + 1):
-                            res, n0, n1, n2 = _delta_newton_step(
+                            res, u0, u1, u2 = _delta_newton_step(
                                 l0, l1, l2, i0, i1, i2, d0, d1, d2, y0, y1, y2,
-                                on0, on1, on2, ls,
+                                on0, on1, on2, ls, ftol,
                             )  # fmt: skip
                             if res <= ftol:
                                 break
@@ -484,14 +494,14 @@ def _kernel(
                                 break
                             if res < base:
                                 b0, b1, b2 = l0, l1, l2
-                                t0, t1, t2 = n0, n1, n2
+                                dl0, dl1, dl2 = u0, u1, u2
                                 base = res
                                 alpha = 1.0
                             else:
                                 alpha *= 0.5
-                            l0 = b0 + alpha * t0
-                            l1 = b1 + alpha * t1
-                            l2 = b2 + alpha * t2
+                            l0 = b0 + alpha * dl0
+                            l1 = b1 + alpha * dl1
+                            l2 = b2 + alpha * dl2
                             i0, d0 = _winding_curve(
                                 l0, on0, kd, p0, p1, p2, p3, p4, c, flux, cur, top
                             )
@@ -501,7 +511,7 @@ def _kernel(
                             i2, d2 = _winding_curve(
                                 l2, on2, kd, p0, p1, p2, p3, p4, c, flux, cur, top
                             )
-                            if alpha == 1.0 and max(abs(t0), abs(t1), abs(t2)) <= ftol:
+                            if alpha == 1.0 and max(abs(dl0), abs(dl1), abs(dl2)) <= ftol:
                                 break  # a full step below the tolerance: converged
                     elif count >= 2:
                         # the shift s: sum_k I_k(y_k + s) = i_sum, I_k the current against the
