@@ -17,6 +17,17 @@ Runge-Kutta method (Kutta 1901) keeps its order there (the device of :mod:`core.
 The terminal voltage v_k = e_k - R_ph*i_k - L_ph*di_k/dt is evaluated from the same equations
 (di/dt solved from the two loop equations), so it is exact at every step, not differenced.
 
+A pre-insertion resistor R in the energising breaker sits in each line between the terminals
+and the transformer: while it is in, the transformer branch resistance R_w of each loop becomes
+R_w + R (wye) or R_w + 2R (a delta winding loop closes through two lines, as it closes through
+two phases of the source: the same "one winding carries the current" reduction as its 2 x Z_s);
+the bus-load loop and the source impedance through which v_k is computed are unchanged. The
+bypass is put on a step boundary, so no Runge-Kutta step straddles the jump in resistance, and
+the steps while it is in are split into equal sub-steps short enough for the inserted loop's
+time constant; the samples stay on the outer step. The energy it absorbs,
+R * sum over lines of the integral of i^2, is integrated with the same Runge-Kutta weights
+(the quadrature of an added state).
+
 Compiled with numba and looped over cases.
 """
 
@@ -25,7 +36,7 @@ from __future__ import annotations
 import cmath
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Protocol
 
 import numba
@@ -37,6 +48,7 @@ from core.magnetizing import PiecewiseLinearCurve, SmoothKneeCurve
 from core.transformer import EquivalentCircuit
 
 FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
 
 
 class SourceLike(Protocol):
@@ -48,7 +60,16 @@ class SourceLike(Protocol):
     def frequency_hz(self) -> float: ...
 
 
-__all__ = ["Case", "Raw", "SourceParameters", "build_case", "check_inputs", "check_range", "run"]
+__all__ = [
+    "Case",
+    "Raw",
+    "SourceParameters",
+    "build_case",
+    "check_inputs",
+    "check_insertion",
+    "check_range",
+    "run",
+]
 
 # steps per cycle floor: common practice of this project (core.energize uses the same floor);
 # the ceiling bounds the work.
@@ -222,13 +243,16 @@ def _eval(
 def _kernel(
     n_steps: int, spc: int, h: float, omega: float, cp: FloatArray, lpar: FloatArray,
     cv: FloatArray, tx: FloatArray, ti: FloatArray, inc: FloatArray, y0: FloatArray, stride: int,
-    out: FloatArray, means: FloatArray, wave: FloatArray,
+    out: FloatArray, means: FloatArray, wave: FloatArray, n_in: int, sub: IntArray,
+    lpar_in: FloatArray, energy: FloatArray,
 ) -> None:  # pragma: no cover - compiled
     """RK4 over every case.
 
     out[c, 0..3] per-cycle sums of v^2 (phase), v^2 (line), i^2 (transformer line) and the
     per-cycle peak |i| (refined by a parabola through a local maximum and its neighbours);
     means[c, 0..1] per-cycle sums of E''_q and E_fd; wave[c, 0..1] decimated v and i.
+    Steps j < n_in (the resistor inserted) use lpar_in and sub[c] equal sub-steps, and add
+    the integral of the squared transformer line currents over them to energy[c] [A^2*s].
     """
     n, ns = y0.shape
     nl = lpar.shape[1]
@@ -244,14 +268,20 @@ def _kernel(
     di = np.empty(3)
     work = np.empty((3, nl))
     for c in range(n):
+        hs = h / sub[c]
         guess = np.zeros(nl)
         y = y0[c].copy()
         prev2 = np.zeros(3)
         prev1 = np.zeros(3)
         args = (omega, cp[c], lpar[c], cv[c], tx[c], ti[c], inc, guess)
+        args_in = (omega, cp[c], lpar_in[c], cv[c], tx[c], ti[c], inc, guess)
         for j in range(n_steps + 1):
             t = j * h
-            _eval(t, y, *args, k1, il, it, v, di, work)
+            inserted = j < n_in
+            if inserted:
+                _eval(t, y, *args_in, k1, il, it, v, di, work)
+            else:
+                _eval(t, y, *args, k1, il, it, v, di, work)
             cyc = j // spc
             for k in range(3):
                 a = abs(it[k])
@@ -277,6 +307,31 @@ def _kernel(
                 means[c, 1, cyc] += y[2 * nl + 2]
             if j == n_steps:
                 break
+            if inserted:
+                p1 = it[0] * it[0] + it[1] * it[1] + it[2] * it[2]
+                for s in range(sub[c]):
+                    ts = t + s * hs
+                    if s > 0:
+                        _eval(ts, y, *args_in, k1, il, it, v, di, work)
+                        p1 = it[0] * it[0] + it[1] * it[1] + it[2] * it[2]
+                    for q in range(ns):
+                        tmp[q] = y[q] + 0.5 * hs * k1[q]
+                    _eval(ts + 0.5 * hs, tmp, *args_in, k2, il, it, v, di, work)
+                    p2 = it[0] * it[0] + it[1] * it[1] + it[2] * it[2]
+                    for q in range(ns):
+                        tmp[q] = y[q] + 0.5 * hs * k2[q]
+                    _eval(ts + 0.5 * hs, tmp, *args_in, k3, il, it, v, di, work)
+                    p3 = it[0] * it[0] + it[1] * it[1] + it[2] * it[2]
+                    for q in range(ns):
+                        tmp[q] = y[q] + hs * k3[q]
+                    _eval(ts + hs, tmp, *args_in, k4, il, it, v, di, work)
+                    p4 = it[0] * it[0] + it[1] * it[1] + it[2] * it[2]
+                    for q in range(ns):
+                        y[q] += hs / 6.0 * (k1[q] + 2.0 * k2[q] + 2.0 * k3[q] + k4[q])
+                    energy[c] += hs / 6.0 * (p1 + 2.0 * p2 + 2.0 * p3 + p4)
+                    if cp[c, _AVR] > 0.0:
+                        y[2 * nl + 2] = min(max(y[2 * nl + 2], cp[c, _EMIN]), cp[c, _EMAX])
+                continue
             for q in range(ns):
                 tmp[q] = y[q] + 0.5 * h * k1[q]
             _eval(t + 0.5 * h, tmp, *args, k2, il, it, v, di, work)
@@ -324,7 +379,13 @@ class SourceParameters:
 
 @dataclass(frozen=True)
 class Case:
-    """One case packed for the kernel, with its shortest time constant [s]."""
+    """One case packed for the kernel.
+
+    ``tau_min_s`` is its shortest time constant [s]; ``lpar_inserted`` the loop parameters with
+    the pre-insertion resistor in, ``tau_inserted_s`` the shortest time constant then [s],
+    ``insertion_resistance_ohm`` the resistor [ohm] and ``insertion_limit_ohm`` the largest
+    resistor the step limit allows for this circuit [ohm].
+    """
 
     cp: FloatArray
     lpar: FloatArray
@@ -335,6 +396,10 @@ class Case:
     y0: FloatArray
     tau_min_s: float
     field_voltage_pu: float
+    lpar_inserted: FloatArray | None = None
+    tau_inserted_s: float = math.inf
+    insertion_resistance_ohm: float = 0.0
+    insertion_limit_ohm: float = math.inf
 
 
 def _pack_curve(circuit: EquivalentCircuit, lp: float) -> tuple[FloatArray, FloatArray, FloatArray]:
@@ -360,6 +425,8 @@ def build_case(
     residual_flux_pu: FloatArray,
     load_w_var: tuple[float, float] | None,
     v0_pu: float,
+    *,
+    insertion_resistance_ohm: float = 0.0,
 ) -> Case:
     """Pack one case and its pre-event steady state.
 
@@ -377,6 +444,9 @@ def build_case(
         Bus load (P [W], Q [var]) at rated voltage, constant impedance.
     v0_pu : float
         Pre-event terminal voltage [pu].
+    insertion_resistance_ohm : float
+        Pre-insertion resistor in each line to the transformer, >= 0; whether and how long it
+        is in is decided by :func:`run` [ohm].
 
     Returns
     -------
@@ -388,6 +458,13 @@ def build_case(
     I_L = V/Z_L, E'' = V + (R + jX)*I_L; in E'''s frame I_q - j*I_d = I_L*e^(-j*beta)/I_b;
     E'_q = E''_q + (X'_d - X''_d)*I_d, E_fd = E'_q + (X_d - X'_d)*I_d (the d-axis equations at
     rest), V_ref = V_0 + E_fd/K_A.
+
+    With the resistor R in, a transformer loop's resistance is R_w + k*R + R_s,loop (k = 1 for
+    wye, 2 for a delta winding loop, which closes through two lines) and its shortest time
+    constant (L_air + L_loop)/(R_w + k*R + R_s,loop), L_loop the source inductance the loop
+    sees (in parallel with the bus load's for wye). The largest R for which that time constant
+    stays at or above 4 steps of the finest allowed step, 4/(f*MAX_STEPS_PER_CYCLE), is
+    ``insertion_limit_ohm``.
     """
     f = circuit.frequency_hz
     omega = 2.0 * math.pi * f
@@ -430,6 +507,10 @@ def build_case(
     delta = circuit.connection == "delta"
     nl = 6 if delta else 3
     lpar = np.zeros((nl, 9))
+    r_ins = float(insertion_resistance_ohm)
+    k_ins = 2.0 if delta else 1.0  # delta: the winding loop closes through two line resistors
+    r_limit = math.inf
+    tau_ins: list[float] = []
     inc = np.zeros((2, 3, nl))
     y0 = np.zeros(2 * nl + 4)
     width = circuit.curve.flux_wb.size if isinstance(circuit.curve, PiecewiseLinearCurve) else 2
@@ -487,13 +568,40 @@ def build_case(
         r_loop = circuit.winding_resistance_ohm + lpar[jt, _RS]
         if r_loop > 0.0:
             tau.append((circuit.air_core_inductance_h + ls_t) / r_loop)
+        l_loop = circuit.air_core_inductance_h + lp
+        r_loop_ins = r_loop + k_ins * r_ins
+        if r_loop_ins > 0.0:
+            tau_ins.append(l_loop / r_loop_ins)
+        r_limit = min(r_limit, (l_loop * f * MAX_STEPS_PER_CYCLE / 4.0 - r_loop) / k_ins)
     y0[2 * nl :] = (e2, e1, efd, v0_pu)
-    return Case(cp, lpar, cvs, tx, ti, inc, y0, min(tau), efd)
+    lpar_ins = lpar.copy()
+    lpar_ins[lpar[:, _HTR] > 0.0, _RW] = circuit.winding_resistance_ohm + k_ins * r_ins
+    return Case(
+        cp,
+        lpar,
+        cvs,
+        tx,
+        ti,
+        inc,
+        y0,
+        min(tau),
+        efd,
+        lpar_ins,
+        min(tau + tau_ins),
+        r_ins,
+        r_limit,
+    )
 
 
 @dataclass(frozen=True)
 class Raw:
-    """Kernel output: per-cycle values, shapes (n_cases, 3, n_cycles) or (n_cases, n_cycles)."""
+    """Kernel output: per-cycle values, shapes (n_cases, 3, n_cycles) or (n_cases, n_cycles).
+
+    ``insertion_energy_j`` (n_cases,) is the energy each case's pre-insertion resistor absorbs
+    [J]; ``bypass_time_s`` the instant it is bypassed, on the step grid (0 when it is never in,
+    past the simulated time when it is never bypassed) [s]; ``insertion_substeps`` (n_cases,)
+    the sub-steps per step while it is in [-].
+    """
 
     steps_per_cycle: int
     v_rms_pu: FloatArray
@@ -505,6 +613,9 @@ class Raw:
     wave_t_s: FloatArray
     wave_v: FloatArray
     wave_i: FloatArray
+    insertion_energy_j: FloatArray = field(default_factory=lambda: np.zeros(0))
+    bypass_time_s: float = 0.0
+    insertion_substeps: IntArray = field(default_factory=lambda: np.ones(0, dtype=np.int64))
 
 
 def run(
@@ -514,6 +625,8 @@ def run(
     duration_s: float,
     steps_per_cycle: int,
     wave_points: int,
+    *,
+    insertion_time_s: float = 0.0,
 ) -> Raw:
     """Integrate every case over whole cycles.
 
@@ -532,10 +645,28 @@ def run(
         constant (accuracy and stability of the explicit method) [-].
     wave_points : int
         About this many waveform samples returned (0: none) [-].
+    insertion_time_s : float
+        Each case's pre-insertion resistor (:func:`build_case`) is in from t = 0 to this
+        instant rounded to the nearest step, then bypassed; nothing changes when it is 0 or
+        every case's resistor is 0 [s].
 
     Returns
     -------
     Raw
+
+    Raises
+    ------
+    ParameterError
+        When a time constant needs more than MAX_STEPS_PER_CYCLE steps per cycle: naming
+        ``time_constants``, or ``insertion_resistance_ohm`` with the largest resistor the
+        circuit allows.
+
+    Notes
+    -----
+    While the resistor is in, each step of each case is split into the fewest equal sub-steps
+    that keep the sub-step at or below a quarter of that case's shortest time constant with it
+    in (the same rule as the step), the outputs staying on the step grid; unlike the step,
+    which all cases share, a case's sub-steps do not depend on the other cases run with it.
     """
     f = frequency_hz
     if not (isinstance(steps_per_cycle, int) and steps_per_cycle >= MIN_STEPS_PER_CYCLE):
@@ -554,6 +685,31 @@ def run(
     n_steps = n_cyc * spc
     h = 1.0 / (f * spc)
     n = len(cases)
+    n_in = 0
+    sub = np.ones(n, dtype=np.int64)
+    if any(c.insertion_resistance_ohm > 0.0 for c in cases):
+        n_in = math.floor(check_insertion(0.0, insertion_time_s)[1] * f * spc + 0.5)
+    if n_in > 0:
+        worst = min(cases, key=lambda c: c.insertion_limit_ohm - c.insertion_resistance_ohm)
+        if worst.insertion_resistance_ohm > worst.insertion_limit_ohm:
+            raise ParameterError(
+                "insertion_resistance_ohm",
+                worst.insertion_resistance_ohm,
+                f"[0, {max(worst.insertion_limit_ohm, 0.0):.4g}] ohm for this circuit and "
+                "source: a larger resistor makes the transformer loop's time constant while it "
+                f"is in shorter than {4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s, too short for "
+                f"the fixed step ({MAX_STEPS_PER_CYCLE} steps per cycle at most)",
+            )
+        for i, c in enumerate(cases):
+            if c.tau_inserted_s < math.inf:
+                sub[i] = max(1, -(-math.ceil(4.0 / (f * c.tau_inserted_s)) // spc))
+    lpar = np.ascontiguousarray(np.stack([c.lpar for c in cases]))
+    lpar_in = lpar
+    if n_in > 0:
+        lpar_in = np.ascontiguousarray(
+            np.stack([c.lpar if c.lpar_inserted is None else c.lpar_inserted for c in cases])
+        )
+    energy = np.zeros(n)
     width = max(c.tx.shape[1] for c in cases)
 
     def pad(a: FloatArray) -> FloatArray:
@@ -575,7 +731,7 @@ def run(
         h,
         2.0 * math.pi * f,
         stack(lambda c: c.cp),
-        stack(lambda c: c.lpar),
+        lpar,
         stack(lambda c: c.cv),
         stack(lambda c: pad(c.tx)),
         stack(lambda c: pad(c.ti)),
@@ -585,6 +741,10 @@ def run(
         out,
         means,
         wave,
+        n_in,
+        sub,
+        lpar_in,
+        energy,
     )
     if not np.all(np.isfinite(out)):
         raise ParameterError("circuit", "non-finite result", "a circuit that stays finite")
@@ -600,6 +760,9 @@ def run(
         wave_t_s=t_wave,
         wave_v=wave[:, 0] if stride else np.zeros((n, 3, 0)),
         wave_i=wave[:, 1] if stride else np.zeros((n, 3, 0)),
+        insertion_energy_j=np.array([c.insertion_resistance_ohm for c in cases]) * energy,
+        bypass_time_s=n_in * h,
+        insertion_substeps=sub,
     )
 
 
@@ -611,6 +774,27 @@ def check_range(
     if not (math.isfinite(v) and (v > low if open_low else v >= low) and v <= high):
         raise ParameterError(name, value, f"in {'(' if open_low else '['}{low:g}, {high:g}]")
     return v
+
+
+def check_insertion(resistance_ohm: float, time_s: float) -> tuple[float, float]:
+    """Validate a pre-insertion resistor [ohm] and its insertion time [s]; return both as floats.
+
+    The resistance must be finite and >= 0 (the largest a circuit allows is checked by
+    :func:`run`, which knows the step); the time in [0, 600] s, the longest simulated duration.
+    """
+    try:
+        r = float(resistance_ohm)
+    except (TypeError, ValueError):
+        r = math.nan
+    if not (math.isfinite(r) and r >= 0.0):
+        raise ParameterError("insertion_resistance_ohm", resistance_ohm, "finite and >= 0")
+    try:
+        t = float(time_s)
+    except (TypeError, ValueError):
+        t = math.nan
+    if not (math.isfinite(t) and 0.0 <= t <= 600.0):
+        raise ParameterError("insertion_time_s", time_s, "in [0, 600]")
+    return r, t
 
 
 def check_inputs(

@@ -3,7 +3,8 @@
 One call for the ``/v1/generator-dip`` operation, combining :func:`core.dip.energize_from_source`
 (the coupled simulation and the hand method beside it), :func:`core.generator.verdicts` (ISO
 8528-5 classes or a caller's limit) and, for a generator source, :func:`core.dip.smallest_generator`
-(the smallest rating with the same per-unit data that keeps the dip within the limit).
+(the smallest rating with the same per-unit data that keeps the dip within the limit). An
+optional pre-insertion resistor in the energising breaker is passed to both.
 """
 
 from __future__ import annotations
@@ -42,6 +43,8 @@ def dip_study(
     recovery_band_percent: float = 3.0,
     voltage_measure: dip.Measure = "worst",
     waveform_points: int = 0,
+    insertion_resistance_ohm: float = 0.0,
+    insertion_time_s: float = 0.0,
 ) -> DipReport:
     """Dip and recovery of one energisation, judged, with the passing generator size.
 
@@ -71,10 +74,20 @@ def dip_study(
         ``"worst"``, ``"line"`` or ``"phase"``: which rms voltage the dip is read from.
     waveform_points : int
         Return the terminal voltages and currents with at most this many points [-].
+    insertion_resistance_ohm : float
+        Pre-insertion resistor of the energising breaker in each line to the transformer, >= 0;
+        0 for none (see :func:`core.dip.energize_from_source`) [ohm].
+    insertion_time_s : float
+        Time from closing to its bypass, in [0, 600]; 0 for none [s].
 
     Returns
     -------
     DipReport
+
+    Raises
+    ------
+    ParameterError
+        On inputs outside the model's range, naming the parameter.
     """
     study = dip.energize_from_source(
         source,
@@ -87,6 +100,8 @@ def dip_study(
         recovery_band_percent=recovery_band_percent,
         voltage_measure=voltage_measure,
         waveform_points=waveform_points,
+        insertion_resistance_ohm=insertion_resistance_ohm,
+        insertion_time_s=insertion_time_s,
     )
     judged = generator.verdicts(
         study.dip_percent, study.recovery_time_s, limits, simulated_s=duration_s
@@ -102,5 +117,7 @@ def dip_study(
             excitation=excitation,
             bus_load=bus_load,
             voltage_measure=voltage_measure,
+            insertion_resistance_ohm=insertion_resistance_ohm,
+            insertion_time_s=insertion_time_s,
         )
     return DipReport(study, judged, sizing)
