@@ -34,7 +34,7 @@ Model (per case, three phases; SI, the machine states per unit on the machine ra
   field.
 * Transformer: each winding of the :class:`core.transformer.EquivalentCircuit` with its
   magnetising curve; an optional constant-impedance bus load in parallel at the terminals.
-  Loop fluxes as states; see :mod:`core.dip_solver`.
+  Loop fluxes as states; see :mod:`core.dip_kernel`.
 * Pre-insertion resistor (optional): a linear resistor R in each line of the energising
   breaker, between the terminals (where the dip is measured and the bus load is connected) and
   the transformer, from closing until ``insertion_time_s``, then bypassed on all poles

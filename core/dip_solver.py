@@ -1,34 +1,12 @@
-"""Numerical solver behind :mod:`core.dip`: a source with d-axis dynamics energising a transformer.
+"""Case building, step planning and validation behind :mod:`core.dip`.
 
-This module holds only the numerics; the physics, its simplifications and references are in the
-docstrings of :mod:`core.dip` and :mod:`core.generator`. Per case and per loop (a wye phase, or
-a delta winding and a bus-load phase) the states are the loop fluxes
-
-    psi = lambda + L_s*(i_T + i_L),   d(psi)/dt = e - R_s*(i_T + i_L) - R_w*i_T
-    phi = L_L*i_L + L_s*(i_T + i_L),  d(phi)/dt = e - R_s*(i_T + i_L) - R_L*i_L
-
-(Kirchhoff's voltage law around the source-winding and source-load loops) and, per case, the
-machine states E''_q, E'_q, E_fd and the sensed voltage V_s. The currents follow from the states
-by lambda + L_p*f(lambda) = psi - phi*L_s/(L_L + L_s), L_p = L_s*L_L/(L_s + L_L), and
-i_L = (phi - L_s*i_T)/(L_L + L_s): for a piecewise-linear curve this is the same curve with its
-breakpoints moved by L_p*i (exact); for the smooth knee a Newton iteration. The right-hand side
-is then a continuous function of the state even at a sharp knee, so the classical fixed-step
-Runge-Kutta method (Kutta 1901) keeps its order there (the device of :mod:`core.energize`).
-The terminal voltage v_k = e_k - R_ph*i_k - L_ph*di_k/dt is evaluated from the same equations
-(di/dt solved from the two loop equations), so it is exact at every step, not differenced.
-
-A pre-insertion resistor R in the energising breaker sits in each line between the terminals
-and the transformer: while it is in, the transformer branch resistance R_w of each loop becomes
-R_w + R (wye) or R_w + 2R (a delta winding loop closes through two lines, as it closes through
-two phases of the source: the same "one winding carries the current" reduction as its 2 x Z_s);
-the bus-load loop and the source impedance through which v_k is computed are unchanged. The
-bypass is put on a step boundary, so no Runge-Kutta step straddles the jump in resistance, and
-the steps while it is in are split into equal sub-steps short enough for the inserted loop's
-time constant; the samples stay on the outer step. The energy it absorbs,
-R * sum over lines of the integral of i^2, is integrated with the same Runge-Kutta weights
-(the quadrature of an added state).
-
-Compiled with numba and looped over cases.
+:func:`build_case` reduces a source and a transformer circuit to the packed arrays of
+:mod:`core.dip_kernel` together with the pre-event steady state; :func:`run` chooses the step
+(at least 128 per cycle, short enough for every time constant, with sub-steps while a
+pre-insertion resistor is in), calls the compiled kernel :func:`core.dip_kernel.integrate` on
+every case and returns per-cycle results. The equations the kernel integrates are in
+:mod:`core.dip_kernel`; the physics, its simplifications and references in :mod:`core.dip`
+and :mod:`core.generator`.
 """
 
 from __future__ import annotations
@@ -39,12 +17,45 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Protocol
 
-import numba
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from core.dip_kernel import (
+    AMP,
+    AVR,
+    BETA,
+    DYN,
+    EB,
+    EMAX,
+    EMIN,
+    HLD,
+    HTR,
+    IB,
+    KA,
+    LL,
+    LPH,
+    LS,
+    NCP,
+    NLP,
+    PHS,
+    RA,
+    RL,
+    RPH,
+    RS,
+    RW,
+    T1O,
+    T2O,
+    TA,
+    TR,
+    VREF,
+    X1,
+    X2,
+    XD,
+    integrate,
+    pack_curve,
+)
 from core.errors import ParameterError
-from core.magnetizing import PiecewiseLinearCurve, SmoothKneeCurve
+from core.magnetizing import PiecewiseLinearCurve
 from core.transformer import EquivalentCircuit
 
 FloatArray = NDArray[np.float64]
@@ -75,279 +86,6 @@ __all__ = [
 # the ceiling bounds the work.
 MIN_STEPS_PER_CYCLE = 128
 MAX_STEPS_PER_CYCLE = 16384
-
-# per-case parameter columns (cp)
-_BETA, _EB, _DYN, _AVR, _IB, _RPH, _LPH = range(7)
-_X2, _X1, _XD, _T2O, _T1O, _RA, _KA, _TA, _EMAX, _EMIN, _TR, _VREF = range(7, 19)
-_NCP = 19
-# per-loop parameter columns (lp)
-_AMP, _PHS, _RS, _LS, _HTR, _RW, _HLD, _RL, _LL = range(9)
-
-
-@numba.njit(cache=True)
-def _invert(
-    cv: FloatArray, tx: FloatArray, ti: FloatArray, lp: float, chi: float, guess: float
-) -> tuple[float, float, float]:  # pragma: no cover - compiled
-    """Current i, slope di/d(lambda) and lambda for lambda + lp*f(lambda) = chi.
-
-    cv = (kind, n_points, p0..p4): kind 0 a piecewise-linear table already in chi (p0 the final
-    slope di/d(chi)); kind 1 the smooth knee (p0..p4 = 1/L_m, 1/L_air - 1/L_m, lambda_S,
-    width, g0).
-    """
-    x = abs(chi)
-    sg = 1.0 if chi >= 0.0 else -1.0
-    if cv[0] == 0.0:
-        top = int(cv[1]) - 1
-        if x >= tx[top]:
-            sl = cv[2]
-            cur = ti[top] + (x - tx[top]) * sl
-        else:
-            lo = 0
-            hi = top
-            while hi - lo > 1:
-                mid = (lo + hi) // 2
-                if tx[mid] < x:
-                    lo = mid
-                else:
-                    hi = mid
-            sl = (ti[hi] - ti[lo]) / (tx[hi] - tx[lo])
-            cur = ti[lo] + (x - tx[lo]) * sl
-        return sg * cur, sl / (1.0 - lp * sl), guess
-    a, b, ks, e, g0 = cv[2], cv[3], cv[4], cv[5], cv[6]
-    lam = min(abs(guess), x)
-    for _ in range(60):
-        s = lam - ks
-        r = math.sqrt(s * s + e * e)
-        step = (lam + lp * (a * lam + b * (0.5 * (s + r) - g0)) - x) / (
-            1.0 + lp * (a + b * 0.5 * (1.0 + s / r))
-        )
-        lam = max(lam - step, 0.0)
-        if abs(step) <= 1e-14 * (x + 1e-300):
-            break
-    s = lam - ks
-    r = math.sqrt(s * s + e * e)
-    return sg * (a * lam + b * (0.5 * (s + r) - g0)), a + b * 0.5 * (1.0 + s / r), sg * lam
-
-
-# fmt: off
-@numba.njit(cache=True)
-def _eval(
-    t: float, y: FloatArray, omega: float, cp: FloatArray, lpar: FloatArray, cv: FloatArray,
-    tx: FloatArray, ti: FloatArray, inc: FloatArray, guess: FloatArray, dy: FloatArray,
-    i_line: FloatArray, i_tr: FloatArray, v: FloatArray, di: FloatArray, work: FloatArray,
-) -> None:  # pragma: no cover - compiled
-    """Derivatives of one case's states at t; fills line and transformer currents, voltages."""
-    nl = lpar.shape[0]
-    e2 = y[2 * nl]
-    e1 = y[2 * nl + 1]
-    efd = y[2 * nl + 2]
-    vs = y[2 * nl + 3]
-    th = omega * t + cp[_BETA]
-    for k in range(3):
-        di[k] = 0.0
-        i_line[k] = 0.0
-        i_tr[k] = 0.0
-    # currents from the loop fluxes (they do not depend on the EMF)
-    for j in range(nl):
-        p = lpar[j]
-        ls = p[_LS]
-        den = p[_LL] + ls
-        cur = 0.0
-        il = 0.0
-        fp = 0.0
-        if p[_HTR] > 0.0:
-            if p[_HLD] > 0.0:
-                chi = y[j] - y[nl + j] * ls / den
-                cur, fp, g = _invert(cv[j], tx[j], ti[j], ls * p[_LL] / den, chi, guess[j])
-                il = (y[nl + j] - ls * cur) / den
-            else:
-                cur, fp, g = _invert(cv[j], tx[j], ti[j], ls, y[j], guess[j])
-            guess[j] = g
-        elif p[_HLD] > 0.0:
-            il = y[nl + j] / den
-        work[0, j] = cur
-        work[1, j] = il
-        work[2, j] = fp
-        for k in range(3):
-            i_line[k] += inc[0, k, j] * cur + inc[1, k, j] * il
-            i_tr[k] += inc[0, k, j] * cur
-    # machine: Park d component of the current in the EMF's frame [pu of rated rms current],
-    # positive lagging; the d-axis flux-decay equations
-    sd = 0.0
-    for k in range(3):
-        sd -= i_line[k] * math.cos(th - 2.0 * math.pi * k / 3.0)
-    i_d = sd / (1.5 * math.sqrt(2.0) * cp[_IB])
-    for q in range(4):
-        dy[2 * nl + q] = 0.0
-    if cp[_DYN] > 0.0:
-        dy[2 * nl] = (e1 - e2 - (cp[_X1] - cp[_X2]) * i_d) / cp[_T2O]
-        dy[2 * nl + 1] = (efd - e1 - (cp[_XD] - cp[_X1]) * i_d) / cp[_T1O]
-    # EMF = d/dt of the rotating rotor flux: E''_q*sin(theta_k) - (dE''_q/dt/omega)*cos(theta_k)
-    rate = dy[2 * nl] / omega
-    for j in range(nl):
-        p = lpar[j]
-        ls = p[_LS]
-        ll = p[_LL]
-        den = ll + ls
-        cur = work[0, j]
-        il = work[1, j]
-        fp = work[2, j]
-        ang = th + p[_PHS]
-        e = cp[_EB] * p[_AMP] * (e2 * math.sin(ang) - rate * math.cos(ang))
-        itot = cur + il
-        dpsi = e - p[_RS] * itot - p[_RW] * cur
-        dphi = e - p[_RS] * itot - p[_RL] * il
-        htr = p[_HTR] > 0.0
-        hld = p[_HLD] > 0.0
-        dy[j] = dpsi if htr else 0.0
-        dy[nl + j] = dphi if hld else 0.0
-        dc = 0.0
-        dl = 0.0
-        if htr and hld:
-            dd = den + ls * ll * fp
-            dc = fp * (den * dpsi - ls * dphi) / dd
-            dl = ((1.0 + ls * fp) * dphi - ls * fp * dpsi) / dd
-        elif htr:
-            dc = fp * dpsi / (1.0 + ls * fp)
-        elif hld:
-            dl = dphi / den
-        for k in range(3):
-            di[k] += inc[0, k, j] * dc + inc[1, k, j] * dl
-    vd = 0.0
-    vq = 0.0
-    for k in range(3):
-        a = th - 2.0 * math.pi * k / 3.0
-        e = cp[_EB] * (e2 * math.sin(a) - rate * math.cos(a))
-        v[k] = e - cp[_RPH] * i_line[k] - cp[_LPH] * di[k]
-        vd += v[k] * math.cos(a)
-        vq += v[k] * math.sin(a)
-    if cp[_DYN] > 0.0 and cp[_AVR] > 0.0:
-        # magnitude of the terminal-voltage space vector (positive and negative sequence, no
-        # zero sequence) [pu of rated phase voltage]
-        valg = math.sqrt(vd * vd + vq * vq) / (1.5 * cp[_EB])
-        if cp[_TR] > 0.0:
-            dy[2 * nl + 3] = (valg - vs) / cp[_TR]
-        else:
-            vs = valg
-        de = (cp[_KA] * (cp[_VREF] - vs) - efd) / cp[_TA]
-        if (efd >= cp[_EMAX] and de > 0.0) or (efd <= cp[_EMIN] and de < 0.0):
-            de = 0.0
-        dy[2 * nl + 2] = de
-
-
-# fmt: on
-
-
-# fmt: off
-@numba.njit(cache=True, nogil=True)
-def _kernel(
-    n_steps: int, spc: int, h: float, omega: float, cp: FloatArray, lpar: FloatArray,
-    cv: FloatArray, tx: FloatArray, ti: FloatArray, inc: FloatArray, y0: FloatArray, stride: int,
-    out: FloatArray, means: FloatArray, wave: FloatArray, n_in: int, sub: IntArray,
-    lpar_in: FloatArray, energy: FloatArray,
-) -> None:  # pragma: no cover - compiled
-    """RK4 over every case.
-
-    out[c, 0..3] per-cycle sums of v^2 (phase), v^2 (line), i^2 (transformer line) and the
-    per-cycle peak |i| (refined by a parabola through a local maximum and its neighbours);
-    means[c, 0..1] per-cycle sums of E''_q and E_fd; wave[c, 0..1] decimated v and i.
-    Steps j < n_in (the resistor inserted) use lpar_in and sub[c] equal sub-steps, and add
-    the integral of the squared transformer line currents over them to energy[c] [A^2*s].
-    """
-    n, ns = y0.shape
-    nl = lpar.shape[1]
-    ncyc = out.shape[3]
-    k1 = np.empty(ns)
-    k2 = np.empty(ns)
-    k3 = np.empty(ns)
-    k4 = np.empty(ns)
-    tmp = np.empty(ns)
-    il = np.empty(3)
-    it = np.empty(3)
-    v = np.empty(3)
-    di = np.empty(3)
-    work = np.empty((3, nl))
-    for c in range(n):
-        hs = h / sub[c]
-        guess = np.zeros(nl)
-        y = y0[c].copy()
-        prev2 = np.zeros(3)
-        prev1 = np.zeros(3)
-        args = (omega, cp[c], lpar[c], cv[c], tx[c], ti[c], inc, guess)
-        args_in = (omega, cp[c], lpar_in[c], cv[c], tx[c], ti[c], inc, guess)
-        for j in range(n_steps + 1):
-            t = j * h
-            inserted = j < n_in
-            if inserted:
-                _eval(t, y, *args_in, k1, il, it, v, di, work)
-            else:
-                _eval(t, y, *args, k1, il, it, v, di, work)
-            cyc = j // spc
-            for k in range(3):
-                a = abs(it[k])
-                if cyc < ncyc:
-                    vll = v[k] - v[(k + 1) % 3]
-                    out[c, 0, k, cyc] += v[k] * v[k]
-                    out[c, 1, k, cyc] += vll * vll
-                    out[c, 2, k, cyc] += a * a
-                    out[c, 3, k, cyc] = max(out[c, 3, k, cyc], a)
-                if j >= 2 and prev1[k] >= prev2[k] and prev1[k] >= a:
-                    den = 2.0 * prev1[k] - prev2[k] - a
-                    pc = (j - 1) // spc
-                    if den > 0.0 and pc < ncyc:
-                        vert = prev1[k] + (prev2[k] - a) ** 2 / (8.0 * den)
-                        out[c, 3, k, pc] = max(out[c, 3, k, pc], vert)
-                prev2[k] = prev1[k]
-                prev1[k] = a
-                if stride > 0 and j % stride == 0 and j // stride < wave.shape[3]:
-                    wave[c, 0, k, j // stride] = v[k]
-                    wave[c, 1, k, j // stride] = it[k]
-            if cyc < ncyc:
-                means[c, 0, cyc] += y[2 * nl]
-                means[c, 1, cyc] += y[2 * nl + 2]
-            if j == n_steps:
-                break
-            if inserted:
-                p1 = it[0] * it[0] + it[1] * it[1] + it[2] * it[2]
-                for s in range(sub[c]):
-                    ts = t + s * hs
-                    if s > 0:
-                        _eval(ts, y, *args_in, k1, il, it, v, di, work)
-                        p1 = it[0] * it[0] + it[1] * it[1] + it[2] * it[2]
-                    for q in range(ns):
-                        tmp[q] = y[q] + 0.5 * hs * k1[q]
-                    _eval(ts + 0.5 * hs, tmp, *args_in, k2, il, it, v, di, work)
-                    p2 = it[0] * it[0] + it[1] * it[1] + it[2] * it[2]
-                    for q in range(ns):
-                        tmp[q] = y[q] + 0.5 * hs * k2[q]
-                    _eval(ts + 0.5 * hs, tmp, *args_in, k3, il, it, v, di, work)
-                    p3 = it[0] * it[0] + it[1] * it[1] + it[2] * it[2]
-                    for q in range(ns):
-                        tmp[q] = y[q] + hs * k3[q]
-                    _eval(ts + hs, tmp, *args_in, k4, il, it, v, di, work)
-                    p4 = it[0] * it[0] + it[1] * it[1] + it[2] * it[2]
-                    for q in range(ns):
-                        y[q] += hs / 6.0 * (k1[q] + 2.0 * k2[q] + 2.0 * k3[q] + k4[q])
-                    energy[c] += hs / 6.0 * (p1 + 2.0 * p2 + 2.0 * p3 + p4)
-                    if cp[c, _AVR] > 0.0:
-                        y[2 * nl + 2] = min(max(y[2 * nl + 2], cp[c, _EMIN]), cp[c, _EMAX])
-                continue
-            for q in range(ns):
-                tmp[q] = y[q] + 0.5 * h * k1[q]
-            _eval(t + 0.5 * h, tmp, *args, k2, il, it, v, di, work)
-            for q in range(ns):
-                tmp[q] = y[q] + 0.5 * h * k2[q]
-            _eval(t + 0.5 * h, tmp, *args, k3, il, it, v, di, work)
-            for q in range(ns):
-                tmp[q] = y[q] + h * k3[q]
-            _eval(t + h, tmp, *args, k4, il, it, v, di, work)
-            for q in range(ns):
-                y[q] += h / 6.0 * (k1[q] + 2.0 * k2[q] + 2.0 * k3[q] + k4[q])
-            if cp[c, _AVR] > 0.0:
-                y[2 * nl + 2] = min(max(y[2 * nl + 2], cp[c, _EMIN]), cp[c, _EMAX])
-
-
-# fmt: on
 
 
 @dataclass(frozen=True)
@@ -400,22 +138,6 @@ class Case:
     tau_inserted_s: float = math.inf
     insertion_resistance_ohm: float = 0.0
     insertion_limit_ohm: float = math.inf
-
-
-def _pack_curve(circuit: EquivalentCircuit, lp: float) -> tuple[FloatArray, FloatArray, FloatArray]:
-    """Curve of one winding in the loop variable chi = lambda + lp*i (see :func:`_invert`)."""
-    cv = circuit.curve
-    out = np.zeros(7)
-    if isinstance(cv, PiecewiseLinearCurve):
-        out[:3] = (0.0, cv.flux_wb.size, 1.0 / (cv.final_inductance_h + lp))
-        return out, cv.flux_wb + lp * cv.current_a, cv.current_a.copy()
-    if isinstance(cv, SmoothKneeCurve):
-        a = 1.0 / cv.unsaturated_inductance_h
-        e = cv.knee_width_wb
-        g0 = 0.5 * (-cv.knee_flux_wb + math.hypot(cv.knee_flux_wb, e))
-        out[:] = (1.0, 2.0, a, 1.0 / cv.saturated_inductance_h - a, cv.knee_flux_wb, e, g0)
-        return out, np.zeros(2), np.zeros(2)
-    raise ParameterError("circuit.curve", type(cv).__name__, "a magnetising curve")
 
 
 def build_case(
@@ -483,15 +205,15 @@ def build_case(
     i_d0 = -(i_l * cmath.rect(1.0, -beta) / i_base).imag
     e2 = abs(emf) / v_ph
     e1 = efd = e2
-    cp = np.zeros(_NCP)
-    cp[_T2O] = cp[_T1O] = cp[_TA] = 1.0
-    cp[[_BETA, _EB, _IB, _RPH, _LPH]] = (beta, math.sqrt(2.0) * v_ph, i_base, r_ph, l_ph)
+    cp = np.zeros(NCP)
+    cp[T2O] = cp[T1O] = cp[TA] = 1.0
+    cp[[BETA, EB, IB, RPH, LPH]] = (beta, math.sqrt(2.0) * v_ph, i_base, r_ph, l_ph)
     tau = [math.inf]
     if src.machine is not None:
         x2, x1, xd, t2o, t1o, ra = src.machine
         e1 = e2 + (x1 - x2) * i_d0
         efd = e1 + (xd - x1) * i_d0
-        cp[[_DYN, _X2, _X1, _XD, _T2O, _T1O, _RA]] = (1.0, x2, x1, xd, t2o, t1o, ra)
+        cp[[DYN, X2, X1, XD, T2O, T1O, RA]] = (1.0, x2, x1, xd, t2o, t1o, ra)
         tau.append(t2o)
         if src.regulator is not None:
             ka, ta, emax, emin, tr = src.regulator
@@ -501,12 +223,12 @@ def build_case(
                     emax,
                     f"at least the pre-event field voltage {efd:.4g} pu that the bus load needs",
                 )
-            cp[[_AVR, _KA, _TA, _EMAX, _EMIN, _TR]] = (1.0, ka, ta, emax, emin, tr)
-            cp[_VREF] = v0_pu + efd / ka
+            cp[[AVR, KA, TA, EMAX, EMIN, TR]] = (1.0, ka, ta, emax, emin, tr)
+            cp[VREF] = v0_pu + efd / ka
             tau += [ta] + ([tr] if tr > 0.0 else [])
     delta = circuit.connection == "delta"
     nl = 6 if delta else 3
-    lpar = np.zeros((nl, 9))
+    lpar = np.zeros((nl, NLP))
     r_ins = float(insertion_resistance_ohm)
     k_ins = 2.0 if delta else 1.0  # delta: the winding loop closes through two line resistors
     r_limit = math.inf
@@ -525,7 +247,7 @@ def build_case(
         c0 = float(circuit.curve.current(lam0))
         jt, jl = (k, 3 + k) if delta else (k, k)
         m = 2.0 if delta else 1.0  # delta: loop on the line-to-line EMF behind 2 x Z_s
-        lpar[jt, [_AMP, _PHS, _RS, _LS, _HTR, _RW]] = (
+        lpar[jt, [AMP, PHS, RS, LS, HTR, RW]] = (
             math.sqrt(3.0) if delta else 1.0,
             shift + (math.pi / 6.0 if delta else 0.0),
             m * r_ph,
@@ -534,21 +256,21 @@ def build_case(
             circuit.winding_resistance_ohm,
         )
         if delta:
-            lpar[jl, [_AMP, _PHS, _RS, _LS]] = (1.0, shift, r_ph, l_ph)
+            lpar[jl, [AMP, PHS, RS, LS]] = (1.0, shift, r_ph, l_ph)
             inc[0, k, k] += 1.0  # i_a = c_ab - c_ca, ...
             inc[0, k, (k + 2) % 3] -= 1.0
         else:
             inc[0, k, k] = 1.0
         inc[1, k, jl] = 1.0
-        ls_t = lpar[jt, _LS]
+        ls_t = lpar[jt, LS]
         lp = ls_t
         c_shared = 0.0 if delta else c0
         i_shared = 0.0 if delta else i_l0
         if load_w_var is not None:
-            lpar[jl, [_HLD, _RL, _LL]] = (1.0, r_l, l_l)
-            den = l_l + lpar[jl, _LS]
-            y0[nl + jl] = l_l * i_l0 + lpar[jl, _LS] * (i_l0 + c_shared)
-            r_loop = r_l + lpar[jl, _RS]
+            lpar[jl, [HLD, RL, LL]] = (1.0, r_l, l_l)
+            den = l_l + lpar[jl, LS]
+            y0[nl + jl] = l_l * i_l0 + lpar[jl, LS] * (i_l0 + c_shared)
+            r_loop = r_l + lpar[jl, RS]
             tau_l = den / r_loop if r_loop > 0.0 else math.inf
             if tau_l * f * MAX_STEPS_PER_CYCLE < 4.0:
                 raise ParameterError(
@@ -563,9 +285,9 @@ def build_case(
             if not delta:
                 lp = ls_t * l_l / den
         y0[jt] = lam0 + ls_t * (c0 + i_shared)
-        cvs[jt], cx, ci = _pack_curve(circuit, lp)
+        cvs[jt], cx, ci = pack_curve(circuit, lp)
         tx[jt, : cx.size], ti[jt, : ci.size] = cx, ci
-        r_loop = circuit.winding_resistance_ohm + lpar[jt, _RS]
+        r_loop = circuit.winding_resistance_ohm + lpar[jt, RS]
         if r_loop > 0.0:
             tau.append((circuit.air_core_inductance_h + ls_t) / r_loop)
         l_loop = circuit.air_core_inductance_h + lp
@@ -575,7 +297,7 @@ def build_case(
         r_limit = min(r_limit, (l_loop * f * MAX_STEPS_PER_CYCLE / 4.0 - r_loop) / k_ins)
     y0[2 * nl :] = (e2, e1, efd, v0_pu)
     lpar_ins = lpar.copy()
-    lpar_ins[lpar[:, _HTR] > 0.0, _RW] = circuit.winding_resistance_ohm + k_ins * r_ins
+    lpar_ins[lpar[:, HTR] > 0.0, RW] = circuit.winding_resistance_ohm + k_ins * r_ins
     return Case(
         cp,
         lpar,
@@ -725,7 +447,7 @@ def run(
     def stack(get: Callable[[Case], FloatArray]) -> FloatArray:
         return np.ascontiguousarray(np.stack([get(c) for c in cases]))
 
-    _kernel(
+    integrate(
         n_steps,
         spc,
         h,
