@@ -30,6 +30,13 @@ time constant; the samples stay on the outer step. The energy it absorbs,
 R * sum over lines of the integral of i^2, is integrated with the same Runge-Kutta weights
 (the quadrature of an added state).
 
+A transformer branch whose breaker poles close after t = 0 is open until the step its closing
+was rounded to: it carries no current and its psi is not integrated, while a bus load sharing
+the loop runs on phi alone (i_L = phi/(L_L + L_s)). At that step, before its first stage, psi
+and phi are set from the winding's residual flux and its current on the curve with i_L
+continuous, exactly as the states of a branch closed at t = 0 are built; no step straddles a
+closing.
+
 Compiled with numba (``cache=True``, cached beside this module) and looped over cases; the
 integration releases the GIL.
 """
@@ -37,6 +44,7 @@ integration releases the GIL.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass, field
 
 import numba
 import numpy as np
@@ -49,16 +57,17 @@ from core.transformer import EquivalentCircuit
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
-__all__ = ["integrate", "pack_curve"]
+__all__ = ["Case", "integrate", "pack_curve"]
 
 # Column indices of the packed arrays, filled by core.dip_solver.build_case.
 # per-case parameters (cp, shape (n_cases, NCP))
 BETA, EB, DYN, AVR, IB, RPH, LPH = range(7)
 X2, X1, XD, T2O, T1O, RA, KA, TA, EMAX, EMIN, TR, VREF = range(7, 19)
 NCP = 19
-# per-loop parameters (lpar, shape (n_cases, n_loops, NLP))
-AMP, PHS, RS, LS, HTR, RW, HLD, RL, LL = range(9)
-NLP = 9
+# per-loop parameters (lpar, shape (n_cases, n_loops, NLP)); LAM0 and C0 are the winding's
+# flux linkage [Wb-turn] and current [A] when its branch closes
+AMP, PHS, RS, LS, HTR, RW, HLD, RL, LL, LAM0, C0 = range(11)
+NLP = 11
 
 
 @numba.njit(cache=True)
@@ -215,13 +224,23 @@ def _eval(
 # fmt: on
 
 
+@numba.njit(cache=True)
+def _close_branch(y: FloatArray, p: FloatArray, q: int, nl: int) -> None:  # pragma: no cover
+    """Re-initialise loop q's states as its transformer branch closes (see :func:`integrate`)."""
+    ls = p[LS]
+    i_l = y[nl + q] / (p[LL] + ls) if p[HLD] > 0.0 else 0.0
+    y[q] = p[LAM0] + ls * (p[C0] + i_l)
+    if p[HLD] > 0.0:
+        y[nl + q] += ls * p[C0]
+
+
 # fmt: off
 @numba.njit(cache=True, nogil=True)
 def integrate(
     n_steps: int, spc: int, h: float, omega: float, cp: FloatArray, lpar: FloatArray,
     cv: FloatArray, tx: FloatArray, ti: FloatArray, inc: FloatArray, y0: FloatArray, stride: int,
     out: FloatArray, means: FloatArray, wave: FloatArray, n_in: int, sub: IntArray,
-    lpar_in: FloatArray, energy: FloatArray,
+    lpar_in: FloatArray, energy: FloatArray, close: IntArray,
 ) -> None:  # pragma: no cover - compiled
     """Classical Runge-Kutta over every case, accumulating per-cycle results in place.
 
@@ -261,6 +280,18 @@ def integrate(
     energy : ndarray, shape (n_cases,)
         Increased by the integral of the summed squared transformer line currents while the
         resistor is in [A^2*s].
+    close : ndarray of int, shape (n_cases, n_loops)
+        Step at which each loop's transformer branch closes; 0 for closed from the start [-].
+
+    Notes
+    -----
+    A branch that closes at step s > 0 carries no current and its winding keeps its flux
+    before s: its HTR column is cleared, so the branch neither conducts nor integrates, and its
+    y0 entries must hold the open state (a bus load sharing the loop: phi = (L_L + L_s)*i_L).
+    At the start of step s, before the step's first stage, the states are re-initialised from
+    the winding's flux LAM0 and current C0 with the bus-load current i_L = phi/(L_L + L_s)
+    continuous: psi = LAM0 + L_s*(C0 + i_L), phi = phi + L_s*C0, as the initial state of a
+    branch closed at t = 0 is built. A step never straddles a closing.
     """
     n, ns = y0.shape
     nl = lpar.shape[1]
@@ -281,10 +312,26 @@ def integrate(
         y = y0[c].copy()
         prev2 = np.zeros(3)
         prev1 = np.zeros(3)
-        args = (omega, cp[c], lpar[c], cv[c], tx[c], ti[c], inc, guess)
-        args_in = (omega, cp[c], lpar_in[c], cv[c], tx[c], ti[c], inc, guess)
+        lp = lpar[c].copy()
+        lpi = lpar_in[c].copy()
+        pending = 0
+        for q in range(nl):
+            if close[c, q] > 0:
+                lp[q, HTR] = 0.0
+                lpi[q, HTR] = 0.0
+                pending += 1
+        args = (omega, cp[c], lp, cv[c], tx[c], ti[c], inc, guess)
+        args_in = (omega, cp[c], lpi, cv[c], tx[c], ti[c], inc, guess)
         for j in range(n_steps + 1):
             t = j * h
+            if pending > 0 and j > 0:
+                for q in range(nl):
+                    if close[c, q] == j:
+                        _close_branch(y, lpar[c, q], q, nl)
+                        guess[q] = lpar[c, q, LAM0]
+                        lp[q, HTR] = lpar[c, q, HTR]
+                        lpi[q, HTR] = lpar_in[c, q, HTR]
+                        pending -= 1
             inserted = j < n_in
             if inserted:
                 _eval(t, y, *args_in, k1, il, it, v, di, work)
@@ -356,6 +403,54 @@ def integrate(
 
 
 # fmt: on
+
+
+@dataclass(frozen=True)
+class Case:
+    """One case packed for :func:`integrate` by :func:`core.dip_solver.build_case`.
+
+    ``tau_min_s`` is its shortest time constant [s]; ``lpar_inserted`` the loop parameters with
+    the pre-insertion resistor in, ``tau_inserted_s`` the shortest time constant then [s],
+    ``insertion_resistance_ohm`` the resistor [ohm] and ``insertion_limit_ohm`` the largest
+    resistor the step limit allows for this circuit [ohm]. ``y0_open`` is the initial state
+    with every transformer branch open (each winding keeps its residual flux, a bus load
+    sharing the loop carries its own current) and ``loop_poles`` (n_loops, 2) the two poles
+    whose later closing closes each loop's branch (the same pole twice for wye, -1 for a
+    bus-load loop).
+    """
+
+    cp: FloatArray
+    lpar: FloatArray
+    cv: FloatArray
+    tx: FloatArray
+    ti: FloatArray
+    inc: FloatArray
+    y0: FloatArray
+    tau_min_s: float
+    field_voltage_pu: float
+    lpar_inserted: FloatArray | None = None
+    tau_inserted_s: float = math.inf
+    insertion_resistance_ohm: float = 0.0
+    insertion_limit_ohm: float = math.inf
+    y0_open: FloatArray = field(default_factory=lambda: np.zeros(0))
+    loop_poles: IntArray = field(default_factory=lambda: np.zeros((0, 2), dtype=np.int64))
+
+    def closing(self, pole_step: IntArray) -> tuple[IntArray, FloatArray]:
+        """Step at which each loop's branch closes, and the initial state that goes with it.
+
+        ``pole_step`` (3,) is the closing step of poles a, b, c [-]. A loop closes with the
+        later of its two poles; a loop closing after step 0 starts from ``y0_open``.
+        """
+        nl = self.lpar.shape[0]
+        close = np.zeros(nl, dtype=np.int64)
+        live = self.loop_poles[:, 0] >= 0
+        ends = pole_step[self.loop_poles[live]]
+        close[live] = np.maximum(ends[:, 0], ends[:, 1])
+        late = np.nonzero(close > 0)[0]
+        y0 = self.y0.copy()
+        y0[late] = self.y0_open[late]
+        y0[nl + late] = self.y0_open[nl + late]
+        return close, y0
 
 
 def pack_curve(circuit: EquivalentCircuit, lp: float) -> tuple[FloatArray, FloatArray, FloatArray]:

@@ -3,10 +3,10 @@
 :func:`build_case` reduces a source and a transformer circuit to the packed arrays of
 :mod:`core.dip_kernel` together with the pre-event steady state; :func:`run` chooses the step
 (at least 128 per cycle, short enough for every time constant, with sub-steps while a
-pre-insertion resistor is in), calls the compiled kernel :func:`core.dip_kernel.integrate` on
-every case and returns per-cycle results. The equations the kernel integrates are in
-:mod:`core.dip_kernel`; the physics, its simplifications and references in :mod:`core.dip`
-and :mod:`core.generator`.
+pre-insertion resistor is in), puts the breaker poles' closing instants on the step grid,
+calls the compiled kernel :func:`core.dip_kernel.integrate` on every case and returns
+per-cycle results. The equations the kernel integrates are in :mod:`core.dip_kernel`; the
+physics, its simplifications and references in :mod:`core.dip` and :mod:`core.generator`.
 """
 
 from __future__ import annotations
@@ -24,6 +24,7 @@ from core.dip_kernel import (
     AMP,
     AVR,
     BETA,
+    C0,
     DYN,
     EB,
     EMAX,
@@ -32,6 +33,7 @@ from core.dip_kernel import (
     HTR,
     IB,
     KA,
+    LAM0,
     LL,
     LPH,
     LS,
@@ -51,6 +53,7 @@ from core.dip_kernel import (
     X1,
     X2,
     XD,
+    Case,
     integrate,
     pack_curve,
 )
@@ -78,6 +81,7 @@ __all__ = [
     "build_case",
     "check_inputs",
     "check_insertion",
+    "check_poles",
     "check_range",
     "run",
 ]
@@ -113,31 +117,6 @@ class SourceParameters:
     base_va: float
     machine: tuple[float, float, float, float, float, float] | None = None
     regulator: tuple[float, float, float, float, float] | None = None
-
-
-@dataclass(frozen=True)
-class Case:
-    """One case packed for the kernel.
-
-    ``tau_min_s`` is its shortest time constant [s]; ``lpar_inserted`` the loop parameters with
-    the pre-insertion resistor in, ``tau_inserted_s`` the shortest time constant then [s],
-    ``insertion_resistance_ohm`` the resistor [ohm] and ``insertion_limit_ohm`` the largest
-    resistor the step limit allows for this circuit [ohm].
-    """
-
-    cp: FloatArray
-    lpar: FloatArray
-    cv: FloatArray
-    tx: FloatArray
-    ti: FloatArray
-    inc: FloatArray
-    y0: FloatArray
-    tau_min_s: float
-    field_voltage_pu: float
-    lpar_inserted: FloatArray | None = None
-    tau_inserted_s: float = math.inf
-    insertion_resistance_ohm: float = 0.0
-    insertion_limit_ohm: float = math.inf
 
 
 def build_case(
@@ -235,6 +214,8 @@ def build_case(
     tau_ins: list[float] = []
     inc = np.zeros((2, 3, nl))
     y0 = np.zeros(2 * nl + 4)
+    poles = np.full((nl, 2), -1, dtype=np.int64)
+    opened: list[tuple[int, float]] = []  # (state, value) with the transformer branch open
     width = circuit.curve.flux_wb.size if isinstance(circuit.curve, PiecewiseLinearCurve) else 2
     cvs = np.zeros((nl, 7))
     cvs[:, 1] = 2.0
@@ -257,11 +238,15 @@ def build_case(
         )
         if delta:
             lpar[jl, [AMP, PHS, RS, LS]] = (1.0, shift, r_ph, l_ph)
+            poles[jt] = (k, (k + 1) % 3)  # winding ab closes with poles a and b, ...
             inc[0, k, k] += 1.0  # i_a = c_ab - c_ca, ...
             inc[0, k, (k + 2) % 3] -= 1.0
         else:
+            poles[jt] = (k, k)
             inc[0, k, k] = 1.0
         inc[1, k, jl] = 1.0
+        lpar[jt, [LAM0, C0]] = (lam0, c0)
+        opened.append((jt, lam0))
         ls_t = lpar[jt, LS]
         lp = ls_t
         c_shared = 0.0 if delta else c0
@@ -270,6 +255,8 @@ def build_case(
             lpar[jl, [HLD, RL, LL]] = (1.0, r_l, l_l)
             den = l_l + lpar[jl, LS]
             y0[nl + jl] = l_l * i_l0 + lpar[jl, LS] * (i_l0 + c_shared)
+            if not delta:  # the loop shares the winding's source path
+                opened.append((nl + jl, l_l * i_l0 + lpar[jl, LS] * i_l0))
             r_loop = r_l + lpar[jl, RS]
             tau_l = den / r_loop if r_loop > 0.0 else math.inf
             if tau_l * f * MAX_STEPS_PER_CYCLE < 4.0:
@@ -298,6 +285,9 @@ def build_case(
     y0[2 * nl :] = (e2, e1, efd, v0_pu)
     lpar_ins = lpar.copy()
     lpar_ins[lpar[:, HTR] > 0.0, RW] = circuit.winding_resistance_ohm + k_ins * r_ins
+    y0_open = y0.copy()
+    for q, value in opened:
+        y0_open[q] = value
     return Case(
         cp,
         lpar,
@@ -312,6 +302,8 @@ def build_case(
         min(tau + tau_ins),
         r_ins,
         r_limit,
+        y0_open,
+        poles,
     )
 
 
@@ -322,7 +314,8 @@ class Raw:
     ``insertion_energy_j`` (n_cases,) is the energy each case's pre-insertion resistor absorbs
     [J]; ``bypass_time_s`` the instant it is bypassed, on the step grid (0 when it is never in,
     past the simulated time when it is never bypassed) [s]; ``insertion_substeps`` (n_cases,)
-    the sub-steps per step while it is in [-].
+    the sub-steps per step while it is in [-]; ``pole_close_s`` (3,) the closing instant of
+    each pole on the step grid [s].
     """
 
     steps_per_cycle: int
@@ -338,6 +331,7 @@ class Raw:
     insertion_energy_j: FloatArray = field(default_factory=lambda: np.zeros(0))
     bypass_time_s: float = 0.0
     insertion_substeps: IntArray = field(default_factory=lambda: np.ones(0, dtype=np.int64))
+    pole_close_s: FloatArray = field(default_factory=lambda: np.zeros(3))
 
 
 def run(
@@ -349,6 +343,7 @@ def run(
     wave_points: int,
     *,
     insertion_time_s: float = 0.0,
+    pole_delay_s: ArrayLike = 0.0,
 ) -> Raw:
     """Integrate every case over whole cycles.
 
@@ -371,6 +366,9 @@ def run(
         Each case's pre-insertion resistor (:func:`build_case`) is in from t = 0 to this
         instant rounded to the nearest step, then bypassed; nothing changes when it is 0 or
         every case's resistor is 0 [s].
+    pole_delay_s : array_like, shape (3,) or scalar
+        Closing instant of poles a, b and c after t = 0, each in [0, duration_s) (see
+        :func:`check_poles`), rounded to the nearest step; the same for every case [s].
 
     Returns
     -------
@@ -381,7 +379,8 @@ def run(
     ParameterError
         When a time constant needs more than MAX_STEPS_PER_CYCLE steps per cycle: naming
         ``time_constants``, or ``insertion_resistance_ohm`` with the largest resistor the
-        circuit allows.
+        circuit allows; naming ``pole_delay_s`` when a pole would close at or after the end of
+        the whole cycles simulated.
 
     Notes
     -----
@@ -389,7 +388,14 @@ def run(
     that keep the sub-step at or below a quarter of that case's shortest time constant with it
     in (the same rule as the step), the outputs staying on the step grid; unlike the step,
     which all cases share, a case's sub-steps do not depend on the other cases run with it.
+
+    A loop's transformer branch closes when the later of its two poles (``Case.loop_poles``)
+    closes: a wye winding with its own pole, a delta winding ab with poles a and b. Until then
+    it carries no current and keeps its residual flux; the bus load is on the source side of
+    the breaker and sees no pole. The pre-insertion resistor is timed from t = 0 whatever the
+    poles do. With every pole at 0 the kernel runs exactly as without poles.
     """
+    delays = check_poles(pole_delay_s, duration_s)
     f = frequency_hz
     if not (isinstance(steps_per_cycle, int) and steps_per_cycle >= MIN_STEPS_PER_CYCLE):
         raise ParameterError("steps_per_cycle", steps_per_cycle, "an integer >= 128")
@@ -432,6 +438,19 @@ def run(
             np.stack([c.lpar if c.lpar_inserted is None else c.lpar_inserted for c in cases])
         )
     energy = np.zeros(n)
+    y0 = np.ascontiguousarray(np.stack([c.y0 for c in cases]))
+    pole_step = np.floor(delays * f * spc + 0.5).astype(np.int64)
+    close = np.zeros((n, lpar.shape[1]), dtype=np.int64)
+    if np.any(pole_step > 0):
+        if pole_step.max() >= n_steps:
+            raise ParameterError(
+                "pole_delay_s",
+                float(delays.max()),
+                f"before the end of the whole cycles simulated, {n_cyc / f:g} s, by at least "
+                f"half an internal step ({0.5 * h:.3g} s)",
+            )
+        for i, c in enumerate(cases):
+            close[i], y0[i] = c.closing(pole_step)
     width = max(c.tx.shape[1] for c in cases)
 
     def pad(a: FloatArray) -> FloatArray:
@@ -458,7 +477,7 @@ def run(
         stack(lambda c: pad(c.tx)),
         stack(lambda c: pad(c.ti)),
         np.ascontiguousarray(cases[0].inc),
-        stack(lambda c: c.y0),
+        y0,
         stride,
         out,
         means,
@@ -467,6 +486,7 @@ def run(
         sub,
         lpar_in,
         energy,
+        close,
     )
     if not np.all(np.isfinite(out)):
         raise ParameterError("circuit", "non-finite result", "a circuit that stays finite")
@@ -485,6 +505,7 @@ def run(
         insertion_energy_j=np.array([c.insertion_resistance_ohm for c in cases]) * energy,
         bypass_time_s=n_in * h,
         insertion_substeps=sub,
+        pole_close_s=pole_step.astype(np.float64) * h,
     )
 
 
@@ -517,6 +538,23 @@ def check_insertion(resistance_ohm: float, time_s: float) -> tuple[float, float]
     if not (math.isfinite(t) and 0.0 <= t <= 600.0):
         raise ParameterError("insertion_time_s", time_s, "in [0, 600]")
     return r, t
+
+
+def check_poles(pole_delay_s: ArrayLike, duration_s: float) -> FloatArray:
+    """Validate pole closing instants [s], one or one per pole (a, b, c), in [0, duration_s).
+
+    Returns them as an array of shape (3,); raises :class:`ParameterError` naming
+    ``pole_delay_s``.
+    """
+    try:
+        d = np.broadcast_to(np.asarray(pole_delay_s, dtype=float), (3,)).astype(float)
+    except (TypeError, ValueError) as exc:
+        raise ParameterError(
+            "pole_delay_s", repr(pole_delay_s), "a scalar or 3 values (poles a, b, c)"
+        ) from exc
+    if not (np.all(np.isfinite(d)) and np.all(d >= 0.0) and np.all(d < duration_s)):
+        raise ParameterError("pole_delay_s", d.tolist(), f"each in [0, {duration_s:g}) s")
+    return d
 
 
 def check_inputs(

@@ -4,7 +4,8 @@ One call for the ``/v1/generator-dip`` operation, combining :func:`core.dip.ener
 (the coupled simulation and the hand method beside it), :func:`core.generator.verdicts` (ISO
 8528-5 classes or a caller's limit) and, for a generator source, :func:`core.dip.smallest_generator`
 (the smallest rating with the same per-unit data that keeps the dip within the limit). An
-optional pre-insertion resistor in the energising breaker is passed to both.
+optional pre-insertion resistor in the energising breaker and the closing instants of its
+poles are passed to both.
 """
 
 from __future__ import annotations
@@ -45,6 +46,7 @@ def dip_study(
     waveform_points: int = 0,
     insertion_resistance_ohm: float = 0.0,
     insertion_time_s: float = 0.0,
+    pole_delay_s: ArrayLike = 0.0,
 ) -> DipReport:
     """Dip and recovery of one energisation, judged, with the passing generator size.
 
@@ -79,6 +81,10 @@ def dip_study(
         0 for none (see :func:`core.dip.energize_from_source`) [ohm].
     insertion_time_s : float
         Time from closing to its bypass, in [0, 600]; 0 for none [s].
+    pole_delay_s : array_like, shape (3,) or scalar
+        Closing instant of poles a, b, c after the command at t = 0, each in [0, duration_s)
+        (and, when sizing, in [0, 2) s, the sizing's simulated time); 0 for all poles together
+        (see :func:`core.dip.energize_from_source`) [s].
 
     Returns
     -------
@@ -102,6 +108,7 @@ def dip_study(
         waveform_points=waveform_points,
         insertion_resistance_ohm=insertion_resistance_ohm,
         insertion_time_s=insertion_time_s,
+        pole_delay_s=pole_delay_s,
     )
     judged = generator.verdicts(
         study.dip_percent, study.recovery_time_s, limits, simulated_s=duration_s
@@ -119,5 +126,6 @@ def dip_study(
             voltage_measure=voltage_measure,
             insertion_resistance_ohm=insertion_resistance_ohm,
             insertion_time_s=insertion_time_s,
+            pole_delay_s=pole_delay_s,
         )
     return DipReport(study, judged, sizing)
