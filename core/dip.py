@@ -2,8 +2,10 @@
 
 The inrush current is drawn through the source; the terminal voltage dips and recovers as the
 inrush decays, the machine's d-axis fluxes decay and its regulator responds. This module
-simulates that in the time domain, compares it with the subtransient voltage-divider hand
-method, and finds the smallest generator that keeps the dip within a limit.
+simulates that in the time domain and compares it with the subtransient voltage-divider hand
+method. The sweep over generator rating and the smallest generator that keeps the dip within a
+limit are in :mod:`core.dip_sizing`; the study the HTTP operation calls is
+:mod:`core.dip_study`.
 
 Model (per case, three phases; SI, the machine states per unit on the machine rating):
 
@@ -87,23 +89,20 @@ ISO 8528-5 (generating-set performance classes G1-G4) -- limits from memory, see
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from typing import Literal
 
 import numpy as np
-import scipy.optimize
 from numpy.typing import ArrayLike, NDArray
 
 from core import dip_solver
 from core.errors import ParameterError
 from core.generator import (
     BusLoad,
-    DipLimit,
     ExcitationSpec,
     Generator,
     Source,
     first_dip_voltage_divider,
-    iso_8528_5_class,
     source_assumptions,
     source_parameters,
 )
@@ -114,10 +113,9 @@ FloatArray = NDArray[np.float64]
 __all__ = [
     "APPROXIMATIONS",
     "DipStudy",
-    "Sizing",
-    "dip_sweep",
+    "Measure",
+    "check_measure",
     "energize_from_source",
-    "smallest_generator",
 ]
 
 _BANK = "transformer phases magnetically independent (bank of single-phase cores)"
@@ -275,7 +273,14 @@ class DipStudy:
 Measure = Literal["worst", "line", "phase"]
 
 
-def _measure(value: str) -> None:
+def check_measure(value: str) -> None:
+    """Validate a ``voltage_measure``: ``"worst"``, ``"line"`` or ``"phase"``.
+
+    Raises
+    ------
+    ParameterError
+        Naming ``voltage_measure`` when it is none of those.
+    """
     if value not in ("worst", "line", "phase"):
         raise ParameterError("voltage_measure", value, "worst, line or phase")
 
@@ -409,7 +414,7 @@ def energize_from_source(
         raise ParameterError("recovery_reference", recovery_reference, "pre_event or final")
     if not (isinstance(waveform_points, int) and 0 <= waveform_points <= 10_000_000):
         raise ParameterError("waveform_points", waveform_points, "an integer >= 0")
-    _measure(voltage_measure)
+    check_measure(voltage_measure)
     r_ins, t_ins = dip_solver.check_insertion(insertion_resistance_ohm, insertion_time_s)
     poles = dip_solver.check_poles(pole_delay_s, duration_s)
     v0 = float(pre_event_voltage_pu)
@@ -534,280 +539,3 @@ def energize_from_source(
         insertion_energy_j=float(raw.insertion_energy_j[0]),
         pole_delay_s=raw.pole_close_s,
     )
-
-
-def dip_sweep(
-    generator: Generator,
-    circuit: EquivalentCircuit,
-    ratings_va: ArrayLike,
-    closing_angle_deg: float = 0.0,
-    residual_flux_pu: ArrayLike = 0.0,
-    *,
-    excitation: ExcitationSpec = "unknown",
-    bus_load: BusLoad | None = None,
-    pre_event_voltage_pu: float = 1.0,
-    duration_s: float = 2.0,
-    steps_per_cycle: int = dip_solver.MIN_STEPS_PER_CYCLE,
-    voltage_measure: Measure = "worst",
-    insertion_resistance_ohm: float = 0.0,
-    insertion_time_s: float = 0.0,
-    pole_delay_s: ArrayLike = 0.0,
-) -> FloatArray:
-    """Dip for the same per-unit generator data at several ratings, in one vectorised run.
-
-    Parameters
-    ----------
-    generator : Generator
-        Per-unit data, voltage and frequency kept; the rating is replaced.
-    circuit : EquivalentCircuit
-        As for :func:`energize_from_source`.
-    ratings_va : array_like, shape (n,)
-        Generator ratings [VA].
-    closing_angle_deg, residual_flux_pu, excitation, bus_load, pre_event_voltage_pu
-        As for :func:`energize_from_source`.
-    duration_s : float
-        Simulated time; the lowest voltage normally falls within the first second [s].
-    steps_per_cycle, voltage_measure, insertion_resistance_ohm, insertion_time_s, pole_delay_s
-        As for :func:`energize_from_source` (the resistor and the poles are the same at every
-        rating) [-], [ohm], [s], [s].
-
-    Returns
-    -------
-    ndarray, shape (n,)
-        Dip [% of the pre-event voltage].
-
-    Raises
-    ------
-    ParameterError
-        As for :func:`energize_from_source`.
-    """
-    ratings = np.atleast_1d(np.asarray(ratings_va, dtype=float))
-    gens = [replace(generator, rating_va=float(s)) for s in ratings]
-    res, _ = dip_solver.check_inputs(
-        generator, circuit, closing_angle_deg, residual_flux_pu, pre_event_voltage_pu, duration_s
-    )
-    r_ins, t_ins = dip_solver.check_insertion(insertion_resistance_ohm, insertion_time_s)
-    poles = dip_solver.check_poles(pole_delay_s, duration_s)
-    v0 = float(pre_event_voltage_pu)
-    f = circuit.frequency_hz
-    load = None if bus_load is None else (bus_load.active_power_w, bus_load.reactive_power_var)
-    cases = [
-        dip_solver.build_case(
-            source_parameters(g, excitation, 2.0 * math.pi * f),
-            circuit,
-            closing_angle_deg,
-            res,
-            load,
-            v0,
-            insertion_resistance_ohm=r_ins,
-        )
-        for g in gens
-    ]
-    v_ph = generator.line_voltage_v / math.sqrt(3.0)
-    raw = dip_solver.run(
-        cases, f, v_ph, duration_s, steps_per_cycle, 0, insertion_time_s=t_ins, pole_delay_s=poles
-    )
-    _measure(voltage_measure)
-    ph = raw.v_rms_pu.min(axis=(1, 2))
-    ln = raw.v_line_rms_pu.min(axis=(1, 2))
-    low = {"worst": np.minimum(ph, ln), "line": ln, "phase": ph}[voltage_measure]
-    out: FloatArray = 100.0 * (v0 - low) / v0
-    return out
-
-
-@dataclass(frozen=True)
-class Sizing:
-    """Result of :func:`smallest_generator`.
-
-    Attributes
-    ----------
-    limit : DipLimit
-        The limit sized for.
-    status : str
-        ``"found"``, ``"smallest_bound_passes"`` or ``"largest_bound_fails"``.
-    rating_va : float or None
-        Smallest passing rating; the lower bound when it already passes; None when even the
-        upper bound fails [VA].
-    dip_percent : float
-        Dip at ``rating_va`` (at the upper bound when it fails) [%].
-    recovery_time_s : float
-        Recovery time at ``rating_va`` (nan when not computed or not recovered) [s].
-    recovery_ok : bool or None
-        Whether that recovery meets the limit's recovery time; None when not judged.
-    bounds_va : tuple of float
-        Search bounds [VA].
-    evaluations : int
-        Simulations run [-].
-    statement : str
-        The answer in one plain sentence.
-    """
-
-    limit: DipLimit
-    status: str
-    rating_va: float | None
-    dip_percent: float
-    recovery_time_s: float
-    recovery_ok: bool | None
-    bounds_va: tuple[float, float]
-    evaluations: int
-    statement: str
-
-
-def smallest_generator(
-    generator: Generator,
-    circuit: EquivalentCircuit,
-    limit: DipLimit | str = "G2",
-    closing_angle_deg: float = 0.0,
-    residual_flux_pu: ArrayLike = 0.0,
-    *,
-    excitation: ExcitationSpec = "unknown",
-    bus_load: BusLoad | None = None,
-    bounds_va: tuple[float, float] | None = None,
-    dip_duration_s: float = 2.0,
-    rtol: float = 1e-3,
-    check_recovery: bool = True,
-    voltage_measure: Measure = "worst",
-    insertion_resistance_ohm: float = 0.0,
-    insertion_time_s: float = 0.0,
-    pole_delay_s: ArrayLike = 0.0,
-) -> Sizing:
-    """Smallest rating, same per-unit data, that keeps the dip within a limit.
-
-    Parameters
-    ----------
-    generator : Generator
-        Machine data; its rating is only the starting point.
-    circuit : EquivalentCircuit
-        Transformer circuit, as for :func:`energize_from_source`.
-    limit : DipLimit or str
-        A limit, or an ISO 8528-5 class name ``"G1"``-``"G3"`` (values from memory).
-    closing_angle_deg, residual_flux_pu, excitation, bus_load
-        As for :func:`energize_from_source`.
-    bounds_va : tuple of float or None
-        Search range; default 0.1-20 x the given rating [VA].
-    dip_duration_s : float
-        Simulated time for each dip evaluation [s].
-    rtol : float
-        Relative tolerance on the rating [-].
-    check_recovery : bool
-        Also simulate the found rating for the limit's recovery time plus 1 s and judge it.
-    voltage_measure : str
-        As for :func:`energize_from_source`.
-    insertion_resistance_ohm, insertion_time_s : float
-        Pre-insertion resistor, the same at every rating, and its insertion time, as for
-        :func:`energize_from_source` [ohm], [s].
-    pole_delay_s : array_like, shape (3,) or scalar
-        Pole closing instants, the same at every rating, each in [0, dip_duration_s), as for
-        :func:`energize_from_source` [s].
-
-    Returns
-    -------
-    Sizing
-
-    Raises
-    ------
-    ParameterError
-        On a limit without a dip value (G4: by agreement), invalid bounds, or a resistor the
-        fixed step cannot take at the largest rating searched.
-
-    Notes
-    -----
-    The dip falls as the rating rises (checked by the tests); the root of
-    dip(S) - limit in u = ln S is bracketed by the bounds and found by Brent's method
-    (scipy.optimize.brentq; R. P. Brent, "Algorithms for Minimization without Derivatives",
-    1973).
-    """
-    lim = limit if isinstance(limit, DipLimit) else iso_8528_5_class(limit)
-    if lim.max_dip_percent is None:
-        raise ParameterError("limit", lim.name, "a limit with a dip value (G4 is by agreement)")
-    lo, hi = (
-        bounds_va
-        if bounds_va is not None
-        else (0.1 * generator.rating_va, 20.0 * generator.rating_va)
-    )
-    dip_solver.check_range("bounds_va", lo, 0.0, 1e10)
-    dip_solver.check_range("bounds_va", hi, lo, 1e10)
-    dip_solver.check_range("rtol", rtol, 0.0, 0.1)
-    dip_solver.check_insertion(insertion_resistance_ohm, insertion_time_s)
-    dip_solver.check_poles(pole_delay_s, dip_duration_s)
-    target = lim.max_dip_percent
-
-    def dips(ratings: list[float]) -> FloatArray:
-        return dip_sweep(
-            generator,
-            circuit,
-            ratings,
-            closing_angle_deg,
-            residual_flux_pu,
-            excitation=excitation,
-            bus_load=bus_load,
-            duration_s=dip_duration_s,
-            voltage_measure=voltage_measure,
-            insertion_resistance_ohm=insertion_resistance_ohm,
-            insertion_time_s=insertion_time_s,
-            pole_delay_s=pole_delay_s,
-        )
-
-    ends = dips([lo, hi])
-    count = 2
-    tag = f"{lim.name} ({target:g} %)"
-    if ends[0] <= target:
-        rating: float | None = lo
-        dip, status = float(ends[0]), "smallest_bound_passes"
-        text = (
-            f"Even the smallest rating searched, {lo / 1e3:,.0f} kVA, keeps the dip within "
-            f"{tag} at {dip:.1f} %: the answer is at or below it; lower the bound."
-        )
-    elif ends[1] > target:
-        rating, dip, status = None, float(ends[1]), "largest_bound_fails"
-        text = (
-            f"Even the largest rating searched, {hi / 1e3:,.0f} kVA, dips {dip:.1f} %, "
-            f"beyond {tag}: no rating in the range passes."
-        )
-    else:
-
-        def g(u: float) -> float:
-            nonlocal count
-            count += 1
-            return float(dips([math.exp(u)])[0]) - target
-
-        xtol = math.log1p(rtol)
-        u = scipy.optimize.brentq(g, math.log(lo), math.log(hi), xtol=xtol)
-        found = hi
-        for _ in range(4):  # report a rating on the passing side of the root
-            found = min(math.exp(u + xtol), hi)
-            dip = float(dips([found])[0])
-            count += 1
-            if dip <= target:
-                break
-            u += xtol
-        rating, status = found, "found"
-        text = (
-            f"The smallest rating with the same per-unit data that keeps the dip within "
-            f"{tag} is {found / 1e3:,.0f} kVA (dip {dip:.1f} %)."
-        )
-    rec, rec_ok = math.nan, None
-    if check_recovery and rating is not None and lim.max_recovery_s is not None:
-        study = energize_from_source(
-            replace(generator, rating_va=rating),
-            circuit,
-            closing_angle_deg,
-            residual_flux_pu,
-            excitation=excitation,
-            bus_load=bus_load,
-            duration_s=lim.max_recovery_s + 1.0,
-            voltage_measure=voltage_measure,
-            insertion_resistance_ohm=insertion_resistance_ohm,
-            insertion_time_s=insertion_time_s,
-            pole_delay_s=pole_delay_s,
-        )
-        count += 1
-        rec = study.recovery_time_s
-        rec_ok = bool(math.isfinite(rec) and rec <= lim.max_recovery_s)
-        text += (
-            f" Its recovery time is {rec:.2f} s, "
-            if math.isfinite(rec)
-            else " It does not recover within the band in the time simulated, "
-        )
-        text += ("within" if rec_ok else "beyond") + f" the {lim.max_recovery_s:g} s limit."
-    return Sizing(lim, status, rating, dip, rec, rec_ok, (lo, hi), count, text)

@@ -2,10 +2,10 @@
 
 One call for the ``/v1/generator-dip`` operation, combining :func:`core.dip.energize_from_source`
 (the coupled simulation and the hand method beside it), :func:`core.generator.verdicts` (ISO
-8528-5 classes or a caller's limit) and, for a generator source, :func:`core.dip.smallest_generator`
-(the smallest rating with the same per-unit data that keeps the dip within the limit). An
-optional pre-insertion resistor in the energising breaker and the closing instants of its
-poles are passed to both.
+8528-5 classes or a caller's limit) and, for a generator source,
+:func:`core.dip_sizing.smallest_generator` (the smallest rating with the same per-unit data that
+keeps the dip within the limit). An optional pre-insertion resistor in the energising breaker
+and the closing instants of its poles are passed to both.
 """
 
 from __future__ import annotations
@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 from numpy.typing import ArrayLike
 
-from core import dip, generator
+from core import dip, dip_sizing, generator
 from core.generator import DipLimit, ExcitationSpec, Source
 from core.transformer import EquivalentCircuit
 
@@ -27,7 +27,7 @@ class DipReport:
 
     study: dip.DipStudy
     verdicts: tuple[generator.Verdict, ...]
-    sizing: dip.Sizing | None
+    sizing: dip_sizing.Sizing | None
 
 
 def dip_study(
@@ -115,7 +115,7 @@ def dip_study(
     )
     sizing = None
     if size_for is not None and isinstance(source, generator.Generator):
-        sizing = dip.smallest_generator(
+        sizing = dip_sizing.smallest_generator(
             source,
             circuit,
             size_for,

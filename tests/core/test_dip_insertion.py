@@ -1,4 +1,4 @@
-"""Tests of the pre-insertion resistor in core.dip (energize_from_source, dip_sweep, sizing).
+"""Tests of the pre-insertion resistor in core.dip (energize_from_source) and core.dip_sizing.
 
 References beside each check: the code's own results without the resistor (bit for bit, the
 behaviour the resistor must not change when it is off), closed forms for a linear load solved
@@ -21,7 +21,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from core import dip, dip_study, generator, magnetizing, transformer
+from core import dip, dip_sizing, dip_study, generator, magnetizing, transformer
 from core.errors import ParameterError
 
 F_HZ = 60.0
@@ -131,8 +131,8 @@ def test_sweep_sizing_and_study_off_are_bit_identical() -> None:
     # Reference: the same calls without the keywords.
     gen, circ = _northgate(), _unit()
     ratings = [1e6, 3e6]
-    plain = dip.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2)
-    off = dip.dip_sweep(
+    plain = dip_sizing.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2)
+    off = dip_sizing.dip_sweep(
         gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2, insertion_resistance_ohm=0.0,
         insertion_time_s=0.1,
     )  # fmt: skip
@@ -358,7 +358,7 @@ def test_sweep_equals_single_study_with_the_resistor() -> None:
     # study at the same step count exactly
     kw: dict[str, Any] = {"insertion_resistance_ohm": 0.5, "insertion_time_s": 2.0 * T}
     single = dip.energize_from_source(_northgate(), _unit(), 0.0, RESIDUAL, duration_s=0.2, **kw)
-    swept = dip.dip_sweep(
+    swept = dip_sizing.dip_sweep(
         _northgate(), _unit(), [S_GEN, 4.0 * S_GEN], 0.0, RESIDUAL, duration_s=0.2, **kw
     )
     assert swept[0] == single.dip_percent
@@ -418,8 +418,8 @@ def test_invalid_insertion_names_the_parameter(kwargs: dict[str, Any], parameter
         lambda: dip.energize_from_source(
             _northgate(), _unit("delta"), 0.0, RESIDUAL, duration_s=0.1, **kwargs
         ),
-        lambda: dip.dip_sweep(_northgate(), _unit(), [S_GEN], duration_s=0.1, **kwargs),
-        lambda: dip.smallest_generator(_northgate(), _unit(), "G2", **kwargs),
+        lambda: dip_sizing.dip_sweep(_northgate(), _unit(), [S_GEN], duration_s=0.1, **kwargs),
+        lambda: dip_sizing.smallest_generator(_northgate(), _unit(), "G2", **kwargs),
         lambda: dip_study.dip_study(_northgate(), _unit(), 0.0, 0.0, duration_s=0.1, **kwargs),
     ):
         with pytest.raises(ParameterError) as err:

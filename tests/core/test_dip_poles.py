@@ -1,4 +1,4 @@
-"""Tests of the pole closing instants (``pole_delay_s``) in core.dip and core.dip_study.
+"""Tests of the pole closing instants (``pole_delay_s``) in core.dip, dip_sizing and dip_study.
 
 References beside each check: the code's own results without the keyword (bit for bit, the
 behaviour the poles must not change when they all close at t = 0); the same event seen from a
@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 import pytest
 
-from core import dip, dip_study, generator, transformer
+from core import dip, dip_sizing, dip_study, generator, transformer
 from core.errors import ParameterError
 
 F_HZ = 60.0
@@ -106,8 +106,10 @@ def test_sweep_sizing_and_study_with_poles_at_zero_are_bit_identical() -> None:
     # Reference: the same calls without the keyword.
     gen, circ = _northgate(), _unit("delta")
     ratings = [1e6, 3e6]
-    plain = dip.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2)
-    zeros = dip.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=0.0)
+    plain = dip_sizing.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2)
+    zeros = dip_sizing.dip_sweep(
+        gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=0.0
+    )
     assert np.array_equal(plain, zeros)
     kw: dict[str, Any] = {"size_for": generator.iso_8528_5_class("G2"), "duration_s": 0.5}
     a = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, **kw)
@@ -287,7 +289,9 @@ def test_staggered_poles_are_reported_and_used_everywhere() -> None:
     gen, circ = _northgate(), _unit("delta")
     poles = (0.0, 2.1e-3, 4.7e-3)
     single = dip.energize_from_source(gen, circ, 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles)
-    swept = dip.dip_sweep(gen, circ, [S_GEN], 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles)
+    swept = dip_sizing.dip_sweep(
+        gen, circ, [S_GEN], 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles
+    )
     assert swept[0] == pytest.approx(single.dip_percent, rel=1e-12)
     report = dip_study.dip_study(
         gen, circ, 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles,
@@ -296,7 +300,7 @@ def test_staggered_poles_are_reported_and_used_everywhere() -> None:
     _assert_identical(report.study, single)
     assert report.sizing is not None
     assert report.sizing.rating_va is not None
-    sized = dip.dip_sweep(
+    sized = dip_sizing.dip_sweep(
         gen, circ, [report.sizing.rating_va], 0.0, RESIDUAL, pole_delay_s=poles
     )  # the sizing's own 2 s dip simulation
     assert report.sizing.dip_percent == pytest.approx(float(sized[0]), rel=1e-12)
@@ -321,8 +325,10 @@ def test_invalid_pole_delays_name_the_parameter(bad: Any) -> None:
         lambda: dip.energize_from_source(
             gen, circ, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=bad
         ),
-        lambda: dip.dip_sweep(gen, circ, [S_GEN], 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=bad),
-        lambda: dip.smallest_generator(
+        lambda: dip_sizing.dip_sweep(
+            gen, circ, [S_GEN], 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=bad
+        ),
+        lambda: dip_sizing.smallest_generator(
             gen, circ, "G2", 0.0, RESIDUAL, dip_duration_s=0.2, pole_delay_s=bad
         ),
         lambda: dip_study.dip_study(gen, circ, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=bad),

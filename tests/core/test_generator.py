@@ -1,4 +1,5 @@
-"""Tests of core.generator (source models, hand method, limits) and core.dip (coupled dip).
+"""Tests of core.generator (source models, hand method, limits), core.dip (coupled dip) and
+core.dip_sizing (dip against rating, the smallest passing generator).
 
 Limiting cases are solved by hand in the comments; the comparison of the coupled equations with
 scipy's Radau integrator is in tests/references/test_generator_references.py.
@@ -17,7 +18,7 @@ import math
 import numpy as np
 import pytest
 
-from core import dip, generator, magnetizing, transformer
+from core import dip, dip_sizing, generator, magnetizing, transformer
 from core.errors import ParameterError
 
 F_HZ = 60.0
@@ -186,7 +187,7 @@ def test_bus_load_pre_event_state_is_steady() -> None:
 
 def test_larger_generator_gives_smaller_dip() -> None:
     ratings = S_GEN * np.array([0.5, 1.0, 2.0, 4.0, 8.0])
-    dips = dip.dip_sweep(_northgate(), _unit(), ratings, 0.0, RESIDUAL, duration_s=0.5)
+    dips = dip_sizing.dip_sweep(_northgate(), _unit(), ratings, 0.0, RESIDUAL, duration_s=0.5)
     assert np.all(np.diff(dips) < 0.0), dips
 
 
@@ -203,7 +204,9 @@ def test_higher_residual_flux_gives_deeper_dip() -> None:
 def test_sweep_equals_single_study() -> None:
     # vector equals scalar: the vectorised sweep reproduces the single-case study exactly
     single = dip.energize_from_source(_northgate(), _unit(), 0.0, RESIDUAL, duration_s=0.5)
-    swept = dip.dip_sweep(_northgate(), _unit(), [S_GEN, 2 * S_GEN], 0.0, RESIDUAL, duration_s=0.5)
+    swept = dip_sizing.dip_sweep(
+        _northgate(), _unit(), [S_GEN, 2 * S_GEN], 0.0, RESIDUAL, duration_s=0.5
+    )
     assert swept[0] == pytest.approx(single.dip_percent, rel=1e-12)
 
 
@@ -337,13 +340,13 @@ def test_verdicts() -> None:
 
 
 def test_sizing_states_when_the_bounds_decide() -> None:
-    small = dip.smallest_generator(
+    small = dip_sizing.smallest_generator(
         _northgate(), _unit(), "G2", 0.0, RESIDUAL, bounds_va=(1e5, 2e5), dip_duration_s=0.3
     )
     assert small.status == "largest_bound_fails"
     assert small.rating_va is None
     assert "Even the largest rating searched" in small.statement
-    big = dip.smallest_generator(
+    big = dip_sizing.smallest_generator(
         _northgate(),
         _unit(),
         "G2",
@@ -357,7 +360,7 @@ def test_sizing_states_when_the_bounds_decide() -> None:
     assert big.rating_va == 1e8
     assert "Even the smallest rating searched" in big.statement
     with pytest.raises(ParameterError):
-        dip.smallest_generator(_northgate(), _unit(), "G4")
+        dip_sizing.smallest_generator(_northgate(), _unit(), "G4")
 
 
 # ------------------------------------------------------------------------- demo case
@@ -382,12 +385,14 @@ def test_northgate_back_feed_end_to_end() -> None:
     }
     assert verdict == {"G1": False, "G2": False, "G3": False, "G4": None}
     # measured: 13,747 kVA (dip 20.0 %, recovery 1.72 s) on the worst-voltage measure
-    sizing = dip.smallest_generator(gen, circ, "G2", 0.0, RESIDUAL, dip_duration_s=0.5)
+    sizing = dip_sizing.smallest_generator(gen, circ, "G2", 0.0, RESIDUAL, dip_duration_s=0.5)
     assert sizing.status == "found"
     assert sizing.rating_va is not None
     assert sizing.rating_va > S_GEN
     assert sizing.dip_percent <= 20.0
-    below = dip.dip_sweep(gen, circ, [sizing.rating_va * 0.99], 0.0, RESIDUAL, duration_s=0.5)
+    below = dip_sizing.dip_sweep(
+        gen, circ, [sizing.rating_va * 0.99], 0.0, RESIDUAL, duration_s=0.5
+    )
     assert below[0] > 20.0  # 1 % smaller already fails: it is the smallest
     assert sizing.recovery_ok is True
 
