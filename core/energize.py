@@ -21,19 +21,38 @@ Connections (``topology``):
   (I + L_s*M*D) lambda' = e_LL - R_s*M*c - R_w*c with M = [[2,-1,-1],[-1,2,-1],[-1,-1,2]] and
   D = diag(f'), solved as a 3x3 system at every stage.
 
+Mitigation, per case (:func:`simulate`):
+
+* pre-insertion resistor -- R_ins in series with each line (breaker pole), between the source and
+  the terminals, from t = 0 until all poles short it together at t_ins: it adds to the source
+  resistance of every line, i.e. to each winding's R for single phase and wye and to R_s (which
+  couples the windings through M) for a delta; a delta on an ideal source with the resistor in
+  is therefore solved by the coupled kernel;
+* reduced-voltage source -- the EMF amplitude times g(t): g = g_0 until t_hold, a linear rise to
+  1 over t_rise, then 1 (e_a = g*sqrt(2)*V*sin(omega*t + alpha), phases unchanged).
+
 Approximations, reported with every result: phases are magnetically independent (a bank of
 single-phase cores; the coupling of a three-limb or five-limb core is not modelled, which is
 usually conservative for the peak phase); no hysteresis or core loss; while only one of a delta
 winding's two poles is closed, that winding is taken as unenergised (the series path through the
-other two windings is neglected); pole closing instants are rounded to the internal step.
+other two windings is neglected); pole closing instants are rounded to the internal step. A
+pre-insertion resistor is an ideal linear resistance, shorted by all poles at once (no bypass
+scatter, arc or contact resistance); the reduced-voltage source scales only the EMF, behind an
+unchanged source impedance and at a fixed phase; the bypass, the end of the hold and the end of
+the rise are rounded to the internal step, so that no step straddles a jump of R or a corner of
+g, and g is evaluated at every Runge-Kutta stage on the piece its step lies on.
 
 Numerics: classical fourth-order Runge-Kutta at a fixed step of at least 128 steps per cycle,
 compiled with numba and looped over cases; the equation is not stiff (its fastest time
-constant, (L_air + L_s)/R, is many steps long). With L_s > 0 and a sharp (two-slope or table)
-knee d(lambda)/dt jumps at the knee, where a fixed step loses its order (when the coupled
-connections integrated lambda, their peaks were off by 0.1 % of the first peak for a delta on a
-250 MVA source up to 13 % for a floating neutral on 20 MVA). Each connection therefore
-integrates a state whose derivative is continuous there and recovers lambda from it:
+constant, (L_air + L_s)/R, is many steps long; with a pre-insertion resistor in, R + k*R_ins,
+k = 3 for a delta, whose windings see the line resistance through M, 1 otherwise). Without the
+mitigation the resistance added is exactly 0.0 and the EMF is multiplied by exactly 1.0, so
+the results are bit for bit those of the solver before it had the features. With L_s > 0 and
+a sharp (two-slope or table) knee d(lambda)/dt jumps at the knee, where a fixed step loses its
+order (when the coupled connections integrated lambda, their peaks were off by 0.1 % of the
+first peak for a delta on a 250 MVA source up to 13 % for a floating neutral on 20 MVA). Each
+connection therefore integrates a state whose derivative is continuous there and recovers
+lambda from it:
 
 * independent windings: the loop flux psi = lambda + L_s*i, psi' = e - R*i, through the curve
   re-expressed against psi (no solve needed);
@@ -65,7 +84,15 @@ references sampled at the output instants the coupled kernel is within 4.2e-5 (d
 Radau's own error: against DOP853 at rtol 1e-12 the samples agree to 6e-6) and 8e-6 (wye). The
 rest is the reading of a peak from 128 samples per cycle (a parabola through the three around the
 largest), which the floating-neutral current, with a corner wherever a phase crosses the knee,
-defeats most; more samples per cycle reduce it (2.3e-3 becomes 1.2e-4 at 2048).
+defeats most; more samples per cycle reduce it (2.3e-3 becomes 1.2e-4 at 2048). With the
+mitigation, against the same references integrated interval by interval between the bypass and
+the ramp's corners (a resistor of 0.3 of the saturated loop reactance, a third of that for a
+delta, bypassed at 4.3 cycles; a ramp from 0.3 pu held one cycle, then rising over three), as
+the worst of the ten peaks relative to the largest, and in brackets against the reference sampled
+at the output instants: resistor, single phase 2.0e-5, grounded wye 4.9e-5, delta on 50 MVA
+9.4e-6 (9.9e-6), delta on an ideal source 1.8e-5 (1.8e-5), ungrounded wye on 250 MVA 2.8e-3
+(1.6e-5); ramp, single phase 3.6e-5, delta on 50 MVA 5.7e-4 (5.3e-6), delta on an ideal source
+3.6e-6 (3.6e-6).
 """
 
 from __future__ import annotations
@@ -136,6 +163,18 @@ APPROXIMATIONS = {
     ),
 }
 _PHASE_SHIFT = np.array([0.0, -2.0 * math.pi / 3.0, 2.0 * math.pi / 3.0])
+# simulate's per-case mitigation parameters, their defaults (no resistor, full voltage) and
+# ranges, one row each
+_MITIGATION_PARAMETERS = (
+    "insertion_resistance_ohm",
+    "insertion_time_s",
+    "voltage_start_pu",
+    "voltage_hold_s",
+    "voltage_rise_s",
+)
+_MITIGATION_DEFAULT = np.array([[0.0], [0.0], [1.0], [0.0], [0.0]])
+_MITIGATION_LOW = np.zeros((5, 1))
+_MITIGATION_HIGH = np.array([[math.inf], [math.inf], [1.0], [math.inf], [math.inf]])
 
 
 @numba.njit(cache=True, inline="always")
@@ -340,6 +379,24 @@ def _emf(
 
 
 @numba.njit(cache=True, inline="always")
+def _source_scale(
+    j: int, start: float, slope: float, hold_step: int, rise_end_step: int
+) -> tuple[float, float, float]:  # pragma: no cover - compiled
+    # Source amplitude factor g at the three stage times of step j (t_j, t_j + h/2, t_j + h):
+    # ``start`` before the hold ends, rising by ``slope`` per step to 1 at the end of the rise,
+    # 1 afterwards. The piece is chosen by the step, not the stage time, so a step ending at the
+    # instant of a jump (a rise of zero steps) sees the value it started with up to its end.
+    # Exactly 1.0 once the rise is over, which is every step when the feature is off
+    # (rise_end_step = 0), so multiplying by it changes nothing there.
+    if j >= rise_end_step:
+        return 1.0, 1.0, 1.0
+    if j < hold_step:
+        return start, start, start
+    x = float(j - hold_step)
+    return start + slope * x, start + slope * (x + 0.5), start + slope * (x + 1.0)
+
+
+@numba.njit(cache=True, inline="always")
 def _rate(
     topo: int,
     e0: float,
@@ -398,6 +455,8 @@ def _kernel(
     flux: FloatArray,
     cur: FloatArray,
     npts: NDArray[np.int64],
+    mit_f: FloatArray,
+    mit_i: NDArray[np.int64],
     out: FloatArray,
 ) -> int:  # pragma: no cover - compiled
     """RK4 for the three coupled windings (topo 1 wye, 2 delta) in a state continuous at a knee.
@@ -405,8 +464,12 @@ def _kernel(
     The state is psi (delta) or y (wye), see the module docstring; at each stage lambda is
     recovered from it by Newton's method warm-started from the previous stage, which also
     leaves the winding currents the rate needs. One curve per case (kind, par, flux, cur, npts
-    as :func:`_element_curves` without the source shift). Returns how many flux solves missed
-    the tolerance within NEWTON_MAX_ITERATIONS (0 normally).
+    as :func:`_element_curves` without the source shift). Mitigation per case: mit_f = (R_ins,
+    g_0, slope of g per step), mit_i = (bypass step, end of hold, end of rise); R_ins adds to
+    every line's resistance for the steps before the bypass (wye: r_w, each phase being a line;
+    delta: r_s), and the source EMF is scaled by :func:`_source_scale` at each stage.
+    Returns how many flux solves missed the tolerance within NEWTON_MAX_ITERATIONS (0
+    normally).
     """
     n_cases = vpk.shape[0]
     failed = 0
@@ -415,6 +478,10 @@ def _kernel(
         a0, a1, a2 = phase[c, 0], phase[c, 1], phase[c, 2]
         r_w = r_el[c, 0]
         r_s = r_src[c]
+        r_w_ins = r_w + mit_f[c, 0] if topo == 1 else r_w  # resistances while the resistor is in
+        r_s_ins = r_s + mit_f[c, 0] if topo == 2 else r_s
+        gs, gk = mit_f[c, 1], mit_f[c, 2]
+        k_ins, kh, ke = mit_i[c, 0], mit_i[c, 1], mit_i[c, 2]
         ls = l_src[c]
         ftol = tol[c]
         kd = kind[c]
@@ -461,6 +528,8 @@ def _kernel(
             e_start = _emf(topo, t, omega, v0, v1, v2, a0, a1, a2) if j == 0 else e_end
             e_mid = _emf(topo, t + 0.5 * h, omega, v0, v1, v2, a0, a1, a2)
             e_end = _emf(topo, t + h, omega, v0, v1, v2, a0, a1, a2)
+            q0, q1, q2 = _source_scale(j, gs, gk, kh, ke)
+            rw_j, rs_j = (r_w_ins, r_s_ins) if j < k_ins else (r_w, r_s)
             s0 = s1 = s2 = 0.0  # weighted sum of the rates
             # stages 0-3 at t, t + h/2, t + h/2, t + h (weights 1, 2, 2, 1); "stage" 4 recovers
             # lambda at the step's end from the updated state
@@ -556,9 +625,11 @@ def _kernel(
                 if st == 4:
                     break
                 e = e_start if st == 0 else (e_end if st == 3 else e_mid)
+                q = q0 if st == 0 else (q2 if st == 3 else q1)
                 k0, k1, k2 = _rate(
-                    topo, e[0], e[1], e[2], i0, i1, i2, on0, on1, on2, count, r_w, r_s
-                )
+                    topo, q * e[0], q * e[1], q * e[2], i0, i1, i2, on0, on1, on2, count,
+                    rw_j, rs_j,
+                )  # fmt: skip
                 wgt = 1.0 if st == 0 or st == 3 else 2.0
                 s0 += wgt * k0
                 s1 += wgt * k1
@@ -582,20 +653,28 @@ def _independent(
     flux: FloatArray,
     cur: FloatArray,
     npts: NDArray[np.int64],
+    mit_f: FloatArray,
+    mit_i: NDArray[np.int64],
     out: FloatArray,
 ) -> None:  # pragma: no cover - compiled
     """RK4 for windings that are independent circuits; one element = one winding of one case.
 
     kind 0: two-slope (par = 1/L_m, lambda_S, 1/L_air, i_S); kind 1: smooth knee
     (par = 1/L_m, 1/L_air - 1/L_m, lambda_S, width, g0); kind 2: table (flux, cur, npts; par[0]
-    = final 1/L). Scalar locals keep the hot loop in registers.
+    = final 1/L). Mitigation as in :func:`_kernel`: the pre-insertion resistor mit_f[e, 0] adds
+    to r_el[e] before the bypass step; the source EMF is scaled by :func:`_source_scale`, folded
+    into the three per-step source values (v*g)*sin so that the stages cost what they did
+    without it. Scalar locals keep the hot loop in registers.
     """
     n_el = vpk.shape[0]
     for e in numba.prange(n_el):
         lam = lam0[e]
         v = vpk[e]
         p = phase[e]
-        r = r_el[e]
+        r0 = r_el[e]
+        r_in = r0 + mit_f[e, 0]  # while the pre-insertion resistor is in
+        gs, gk = mit_f[e, 1], mit_f[e, 2]
+        k_ins, kh, ke = mit_i[e, 0], mit_i[e, 1], mit_i[e, 2]
         ls = l_src[e]
         kd = kind[e]
         p0 = par[e, 0]
@@ -609,6 +688,8 @@ def _independent(
         ch = math.cos(0.5 * omega * h)
         sh = math.sin(0.5 * omega * h)
         s0 = c0 = s1 = c1 = s2 = c2 = 0.0
+        u0 = u1 = u2 = 0.0  # source voltage at the stage times
+        r = r0
         for j in range(n_steps + 1):
             energised = j >= start
             if energised:
@@ -623,6 +704,11 @@ def _independent(
                 c1 = c0 * ch - s0 * sh
                 s2 = s1 * ch + c1 * sh
                 c2 = c1 * ch - s1 * sh
+                q0, q1, q2 = _source_scale(j, gs, gk, kh, ke)
+                u0 = v * q0 * s0
+                u1 = v * q1 * s1
+                u2 = v * q2 * s2
+                r = r_in if j < k_ins else r0
             acc = 0.0
             lx = lam
             for st in range(4):
@@ -657,12 +743,12 @@ def _independent(
                         out[e, j // decimate] = i if energised else 0.0
                     if j == n_steps or not energised:
                         break
-                    sv = s0
+                    sv = u0
                 elif st == 3:
-                    sv = s2
+                    sv = u2
                 else:
-                    sv = s1
-                kk = (v * sv - r * i) / (1.0 + ls * d)
+                    sv = u1
+                kk = (sv - r * i) / (1.0 + ls * d)
                 if st == 0 or st == 3:
                     acc += kk
                 else:
@@ -699,6 +785,12 @@ class Simulation:
         Internal integration steps per cycle.
     pole_delay_s : ndarray, shape (n_cases, n_phases)
         Pole closing instants actually used, after rounding to the internal step [s].
+    insertion_time_s : ndarray, shape (n_cases,)
+        Bypass instants of the pre-insertion resistor actually used, after rounding to the
+        internal step [s].
+    voltage_ramp_s : ndarray, shape (n_cases, 2)
+        End of the reduced-voltage hold and end of the rise actually used, after rounding to
+        the internal step [s].
     approximations : tuple of str
         What the model approximates for this connection.
     """
@@ -709,6 +801,8 @@ class Simulation:
     samples_per_cycle: int
     steps_per_cycle: int
     pole_delay_s: FloatArray
+    insertion_time_s: FloatArray
+    voltage_ramp_s: FloatArray
     approximations: tuple[str, ...]
 
 
@@ -822,6 +916,11 @@ def simulate(
     duration_s: float,
     samples_per_cycle: int = 128,
     extra_resistance_ohm: ArrayLike = 0.0,
+    insertion_resistance_ohm: ArrayLike = 0.0,
+    insertion_time_s: ArrayLike = 0.0,
+    voltage_start_pu: ArrayLike = 1.0,
+    voltage_hold_s: ArrayLike = 0.0,
+    voltage_rise_s: ArrayLike = 0.0,
     max_steps: int | None = None,
 ) -> Simulation:
     """Simulate the energisation of many cases at once.
@@ -843,7 +942,21 @@ def simulate(
     samples_per_cycle : int
         Output samples per cycle [-].
     extra_resistance_ohm : array_like, shape (n_cases,) or scalar
-        Resistance added in series with every winding, e.g. a pre-insertion resistor [ohm].
+        Resistance added in series with every winding for the whole record, >= 0 [ohm].
+    insertion_resistance_ohm : array_like, shape (n_cases,) or scalar
+        Pre-insertion resistor in series with each line (each breaker pole), between the source
+        and the transformer terminals, from t = 0 until ``insertion_time_s``, >= 0 [ohm].
+    insertion_time_s : array_like, shape (n_cases,) or scalar
+        Instant, from the closing command t = 0, at which all poles short the pre-insertion
+        resistor together, >= 0; beyond ``duration_s`` it stays in for the whole record [s].
+    voltage_start_pu : array_like, shape (n_cases,) or scalar
+        Source EMF amplitude while the reduced voltage is held, in [0, 1] [pu of the rated
+        source EMF].
+    voltage_hold_s : array_like, shape (n_cases,) or scalar
+        How long the EMF stays at ``voltage_start_pu`` from t = 0, >= 0 [s].
+    voltage_rise_s : array_like, shape (n_cases,) or scalar
+        Duration of the linear rise from ``voltage_start_pu`` to 1 after the hold, >= 0; 0 gives
+        a step at the end of the hold [s].
     max_steps : int or None
         Compute limit: most integration steps (cases x windings x steps) allowed [-].
 
@@ -854,7 +967,10 @@ def simulate(
     Raises
     ------
     ParameterError
-        On inconsistent shapes or values out of range.
+        On inconsistent shapes or values out of range, naming the parameter; also when the
+        circuit's saturated loop, with the pre-insertion resistor in, is too fast for
+        MAX_STEPS_PER_CYCLE steps per cycle (``insertion_resistance_ohm``, with the largest
+        resistor the circuit allows).
     LimitError
         When the work exceeds ``max_steps``.
 
@@ -863,10 +979,33 @@ def simulate(
     See the module docstring for the equations. Phase B and C source voltages lag and lead
     phase A by 120 degrees (ABC sequence).
 
+    Pre-insertion resistor: while it is in, R_ins adds to the source resistance of every line.
+    For single-phase and wye windings each line is a winding's loop, so it adds to that loop's
+    R; for a delta it adds to R_s, the resistance that couples the windings through
+    M = [[2,-1,-1],[-1,2,-1],[-1,-1,2]], and a delta on an ideal source is then solved by the
+    coupled kernel (a batch takes one kernel; any case with a resistor in sends a delta batch
+    there). The bypass instant is rounded to the internal step, so that no step straddles it,
+    and the step plan takes the shortest time constant with the resistor in,
+    (L_air + L_s)/(R + k*R_ins), k = 3 for a delta (M's non-zero eigenvalue) and 1 otherwise.
+    An ideal resistor shorted by ideal contacts: the flux and the current are continuous at
+    the bypass, only their rates change.
+
+    Reduced-voltage source: e_a = g(t)*sqrt(2)*V*sin(omega*t + alpha), phases B and C alike,
+    with g = start for t < t_hold, start + (1 - start)*(t - t_hold)/t_rise for
+    t_hold <= t < t_hold + t_rise, and 1 afterwards. The end of the hold and of the rise are
+    rounded to the internal step (a rise shorter than half a step becomes a step) and g is
+    evaluated at every Runge-Kutta stage on the piece its step lies on. Only the EMF is scaled:
+    the source impedance is unchanged and the phase of the EMF fixed, an idealisation of a
+    soft-starting source or a ramped generator excitation.
+
+    With all these at their defaults (no resistor, g = 1) every case is computed exactly as
+    without them: the resistance added is 0.0 and the EMF multiplied by 1.0.
+
     References
     ----------
     Circuit equation: e.g. Y. Wang, S. G. Abdulsalam, W. Xu, IEEE Trans. Power Delivery 23(2),
-    2008 (from memory); integrator: classical Runge-Kutta (Kutta 1901).
+    2008 (from memory); integrator: classical Runge-Kutta (Kutta 1901). Pre-insertion resistors
+    and reduced-voltage (soft) energisation as inrush mitigation: common practice.
     """
     circ_list = [circuits] if isinstance(circuits, EquivalentCircuit) else list(circuits)
     if not circ_list:
@@ -884,13 +1023,39 @@ def simulate(
     res = np.asarray(residual_flux_pu, dtype=float)
     delay = np.asarray(pole_delay_s, dtype=float)
     extra = np.atleast_1d(np.asarray(extra_resistance_ohm, dtype=float))
+    mit_values = (
+        insertion_resistance_ohm,
+        insertion_time_s,
+        voltage_start_pu,
+        voltage_hold_s,
+        voltage_rise_s,
+    )
+    # all at their defaults (no resistor, g = 1), the usual call, told from plain numbers
+    # without building arrays; the kernels then get the arrays the general path would compute
+    mit_off = all(
+        isinstance(v, int | float) and v == d
+        for v, d in zip(mit_values, _MITIGATION_DEFAULT[:, 0], strict=True)
+    )
+    mit_in = [] if mit_off else [np.asarray(v, dtype=float) for v in mit_values]
+    # mit_in is empty when all are off
+    for name, arr in zip(_MITIGATION_PARAMETERS, mit_in, strict=False):
+        if arr.ndim > 1:
+            raise ParameterError(name, f"shape {arr.shape}", "a scalar or one value per case")
     n = max(
         alpha.shape[0],
         len(circ_list),
         extra.shape[0],
         res.shape[0] if res.ndim == 2 else 1,
         delay.shape[0] if delay.ndim == 2 else 1,
+        *(arr.size for arr in mit_in),
     )
+    # one row per mitigation parameter, one column per case
+    mit = _MITIGATION_DEFAULT if mit_off else np.empty((len(mit_in), n))
+    for k, (name, arr) in enumerate(zip(_MITIGATION_PARAMETERS, mit_in, strict=False)):
+        try:
+            mit[k] = arr
+        except ValueError as exc:
+            raise ParameterError(name, f"{arr.size} values", f"a scalar or {n} values") from exc
     try:
         alpha = np.broadcast_to(alpha, (n,))
         res = np.broadcast_to(res if res.ndim == 2 else np.broadcast_to(res, (m,)), (n, m))
@@ -916,19 +1081,60 @@ def simulate(
         raise ParameterError("pole_delay_s", float(delay.max()), f"in [0, {duration_s:g}] s")
     if np.any(extra < 0.0):
         raise ParameterError("extra_resistance_ohm", float(extra.min()), ">= 0")
+    if not mit_off:
+        finite = np.isfinite(mit)
+        if not finite.all():
+            k = int(np.flatnonzero(~finite.all(axis=1))[0])
+            raise ParameterError(_MITIGATION_PARAMETERS[k], "non-finite", "finite numbers")
+        bad = (mit < _MITIGATION_LOW) | (mit > _MITIGATION_HIGH)
+        if bad.any():
+            k = int(np.flatnonzero(bad.any(axis=1))[0])
+            allowed = "in [0, 1] pu of the rated EMF" if _MITIGATION_HIGH[k, 0] == 1.0 else ">= 0"
+            raise ParameterError(_MITIGATION_PARAMETERS[k], float(mit[k][bad[k]][0]), allowed)
+        mit_off = bool((mit == _MITIGATION_DEFAULT).all())  # defaults given as arrays
+    r_ins, t_ins, g_start, t_hold, t_rise = mit
 
     f = first.frequency_hz
     omega = 2.0 * math.pi * f
+    topo = TOPOLOGY[first.connection]
     tau = min(
         (c.air_core_inductance_h + c.source_inductance_h)
         / max(c.winding_resistance_ohm + 2.0 * c.source_resistance_ohm + float(ex), 1e-300)
         for c, ex in zip(circ_list, extra, strict=True)
     )
     spc, decimate, n_steps = step_plan(f, duration_s, samples_per_cycle, tau)
+    # with a pre-insertion resistor in, the saturated loop is faster: (L_air + L_s)/(R + k*R_ins),
+    # k = 3 for a delta (the line resistance enters its windings' loops through M, whose
+    # non-zero eigenvalue is 3), 1 for a winding in its own line
+    k_line = 3.0 if topo == 2 else 1.0
+    with_resistor = [] if mit_off else np.flatnonzero((r_ins > 0.0) & (t_ins > 0.0)).tolist()
+    loop = [  # (L_air + L_s, R, R_ins) of each case with a resistor
+        (
+            circ_list[i].air_core_inductance_h + circ_list[i].source_inductance_h,
+            circ_list[i].winding_resistance_ohm
+            + 2.0 * circ_list[i].source_resistance_ohm
+            + float(extra[i]),
+            float(r_ins[i]),
+        )
+        for i in with_resistor
+    ]
+    tau_ins = min((ll / max(rr + k_line * ri, 1e-300) for ll, rr, ri in loop), default=math.inf)
+    if tau_ins < tau:
+        try:
+            spc, decimate, n_steps = step_plan(
+                f, duration_s, samples_per_cycle, max(tau_ins, 1e-300)
+            )
+        except ParameterError as exc:
+            r_max = min((ll * f * MAX_STEPS_PER_CYCLE / 4.0 - rr) / k_line for ll, rr, _ in loop)
+            raise ParameterError(
+                "insertion_resistance_ohm",
+                max(ri for _, _, ri in loop),
+                f"at most {max(r_max, 0.0):.4g} ohm for this circuit: with more, its saturated "
+                f"loop while the resistor is in needs over {MAX_STEPS_PER_CYCLE} steps per cycle",
+            ) from exc
     if max_steps is not None and n * m * n_steps > max_steps:
         raise LimitError("integration steps (cases x windings x steps)", n * m * n_steps, max_steps)
     h = 1.0 / (f * spc)
-    topo = TOPOLOGY[first.connection]
 
     pole_step = np.rint(delay / h).astype(np.int64)
     if topo == 2:
@@ -936,6 +1142,36 @@ def simulate(
         close_step = np.maximum(pole_step, np.roll(pole_step, -1, axis=1))
     else:
         close_step = pole_step.copy()
+    # the resistor's bypass and the ramp's corners on the step grid; an instant after the
+    # record (or too large to count in steps) is clipped to just after it, while the slope of
+    # the rise keeps its unclipped length. Per case, for the kernels: mit_f = (R_ins, g_0,
+    # slope of g per step), mit_i = (bypass step, end of hold, end of rise).
+    mit_f = np.zeros((n, 3))
+    mit_f[:, 1] = 1.0
+    mit_i = np.zeros((n, 3), dtype=np.int64)
+    ins_used: FloatArray = np.zeros(n)
+    ramp_used: FloatArray = np.zeros((n, 2))
+    any_inserted = any_ramp = False
+    if not mit_off:
+        with np.errstate(over="ignore", invalid="ignore"):
+            ins_f = np.rint(t_ins / h)
+            hold_f = np.rint(t_hold / h)
+            end_f = np.rint((t_hold + t_rise) / h)
+            span = end_f - hold_f
+            last = float(n_steps + 1)
+            mit_i[:, 0] = np.minimum(ins_f, last)
+            mit_i[:, 1] = np.minimum(hold_f, last)
+            mit_i[:, 2] = np.minimum(end_f, last)
+            mit_f[:, 0] = r_ins
+            mit_f[:, 1] = g_start
+            mit_f[:, 2] = np.where(
+                mit_i[:, 2] > mit_i[:, 1], (1.0 - g_start) / np.where(span > 0.0, span, 1.0), 0.0
+            )
+            ins_used = np.where(np.isfinite(ins_f), ins_f * h, t_ins)
+            ramp_used[:, 0] = np.where(np.isfinite(hold_f), hold_f * h, t_hold)
+            ramp_used[:, 1] = np.where(np.isfinite(end_f), end_f * h, t_hold + t_rise)
+        any_inserted = bool(np.any((r_ins > 0.0) & (mit_i[:, 0] > 0)))
+        any_ramp = bool(np.any((g_start < 1.0) & (mit_i[:, 2] > 0)))
 
     alpha_rad = np.deg2rad(alpha)
     if m == 1:
@@ -957,7 +1193,9 @@ def simulate(
     lam0 = res * np.array([c.nominal_flux_wb for c in circ_list])[:, None]
     n_samples = n_steps // decimate + 1
     out = np.zeros((n, m, n_samples))
-    independent = topo == 0 or (topo == 2 and not np.any(l_s) and not np.any(r_s))
+    independent = topo == 0 or (
+        topo == 2 and not np.any(l_s) and not np.any(r_s) and not any_inserted
+    )
     if independent:
         if topo == 2:  # delta on an ideal source: each winding sees a line-to-line voltage
             vpk = vpk * math.sqrt(3.0)
@@ -982,6 +1220,7 @@ def simulate(
             np.ascontiguousarray(r_el).ravel(), np.repeat(l_el, m),
             np.ascontiguousarray(close_step).ravel(), np.ascontiguousarray(state0).ravel(),
             rep(kind_e), rep(par_e), rep(flux_e), rep(cur_e), rep(npts_e),
+            rep(mit_f), rep(mit_i),
             out.reshape(n * m, n_samples),
         )  # fmt: skip
     else:
@@ -991,7 +1230,8 @@ def simulate(
             topo, n_steps, decimate, h, omega,
             np.ascontiguousarray(vpk, dtype=float), np.ascontiguousarray(phase, dtype=float),
             np.ascontiguousarray(r_el), r_s, l_s, np.ascontiguousarray(close_step),
-            np.ascontiguousarray(lam0), tol, kind_c, par_c, flux_c, cur_c, npts_c, out,
+            np.ascontiguousarray(lam0), tol, kind_c, par_c, flux_c, cur_c, npts_c,
+            mit_f, mit_i, out,
         )  # fmt: skip
         if failed:
             raise ParameterError(
@@ -1008,6 +1248,7 @@ def simulate(
     line = out - np.roll(out, 1, axis=1) if topo == 2 else out
     time: FloatArray = np.arange(n_samples, dtype=float) * (h * decimate)
     delays_used: FloatArray = pole_step.astype(float) * h
+    step_ms = f"{h * 1e3:.4g} ms"
     return Simulation(
         time_s=time,
         winding_current_a=out,
@@ -1015,10 +1256,30 @@ def simulate(
         samples_per_cycle=samples_per_cycle,
         steps_per_cycle=spc,
         pole_delay_s=delays_used,
+        insertion_time_s=ins_used,
+        voltage_ramp_s=ramp_used,
         approximations=APPROXIMATIONS[first.connection]
         + (
-            (f"pole closing instants rounded to the internal step of {h * 1e3:.4g} ms",)
+            (f"pole closing instants rounded to the internal step of {step_ms}",)
             if np.any(delay > 0.0)
+            else ()
+        )
+        + (
+            (
+                "pre-insertion resistor: a constant linear resistance in each line, shorted by "
+                "all poles together (no scatter or arc at the bypass); the bypass instant "
+                f"rounded to the internal step of {step_ms}",
+            )
+            if with_resistor
+            else ()
+        )
+        + (
+            (
+                "reduced-voltage source: only the EMF amplitude is ramped, at fixed phase, "
+                "behind the unchanged source impedance; the end of the hold and of the rise "
+                f"rounded to the internal step of {step_ms}",
+            )
+            if any_ramp
             else ()
         ),
     )

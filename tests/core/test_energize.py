@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from typing import Any
 
 import numpy as np
 import pytest
@@ -337,6 +338,317 @@ def test_worst_closing_angle_is_rounded_and_wrapped_into_a_turn() -> None:
     )
 
 
+# ------------------------------------------------------------------ pre-insertion resistor, ramp
+
+
+def _mitigation_circuits() -> list[tuple[str, transformer.EquivalentCircuit]]:
+    """One circuit per kernel path: independent windings, delta on an ideal source, coupled."""
+    src = transformer.Source("fault_level", fault_va=50e6, x_over_r=12.0)
+    three = [
+        (f"{conn}-{'source' if s else 'ideal'}", transformer.equivalent_circuit(
+            transformer.Nameplate(
+                2500e3, 3, F_HZ, 13.8e3, connection=conn, no_load_current_percent=0.8
+            ),
+            s,
+        ))
+        for conn, s in (("wye_grounded", src), ("delta", None), ("delta", src), ("wye", src))
+    ]  # fmt: skip
+    return [("single_phase", _single_phase_unit()), *three]
+
+
+MITIGATION_CIRCUITS = _mitigation_circuits()
+MITIGATION_IDS = [name for name, _ in MITIGATION_CIRCUITS]
+RESIDUAL = (0.8, -0.4, -0.4)
+
+
+def _run(circuit: transformer.EquivalentCircuit, **kwargs: Any) -> energize.Simulation:
+    residual = RESIDUAL[: circuit.phases]
+    return energize.simulate(
+        circuit, (0.0, 100.0), residual, (0.0, 1.3e-3, 2.9e-3)[: circuit.phases],
+        duration_s=3.0 / F_HZ, **kwargs,
+    )  # fmt: skip
+
+
+def _assert_identical(a: energize.Simulation, b: energize.Simulation) -> None:
+    np.testing.assert_array_equal(a.line_current_a, b.line_current_a)
+    np.testing.assert_array_equal(a.winding_current_a, b.winding_current_a)
+    assert a.steps_per_cycle == b.steps_per_cycle
+    assert a.approximations == b.approximations
+
+
+@pytest.mark.parametrize(("name", "circuit"), MITIGATION_CIRCUITS, ids=MITIGATION_IDS)
+def test_a_zero_resistor_is_the_default_bit_for_bit(
+    name: str, circuit: transformer.EquivalentCircuit
+) -> None:
+    # Limiting case R_ins = 0: the kernels add exactly 0.0 to each line's resistance
+    default = _run(circuit)
+    assert np.max(np.abs(default.line_current_a)) > 2.0 * circuit.rated_line_current_a
+    _assert_identical(
+        _run(circuit, insertion_resistance_ohm=0.0, insertion_time_s=2.0 / F_HZ), default
+    )
+
+
+@pytest.mark.parametrize(("name", "circuit"), MITIGATION_CIRCUITS, ids=MITIGATION_IDS)
+def test_a_resistor_bypassed_at_closing_is_none_bit_for_bit(
+    name: str, circuit: transformer.EquivalentCircuit
+) -> None:
+    # Limiting case t_ins = 0: shorted from the first instant, the resistor never carries
+    # current; the step plan and the kernel (a delta on an ideal source stays on the
+    # independent-winding kernel) are those of no resistor at all
+    _assert_identical(
+        _run(circuit, insertion_resistance_ohm=500.0, insertion_time_s=0.0), _run(circuit)
+    )
+
+
+@pytest.mark.parametrize(("name", "circuit"), MITIGATION_CIRCUITS, ids=MITIGATION_IDS)
+def test_a_ramp_from_full_voltage_is_the_default_bit_for_bit(
+    name: str, circuit: transformer.EquivalentCircuit
+) -> None:
+    # Limiting case start = 1: g = 1 + 0*(t - t_hold)/t_rise is exactly 1 throughout, and the
+    # EMF multiplied by exactly 1.0 is the EMF
+    ramp = _run(circuit, voltage_start_pu=1.0, voltage_hold_s=0.5 / F_HZ, voltage_rise_s=2.0 / F_HZ)
+    _assert_identical(ramp, _run(circuit))
+
+
+@pytest.mark.parametrize(("name", "circuit"), MITIGATION_CIRCUITS, ids=MITIGATION_IDS)
+def test_more_insertion_resistance_gives_a_lower_first_peak(
+    name: str, circuit: transformer.EquivalentCircuit
+) -> None:
+    # monotone property: a larger series resistance, in for the whole first cycle, leaves less
+    # of the source voltage across the winding while it saturates; the first peak falls
+    # strictly. Values from nothing to many times the saturated reactance (X_air ~ 65 ohm for
+    # the 167 kVA single-phase unit; 13 ohm (wye) and 39 ohm (delta) for the 2500 kVA unit's
+    # 13.8 kV winding).
+    values = np.array([0.0, 3.0, 30.0, 300.0, 3000.0])
+    peaks = [
+        float(
+            waveform.cycle_peaks(
+                _run(
+                    circuit, insertion_resistance_ohm=r, insertion_time_s=2.0 / F_HZ
+                ).line_current_a,
+                SPC,
+            )[:, :, 0].max()
+        )
+        for r in values
+    ]
+    assert np.all(np.diff(peaks) < 0.0), peaks
+
+
+@settings(max_examples=15, deadline=None, database=None)
+@given(st.floats(0.0, 2000.0, allow_nan=False), st.floats(0.0, 2000.0, allow_nan=False))
+def test_more_insertion_resistance_never_raises_the_first_peak(r1: float, r2: float) -> None:
+    # the same monotone property on random pairs, single phase (one kernel call each)
+    lo, hi = sorted((r1, r2))
+    sim = energize.simulate(
+        _single_phase_unit(), 0.0, 0.8, duration_s=1.0 / F_HZ,
+        insertion_resistance_ohm=np.array([lo, hi]), insertion_time_s=1.0 / F_HZ,
+    )  # fmt: skip
+    peaks = waveform.cycle_peaks(sim.line_current_a, SPC)[:, 0, 0]
+    assert peaks[1] <= peaks[0] * (1.0 + 1e-12)
+
+
+def test_below_the_knee_a_bypassed_resistor_gives_two_rl_transients() -> None:
+    # Limiting case: the knee at 4 pu is never reached, so the circuit is linear,
+    # (L_m + L_s) di/dt + R(t) i = V_pk sin(omega t), R = R + R_ins before the bypass instant t_b
+    # and R after; i is continuous at t_b. Each piece is the standard RL switching transient
+    #   i = (V_pk/Z) sin(omega t + alpha - phi) + [i(t0) - (V_pk/Z) sin(omega t0 + alpha - phi)]
+    #       e^(-R (t - t0)/L).
+    # Tolerance 1e-6 of the peak (RK4's error on this smooth linear ODE is ~1e-9); a bypass one
+    # step late changes the current by ~R_ins h/L ~ 1e-3 of it.
+    ls, r, r_ins, b_r = 0.2 * L_AIR, 2.0, 3000.0, 0.8
+    circuit = transformer.circuit_from_si(
+        V_RMS, F_HZ, r, ls, magnetizing.two_slope(L_M, 4.0 * LAMBDA_N, L_AIR)
+    )
+    sim = energize.simulate(
+        circuit, 0.0, b_r, duration_s=5.0 / F_HZ,
+        insertion_resistance_ohm=r_ins, insertion_time_s=1.7 / F_HZ,
+    )  # fmt: skip
+    t_b = float(sim.insertion_time_s[0])
+    h = 1.0 / (F_HZ * sim.steps_per_cycle)
+    assert abs(t_b - 1.7 / F_HZ) <= 0.5 * h  # rounded to the internal step
+    assert round(t_b / h) * h == t_b
+    big_l = L_M + ls
+    vpk = math.sqrt(2.0) * V_RMS
+
+    def rl(t: np.ndarray, t0: float, i0: float, res: float) -> np.ndarray:
+        z = math.hypot(res, OMEGA * big_l)
+        phi = math.atan2(OMEGA * big_l, res)
+        steady = vpk / z * np.sin(OMEGA * t - phi)
+        return steady + (i0 - vpk / z * math.sin(OMEGA * t0 - phi)) * np.exp(
+            -res * (t - t0) / big_l
+        )
+
+    t = sim.time_s
+    i_b = float(rl(np.array([t_b]), 0.0, b_r * LAMBDA_N / L_M, r + r_ins)[0])
+    expected = np.where(t < t_b, rl(t, 0.0, b_r * LAMBDA_N / L_M, r + r_ins), rl(t, t_b, i_b, r))
+    got = sim.line_current_a[0, 0]
+    assert np.max(np.abs(got - expected)) < 1e-6 * np.max(np.abs(expected))
+
+
+@pytest.mark.parametrize("rise_cycles", [0.0, 2.5], ids=["step", "ramp"])
+def test_lossless_linear_flux_under_a_ramp_is_the_integral_of_the_emf(rise_cycles: float) -> None:
+    # Limiting case R = 0, L_s = 0, knee at 4 pu: d(lambda)/dt = g(t) V_pk sin(omega t + alpha)
+    # exactly, so lambda = lambda_r + integral of g*e, in closed form for a g that is constant
+    # or linear, a + b*t, on each piece:
+    #   integral of (a + b t) sin(w t + alpha) = -(a + b t) cos(w t + alpha)/w
+    #                                            + b sin(w t + alpha)/w^2,
+    # and i = lambda/L_m. RK4 on a quadrature is Simpson's rule, exact for this integrand to
+    # ~1e-9 per cycle when g is evaluated at every stage, so 1e-6 of the peak; g held over each
+    # step instead is off by ~(1 - start)/rise*h/2 of the EMF (~1e-3).
+    start, alpha = 0.3, math.radians(40.0)
+    circuit = transformer.circuit_from_si(
+        V_RMS, F_HZ, 0.0, 0.0, magnetizing.two_slope(L_M, 4.0 * LAMBDA_N, L_AIR)
+    )
+    sim = energize.simulate(
+        circuit, 40.0, 0.5, duration_s=6.0 / F_HZ, voltage_start_pu=start,
+        voltage_hold_s=1.3 / F_HZ, voltage_rise_s=rise_cycles / F_HZ,
+    )  # fmt: skip
+    t_hold, t_end = sim.voltage_ramp_s[0]
+    h = 1.0 / (F_HZ * sim.steps_per_cycle)
+    assert abs(t_hold - 1.3 / F_HZ) <= 0.5 * h  # rounded to the internal step
+    vpk = math.sqrt(2.0) * V_RMS
+
+    def primitive(t: np.ndarray, a: float, b: float) -> np.ndarray:
+        ph = OMEGA * t + alpha
+        return vpk * (-(a + b * t) * np.cos(ph) / OMEGA + b * np.sin(ph) / OMEGA**2)
+
+    slope = (1.0 - start) / (t_end - t_hold) if t_end > t_hold else 0.0
+    pieces = [(0.0, t_hold, start, 0.0), (t_hold, t_end, start - slope * t_hold, slope)]
+    pieces.append((t_end, math.inf, 1.0, 0.0))
+    t = sim.time_s
+    lam = np.full_like(t, 0.5 * LAMBDA_N)
+    for lo, hi, a, b in pieces:
+        if hi <= lo:
+            continue
+        upper = np.clip(t, lo, hi)
+        lam += np.where(t > lo, primitive(upper, a, b) - primitive(np.array(lo), a, b), 0.0)
+    expected = lam / L_M
+    got = sim.line_current_a[0, 0]
+    assert np.max(np.abs(got - expected)) < 1e-6 * np.max(np.abs(expected))
+
+
+@pytest.mark.parametrize("start", [0.3, 0.6])
+def test_lossless_first_peak_at_a_held_reduced_voltage(start: float) -> None:
+    # Limiting case R = 0, L_s = 0, closing at a voltage zero, the EMF held at start*V for the
+    # whole record: the flux rises from b_r to b_r + 2*start exactly (the Wang et al. swing at
+    # a reduced voltage), so i_pk = lambda_S/L_m + ((b_r + 2 start) lambda_N - lambda_S)/L_air;
+    # as in the full-voltage case the peak falls on a sample and RK4 is Simpson's rule here.
+    knee, b_r = 1.15, 0.8
+    sim = energize.simulate(
+        _lossless(knee), 0.0, b_r, duration_s=1.0 / F_HZ, voltage_start_pu=start,
+        voltage_hold_s=2.0 / F_HZ,
+    )  # fmt: skip
+    expected = knee * LAMBDA_N / L_M + ((b_r + 2.0 * start) - knee) * LAMBDA_N / L_AIR
+    assert _first_cycle_peak(sim) == pytest.approx(expected, rel=1e-6)
+
+
+def test_a_slow_ramp_from_zero_keeps_the_current_at_magnetising_level() -> None:
+    # Soft energisation: with the EMF rising from 0 over 20 cycles and no residual flux, the flux
+    # follows g(t)*lambda_N*(-cos) with no offset (g(0) = 0 leaves none to start with; the
+    # rise's own contribution is g'/omega = 1/(40 pi) ~ 0.8 % of lambda_N), so it never reaches
+    # the knee (B_S/B_N ~ 1.19) and the largest current is the steady crest sqrt(2)*I_0 of the
+    # 1 % no-load current; 2 % for that and the winding resistance. Closing at the same instant
+    # without the ramp draws real inrush (the control case).
+    circuit = _single_phase_unit()
+    crest = math.sqrt(2.0) * 0.01 * circuit.rated_winding_current_a
+    soft = energize.simulate(
+        circuit, 0.0, 0.0, duration_s=24.0 / F_HZ, voltage_start_pu=0.0,
+        voltage_rise_s=20.0 / F_HZ,
+    )  # fmt: skip
+    peak = float(np.abs(soft.line_current_a).max())
+    assert peak == pytest.approx(crest, rel=2e-2)
+    hard = energize.simulate(circuit, 0.0, 0.0, duration_s=24.0 / F_HZ)
+    assert float(np.abs(hard.line_current_a).max()) > 50.0 * peak
+
+
+def test_a_batch_with_mitigation_gives_the_same_as_one_case_at_a_time() -> None:
+    # vector-equals-scalar for the per-case resistor and ramp, on both kernels; resistors small
+    # enough that every case keeps 128 steps per cycle (a batch shares one step plan)
+    for circuit in (_single_phase_unit(), _demo_unit("delta", 13.8e3, "outer")):
+        kwargs = {
+            "insertion_resistance_ohm": np.array([0.0, 20.0, 60.0, 0.0]),
+            "insertion_time_s": np.array([0.0, 0.02, 0.01, 0.0]),
+            "voltage_start_pu": np.array([1.0, 1.0, 0.5, 0.2]),
+            "voltage_hold_s": np.array([0.0, 0.0, 0.005, 0.01]),
+            "voltage_rise_s": np.array([0.0, 0.0, 0.0, 0.02]),
+        }
+        angles = np.array([0.0, 30.0, 200.0, 300.0])
+        batch = energize.simulate(circuit, angles, 0.6, duration_s=3.0 / F_HZ, **kwargs)
+        for n in range(4):
+            one = energize.simulate(
+                circuit, angles[n], 0.6, duration_s=3.0 / F_HZ,
+                **{k: float(v[n]) for k, v in kwargs.items()},
+            )  # fmt: skip
+            assert one.steps_per_cycle == batch.steps_per_cycle == SPC
+            if circuit.connection != "delta" or kwargs["insertion_resistance_ohm"][n] > 0.0:
+                # the delta batch takes the coupled kernel (a case has a resistor in); alone,
+                # a case without one takes the independent kernel, equal to ~1e-12, not bitwise
+                np.testing.assert_array_equal(batch.line_current_a[n], one.line_current_a[0])
+            else:
+                np.testing.assert_allclose(
+                    batch.line_current_a[n], one.line_current_a[0], rtol=0.0,
+                    atol=1e-9 * np.max(np.abs(one.line_current_a)),
+                )  # fmt: skip
+
+
+def test_mitigation_is_reported_with_its_rounding() -> None:
+    circuit = _single_phase_unit()
+    sim = energize.simulate(
+        circuit, 0.0, 0.5, duration_s=2.0 / F_HZ, insertion_resistance_ohm=50.0,
+        insertion_time_s=0.0123, voltage_start_pu=0.5, voltage_hold_s=0.0041,
+        voltage_rise_s=0.0077,
+    )  # fmt: skip
+    h = 1.0 / (F_HZ * sim.steps_per_cycle)
+    assert sim.insertion_time_s.shape == (1,)
+    assert sim.voltage_ramp_s.shape == (1, 2)
+    for used, asked in ((sim.insertion_time_s[0], 0.0123), (sim.voltage_ramp_s[0, 0], 0.0041),
+                        (sim.voltage_ramp_s[0, 1], 0.0041 + 0.0077)):  # fmt: skip
+        assert abs(used - asked) <= 0.5 * h + 1e-15
+    assert any("pre-insertion resistor" in a and "rounded" in a for a in sim.approximations)
+    assert any("reduced-voltage source" in a and "rounded" in a for a in sim.approximations)
+    default = energize.simulate(circuit, 0.0, 0.5, duration_s=2.0 / F_HZ)
+    assert not any("pre-insertion" in a or "reduced-voltage" in a for a in default.approximations)
+
+
+def test_instants_far_beyond_the_record_neither_overflow_nor_hang() -> None:
+    # a bypass or a hold after the record keeps the resistor or the reduced voltage for all of
+    # it, however far after (the step index is clipped, the slope of a rise kept)
+    circuit = _single_phase_unit()
+    duration = 2.0 / F_HZ
+    base = {"duration_s": duration, "insertion_resistance_ohm": 50.0}
+    far = energize.simulate(circuit, 0.0, 0.5, insertion_time_s=1e300, **base)
+    near = energize.simulate(circuit, 0.0, 0.5, insertion_time_s=2.0 * duration, **base)
+    np.testing.assert_array_equal(far.line_current_a, near.line_current_a)
+    held = {"duration_s": duration, "voltage_start_pu": 0.4}
+    far = energize.simulate(circuit, 0.0, 0.5, voltage_hold_s=1e300, voltage_rise_s=1e300, **held)
+    near = energize.simulate(circuit, 0.0, 0.5, voltage_hold_s=2.0 * duration, **held)
+    np.testing.assert_array_equal(far.line_current_a, near.line_current_a)
+    # a rise far longer than the record: g stays at start to within 1e-300
+    slow = energize.simulate(circuit, 0.0, 0.5, voltage_rise_s=1e300, **held)
+    np.testing.assert_array_equal(slow.line_current_a, near.line_current_a)
+
+
+def test_a_resistor_too_large_to_integrate_is_named() -> None:
+    # 1e6 ohm in the loop of a 480 V winding (L_air ~ 0.1 mH) is a time constant of ~1e-10 s:
+    # beyond MAX_STEPS_PER_CYCLE, so refused, naming the resistor and the largest it allows;
+    # 1e300 ohm (and the products it overflows to) likewise, without a warning
+    wye = _demo_unit("wye_grounded", 480.0, "inner")
+    for r_ins in (1e6, 1e300, 1.7e308):
+        with pytest.raises(ParameterError) as info:
+            energize.simulate(
+                wye, 0.0, 0.5, duration_s=0.05, insertion_resistance_ohm=r_ins,
+                insertion_time_s=0.01,
+            )  # fmt: skip
+        assert info.value.parameter == "insertion_resistance_ohm"
+        assert info.value.value == r_ins
+    limit = float(str(info.value.allowed).split()[2])
+    ok = energize.simulate(
+        wye, 0.0, 0.5, duration_s=0.05, insertion_resistance_ohm=0.99 * limit,
+        insertion_time_s=0.01,
+    )  # fmt: skip
+    assert ok.steps_per_cycle <= energize.MAX_STEPS_PER_CYCLE
+
+
 # ------------------------------------------------------------------ shapes and validation
 
 
@@ -359,6 +671,21 @@ def test_simulation_shapes_and_time_axis() -> None:
         ({"pole_delay_s": -1e-3}, "pole_delay_s"),
         ({"pole_delay_s": 1.0}, "pole_delay_s"),  # after the end of the simulation
         ({"extra_resistance_ohm": -1.0}, "extra_resistance_ohm"),
+        ({"insertion_resistance_ohm": -1.0}, "insertion_resistance_ohm"),
+        ({"insertion_resistance_ohm": math.nan}, "insertion_resistance_ohm"),
+        (
+            {"closing_angle_deg": [0.0, 90.0, 180.0], "insertion_resistance_ohm": [1.0, 2.0]},
+            "insertion_resistance_ohm",
+        ),
+        ({"insertion_time_s": -1e-3}, "insertion_time_s"),
+        ({"insertion_time_s": math.inf}, "insertion_time_s"),
+        ({"voltage_start_pu": 1.01}, "voltage_start_pu"),
+        ({"voltage_start_pu": -0.1}, "voltage_start_pu"),
+        ({"voltage_start_pu": math.nan}, "voltage_start_pu"),
+        ({"voltage_hold_s": -1e-3}, "voltage_hold_s"),
+        ({"voltage_rise_s": -1e-3}, "voltage_rise_s"),
+        ({"voltage_rise_s": math.inf}, "voltage_rise_s"),
+        ({"voltage_hold_s": [[0.0, 0.1]]}, "voltage_hold_s"),
         ({"samples_per_cycle": 3}, "samples_per_cycle"),
         ({"duration_s": 0.0}, "duration_s"),
     ],
