@@ -9,6 +9,7 @@ service returns, so that an HTTP handler calls exactly one function. Warnings ar
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -31,7 +32,9 @@ __all__ = [
     "line_names",
     "peak_studies",
     "peak_study",
+    "winding_angles",
     "winding_names",
+    "worst_closing_angles",
 ]
 
 ANALYTIC_METHOD = (
@@ -105,9 +108,28 @@ def _loop(circuit: EquivalentCircuit) -> tuple[float, float, float]:
     return r, L, mult
 
 
-def _winding_angles(
+def winding_angles(
     circuit: EquivalentCircuit, closing_angle_deg: float, pole_delay_s: FloatArray
 ) -> FloatArray:
+    """Angle of each winding's source voltage at the instant it is energised.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit (its phases and connection).
+    closing_angle_deg : float
+        Phase-A voltage angle at t = 0 [deg].
+    pole_delay_s : ndarray, shape (n_phases,)
+        Pole closing instants [s].
+
+    Returns
+    -------
+    ndarray, shape (n_windings,)
+        alpha_w with the winding voltage sqrt(2)*V_w*sin(omega*t + alpha_w) at its closing,
+        not wrapped [deg]: phases B and C lag and lead A by 120 degrees; a delta winding's
+        line-to-line voltage leads its first phase by 30 degrees and is energised when the
+        later of its two poles closes.
+    """
     f = circuit.frequency_hz
     if circuit.phases == 1:
         return np.array([closing_angle_deg + 360.0 * f * pole_delay_s[0]])
@@ -141,28 +163,47 @@ def _common_checks(
 _Simulated = tuple[tuple[LinePeak, ...], tuple[float, float, str]]
 
 
-def _simulated_batch(
+def worst_closing_angles(
     circuits: list[EquivalentCircuit],
-    angles: FloatArray,
-    res: FloatArray,
-    delay: FloatArray,
-    cycles: float,
-    max_steps: int | None,
-) -> list[_Simulated]:
-    """Simulated first peaks and worst closing angles of cases sharing one topology.
+    residual_flux_pu: FloatArray,
+    pole_delay_s: FloatArray,
+    *,
+    duration_s: float,
+    max_steps: int | None = None,
+    per_case: Mapping[str, FloatArray] | None = None,
+) -> tuple[FloatArray, FloatArray]:
+    """Closing angle of the largest peak of each case, searched for all cases at once.
 
-    Each stage is one vectorised :func:`core.energize.simulate` call over every case (and every
-    trial angle): the event as given, then a scan over 0-360 degrees in 2.5-degree steps and two
-    local refinements (0.25 and 0.025 degrees).
+    Parameters
+    ----------
+    circuits : list of EquivalentCircuit
+        One per case, sharing phases, connection and frequency.
+    residual_flux_pu : ndarray, shape (n_cases, n_windings)
+        Residual flux [pu of lambda_N].
+    pole_delay_s : ndarray, shape (n_cases, n_phases)
+        Pole closing delays [s].
+    duration_s : float
+        Record searched for the peak after t = 0 [s].
+    max_steps : int or None
+        Compute limit per vectorised simulation call [-].
+    per_case : mapping of str to ndarray, shape (n_cases,), or None
+        Further per-case keyword arguments of :func:`core.energize.simulate` (a pre-insertion
+        resistor, a voltage ramp), repeated with each trial angle.
+
+    Returns
+    -------
+    tuple of ndarray
+        The worst phase-A closing angle of each case, not wrapped [deg], and every line's peak
+        at that angle, shape (n_cases, n_lines) [A].
+
+    Notes
+    -----
+    Each stage is one vectorised :func:`core.energize.simulate` call over every case and trial
+    angle: a scan over 0-360 degrees in 2.5-degree steps, then two local refinements (0.25 and
+    0.025 degrees), and a last call at the angles found.
     """
     n = len(circuits)
-    f = circuits[0].frequency_hz
-    lines = line_names(circuits[0])
-    duration = cycles / f + float(delay.max())
-    sim = energize.simulate(circuits, angles, res, delay, duration_s=duration,
-                            samples_per_cycle=128, max_steps=max_steps)  # fmt: skip
-    k = np.argmax(np.abs(sim.line_current_a), axis=-1)
-    first = energize.refined_abs_peak(sim.line_current_a)
+    extra = dict(per_case or {})
     center = np.full(n, 180.0)
     span, step = 180.0, 2.5
     for _ in range(3):
@@ -171,15 +212,39 @@ def _simulated_batch(
         reps = offsets.size
         scan = energize.simulate(
             [c for c in circuits for _ in range(reps)], trial.ravel(),
-            np.repeat(res, reps, axis=0), np.repeat(delay, reps, axis=0),
-            duration_s=duration, samples_per_cycle=128, max_steps=max_steps,
+            np.repeat(residual_flux_pu, reps, axis=0), np.repeat(pole_delay_s, reps, axis=0),
+            duration_s=duration_s, samples_per_cycle=128, max_steps=max_steps,
+            **{k: np.repeat(v, reps) for k, v in extra.items()},
         )  # fmt: skip
         worst = energize.refined_abs_peak(scan.line_current_a).max(axis=-1).reshape(n, reps)
         center = trial[np.arange(n), np.argmax(worst, axis=1)]
         span, step = step, step / 10.0
-    best = energize.simulate(circuits, center, res, delay, duration_s=duration,
-                             samples_per_cycle=128, max_steps=max_steps)  # fmt: skip
-    best_peaks = energize.refined_abs_peak(best.line_current_a)
+    best = energize.simulate(circuits, center, residual_flux_pu, pole_delay_s,
+                             duration_s=duration_s, samples_per_cycle=128, max_steps=max_steps,
+                             **extra)  # fmt: skip
+    return center, energize.refined_abs_peak(best.line_current_a)
+
+
+def _simulated_batch(
+    circuits: list[EquivalentCircuit],
+    angles: FloatArray,
+    res: FloatArray,
+    delay: FloatArray,
+    cycles: float,
+    max_steps: int | None,
+) -> list[_Simulated]:
+    """Simulated first peaks of the events as given and their worst closing angles."""
+    n = len(circuits)
+    f = circuits[0].frequency_hz
+    lines = line_names(circuits[0])
+    duration = cycles / f + float(delay.max())
+    sim = energize.simulate(circuits, angles, res, delay, duration_s=duration,
+                            samples_per_cycle=128, max_steps=max_steps)  # fmt: skip
+    k = np.argmax(np.abs(sim.line_current_a), axis=-1)
+    first = energize.refined_abs_peak(sim.line_current_a)
+    center, best_peaks = worst_closing_angles(
+        circuits, res, delay, duration_s=duration, max_steps=max_steps
+    )
     out: list[_Simulated] = []
     for i in range(n):
         part = tuple(
@@ -307,7 +372,7 @@ def peak_study(
     worst_a: float | None = None
     worst_res: float | None = None
     if method in ("analytic", "both"):
-        angles = _winding_angles(circuit, closing_angle_deg, delay)
+        angles = winding_angles(circuit, closing_angle_deg, delay)
         d = analytic.flux_offset_pu(res, angles)
         amp = float(
             analytic.first_peak_wang(
@@ -531,7 +596,7 @@ def envelope_study(
             )
     r, L, _ = _loop(circuit)
     b_s = circuit.knee_flux_wb / lam_n
-    angles = _winding_angles(circuit, closing_angle_deg, delay)
+    angles = winding_angles(circuit, closing_angle_deg, delay)
     offsets = analytic.flux_offset_pu(res, angles)
     analytic_env = tuple(
         (

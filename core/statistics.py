@@ -28,7 +28,7 @@ from scipy import stats
 
 from core import analytic, energize
 from core.errors import ParameterError
-from core.inrush import line_names
+from core.inrush import line_names, winding_angles
 from core.transformer import EquivalentCircuit
 
 FloatArray = NDArray[np.float64]
@@ -600,19 +600,21 @@ def _closing_plan(
     circuit: EquivalentCircuit, res: FloatArray, strategy: str
 ) -> tuple[FloatArray, float, FloatArray]:
     """Optimal angles per winding, phase-A angle at the first pole, and the pole delays [s]."""
-    if circuit.connection not in ("single_phase", "wye_grounded", "wye"):
-        raise ParameterError(
-            "circuit.connection", circuit.connection, "single_phase, wye_grounded or wye"
-        )
     if strategy not in STRATEGIES:
         raise ParameterError("strategy", strategy, " or ".join(STRATEGIES))
+    delta = circuit.connection == "delta"
+    if delta and strategy != "simultaneous":
+        raise ParameterError(
+            "strategy", strategy, "simultaneous for a delta winding (each needs two poles)"
+        )
     optimal: FloatArray = np.degrees(np.arccos(-res))
     period = 1.0 / circuit.frequency_hz
     m = circuit.phases
     shift = _PHASE_SHIFT_DEG[:m]
     ref = int(np.argmax(np.abs(res)))  # the winding whose residual matters most
-    # phase-A angle at which the reference winding's voltage is at its optimal angle
-    alpha_a = float(optimal[ref] - shift[ref])
+    # phase-A angle at which the reference winding's voltage is at its optimal angle (a delta
+    # winding's line-to-line voltage leads its first phase by 30 degrees)
+    alpha_a = float(optimal[ref] - shift[ref] - (30.0 if delta else 0.0))
     if strategy == "simultaneous" or m == 1:
         delays = np.zeros(m)
     elif strategy == "first_phase_then_quarter_cycle":
@@ -641,7 +643,8 @@ def controlled_closing(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The transformer and its source (single phase, grounded or ungrounded wye).
+        The transformer and its source (single phase, grounded or ungrounded wye, or delta
+        with the simultaneous strategy).
     residual_flux_pu : array_like, shape (n_windings,) or scalar
         Residual flux of each winding, in [-1, 1] [pu of lambda_N].
     errors_ms : array_like or None
@@ -664,7 +667,7 @@ def controlled_closing(
     Raises
     ------
     ParameterError
-        On a value out of range or a delta connection (not supported).
+        On a value out of range, or a pole-by-pole strategy for a delta winding.
 
     Notes
     -----
@@ -698,8 +701,7 @@ def controlled_closing(
                 "errors_ms", err.tolist(), f"finite values within +-{cycle_ms:.4g} ms"
             )
     optimal, alpha_a, delays = _closing_plan(circuit, res, strategy)
-    shift = _PHASE_SHIFT_DEG[: circuit.phases]
-    winding_angle = alpha_a + shift + 360.0 * f * delays
+    winding_angle = winding_angles(circuit, alpha_a, delays)
     offset = analytic.flux_offset_pu(res, winding_angle)
     sim = energize.simulate(
         circuit,

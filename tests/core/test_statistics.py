@@ -306,3 +306,24 @@ def test_controlled_closing_errors(
     with pytest.raises(ParameterError) as info:
         statistics.tolerance_window(single_phase, 0.0, -1.0)
     assert info.value.parameter == "target_a"
+
+
+def test_delta_simultaneous_matches_the_winding_with_the_largest_residual() -> None:
+    # a delta winding's line-to-line voltage leads its first phase by 30 degrees (ABC
+    # sequence), so the aimed phase-A angle is arccos(-b_r) - 30 for winding AB
+    delta = transformer.equivalent_circuit(
+        transformer.Nameplate(
+            rating_va=2.5e6, phases=3, frequency_hz=60, line_voltage_v=13.8e3,
+            connection="delta", position="outer", impedance_percent=5.75, x_over_r=7,
+            no_load_current_percent=0.8,
+        )
+    )  # fmt: skip
+    out = statistics.controlled_closing(delta, [0.7, -0.35, -0.35], errors_ms=[0.0])
+    assert out.closing_angle_deg == pytest.approx(math.degrees(math.acos(-0.7)) - 30.0)
+    assert abs(out.flux_offset_pu[0]) < 1e-12
+    # the uncontrolled worst case is far larger than what the aimed closing leaves
+    worst = energize.worst_closing_angle(delta, [0.7, -0.35, -0.35])
+    assert out.worst_peak_a[0] < 0.5 * worst.peak_a
+    with pytest.raises(ParameterError) as info:
+        statistics.controlled_closing(delta, [0.7, -0.35, -0.35], strategy="independent")
+    assert info.value.parameter == "strategy"
