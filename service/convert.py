@@ -11,21 +11,25 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from core import inrush, magnetizing, transformer
+from core import curves, inrush, magnetizing, ridethrough, transformer
 from core.errors import LimitError
+from core.generator import BusLoad, Excitation, ExcitationSpec, Generator
 from core.transformer import EquivalentCircuit
+from service.models.clearance import BreakerIn, CurvePoint, FuseIn, RelayIn
 from service.models.common import (
     Assumption,
     FaultLevelSource,
     ImpedanceSource,
     Method,
     SmoothCurve,
+    SourceIn,
     Study,
     TableCurve,
     TransformerNameplate,
     TwoSlopeCurve,
     WarningItem,
 )
+from service.models.dip import BusLoadIn, GeneratorIn, PresetExcitation, RegulatorIn
 from service.settings import Settings
 
 RESIDUAL_DEFAULT_SOURCE = (
@@ -64,51 +68,58 @@ def _provenance(t: TransformerNameplate) -> dict[str, str]:
     return {n: DEFAULT_PROVENANCE[n] for n in unset}
 
 
+def nameplate_of(t: TransformerNameplate) -> transformer.Nameplate:
+    """The core nameplate of a request's transformer, SI units, with the defaults' provenance."""
+    c = t.core
+    oc = c.open_circuit_test or []
+    return transformer.Nameplate(
+        rating_va=t.rating_kva * 1e3,
+        phases=t.phases,
+        frequency_hz=t.frequency_hz,
+        line_voltage_v=t.energized_winding.voltage_kv * 1e3,
+        connection=t.energized_winding.connection,
+        position=t.energized_winding.position,
+        impedance_percent=t.impedance_percent,
+        x_over_r=t.x_over_r,
+        no_load_current_percent=t.no_load_current_percent,
+        material=c.material,
+        nominal_flux_density_t=c.nominal_flux_density_t,
+        saturation_flux_density_t=c.saturation_flux_density_t,
+        geometry=(
+            transformer.WindingGeometry(
+                t.winding_geometry.turns,
+                t.winding_geometry.mean_diameter_m,
+                t.winding_geometry.height_m,
+            )
+            if t.winding_geometry is not None
+            else None
+        ),
+        curve=c.curve,
+        knee_width_pu=c.knee_width_pu,
+        open_circuit_voltage_percent=tuple(p.voltage_percent for p in oc),
+        open_circuit_current_percent=tuple(p.current_percent for p in oc),
+        provenance=_provenance(t),
+    )
+
+
+def source_of(src: SourceIn | None) -> transformer.Source | None:
+    """The core source of a request's ``source`` (None when absent: ideal by default)."""
+    if isinstance(src, FaultLevelSource):
+        return transformer.Source("fault_level", src.fault_mva * 1e6, src.x_over_r)
+    if isinstance(src, ImpedanceSource):
+        return transformer.Source(
+            "impedance", resistance_ohm=src.resistance_ohm, reactance_ohm=src.reactance_ohm
+        )
+    if src is not None:
+        return transformer.Source("ideal")
+    return None
+
+
 def _circuit(study: Study) -> EquivalentCircuit:
     if study.transformer is not None:
-        t = study.transformer
-        c = t.core
-        oc = c.open_circuit_test or []
-        npl = transformer.Nameplate(
-            rating_va=t.rating_kva * 1e3,
-            phases=t.phases,
-            frequency_hz=t.frequency_hz,
-            line_voltage_v=t.energized_winding.voltage_kv * 1e3,
-            connection=t.energized_winding.connection,
-            position=t.energized_winding.position,
-            impedance_percent=t.impedance_percent,
-            x_over_r=t.x_over_r,
-            no_load_current_percent=t.no_load_current_percent,
-            material=c.material,
-            nominal_flux_density_t=c.nominal_flux_density_t,
-            saturation_flux_density_t=c.saturation_flux_density_t,
-            geometry=(
-                transformer.WindingGeometry(
-                    t.winding_geometry.turns,
-                    t.winding_geometry.mean_diameter_m,
-                    t.winding_geometry.height_m,
-                )
-                if t.winding_geometry is not None
-                else None
-            ),
-            curve=c.curve,
-            knee_width_pu=c.knee_width_pu,
-            open_circuit_voltage_percent=tuple(p.voltage_percent for p in oc),
-            open_circuit_current_percent=tuple(p.current_percent for p in oc),
-            provenance=_provenance(t),
+        return transformer.equivalent_circuit(
+            nameplate_of(study.transformer), source_of(study.source)
         )
-        src = study.source
-        if isinstance(src, FaultLevelSource):
-            core_src = transformer.Source("fault_level", src.fault_mva * 1e6, src.x_over_r)
-        elif isinstance(src, ImpedanceSource):
-            core_src = transformer.Source(
-                "impedance", resistance_ohm=src.resistance_ohm, reactance_ohm=src.reactance_ohm
-            )
-        elif src is not None:
-            core_src = transformer.Source("ideal")
-        else:
-            core_src = None
-        return transformer.equivalent_circuit(npl, core_src)
     assert study.circuit is not None
     ci = study.circuit
     m = ci.magnetizing
@@ -254,3 +265,79 @@ def assumptions_out(items: Sequence[transformer.Assumption]) -> list[Assumption]
         )
         for a in items
     ]
+
+
+def generator_of(sup: GeneratorIn, line_voltage_v: float, frequency_hz: float) -> Generator:
+    """The core generator of a request's supply, at the energised winding's voltage."""
+    prov = {}
+    if sup.armature_resistance_pu is None:
+        prov["armature_resistance_pu"] = "default 0.01 pu (typical 0.005-0.03, from memory)"
+    return Generator(
+        rating_va=sup.rating_kva * 1e3,
+        line_voltage_v=line_voltage_v,
+        frequency_hz=frequency_hz,
+        x_d2_pu=sup.x_d2_pu,
+        x_d1_pu=sup.x_d1_pu,
+        x_d_pu=sup.x_d_pu,
+        t_d2_s=sup.t_d2_s,
+        t_d1_s=sup.t_d1_s,
+        t_d1o_s=sup.t_d1o_s,
+        armature_resistance_pu=(
+            sup.armature_resistance_pu if sup.armature_resistance_pu is not None else 0.01
+        ),
+        provenance=prov,
+    )
+
+
+def excitation_of(exc: RegulatorIn | PresetExcitation) -> ExcitationSpec:
+    """The core excitation model of a request's ``excitation``."""
+    if isinstance(exc, RegulatorIn):
+        return Excitation(
+            exc.gain_pu,
+            exc.time_constant_s,
+            exc.ceiling_pu,
+            exc.floor_pu,
+            exc.sensing_time_constant_s,
+        )
+    return exc.kind
+
+
+def bus_load_of(load: BusLoadIn | None) -> BusLoad | None:
+    """The core bus load of a request's ``bus_load`` (kW, kvar to W, var)."""
+    return BusLoad(load.active_kw * 1e3, load.reactive_kvar * 1e3) if load is not None else None
+
+
+def _table(points: list[CurvePoint]) -> curves.TabulatedCurve:
+    return curves.TabulatedCurve(
+        np.array([p.current_a for p in points]), np.array([p.time_s for p in points])
+    )
+
+
+def device_of(d: RelayIn | FuseIn | BreakerIn) -> ridethrough.Device:
+    """The core protective device of a request's device."""
+    if isinstance(d, RelayIn):
+        return ridethrough.Relay(
+            d.name, d.standard, d.curve, d.pickup_a, d.time_dial, d.instantaneous_pickup_a,
+            d.reset,
+        )  # fmt: skip
+    if isinstance(d, FuseIn):
+        tc = d.total_clearing
+        return ridethrough.Fuse(
+            d.name,
+            _table(d.minimum_melt),
+            _table(tc) if tc else None,
+            d.minimum_melting_i2t_a2s,
+            d.melt_current_factor,
+        )
+    return ridethrough.Breaker(
+        d.name,
+        curves.LowVoltageBreaker(
+            long_time_pickup=d.long_time_pickup_a,
+            long_time_delay=d.long_time_delay_s,
+            short_time_pickup=d.short_time_pickup_a,
+            short_time_delay=d.short_time_delay_s,
+            instantaneous_pickup=d.instantaneous_pickup_a,
+            pickup_tolerance=d.pickup_tolerance,
+            instantaneous_tolerance=d.instantaneous_tolerance,
+        ),
+    )

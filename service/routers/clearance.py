@@ -10,20 +10,16 @@ from fastapi import APIRouter, Body, Depends
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
 
-from core import clearance, curves, ridethrough
+from core import clearance, ridethrough
 from service import convert, figures
 from service.examples import CLEARANCE_EXAMPLES
 from service.models.clearance import (
-    BreakerIn,
     ClearanceRequest,
     ClearanceResponse,
-    CurvePoint,
     DamageOut,
     DeviceOut,
-    FuseIn,
     PointOut,
     ProtectionOut,
-    RelayIn,
     RideThroughOut,
     WindowOut,
 )
@@ -42,41 +38,6 @@ CLEARANCE_METHOD = (
 )
 
 
-def _table(points: list[CurvePoint]) -> curves.TabulatedCurve:
-    return curves.TabulatedCurve(
-        np.array([p.current_a for p in points]), np.array([p.time_s for p in points])
-    )
-
-
-def _device(d: RelayIn | FuseIn | BreakerIn) -> ridethrough.Device:
-    if isinstance(d, RelayIn):
-        return ridethrough.Relay(
-            d.name, d.standard, d.curve, d.pickup_a, d.time_dial, d.instantaneous_pickup_a,
-            d.reset,
-        )  # fmt: skip
-    if isinstance(d, FuseIn):
-        tc = d.total_clearing
-        return ridethrough.Fuse(
-            d.name,
-            _table(d.minimum_melt),
-            _table(tc) if tc else None,
-            d.minimum_melting_i2t_a2s,
-            d.melt_current_factor,
-        )
-    return ridethrough.Breaker(
-        d.name,
-        curves.LowVoltageBreaker(
-            long_time_pickup=d.long_time_pickup_a,
-            long_time_delay=d.long_time_delay_s,
-            short_time_pickup=d.short_time_pickup_a,
-            short_time_delay=d.short_time_delay_s,
-            instantaneous_pickup=d.instantaneous_pickup_a,
-            pickup_tolerance=d.pickup_tolerance,
-            instantaneous_tolerance=d.instantaneous_tolerance,
-        ),
-    )
-
-
 def _study(
     body: ClearanceRequest, settings: Settings
 ) -> tuple[clearance.ClearanceStudy, list[Assumption]]:
@@ -90,7 +51,7 @@ def _study(
         body.switching.closing_angle_deg if opt.closing == "given" else None,
         res,
         delay,
-        [_device(d) for d in body.devices],
+        [convert.device_of(d) for d in body.devices],
         rating_va=t.rating_kva * 1e3,
         impedance_percent=t.impedance_percent,
         duration_s=opt.duration_s,

@@ -18,7 +18,6 @@ from service.models.dip import (
     GeneratorDipRequest,
     GeneratorDipResponse,
     GeneratorIn,
-    RegulatorIn,
     SizingOut,
     VerdictOut,
 )
@@ -49,35 +48,10 @@ def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assump
     sup = body.supply
     source: generator.Source
     if isinstance(sup, GeneratorIn):
-        prov = {}
-        if sup.armature_resistance_pu is None:
-            prov["armature_resistance_pu"] = "default 0.01 pu (typical 0.005-0.03, from memory)"
-        source = generator.Generator(
-            rating_va=sup.rating_kva * 1e3,
-            line_voltage_v=v_ll,
-            frequency_hz=t.frequency_hz,
-            x_d2_pu=sup.x_d2_pu,
-            x_d1_pu=sup.x_d1_pu,
-            x_d_pu=sup.x_d_pu,
-            t_d2_s=sup.t_d2_s,
-            t_d1_s=sup.t_d1_s,
-            t_d1o_s=sup.t_d1o_s,
-            armature_resistance_pu=(
-                sup.armature_resistance_pu if sup.armature_resistance_pu is not None else 0.01
-            ),
-            provenance=prov,
-        )
+        source = convert.generator_of(sup, v_ll, t.frequency_hz)
     else:
         source = generator.UtilitySource(sup.fault_mva * 1e6, sup.x_over_r, v_ll, t.frequency_hz)
-    exc = body.excitation
-    excitation: generator.ExcitationSpec
-    if isinstance(exc, RegulatorIn):
-        excitation = generator.Excitation(
-            exc.gain_pu, exc.time_constant_s, exc.ceiling_pu, exc.floor_pu,
-            exc.sensing_time_constant_s,
-        )  # fmt: skip
-    else:
-        excitation = exc.kind
+    excitation = convert.excitation_of(body.excitation)
     opt = body.options
     if isinstance(opt.limits, CustomLimit):
         lim = opt.limits
@@ -100,9 +74,7 @@ def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assump
         limits=limits,
         size_for=size_for,
         excitation=excitation,
-        bus_load=generator.BusLoad(load.active_kw * 1e3, load.reactive_kvar * 1e3)
-        if load is not None
-        else None,
+        bus_load=convert.bus_load_of(load),
         duration_s=opt.duration_s,
         recovery_band_percent=opt.recovery_band_percent,
         voltage_measure=opt.voltage_measure,
