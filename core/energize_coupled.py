@@ -243,20 +243,26 @@ def _emf(
 # a helper inlined from another file could change without the cached kernel being recompiled.
 @numba.njit(cache=True, inline="always")
 def _source_scale(
-    j: int, start: float, slope: float, hold_step: int, rise_end_step: int
+    j: int, k: int, m: int, start: float, slope: float, hold_step: int, rise_end_step: int
 ) -> tuple[float, float, float]:  # pragma: no cover - compiled
-    # Source amplitude factor g at the three stage times of step j (t_j, t_j + h/2, t_j + h):
-    # ``start`` before the hold ends, rising by ``slope`` per step to 1 at the end of the rise,
-    # 1 afterwards. The piece is chosen by the step, not the stage time, so a step ending at the
-    # instant of a jump (a rise of zero steps) sees the value it started with up to its end.
-    # Exactly 1.0 once the rise is over, which is every step when the feature is off
-    # (rise_end_step = 0), so multiplying by it changes nothing there.
+    # Source amplitude factor g at the three stage times of sub-step k of the m that step j is
+    # split into (t_j + (k, k + 1/2, k + 1)*h/m; m = 1 but while a pre-insertion resistor is
+    # in): ``start`` before the hold ends, rising by ``slope`` per step to 1 at the end of the
+    # rise, 1 afterwards. The piece is chosen by the step, not the stage time, so a step ending
+    # at the instant of a jump (a rise of zero steps) sees the value it started with up to its
+    # end. Exactly 1.0 once the rise is over, which is every step when the feature is off
+    # (rise_end_step = 0), so multiplying by it changes nothing there; with m = 1 the offsets
+    # k/m, (k + 1/2)/m and (k + 1)/m are exactly 0, 0.5 and 1.
     if j >= rise_end_step:
         return 1.0, 1.0, 1.0
     if j < hold_step:
         return start, start, start
     x = float(j - hold_step)
-    return start + slope * x, start + slope * (x + 0.5), start + slope * (x + 1.0)
+    return (
+        start + slope * (x + k / m),
+        start + slope * (x + (k + 0.5) / m),
+        start + slope * (x + (k + 1.0) / m),
+    )
 
 
 @numba.njit(cache=True, inline="always")
@@ -329,10 +335,12 @@ def integrate(
     leaves the winding currents the rate needs. One curve per case (kind, par, flux, cur, npts
     as :func:`core.energize_plan.element_curves` without the source shift). Mitigation per
     case: mit_f = (R_ins, g_0, slope of g per step), mit_i = (bypass step, end of hold, end of
-    rise); R_ins adds to every line's resistance for the steps before the bypass (wye: r_w,
-    each phase being a line; delta: r_s), and the source EMF is scaled by :func:`_source_scale`
-    at each stage. Returns how many flux solves missed the tolerance within
-    NEWTON_MAX_ITERATIONS (0 normally).
+    rise, sub-steps per step while the resistor is in); R_ins adds to every line's resistance
+    for the steps before the bypass (wye: r_w, each phase being a line; delta: r_s), each of
+    those steps being split into mit_i[c, 3] equal sub-steps (a single step when it is 1,
+    computed exactly as without the split), and the source EMF is scaled by
+    :func:`_source_scale` at each stage. The outputs stay at the steps. Returns how many flux
+    solves missed the tolerance within NEWTON_MAX_ITERATIONS (0 normally).
     """
     n_cases = vpk.shape[0]
     failed = 0
@@ -345,6 +353,8 @@ def integrate(
         r_s_ins = r_s + mit_f[c, 0] if topo == 2 else r_s
         gs, gk = mit_f[c, 1], mit_f[c, 2]
         k_ins, kh, ke = mit_i[c, 0], mit_i[c, 1], mit_i[c, 2]
+        sub_in = mit_i[c, 3]
+        h_in = h / sub_in
         ls = l_src[c]
         ftol = tol[c]
         kd = kind[c]
@@ -388,113 +398,122 @@ def integrate(
             if j == n_steps:
                 break
             t = j * h
-            e_start = _emf(topo, t, omega, v0, v1, v2, a0, a1, a2) if j == 0 else e_end
-            e_mid = _emf(topo, t + 0.5 * h, omega, v0, v1, v2, a0, a1, a2)
-            e_end = _emf(topo, t + h, omega, v0, v1, v2, a0, a1, a2)
-            q0, q1, q2 = _source_scale(j, gs, gk, kh, ke)
+            # while the resistor is in, the step is split into sub_in equal sub-steps
+            nsub = sub_in if j < k_ins else 1
+            hs = h if nsub == 1 else h_in
             rw_j, rs_j = (r_w_ins, r_s_ins) if j < k_ins else (r_w, r_s)
-            s0 = s1 = s2 = 0.0  # weighted sum of the rates
-            # stages 0-3 at t, t + h/2, t + h/2, t + h (weights 1, 2, 2, 1); "stage" 4 recovers
-            # lambda at the step's end from the updated state
-            for st in range(5):
-                if st > 0:
-                    if st < 4:
-                        a = h if st == 3 else 0.5 * h
-                        y0, y1, y2 = x0 + a * k0, x1 + a * k1, x2 + a * k2
-                    else:
-                        x0 += h / 6.0 * s0
-                        x1 += h / 6.0 * s1
-                        x2 += h / 6.0 * s2
-                        y0, y1, y2 = x0, x1, x2
-                    if topo == 2:
-                        # Newton's method from the previous stage's lambda; a step that does
-                        # not reduce the residual is halved (descent: the Newton direction
-                        # shrinks every linearised residual alike)
-                        b0, b1, b2 = l0, l1, l2  # last accepted point
-                        dl0 = dl1 = dl2 = 0.0  # Newton step from it
-                        base = math.inf  # its residual
-                        alpha = 1.0
-                        for it in range(NEWTON_MAX_ITERATIONS + 1):
-                            res, u0, u1, u2 = _delta_newton_step(
-                                l0, l1, l2, i0, i1, i2, d0, d1, d2, y0, y1, y2,
-                                on0, on1, on2, ls, ftol,
-                            )  # fmt: skip
-                            if res <= ftol:
-                                break
-                            if it == NEWTON_MAX_ITERATIONS:
-                                failed += 1
-                                break
-                            if res < base:
-                                b0, b1, b2 = l0, l1, l2
-                                dl0, dl1, dl2 = u0, u1, u2
-                                base = res
-                                alpha = 1.0
-                            else:
-                                alpha *= 0.5
-                            l0 = b0 + alpha * dl0
-                            l1 = b1 + alpha * dl1
-                            l2 = b2 + alpha * dl2
-                            i0, d0 = _winding_curve(
-                                l0, on0, kd, p0, p1, p2, p3, p4, c, flux, cur, top
-                            )
-                            i1, d1 = _winding_curve(
-                                l1, on1, kd, p0, p1, p2, p3, p4, c, flux, cur, top
-                            )
-                            i2, d2 = _winding_curve(
-                                l2, on2, kd, p0, p1, p2, p3, p4, c, flux, cur, top
-                            )
-                            if alpha == 1.0 and max(abs(dl0), abs(dl1), abs(dl2)) <= ftol:
-                                break  # a full step below the tolerance: converged
-                    elif count >= 2:
-                        # the shift s: sum_k I_k(y_k + s) = i_sum, I_k the current against the
-                        # loop flux, increasing in s; Newton's method with its slope
-                        # sum(w_k), w_k = f'_k/(1 + L_s*f'_k), and bisection whenever a step
-                        # leaves the bracket found so far
-                        lo = -math.inf
-                        hi = math.inf
-                        small = False
-                        for it in range(NEWTON_MAX_ITERATIONS + 1):
-                            l0, i0, d0, ok0 = _phase_flux(
-                                y0 + shift, l0, on0, ls, ftol,
-                                kd, p0, p1, p2, p3, p4, c, flux, cur, top,
-                            )  # fmt: skip
-                            l1, i1, d1, ok1 = _phase_flux(
-                                y1 + shift, l1, on1, ls, ftol,
-                                kd, p0, p1, p2, p3, p4, c, flux, cur, top,
-                            )  # fmt: skip
-                            l2, i2, d2, ok2 = _phase_flux(
-                                y2 + shift, l2, on2, ls, ftol,
-                                kd, p0, p1, p2, p3, p4, c, flux, cur, top,
-                            )  # fmt: skip
-                            g = i0 + i1 + i2 - i_sum
-                            gp = d0 / (1.0 + ls * d0) + d1 / (1.0 + ls * d1) + d2 / (1.0 + ls * d2)
-                            if not (ok0 and ok1 and ok2):
-                                failed += 1
-                                break
-                            if small or abs(g) <= ftol * gp:
-                                break
-                            if it == NEWTON_MAX_ITERATIONS:
-                                failed += 1
-                                break
-                            if g > 0.0:
-                                hi = shift
-                            else:
-                                lo = shift
-                            new = shift - g / gp
-                            if not lo < new < hi:
-                                new = 0.5 * (lo + hi)
-                            small = abs(new - shift) <= ftol
-                            shift = new
-                if st == 4:
-                    break
-                e = e_start if st == 0 else (e_end if st == 3 else e_mid)
-                q = q0 if st == 0 else (q2 if st == 3 else q1)
-                k0, k1, k2 = _rate(
-                    topo, q * e[0], q * e[1], q * e[2], i0, i1, i2, on0, on1, on2, count,
-                    rw_j, rs_j,
-                )  # fmt: skip
-                wgt = 1.0 if st == 0 or st == 3 else 2.0
-                s0 += wgt * k0
-                s1 += wgt * k1
-                s2 += wgt * k2
+            for k in range(nsub):
+                ts = t + k * hs
+                e_start = _emf(topo, ts, omega, v0, v1, v2, a0, a1, a2) if j + k == 0 else e_end
+                e_mid = _emf(topo, ts + 0.5 * hs, omega, v0, v1, v2, a0, a1, a2)
+                e_end = _emf(topo, ts + hs, omega, v0, v1, v2, a0, a1, a2)
+                q0, q1, q2 = _source_scale(j, k, nsub, gs, gk, kh, ke)
+                s0 = s1 = s2 = 0.0  # weighted sum of the rates
+                # stages 0-3 at t, t + h/2, t + h/2, t + h (weights 1, 2, 2, 1), h the
+                # (sub-)step; "stage" 4 recovers lambda at its end from the updated state
+                for st in range(5):
+                    if st > 0:
+                        if st < 4:
+                            a = hs if st == 3 else 0.5 * hs
+                            y0, y1, y2 = x0 + a * k0, x1 + a * k1, x2 + a * k2
+                        else:
+                            x0 += hs / 6.0 * s0
+                            x1 += hs / 6.0 * s1
+                            x2 += hs / 6.0 * s2
+                            y0, y1, y2 = x0, x1, x2
+                        if topo == 2:
+                            # Newton's method from the previous stage's lambda; a step that does
+                            # not reduce the residual is halved (descent: the Newton direction
+                            # shrinks every linearised residual alike)
+                            b0, b1, b2 = l0, l1, l2  # last accepted point
+                            dl0 = dl1 = dl2 = 0.0  # Newton step from it
+                            base = math.inf  # its residual
+                            alpha = 1.0
+                            for it in range(NEWTON_MAX_ITERATIONS + 1):
+                                res, u0, u1, u2 = _delta_newton_step(
+                                    l0, l1, l2, i0, i1, i2, d0, d1, d2, y0, y1, y2,
+                                    on0, on1, on2, ls, ftol,
+                                )  # fmt: skip
+                                if res <= ftol:
+                                    break
+                                if it == NEWTON_MAX_ITERATIONS:
+                                    failed += 1
+                                    break
+                                if res < base:
+                                    b0, b1, b2 = l0, l1, l2
+                                    dl0, dl1, dl2 = u0, u1, u2
+                                    base = res
+                                    alpha = 1.0
+                                else:
+                                    alpha *= 0.5
+                                l0 = b0 + alpha * dl0
+                                l1 = b1 + alpha * dl1
+                                l2 = b2 + alpha * dl2
+                                i0, d0 = _winding_curve(
+                                    l0, on0, kd, p0, p1, p2, p3, p4, c, flux, cur, top
+                                )
+                                i1, d1 = _winding_curve(
+                                    l1, on1, kd, p0, p1, p2, p3, p4, c, flux, cur, top
+                                )
+                                i2, d2 = _winding_curve(
+                                    l2, on2, kd, p0, p1, p2, p3, p4, c, flux, cur, top
+                                )
+                                if alpha == 1.0 and max(abs(dl0), abs(dl1), abs(dl2)) <= ftol:
+                                    break  # a full step below the tolerance: converged
+                        elif count >= 2:
+                            # the shift s: sum_k I_k(y_k + s) = i_sum, I_k the current against the
+                            # loop flux, increasing in s; Newton's method with its slope
+                            # sum(w_k), w_k = f'_k/(1 + L_s*f'_k), and bisection whenever a step
+                            # leaves the bracket found so far
+                            lo = -math.inf
+                            hi = math.inf
+                            small = False
+                            for it in range(NEWTON_MAX_ITERATIONS + 1):
+                                l0, i0, d0, ok0 = _phase_flux(
+                                    y0 + shift, l0, on0, ls, ftol,
+                                    kd, p0, p1, p2, p3, p4, c, flux, cur, top,
+                                )  # fmt: skip
+                                l1, i1, d1, ok1 = _phase_flux(
+                                    y1 + shift, l1, on1, ls, ftol,
+                                    kd, p0, p1, p2, p3, p4, c, flux, cur, top,
+                                )  # fmt: skip
+                                l2, i2, d2, ok2 = _phase_flux(
+                                    y2 + shift, l2, on2, ls, ftol,
+                                    kd, p0, p1, p2, p3, p4, c, flux, cur, top,
+                                )  # fmt: skip
+                                g = i0 + i1 + i2 - i_sum
+                                gp = (
+                                    d0 / (1.0 + ls * d0)
+                                    + d1 / (1.0 + ls * d1)
+                                    + d2 / (1.0 + ls * d2)
+                                )
+                                if not (ok0 and ok1 and ok2):
+                                    failed += 1
+                                    break
+                                if small or abs(g) <= ftol * gp:
+                                    break
+                                if it == NEWTON_MAX_ITERATIONS:
+                                    failed += 1
+                                    break
+                                if g > 0.0:
+                                    hi = shift
+                                else:
+                                    lo = shift
+                                new = shift - g / gp
+                                if not lo < new < hi:
+                                    new = 0.5 * (lo + hi)
+                                small = abs(new - shift) <= ftol
+                                shift = new
+                    if st == 4:
+                        break
+                    e = e_start if st == 0 else (e_end if st == 3 else e_mid)
+                    q = q0 if st == 0 else (q2 if st == 3 else q1)
+                    k0, k1, k2 = _rate(
+                        topo, q * e[0], q * e[1], q * e[2], i0, i1, i2, on0, on1, on2, count,
+                        rw_j, rs_j,
+                    )  # fmt: skip
+                    wgt = 1.0 if st == 0 or st == 3 else 2.0
+                    s0 += wgt * k0
+                    s1 += wgt * k1
+                    s2 += wgt * k2
     return failed

@@ -79,13 +79,17 @@ class Cases:
 
 @dataclass(frozen=True)
 class Plan:
-    """The fixed step of a batch: see :func:`plan_steps`."""
+    """The fixed step of a batch and each case's sub-steps per step while its resistor is in.
+
+    See :func:`plan_steps`; ``step_s`` [s], ``substeps`` shape (n_cases,) [-].
+    """
 
     steps_per_cycle: int
     decimate: int
     n_steps: int
     step_s: float
     with_resistor: bool
+    substeps: IntArray
 
 
 @dataclass(frozen=True)
@@ -251,19 +255,24 @@ def check_cases(
 
 
 def plan_steps(cases: Cases, topology: int, duration_s: float, samples_per_cycle: int) -> Plan:
-    """The fixed step of a batch: :func:`step_plan` for its shortest saturated time constant.
+    """The fixed step of a batch, and each case's sub-steps while its resistor is in.
 
-    That is (L_air + L_s)/R over the cases, R = R_w + 2*R_s + R_extra, and, for the cases with a
-    pre-insertion resistor, (L_air + L_s)/(R + k*R_ins) with k = 3 for a delta (``topology``
-    2: the line resistance enters its windings' loops through M, whose non-zero eigenvalue is
-    3) and 1 for a winding in its own line.
+    The step is :func:`step_plan`'s for the batch's shortest saturated time constant without a
+    pre-insertion resistor, (L_air + L_s)/R over the cases, R = R_w + 2*R_s + R_extra. While a
+    case's resistor is in, its loop is faster, tau_ins = (L_air + L_s)/(R + k*R_ins), with
+    k = 3 for a delta (``topology`` 2: the line resistance enters its windings' loops through M,
+    whose non-zero eigenvalue is 3) and 1 for a winding in its own line; each of that case's
+    steps is then split into m equal sub-steps, the fewest that keep the sub-step at or below a
+    quarter of tau_ins (the rule of the step itself): m = ceil(4/(f*tau_ins)/spc), spc the steps
+    per cycle, which is 1 whenever the step already meets it. m depends on the case alone, so a
+    case gives the same result in any batch.
 
     Raises
     ------
     ParameterError
         Naming ``insertion_resistance_ohm``, with the largest resistor the circuit allows, when
-        the loop with it in would need more than MAX_STEPS_PER_CYCLE steps per cycle; naming
-        ``resistance_ohm`` (:func:`step_plan`) when the loop without it would.
+        m*spc would exceed MAX_STEPS_PER_CYCLE; naming ``resistance_ohm`` (:func:`step_plan`)
+        when the loop without the resistor would need more than that.
     """
     circ_list = cases.circuits
     extra = cases.extra_resistance_ohm
@@ -289,21 +298,28 @@ def plan_steps(cases: Cases, topology: int, duration_s: float, samples_per_cycle
         )
         for i in with_resistor
     ]
-    tau_ins = min((ll / max(rr + k_line * ri, 1e-300) for ll, rr, ri in loop), default=math.inf)
-    if tau_ins < tau:
-        try:
-            spc, decimate, n_steps = step_plan(
-                f, duration_s, samples_per_cycle, max(tau_ins, 1e-300)
-            )
-        except ParameterError as exc:
-            r_max = min((ll * f * MAX_STEPS_PER_CYCLE / 4.0 - rr) / k_line for ll, rr, _ in loop)
-            raise ParameterError(
-                "insertion_resistance_ohm",
-                max(ri for _, _, ri in loop),
-                f"at most {max(r_max, 0.0):.4g} ohm for this circuit: with more, its saturated "
-                f"loop while the resistor is in needs over {MAX_STEPS_PER_CYCLE} steps per cycle",
-            ) from exc
-    return Plan(spc, decimate, n_steps, 1.0 / (f * spc), bool(with_resistor))
+    # most sub-steps per step (a plan already finer than the guard, for many samples per cycle,
+    # takes none)
+    m_max = max(1, MAX_STEPS_PER_CYCLE // spc)
+    substeps = np.ones(len(circ_list), dtype=np.int64)
+    too_fast = []  # R_ins of the cases that would need more
+    for i, (ll, rr, ri) in zip(with_resistor, loop, strict=True):
+        tau_ins = ll / max(rr + k_line * ri, 1e-300)
+        need = 4.0 / (f * max(tau_ins, 1e-300))  # steps per cycle the inserted loop needs
+        if need > m_max * spc:
+            too_fast.append(ri)
+        else:
+            substeps[i] = max(1, math.ceil(need / spc))
+    if too_fast:
+        r_max = min((ll * f * (m_max * spc) / 4.0 - rr) / k_line for ll, rr, _ in loop)
+        raise ParameterError(
+            "insertion_resistance_ohm",
+            max(too_fast),
+            f"at most {max(r_max, 0.0):.4g} ohm for this circuit: with more, its saturated loop "
+            f"while the resistor is in needs over {m_max * spc} steps per cycle ({m_max} "
+            f"sub-steps of each of {spc}; {MAX_STEPS_PER_CYCLE} per cycle at most)",
+        )
+    return Plan(spc, decimate, n_steps, 1.0 / (f * spc), bool(with_resistor), substeps)
 
 
 def on_step_grid(cases: Cases, topology: int, plan: Plan) -> Grid:
@@ -313,7 +329,8 @@ def on_step_grid(cases: Cases, topology: int, plan: Plan) -> Grid:
     count in steps) is clipped to just after it, while the slope of the rise keeps its unclipped
     length. A delta winding closes with the later of its two poles. For the kernels: mit_f =
     (R_ins [ohm], g_0 [pu], slope of g per step [pu]), mit_i = (bypass step, end of hold, end of
-    rise); the instants used are returned in seconds.
+    rise, sub-steps per step while the resistor is in); the instants used are returned in
+    seconds.
     """
     n = len(cases.circuits)
     h = plan.step_s
@@ -325,7 +342,8 @@ def on_step_grid(cases: Cases, topology: int, plan: Plan) -> Grid:
         close_step = pole_step.copy()
     mit_f = np.zeros((n, 3))
     mit_f[:, 1] = 1.0
-    mit_i = np.zeros((n, 3), dtype=np.int64)
+    mit_i = np.zeros((n, 4), dtype=np.int64)
+    mit_i[:, 3] = 1
     ins_used: FloatArray = np.zeros(n)
     ramp_used: FloatArray = np.zeros((n, 2))
     any_inserted = any_ramp = False
@@ -340,6 +358,7 @@ def on_step_grid(cases: Cases, topology: int, plan: Plan) -> Grid:
             mit_i[:, 0] = np.minimum(ins_f, last)
             mit_i[:, 1] = np.minimum(hold_f, last)
             mit_i[:, 2] = np.minimum(end_f, last)
+            mit_i[:, 3] = np.where(mit_i[:, 0] > 0, plan.substeps, 1)  # none if never in
             mit_f[:, 0] = r_ins
             mit_f[:, 1] = g_start
             mit_f[:, 2] = np.where(

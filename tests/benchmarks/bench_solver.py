@@ -5,6 +5,11 @@
 Targets (issue "Peak and decay"): a batch of 1,000 cases, 1 s at 60 Hz, at least 100 x faster per
 case than solve_ivp (LSODA, rtol 1e-8) at <= 0.5 % first-ten-peak error; one case alone at least
 20 x faster. Both sides are measured in this run on this machine; nothing is asserted.
+
+Also printed: a pre-insertion resistor sizing scan (17 resistances from 1e-2 to 1e2 x the
+saturated-loop reactance, 145 closing angles, in for one cycle of a three-cycle record) on the
+demo unit back-fed at 480 V from the standby generator, against the same batch without the
+resistor, both timed in this run.
 """
 
 from __future__ import annotations
@@ -88,6 +93,45 @@ def _lsoda_time(c: transformer.EquivalentCircuit, alpha_deg: float, res: float) 
     return time.perf_counter() - t0
 
 
+def _backfeed() -> transformer.EquivalentCircuit:
+    # the demo 2500 kVA unit energised from its 480 V grounded-wye (inner) winding by the
+    # 1250 kVA standby generator, X''d 0.15 pu: 0.00138 + j0.02765 ohm (service/examples.py,
+    # BACKFEED_UNIT and GENERATOR_SUBTRANSIENT)
+    npl = transformer.Nameplate(
+        rating_va=2.5e6, phases=3, frequency_hz=60.0, line_voltage_v=480.0,
+        connection="wye_grounded", position="inner", impedance_percent=5.75, x_over_r=7.0,
+        no_load_current_percent=0.8,
+    )  # fmt: skip
+    source = transformer.Source("impedance", resistance_ohm=0.00138, reactance_ohm=0.02765)
+    return transformer.equivalent_circuit(npl, source)
+
+
+def _resistor_scan() -> tuple[float, float, int, int]:
+    """Seconds for the resistor scan and for the same batch without it, the case count and the
+    most sub-steps per step any case took while its resistor was in."""
+    c = _backfeed()
+    f = c.frequency_hz
+    x_loop = 2.0 * math.pi * f * (c.air_core_inductance_h + c.source_inductance_h)
+    angles = np.arange(0.0, 360.0 + 1.25, 2.5)  # 145 angles, both ends of the turn included
+    r_ins = np.repeat(np.geomspace(1e-2, 1e2, 17) * x_loop, angles.size)
+    alpha = np.tile(angles, 17)
+    residual = np.array([0.8, -0.4, -0.4])
+    kwargs = {"duration_s": 3.0 / f}
+    energize.simulate(c, alpha, residual, **kwargs)  # warm both
+    energize.simulate(
+        c, alpha[:64], residual, insertion_resistance_ohm=r_ins[-64:], insertion_time_s=1.0 / f,
+        **kwargs,
+    )  # fmt: skip
+    t0 = time.perf_counter()
+    sim = energize.simulate(c, alpha, residual, insertion_resistance_ohm=r_ins,
+                            insertion_time_s=1.0 / f, **kwargs)  # fmt: skip
+    scan = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    energize.simulate(c, alpha, residual, **kwargs)
+    plain = time.perf_counter() - t0
+    return scan, plain, alpha.size, int(sim.insertion_substeps.max())
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--cases", type=int, default=1000)
@@ -141,6 +185,12 @@ def main() -> None:
     print(
         f"batch with a pre-insertion resistor and a ramp: {mitigated * 1e3:.3f} ms per case "
         f"({mitigated / batch:.2f} x the plain batch, {sim_m.steps_per_cycle} steps per cycle)"
+    )
+    scan, plain, n_scan, most = _resistor_scan()
+    print(
+        f"resistor sizing scan, 17 R x 145 angles ({n_scan} cases, 3 cycles, R in for 1, up to "
+        f"{most} sub-steps per step): {scan * 1e3:.0f} ms ({scan / plain:.2f} x the same batch "
+        f"without the resistor, {plain * 1e3:.0f} ms)"
     )
 
 

@@ -447,40 +447,99 @@ def test_more_insertion_resistance_never_raises_the_first_peak(r1: float, r2: fl
     assert peaks[1] <= peaks[0] * (1.0 + 1e-12)
 
 
-def test_below_the_knee_a_bypassed_resistor_gives_two_rl_transients() -> None:
+def _rl_closed_form(
+    t: np.ndarray,
+    big_l: float,
+    vpk: float,
+    beta: np.ndarray,
+    i0: np.ndarray,
+    pieces: list[tuple[float, float, float, float]],
+) -> np.ndarray:
+    """i(t) of big_l di/dt + R i = (a + b t) V_pk sin(omega t + beta), R, a, b piecewise.
+
+    ``pieces`` are (t_start [s], R [ohm], a [-], b [1/s]) in time order from t = 0, each holding
+    until the next; i is continuous, i(0) = i0. One value or row per beta (windings).
+    Closed form: with Z = R + j omega L, the particular solution is
+    Im[V_pk (c0 + c1 t) e^(j(omega t + beta))], c1 = b/Z, c0 = (a - L c1)/Z (substitute:
+    L c1 + Z c0 + Z c1 t = a + b t), plus [i(t0) - i_p(t0)] e^(-R (t - t0)/L) on each piece;
+    with b = 0, a = 1 it is the standard RL switching transient.
+    """
+    beta = np.atleast_1d(beta)[:, None]
+    out = np.zeros((beta.shape[0], t.size))
+    i_start = np.atleast_1d(i0).astype(float)
+    for k, (t0, res, a, b) in enumerate(pieces):
+        t1 = pieces[k + 1][0] if k + 1 < len(pieces) else math.inf
+        z = complex(res, OMEGA * big_l)
+        c1 = b / z
+        c0 = (a - big_l * c1) / z
+
+        def particular(tt: np.ndarray, c0: complex = c0, c1: complex = c1) -> np.ndarray:
+            return vpk * np.imag((c0 + c1 * tt) * np.exp(1j * (OMEGA * tt + beta)))
+
+        free = i_start - particular(np.array([t0]))[:, 0]
+        sel = (t >= t0) & (t < t1)
+        out[:, sel] = particular(t[sel]) + free[:, None] * np.exp(-res * (t[sel] - t0) / big_l)
+        if t1 < math.inf:
+            i_start = particular(np.array([t1]))[:, 0] + free * math.exp(-res * (t1 - t0) / big_l)
+    return out
+
+
+def _pieces(
+    r_in: float, r_out: float, t_b: float, start: float, t_hold: float, t_end: float
+) -> list[tuple[float, float, float, float]]:
+    """(t_start, R, a, b) of a resistor bypassed at t_b and g = start, a rise, then 1."""
+    slope = (1.0 - start) / (t_end - t_hold) if t_end > t_hold else 0.0
+    edges = sorted({0.0, t_b, t_hold, t_end})
+    out = []
+    for t0 in edges:
+        if t0 < t_hold:
+            a, b = start, 0.0
+        elif t0 < t_end:
+            a, b = start - slope * t_hold, slope
+        else:
+            a, b = 1.0, 0.0
+        out.append((t0, r_in if t0 < t_b else r_out, a, b))
+    return out
+
+
+RAMP_ACROSS_BYPASS = {"voltage_start_pu": 0.3, "voltage_hold_s": 0.6 / F_HZ,
+                      "voltage_rise_s": 2.0 / F_HZ}  # fmt: skip
+
+
+@pytest.mark.parametrize("ramp", [False, True], ids=["full-voltage", "ramp"])
+def test_below_the_knee_a_bypassed_resistor_gives_two_rl_transients(ramp: bool) -> None:
     # Limiting case: the knee at 4 pu is never reached, so the circuit is linear,
-    # (L_m + L_s) di/dt + R(t) i = V_pk sin(omega t), R = R + R_ins before the bypass instant t_b
-    # and R after; i is continuous at t_b. Each piece is the standard RL switching transient
-    #   i = (V_pk/Z) sin(omega t + alpha - phi) + [i(t0) - (V_pk/Z) sin(omega t0 + alpha - phi)]
-    #       e^(-R (t - t0)/L).
-    # Tolerance 1e-6 of the peak (RK4's error on this smooth linear ODE is ~1e-9); a bypass one
-    # step late changes the current by ~R_ins h/L ~ 1e-3 of it.
+    # (L_m + L_s) di/dt + R(t) i = g(t) V_pk sin(omega t), R = R + R_ins before the bypass
+    # instant t_b and R after; i is continuous at t_b. Each piece is the RL transient of
+    # _rl_closed_form (the standard RL switching transient at full voltage; with the ramp, g
+    # rising from 0.3 across the bypass, g linear on each piece). R_ins = 3000 ohm needs ~25
+    # sub-steps per step while it is in (its loop's saturated time constant being short), which
+    # this checks on the independent-winding kernel, with g at each sub-step's own stages.
+    # Tolerance 1e-6 of the peak (RK4's error on this smooth linear ODE is ~1e-9, measured
+    # 1.4e-9 and 2.3e-9); a bypass one step late changes the current by ~R_ins h/L ~ 1e-3 of
+    # it, and g evaluated at the whole step's stage times in every sub-step by 1.2e-5
+    # (measured; 9.8e-6 for the delta below).
     ls, r, r_ins, b_r = 0.2 * L_AIR, 2.0, 3000.0, 0.8
     circuit = transformer.circuit_from_si(
         V_RMS, F_HZ, r, ls, magnetizing.two_slope(L_M, 4.0 * LAMBDA_N, L_AIR)
     )
     sim = energize.simulate(
-        circuit, 0.0, b_r, duration_s=5.0 / F_HZ,
-        insertion_resistance_ohm=r_ins, insertion_time_s=1.7 / F_HZ,
+        circuit, 0.0, b_r, duration_s=5.0 / F_HZ, insertion_resistance_ohm=r_ins,
+        insertion_time_s=1.7 / F_HZ, **(RAMP_ACROSS_BYPASS if ramp else {}),
     )  # fmt: skip
     t_b = float(sim.insertion_time_s[0])
     h = 1.0 / (F_HZ * sim.steps_per_cycle)
     assert abs(t_b - 1.7 / F_HZ) <= 0.5 * h  # rounded to the internal step
     assert round(t_b / h) * h == t_b
-    big_l = L_M + ls
-    vpk = math.sqrt(2.0) * V_RMS
-
-    def rl(t: np.ndarray, t0: float, i0: float, res: float) -> np.ndarray:
-        z = math.hypot(res, OMEGA * big_l)
-        phi = math.atan2(OMEGA * big_l, res)
-        steady = vpk / z * np.sin(OMEGA * t - phi)
-        return steady + (i0 - vpk / z * math.sin(OMEGA * t0 - phi)) * np.exp(
-            -res * (t - t0) / big_l
-        )
-
-    t = sim.time_s
-    i_b = float(rl(np.array([t_b]), 0.0, b_r * LAMBDA_N / L_M, r + r_ins)[0])
-    expected = np.where(t < t_b, rl(t, 0.0, b_r * LAMBDA_N / L_M, r + r_ins), rl(t, t_b, i_b, r))
+    assert sim.insertion_substeps[0] > 1
+    t_hold, t_end = sim.voltage_ramp_s[0] if ramp else (0.0, 0.0)
+    if ramp:
+        assert t_hold < t_b < t_end
+    pieces = _pieces(r + r_ins, r, t_b, 0.3 if ramp else 1.0, t_hold, t_end)
+    expected = _rl_closed_form(
+        sim.time_s, L_M + ls, math.sqrt(2.0) * V_RMS, np.zeros(1),
+        np.array([b_r * LAMBDA_N / L_M]), pieces,
+    )[0]  # fmt: skip
     got = sim.line_current_a[0, 0]
     assert np.max(np.abs(got - expected)) < 1e-6 * np.max(np.abs(expected))
 
@@ -562,24 +621,30 @@ def test_a_slow_ramp_from_zero_keeps_the_current_at_magnetising_level() -> None:
 
 
 def test_a_batch_with_mitigation_gives_the_same_as_one_case_at_a_time() -> None:
-    # vector-equals-scalar for the per-case resistor and ramp, on both kernels; resistors small
-    # enough that every case keeps 128 steps per cycle (a batch shares one step plan)
+    # vector-equals-scalar for the per-case resistor and ramp, on both kernels. The step plan is
+    # the circuit's without the resistor, and a case whose resistor needs a finer step takes
+    # sub-steps of its own while it is in (3000 ohm here: ~45 x the saturated reactance of the
+    # 167 kVA unit, ~75 x the delta's), so batching it changes nothing for the others and
+    # nothing for itself
     for circuit in (_single_phase_unit(), _demo_unit("delta", 13.8e3, "outer")):
         kwargs = {
-            "insertion_resistance_ohm": np.array([0.0, 20.0, 60.0, 0.0]),
-            "insertion_time_s": np.array([0.0, 0.02, 0.01, 0.0]),
-            "voltage_start_pu": np.array([1.0, 1.0, 0.5, 0.2]),
-            "voltage_hold_s": np.array([0.0, 0.0, 0.005, 0.01]),
-            "voltage_rise_s": np.array([0.0, 0.0, 0.0, 0.02]),
+            "insertion_resistance_ohm": np.array([0.0, 20.0, 60.0, 0.0, 3000.0]),
+            "insertion_time_s": np.array([0.0, 0.02, 0.01, 0.0, 0.02]),
+            "voltage_start_pu": np.array([1.0, 1.0, 0.5, 0.2, 0.6]),
+            "voltage_hold_s": np.array([0.0, 0.0, 0.005, 0.01, 0.004]),
+            "voltage_rise_s": np.array([0.0, 0.0, 0.0, 0.02, 0.02]),
         }
-        angles = np.array([0.0, 30.0, 200.0, 300.0])
+        angles = np.array([0.0, 30.0, 200.0, 300.0, 90.0])
         batch = energize.simulate(circuit, angles, 0.6, duration_s=3.0 / F_HZ, **kwargs)
-        for n in range(4):
+        np.testing.assert_array_equal(batch.insertion_substeps[:4], 1)
+        assert batch.insertion_substeps[4] > 1
+        for n in range(5):
             one = energize.simulate(
                 circuit, angles[n], 0.6, duration_s=3.0 / F_HZ,
                 **{k: float(v[n]) for k, v in kwargs.items()},
             )  # fmt: skip
             assert one.steps_per_cycle == batch.steps_per_cycle == SPC
+            assert one.insertion_substeps[0] == batch.insertion_substeps[n]
             if circuit.connection != "delta" or kwargs["insertion_resistance_ohm"][n] > 0.0:
                 # the delta batch takes the coupled kernel (a case has a resistor in); alone,
                 # a case without one takes the independent kernel, equal to ~1e-12, not bitwise
@@ -589,6 +654,96 @@ def test_a_batch_with_mitigation_gives_the_same_as_one_case_at_a_time() -> None:
                     batch.line_current_a[n], one.line_current_a[0], rtol=0.0,
                     atol=1e-9 * np.max(np.abs(one.line_current_a)),
                 )  # fmt: skip
+
+
+def test_a_large_resistor_takes_sub_steps_only_while_it_is_in() -> None:
+    # The plan is the circuit's own (128 steps per cycle) and the split is per case: a resistor
+    # whose inserted time constant (L_air + L_s)/(R + R_ins) already spans four steps takes none
+    # (m = 1); a large one takes m = ceil(4/(f*tau_ins)/128), the fewest sub-steps that keep each
+    # at or below a quarter of it. Bypassed at closing (t_ins = 0), or absent, no split.
+    circuit = _single_phase_unit()
+    l_loop = circuit.air_core_inductance_h + circuit.source_inductance_h
+    r_loop = circuit.winding_resistance_ohm + 2.0 * circuit.source_resistance_ohm
+    r_ins = np.array([0.0, 1.0, 3000.0, 3000.0, 30000.0])
+    t_ins = np.array([0.0, 0.02, 0.02, 0.0, 0.02])
+    sim = energize.simulate(
+        circuit, 0.0, 0.6, duration_s=2.0 / F_HZ, insertion_resistance_ohm=r_ins,
+        insertion_time_s=t_ins,
+    )  # fmt: skip
+    assert sim.steps_per_cycle == SPC
+    expected = [
+        max(1, math.ceil(4.0 * (r_loop + r) / (F_HZ * l_loop) / SPC)) if t > 0.0 else 1
+        for r, t in zip(r_ins, t_ins, strict=True)
+    ]
+    np.testing.assert_array_equal(sim.insertion_substeps, expected)
+    assert expected[1] == 1
+    assert 1 < expected[2] < expected[4]
+
+
+def test_the_work_limit_counts_the_sub_steps() -> None:
+    # max_steps bounds cases x windings x steps, a step split into m sub-steps while the
+    # resistor is in counting m: one case, 3 windings, 3 cycles of 128 steps, the resistor in
+    # for the first of them
+    wye = _demo_unit("wye_grounded", 480.0, "inner")
+    x_loop = OMEGA * (wye.air_core_inductance_h + wye.source_inductance_h)
+    kwargs: dict[str, Any] = {
+        "duration_s": 3.0 / F_HZ, "insertion_resistance_ohm": 50.0 * x_loop,
+        "insertion_time_s": 1.0 / F_HZ,
+    }  # fmt: skip
+    sim = energize.simulate(wye, 0.0, 0.5, **kwargs)
+    m = int(sim.insertion_substeps[0])
+    assert m > 1
+    work = 3 * (3 * SPC + (m - 1) * SPC)
+    energize.simulate(wye, 0.0, 0.5, max_steps=work, **kwargs)
+    with pytest.raises(LimitError) as info:
+        energize.simulate(wye, 0.0, 0.5, max_steps=work - 1, **kwargs)
+    assert info.value.value == work
+
+
+@pytest.mark.parametrize("ramp", [False, True], ids=["full-voltage", "ramp"])
+def test_below_the_knee_a_delta_behind_a_resistor_is_two_modal_rl_transients(ramp: bool) -> None:
+    # Limiting case: a delta on an ideal source (L_s = R_s = 0) with a pre-insertion resistor,
+    # its knee at 4 pu so that every winding stays linear, L_m dc/dt = g e_LL - R_w c - R_ins M c
+    # with M = [[2,-1,-1],[-1,2,-1],[-1,-1,2]] (the coupled kernel while the resistor is in).
+    # M's eigenvalues are 0 (the circulating current c_0 = mean(c)) and 3 (the rest, driven by
+    # g e_LL, whose sum is zero), so
+    #   c_0 decays as exp(-R_w t/L_m) throughout, and
+    #   c - c_0 is, per winding, the RL transient of _rl_closed_form with R_w + 3 R_ins until
+    #   the bypass and R_w after, on its line-to-line EMF (phase alpha + 30 deg, -120, +120).
+    # R_ins = 150 x the saturated reactance makes the inserted loop L_air/(R_w + 3 R_ins) need
+    # sub-steps, which this checks on the coupled kernel (with the ramp, g rising from 0.3
+    # across the bypass, at each sub-step's own stages). Tolerance 1e-6 of the peak as for the
+    # single-phase case above.
+    base = _demo_unit("delta", 13.8e3, "outer")
+    l_m = base.magnetizing_inductance_h
+    lam_n = base.nominal_flux_wb
+    curve = magnetizing.two_slope(l_m, 4.0 * lam_n, base.air_core_inductance_h)
+    circuit = dataclasses.replace(base, curve=curve)
+    r_w = circuit.winding_resistance_ohm
+    r_ins = 150.0 * OMEGA * circuit.air_core_inductance_h
+    residual = np.array([0.7, -0.2, -0.5])
+    alpha = 20.0
+    sim = energize.simulate(
+        circuit, alpha, residual, duration_s=4.0 / F_HZ, insertion_resistance_ohm=r_ins,
+        insertion_time_s=1.3 / F_HZ, **(RAMP_ACROSS_BYPASS if ramp else {}),
+    )  # fmt: skip
+    assert circuit.source_inductance_h == circuit.source_resistance_ohm == 0.0
+    assert sim.insertion_substeps[0] > 1
+    t_b = float(sim.insertion_time_s[0])
+    t_hold, t_end = sim.voltage_ramp_s[0] if ramp else (0.0, 0.0)
+    if ramp:
+        assert t_hold < t_b < t_end
+    t = sim.time_s
+    c_init = residual * lam_n / l_m
+    c0 = c_init.mean() * np.exp(-r_w * t / l_m)
+    diff = _rl_closed_form(
+        t, l_m, math.sqrt(2.0) * circuit.line_voltage_v,
+        np.radians(alpha + 30.0 + np.array([0.0, -120.0, 120.0])), c_init - c_init.mean(),
+        _pieces(r_w + 3.0 * r_ins, r_w, t_b, 0.3 if ramp else 1.0, t_hold, t_end),
+    )  # fmt: skip
+    expected = c0[None, :] + diff
+    got = sim.winding_current_a[0]
+    assert np.max(np.abs(got - expected)) < 1e-6 * np.max(np.abs(expected))
 
 
 def test_mitigation_is_reported_with_its_rounding() -> None:
@@ -642,11 +797,20 @@ def test_a_resistor_too_large_to_integrate_is_named() -> None:
         assert info.value.parameter == "insertion_resistance_ohm"
         assert info.value.value == r_ins
     limit = float(str(info.value.allowed).split()[2])
+    # just below the limit: the step stays the circuit's own, split into as many sub-steps as
+    # MAX_STEPS_PER_CYCLE allows while the resistor is in; just above, refused
     ok = energize.simulate(
         wye, 0.0, 0.5, duration_s=0.05, insertion_resistance_ohm=0.99 * limit,
         insertion_time_s=0.01,
     )  # fmt: skip
-    assert ok.steps_per_cycle <= energize.MAX_STEPS_PER_CYCLE
+    assert ok.steps_per_cycle == SPC
+    assert 1 < ok.insertion_substeps[0] * ok.steps_per_cycle <= energize.MAX_STEPS_PER_CYCLE
+    with pytest.raises(ParameterError) as info:
+        energize.simulate(
+            wye, 0.0, 0.5, duration_s=0.05, insertion_resistance_ohm=1.01 * limit,
+            insertion_time_s=0.01,
+        )  # fmt: skip
+    assert info.value.parameter == "insertion_resistance_ohm"
 
 
 # ------------------------------------------------------------------ shapes and validation
