@@ -32,6 +32,7 @@ from numpy.typing import ArrayLike, NDArray
 from core.dip_solver import SourceParameters
 from core.errors import ParameterError
 from core.transformer import Assumption
+from core.transformer import Source as CircuitSource
 
 FloatArray = NDArray[np.float64]
 
@@ -50,6 +51,7 @@ __all__ = [
     "iso_8528_5_class",
     "source_assumptions",
     "source_parameters",
+    "subtransient_source",
     "unknown_excitation",
     "verdicts",
 ]
@@ -542,6 +544,34 @@ def verdicts(
             passed = None
         out.append(Verdict(lim, dip_ok, rec_ok, passed, note))
     return tuple(out)
+
+
+def subtransient_source(generator: Generator) -> CircuitSource:
+    """The machine as a fixed impedance for the inrush solver: R_a + jX''_d behind its EMF.
+
+    Parameters
+    ----------
+    generator : Generator
+        The machine.
+
+    Returns
+    -------
+    core.transformer.Source
+        ``"impedance"`` with R = R_a*Z_b and X = X''_d*Z_b per phase [ohm].
+
+    Notes
+    -----
+    The first cycles of a transformer inrush see the machine through its subtransient
+    reactance; holding it there (no rise towards X'_d, no regulator) keeps the first peak and
+    slightly overstates the later ones (the voltage-behind-reactance view of IEEE Std 399,
+    ch. 9, from memory). :mod:`core.dip` simulates the machine's dynamics instead.
+    """
+    z_b = generator.base_impedance_ohm
+    return CircuitSource(
+        "impedance",
+        resistance_ohm=generator.armature_resistance_pu * z_b,
+        reactance_ohm=generator.x_d2_pu * z_b,
+    )
 
 
 def source_assumptions(
