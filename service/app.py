@@ -13,7 +13,7 @@ from fastapi.staticfiles import StaticFiles
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
 from service import auth, observability, problems
-from service.routers import clearance, dip, inrush, sheet
+from service.routers import clearance, dip, inrush, mitigation, sheet, statistics
 from service.settings import get_settings
 from service.version import API_VERSION
 
@@ -108,8 +108,10 @@ def create_app() -> FastAPI:
         )
 
     app.include_router(inrush.router)
+    app.include_router(statistics.router)
     app.include_router(clearance.router)
     app.include_router(dip.router)
+    app.include_router(mitigation.router)
     app.include_router(sheet.router)
 
     @app.get("/healthz", tags=["operations"], operation_id="healthz", include_in_schema=True)

@@ -17,6 +17,7 @@ from service.examples import (
     CLEARANCE_REQUESTS,
     DIP_REQUESTS,
     ENVELOPE_REQUESTS,
+    MITIGATION_REQUESTS,
     PEAK_BATCH_REQUESTS,
     PEAK_REQUESTS,
     SHEET_REQUESTS,
@@ -44,6 +45,7 @@ def example_pairs() -> dict[str, dict[str, Any]]:
         ("clearance", "/v1/clearance", CLEARANCE_REQUESTS),
         ("generator_dip", "/v1/generator-dip", DIP_REQUESTS),
         ("inrush_statistics", "/v1/inrush/statistics", STATISTICS_REQUESTS),
+        ("mitigation", "/v1/mitigation", MITIGATION_REQUESTS),
     ):
         for name, body in requests.items():
             resp = client.post(path, json=body)

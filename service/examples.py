@@ -266,9 +266,60 @@ STATISTICS_REQUESTS: dict[str, dict[str, Any]] = {
         "options": {"samples": 10000, "random_state": 1, "threshold_a": 15000},
     },
 }
+STATISTICS_REQUESTS["northgate_backfeed_generator"] = {
+    "transformer": BACKFEED_UNIT,
+    "supply": STANDBY_GENERATOR,
+    "dip_limit": "G2",
+    "options": {"samples": 10000, "random_state": 1, "check_events": 200},
+}
 STATISTICS_EXAMPLES = {
     "northgate_backfeed": {
         "summary": "Demo: P99 of the back-feed peak over random closing and residual flux",
         "value": STATISTICS_REQUESTS["northgate_backfeed"],
-    }
+    },
+    "northgate_backfeed_generator": {
+        "summary": "Demo: the same from the generator itself, with the odds of a dip beyond G2",
+        "value": STATISTICS_REQUESTS["northgate_backfeed_generator"],
+    },
+}
+
+MITIGATION_REQUESTS: dict[str, dict[str, Any]] = {
+    "northgate_backfeed": {
+        "transformer": BACKFEED_UNIT,
+        "supply": STANDBY_GENERATOR,
+        "switching": {"residual_flux_pu": [0.8, -0.4, -0.4]},
+        "dip_limit": "G2",
+    },
+    "northgate_main_unit": {
+        "transformer": MAIN_UNIT,
+        "source": UTILITY,
+        "switching": {"residual_flux_pu": [0.8, -0.4, -0.4]},
+        "target_peak_x_rated": 6.0,
+        "devices": CLEARANCE_REQUESTS["northgate_main_unit"]["devices"],
+        "options": [
+            {"kind": "controlled_closing"},
+            {"kind": "pre_insertion_resistor"},
+            {"kind": "demagnetize"},
+            {"kind": "pre_magnetize"},
+            {"kind": "tap", "turns_percent": 5.0},
+            {"kind": "core_material"},
+            {"kind": "rating"},
+            {
+                "kind": "other_winding",
+                "voltage_kv": 0.48,
+                "connection": "wye_grounded",
+                "source": GENERATOR_SUBTRANSIENT,
+            },
+        ],
+    },
+}
+MITIGATION_EXAMPLES = {
+    "northgate_backfeed": {
+        "summary": "Demo: what keeps the standby generator's dip within G2 on the back-feed",
+        "value": MITIGATION_REQUESTS["northgate_backfeed"],
+    },
+    "northgate_main_unit": {
+        "summary": "Demo: the main unit from the utility, its fuse and relay, a 6 x target",
+        "value": MITIGATION_REQUESTS["northgate_main_unit"],
+    },
 }

@@ -4,9 +4,11 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from pydantic import Field
+from pydantic import Field, model_validator
 
+from service.models.clearance import Device
 from service.models.common import CAUTION, Assumption, Method, Model, Study, WarningItem
+from service.models.dip import BusLoadIn, CustomLimit, ExcitationIn, GeneratorIn, PresetExcitation
 
 
 class FixedResidualIn(Model):
@@ -56,12 +58,64 @@ class StatisticsOptions(Model):
         description="Report the probability that the worst-line peak "
         "exceeds this [A] (e.g. a device's instantaneous pickup)",
     )
+    check_events: int = Field(
+        200,
+        ge=10,
+        le=2000,
+        description="Events (the first of the sample) simulated in full to judge the devices "
+        "and the dip; each probability comes with its binomial interval",
+    )
+    device_duration_s: float = Field(
+        2.0, ge=0.1, le=5.0, description="Record each device is judged on [s]"
+    )
+    dip_duration_s: float = Field(
+        0.5,
+        ge=0.1,
+        le=10.0,
+        description="Simulated time of each dip (the dip falls in the "
+        "first cycles; recovery is not judged here) [s]",
+    )
 
 
 class StatisticsRequest(Study):
     """Distribution of the first inrush peak over random closing instants and residual flux."""
 
     options: StatisticsOptions = Field(default_factory=StatisticsOptions)
+    devices: list[Device] | None = Field(
+        None,
+        min_length=1,
+        max_length=20,
+        description="Devices whose probability of operating on the inrush is estimated",
+    )
+    supply: GeneratorIn | None = Field(
+        None,
+        description="A generator energising the unit (three phase): its X''d is the source of "
+        "the peaks and the probability that the dip exceeds dip_limit is estimated; give this "
+        "or source",
+    )
+    excitation: ExcitationIn = Field(
+        default_factory=lambda: PresetExcitation(kind="unknown"),
+        description="The generator's regulator",
+    )
+    bus_load: BusLoadIn | None = None
+    dip_limit: Literal["G1", "G2", "G3"] | CustomLimit = Field(
+        "G2", description="Dip limit: an ISO 8528-5 class (values from memory) or a limit"
+    )
+
+    @model_validator(mode="after")
+    def _supply(self) -> StatisticsRequest:
+        if self.supply is not None:
+            if self.transformer is None:
+                raise ValueError("a generator supply needs transformer (nameplate mode)")
+            if self.source is not None:
+                raise ValueError("give the generator in 'supply' or a source in 'source', not both")
+            if self.transformer.phases != 3:
+                raise ValueError("a generator supply needs a three-phase unit")
+        if self.devices is not None:
+            names = [d.name for d in self.devices]
+            if len(set(names)) != len(names):
+                raise ValueError("device names must be distinct")
+        return self
 
 
 class PercentilesOut(Model):
@@ -98,6 +152,32 @@ class ExceedanceOut(Model):
     method: str
 
 
+class DeviceOddsOut(Model):
+    """How often a device operates on a random energisation."""
+
+    device: str
+    probability: float
+    low: float
+    high: float
+    operations: int
+    events: int
+    smallest_margin: float | None = Field(description="Tightest ride-through margin seen")
+
+
+class DipOddsOut(Model):
+    """How often the generator's dip exceeds the limit."""
+
+    limit: str
+    max_dip_percent: float
+    probability: float
+    low: float
+    high: float
+    exceedances: int
+    events: int
+    dip_p50_percent: float
+    dip_max_percent: float
+
+
 class StatisticsResponse(Model):
     """Percentiles per line and of the worst line, convergence, exceedance."""
 
@@ -108,6 +188,8 @@ class StatisticsResponse(Model):
     worst_line: PercentilesOut
     convergence: ConvergenceOut
     exceedance: ExceedanceOut | None
+    device_operation: list[DeviceOddsOut] | None = None
+    dip_exceedance: DipOddsOut | None = None
     confidence_level: float
     assumptions: list[Assumption]
     warnings: list[WarningItem]

@@ -16,16 +16,15 @@ from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
 from pydantic import BaseModel, ValidationError
 
-from core import inrush, statistics
+from core import inrush
 from core.errors import CoreError, LimitError
 from service import convert
 from service.examples import (
     ENVELOPE_EXAMPLES,
     PEAK_BATCH_EXAMPLES,
     PEAK_EXAMPLES,
-    STATISTICS_EXAMPLES,
 )
-from service.models.common import Assumption, Method
+from service.models.common import Assumption
 from service.models.inrush import (
     AnalyticEnvelope,
     AnalyticWindingPeak,
@@ -40,14 +39,6 @@ from service.models.inrush import (
     SimulatedLinePeak,
     Waveform,
     WorstCase,
-)
-from service.models.statistics import (
-    ConvergenceOut,
-    ExceedanceOut,
-    FixedResidualIn,
-    PercentilesOut,
-    StatisticsRequest,
-    StatisticsResponse,
 )
 from service.problems import PROBLEM_RESPONSES, batch_problem
 from service.settings import Settings, settings_dependency
@@ -307,90 +298,3 @@ def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse
     return PeakBatchResponse(
         count=len(done), failed=sum(1 for it in done if it.status != 200), results=done
     )
-
-
-STATISTICS_METHOD = (
-    "Monte Carlo: closing instant uniform over one cycle, pole scatter normal per pole, "
-    "residual flux from the stated distribution; each event simulated as in /v1/inrush/peak "
-    "(vectorised); percentiles by linear interpolation; a distribution-free binomial "
-    "order-statistic interval for P99 (e.g. David & Nagaraja, Order Statistics, from memory); "
-    "exceedance with a Clopper-Pearson interval"
-)
-
-
-def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsResponse:
-    circuit, res, _delay, assumptions = convert.study_inputs(body)
-    opt = body.options
-    if opt.samples > settings.max_statistics_samples:
-        raise LimitError("options.samples", opt.samples, settings.max_statistics_samples)
-    spec: statistics.ResidualSpec
-    if isinstance(opt.residual, FixedResidualIn):
-        spec = statistics.FixedResidual(tuple(float(x) for x in res))
-    else:
-        r = opt.residual
-        spec = statistics.UniformResidual(r.low_pu, r.high_pu, r.random_sign, r.zero_sum)
-    dist = statistics.peak_distribution(
-        circuit,
-        samples=opt.samples,
-        random_state=opt.random_state,
-        residual=spec,
-        pole_scatter_ms=opt.pole_scatter_ms,
-        max_steps=settings.max_total_steps,
-    )
-    rated = circuit.rated_line_current_a
-    m = convert.maybe
-
-    def pct(name: str, p: statistics.Percentiles) -> PercentilesOut:
-        lo, hi = p.p99_interval_a
-        return PercentilesOut(
-            line=name, p50_a=p.p50_a, p95_a=p.p95_a, p99_a=p.p99_a, max_a=p.max_a,
-            p99_low_a=m(lo), p99_high_a=m(hi), p99_x_rated=convert.x_rated(p.p99_a, rated),
-        )  # fmt: skip
-
-    exceed = None
-    if opt.threshold_a is not None:
-        ex = statistics.exceedance_probability(dist.peaks_a.max(axis=1), opt.threshold_a)
-        exceed = ExceedanceOut(
-            threshold_a=opt.threshold_a, probability=ex.probability, low=ex.low, high=ex.high,
-            exceedances=ex.exceedances, samples=ex.samples, method=ex.method,
-        )  # fmt: skip
-    conv = dist.convergence
-    assumptions.append(
-        Assumption(name="residual_distribution", value=opt.residual.kind, unit="-",
-                   source="given" if "residual" in opt.model_fields_set else
-                   "default: uniform 0.2-0.8 pu, random sign (typical range, from memory)")
-    )  # fmt: skip
-    return StatisticsResponse(
-        rated_current_a=m(rated),
-        samples=opt.samples,
-        random_state=opt.random_state,
-        lines=[pct(n, p) for n, p in zip(dist.lines, dist.by_line, strict=True)],
-        worst_line=pct("worst", dist.worst_line),
-        convergence=ConvergenceOut(
-            samples=[int(x) for x in conv.samples],
-            p99_a=convert.floats(conv.p99_a),
-            p99_low_a=[m(x) for x in conv.p99_low_a],
-            p99_high_a=[m(x) for x in conv.p99_high_a],
-        ),
-        exceedance=exceed,
-        confidence_level=dist.confidence_level,
-        assumptions=assumptions,
-        warnings=[],
-        method=Method(simulated=STATISTICS_METHOD, approximations=list(dist.approximations)),
-    )
-
-
-@router.post(
-    "/statistics",
-    response_model=StatisticsResponse,
-    operation_id="inrush_statistics",
-    summary="Distribution of the first peak over random closing instants and residual flux",
-    response_description="P50/P95/P99/max per line and of the worst line, the P99 interval and "
-    "its convergence, and the probability of exceeding a threshold",
-)
-async def inrush_statistics(
-    body: Annotated[StatisticsRequest, Body(openapi_examples=STATISTICS_EXAMPLES)],
-    settings: SettingsDep,
-) -> Response:
-    """Monte Carlo of the switching event, reproducible through ``options.random_state``."""
-    return _json(await run_in_threadpool(_statistics, body, settings))

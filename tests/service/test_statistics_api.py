@@ -39,3 +39,39 @@ def test_samples_over_the_limit_is_a_limit_problem(client: TestClient) -> None:
     r = client.post("/v1/inrush/statistics", json=req)
     assert r.status_code == 422
     assert r.json()["type"] == "urn:firstcycle:problem:limit-exceeded"
+
+
+def test_device_and_dip_odds_from_the_first_events(client: TestClient) -> None:
+    from service.examples import CLEARANCE_REQUESTS, STANDBY_GENERATOR
+
+    req = copy.deepcopy(REQ)
+    req.pop("source")
+    req["supply"] = STANDBY_GENERATOR
+    req["options"] = {**req["options"], "samples": 500, "check_events": 40}
+    # a breaker-like device on the 480 V side: the demo relay scaled to the 480 V currents
+    relay = copy.deepcopy(CLEARANCE_REQUESTS["northgate_main_unit"]["devices"][1])
+    relay.update(pickup_a=4500.0, instantaneous_pickup_a=15000.0)
+    req["devices"] = [relay]
+    r = client.post("/v1/inrush/statistics", json=req)
+    assert r.status_code == 200, r.text
+    body = r.json()
+    (dev,) = body["device_operation"]
+    assert dev["events"] == 40
+    assert dev["low"] <= dev["probability"] <= dev["high"]
+    dip = body["dip_exceedance"]
+    assert dip["limit"] == "G2"
+    assert dip["events"] == 40
+    assert dip["dip_p50_percent"] <= dip["dip_max_percent"]
+    assert any(a["name"] == "check_events" for a in body["assumptions"])
+    sources = {a["name"]: a["source"] for a in body["assumptions"]}
+    assert "X''d" in sources["source_inductance_h"]
+
+
+def test_supply_and_source_together_is_a_422(client: TestClient) -> None:
+    from service.examples import STANDBY_GENERATOR
+
+    req = copy.deepcopy(REQ)
+    req["supply"] = STANDBY_GENERATOR
+    r = client.post("/v1/inrush/statistics", json=req)
+    assert r.status_code == 422
+    assert "supply" in r.text

@@ -1,0 +1,251 @@
+"""``/v1/inrush/statistics``: the first peak as a statistic, and how often devices or the dip fail.
+
+Monte Carlo over the closing instant, pole scatter and residual flux (:mod:`core.statistics`);
+devices and a generator's dip judged on the first events of the sample (:mod:`core.event_checks`).
+The simulations run in the thread pool, never on the event loop.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import numpy as np
+from fastapi import APIRouter, Body, Depends
+from fastapi.concurrency import run_in_threadpool
+from fastapi.responses import Response
+
+from core import event_checks, generator, statistics, transformer
+from core.errors import LimitError
+from core.generator import Generator
+from core.transformer import EquivalentCircuit
+from service import convert
+from service.examples import STATISTICS_EXAMPLES
+from service.models.common import Assumption, Method
+from service.models.dip import CustomLimit
+from service.models.statistics import (
+    ConvergenceOut,
+    DeviceOddsOut,
+    DipOddsOut,
+    ExceedanceOut,
+    FixedResidualIn,
+    PercentilesOut,
+    StatisticsRequest,
+    StatisticsResponse,
+)
+from service.problems import PROBLEM_RESPONSES
+from service.settings import Settings, settings_dependency
+
+router = APIRouter(prefix="/v1/inrush", tags=["inrush"], responses=PROBLEM_RESPONSES)
+SettingsDep = Annotated[Settings, Depends(settings_dependency)]
+
+
+STATISTICS_METHOD = (
+    "Monte Carlo: closing instant uniform over one cycle, pole scatter normal per pole, "
+    "residual flux from the stated distribution; each event simulated as in /v1/inrush/peak "
+    "(vectorised); percentiles by linear interpolation; a distribution-free binomial "
+    "order-statistic interval for P99 (e.g. David & Nagaraja, Order Statistics, from memory); "
+    "exceedance with a Clopper-Pearson interval; devices and the generator dip judged on the "
+    "first check_events events, each simulated in full (as /v1/clearance and "
+    "/v1/generator-dip judge one event), with Clopper-Pearson intervals"
+)
+
+
+def _supplied(
+    body: StatisticsRequest, circuit: EquivalentCircuit, assumptions: list[Assumption]
+) -> tuple[EquivalentCircuit, Generator | None]:
+    """The circuit the peaks are drawn for: on the generator's X''d when one is the supply."""
+    if body.supply is None or body.transformer is None:
+        return circuit, None
+    npl = convert.nameplate_of(body.transformer)
+    gen = convert.generator_of(body.supply, npl.line_voltage_v, npl.frequency_hz)
+    fed = transformer.equivalent_circuit(npl, generator.subtransient_source(gen))
+    swap = {"source", "source_resistance_ohm", "source_inductance_h"}
+    note = "the generator's X''d and R_a as a fixed impedance (generator.subtransient_source)"
+    assumptions[:] = [a for a in assumptions if a.name not in swap] + [
+        a.model_copy(update={"source": note})
+        for a in convert.assumptions_out(fed.assumptions)
+        if a.name in swap
+    ]
+    return fed, gen
+
+
+def _odds(
+    body: StatisticsRequest,
+    ideal: EquivalentCircuit,
+    circuit: EquivalentCircuit,
+    gen: Generator | None,
+    dist: statistics.PeakDistribution,
+    settings: Settings,
+    assumptions: list[Assumption],
+) -> tuple[list[DeviceOddsOut] | None, DipOddsOut | None, list[str]]:
+    """The devices' and the dip's probabilities, judged on the first events of the sample."""
+    opt = body.options
+    events = min(opt.check_events, opt.samples)
+    if body.devices is None and gen is None:
+        return None, None, []
+    assumptions.append(
+        Assumption(
+            name="check_events",
+            value=float(events),
+            unit="-",
+            source="the first events of the sample, simulated in full",
+        )
+    )
+    devices = None
+    if body.devices is not None:
+        odds = event_checks.device_operation_odds(
+            circuit,
+            dist,
+            [convert.device_of(d) for d in body.devices],
+            events=events,
+            duration_s=opt.device_duration_s,
+            max_steps=settings.max_total_steps,
+        )
+        devices = [
+            DeviceOddsOut(
+                device=o.device,
+                probability=o.operates.probability,
+                low=o.operates.low,
+                high=o.operates.high,
+                operations=o.operates.exceedances,
+                events=o.operates.samples,
+                smallest_margin=convert.maybe(o.smallest_margin),
+            )
+            for o in odds
+        ]
+    dip_out = None
+    approximations: list[str] = []
+    if gen is not None:
+        if isinstance(body.dip_limit, CustomLimit):
+            name, limit = body.dip_limit.name, body.dip_limit.max_dip_percent
+        else:
+            lim = generator.iso_8528_5_class(body.dip_limit)
+            name, limit = lim.name, float(lim.max_dip_percent or 100.0)
+        d = event_checks.dip_exceedance_odds(
+            gen,
+            ideal,
+            dist,
+            limit,
+            events=events,
+            excitation=convert.excitation_of(body.excitation),
+            bus_load=convert.bus_load_of(body.bus_load),
+            duration_s=opt.dip_duration_s,
+        )
+        e = d.exceeds
+        dip_out = DipOddsOut(
+            limit=name,
+            max_dip_percent=limit,
+            probability=e.probability,
+            low=e.low,
+            high=e.high,
+            exceedances=e.exceedances,
+            events=e.samples,
+            dip_p50_percent=float(np.median(d.dips_percent)),
+            dip_max_percent=float(d.dips_percent.max()),
+        )
+        approximations = list(d.approximations)
+    return devices, dip_out, approximations
+
+
+def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsResponse:
+    ideal, res, _delay, assumptions = convert.study_inputs(body)
+    circuit, gen = _supplied(body, ideal, assumptions)
+    opt = body.options
+    if opt.samples > settings.max_statistics_samples:
+        raise LimitError("options.samples", opt.samples, settings.max_statistics_samples)
+    spec: statistics.ResidualSpec
+    if isinstance(opt.residual, FixedResidualIn):
+        spec = statistics.FixedResidual(tuple(float(x) for x in res))
+    else:
+        r = opt.residual
+        spec = statistics.UniformResidual(r.low_pu, r.high_pu, r.random_sign, r.zero_sum)
+    dist = statistics.peak_distribution(
+        circuit,
+        samples=opt.samples,
+        random_state=opt.random_state,
+        residual=spec,
+        pole_scatter_ms=opt.pole_scatter_ms,
+        max_steps=settings.max_total_steps,
+    )
+    rated = circuit.rated_line_current_a
+    m = convert.maybe
+
+    def pct(name: str, p: statistics.Percentiles) -> PercentilesOut:
+        lo, hi = p.p99_interval_a
+        return PercentilesOut(
+            line=name,
+            p50_a=p.p50_a,
+            p95_a=p.p95_a,
+            p99_a=p.p99_a,
+            max_a=p.max_a,
+            p99_low_a=m(lo),
+            p99_high_a=m(hi),
+            p99_x_rated=convert.x_rated(p.p99_a, rated),
+        )
+
+    exceed = None
+    if opt.threshold_a is not None:
+        ex = statistics.exceedance_probability(dist.peaks_a.max(axis=1), opt.threshold_a)
+        exceed = ExceedanceOut(
+            threshold_a=opt.threshold_a,
+            probability=ex.probability,
+            low=ex.low,
+            high=ex.high,
+            exceedances=ex.exceedances,
+            samples=ex.samples,
+            method=ex.method,
+        )
+    devices, dip_odds, dip_approximations = _odds(
+        body, ideal, circuit, gen, dist, settings, assumptions
+    )
+    conv = dist.convergence
+    assumptions.append(
+        Assumption(
+            name="residual_distribution",
+            value=opt.residual.kind,
+            unit="-",
+            source="given"
+            if "residual" in opt.model_fields_set
+            else "default: uniform 0.2-0.8 pu, random sign (typical range, from memory)",
+        )
+    )
+    return StatisticsResponse(
+        rated_current_a=m(rated),
+        samples=opt.samples,
+        random_state=opt.random_state,
+        lines=[pct(n, p) for n, p in zip(dist.lines, dist.by_line, strict=True)],
+        worst_line=pct("worst", dist.worst_line),
+        convergence=ConvergenceOut(
+            samples=[int(x) for x in conv.samples],
+            p99_a=convert.floats(conv.p99_a),
+            p99_low_a=[m(x) for x in conv.p99_low_a],
+            p99_high_a=[m(x) for x in conv.p99_high_a],
+        ),
+        exceedance=exceed,
+        device_operation=devices,
+        dip_exceedance=dip_odds,
+        confidence_level=dist.confidence_level,
+        assumptions=assumptions,
+        warnings=[],
+        method=Method(
+            simulated=STATISTICS_METHOD,
+            approximations=list(dict.fromkeys([*dist.approximations, *dip_approximations])),
+        ),
+    )
+
+
+@router.post(
+    "/statistics",
+    response_model=StatisticsResponse,
+    operation_id="inrush_statistics",
+    summary="Distribution of the first peak over random closing instants and residual flux",
+    response_description="P50/P95/P99/max per line and of the worst line, the P99 interval and "
+    "its convergence, and the probability of exceeding a threshold",
+)
+async def inrush_statistics(
+    body: Annotated[StatisticsRequest, Body(openapi_examples=STATISTICS_EXAMPLES)],
+    settings: SettingsDep,
+) -> Response:
+    """Monte Carlo of the switching event, reproducible through ``options.random_state``."""
+    out = await run_in_threadpool(_statistics, body, settings)
+    return Response(out.model_dump_json(), media_type="application/json")
