@@ -256,14 +256,25 @@ def _resistor(opt: PreInsertionResistor, ctx: Context, warnings: list[tuple[str,
         window = t_ins + float(np.max(ctx.delay)) + WINDOW_CYCLES / c.frequency_hz
 
         def worst(rs: FloatArray) -> tuple[FloatArray, FloatArray]:
-            n = rs.size
-            return inrush.worst_closing_angles(
-                [c] * n,
-                np.tile(ctx.residual, (n, 1)),
-                np.tile(ctx.delay, (n, 1)),
-                duration_s=window,
-                max_steps=ctx.max_steps,
-                per_case={"insertion_resistance_ohm": rs, "insertion_time_s": np.full(n, t_ins)},
+            # one search per resistance: each solver call stays within the compute limit on
+            # its own (a large resistor needs sub-steps while it is in)
+            found = [
+                inrush.worst_closing_angles(
+                    [c],
+                    ctx.residual[None, :],
+                    ctx.delay[None, :],
+                    duration_s=window,
+                    max_steps=ctx.max_steps,
+                    per_case={
+                        "insertion_resistance_ohm": np.array([x]),
+                        "insertion_time_s": np.array([t_ins]),
+                    },
+                )
+                for x in rs
+            ]
+            return (
+                np.concatenate([a for a, _ in found]),
+                np.concatenate([p for _, p in found], axis=0),
             )
 
         lim = ctx.supply.limit.max_dip_percent if ctx.supply is not None else None

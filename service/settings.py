@@ -34,6 +34,12 @@ class Settings(BaseSettings):
     max_statistics_samples: int = Field(
         20_000, ge=100, description="Most Monte Carlo samples in one statistics request"
     )
+    max_event_checks: int = Field(
+        4000,
+        ge=10,
+        description="Most device judgements (events x devices) and generator-dip events in one "
+        "statistics request, a CPU-time bound",
+    )
     max_cases: int = Field(1000, ge=1, description="Most cases in one batch request")
     max_body_bytes: int = Field(1_048_576, ge=1024, description="Largest request body [bytes]")
     cors_origins: list[str] = Field(default_factory=list, description="Allowed CORS origins")

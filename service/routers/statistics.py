@@ -83,6 +83,18 @@ def _odds(
     events = min(opt.check_events, opt.samples)
     if body.devices is None and gen is None:
         return None, None, []
+    judged = events * (len(body.devices or []) + (1 if gen is not None else 0))
+    if judged > settings.max_event_checks:
+        raise LimitError(
+            "options.check_events x (devices + dip)", judged, settings.max_event_checks
+        )
+    f = circuit.frequency_hz
+    if gen is not None:
+        # each dip event: three loops at >= 128 steps per cycle (core.dip_solver)
+        steps = events * 3 * opt.dip_duration_s * f * 128
+        if steps > settings.max_total_steps:
+            raise LimitError("options.check_events x options.dip_duration_s", steps,
+                             settings.max_total_steps)  # fmt: skip
     assumptions.append(
         Assumption(
             name="check_events",

@@ -75,3 +75,16 @@ def test_supply_and_source_together_is_a_422(client: TestClient) -> None:
     r = client.post("/v1/inrush/statistics", json=req)
     assert r.status_code == 422
     assert "supply" in r.text
+
+
+def test_event_checks_over_the_limit_is_a_limit_problem(client: TestClient) -> None:
+    from service.examples import CLEARANCE_REQUESTS
+
+    req = copy.deepcopy(REQ)
+    req["options"] = {**req["options"], "samples": 2000, "check_events": 2000}
+    fuse = CLEARANCE_REQUESTS["northgate_main_unit"]["devices"][0]
+    req["devices"] = [{**fuse, "name": f"F{k}"} for k in range(3)]
+    r = client.post("/v1/inrush/statistics", json=req)
+    assert r.status_code == 422
+    assert r.json()["type"] == "urn:firstcycle:problem:limit-exceeded"
+    assert "check_events" in r.text
