@@ -59,7 +59,6 @@ class Plan:
     dip_note: str | None = None
     devices_apply: bool = True
     rating_va: float = math.nan
-    impedance_percent: float = math.nan
     x_rated_base_a: float = math.nan
     parameters: list[Assumption] = field(default_factory=list)
     requires: list[str] = field(default_factory=list)
@@ -109,8 +108,8 @@ def preset_flux(
     -----
     A winding energised at voltage angle alpha_w has the flux-swing centre b + cos(alpha_w)
     (:func:`core.analytic.flux_offset_pu`): the flux b = -cos(alpha_w), clipped to
-    +-max_flux_pu, leaves none. For a three-phase unit the three values sum to zero, as the
-    residual fluxes of a core do. When the angle is chosen, it is the one (on a 0.1 degree
+    +-max_flux_pu, leaves none. Unclipped, the three values of a three-phase unit sum to zero,
+    as the residual fluxes of a core do. When the angle is chosen, it is the one (on a 0.1 degree
     grid) that minimises the largest |b + cos(alpha_w + delta)| over the windings and the
     errors delta in the band: closing where the voltages are steep is sensitive to timing.
 
@@ -132,7 +131,8 @@ def preset_flux(
         alpha = float(closing_angle_deg)
     else:
         grid = np.arange(0.0, 360.0, 0.1)
-        w = np.stack([inrush.winding_angles(circuit, float(a), zero) for a in grid])
+        # winding angles are the phase-A angle plus fixed shifts
+        w = grid[:, None] + inrush.winding_angles(circuit, 0.0, zero)[None, :]
         b = np.clip(-np.cos(np.radians(w)), -max_flux_pu, max_flux_pu)
         worst = np.zeros(grid.size)
         for d in (-err_deg, 0.0, err_deg):
@@ -145,6 +145,7 @@ def preset_flux(
 
 
 def _x_loop_ohm(circuit: EquivalentCircuit) -> float:
+    """Reactance of the saturated loop, omega*(L_air + L_s), a delta's through two lines [ohm]."""
     mult = 1.0 if circuit.connection in ("single_phase", "wye_grounded") else 2.0
     l_loop = circuit.air_core_inductance_h + mult * circuit.source_inductance_h
     return 2.0 * math.pi * circuit.frequency_hz * l_loop
@@ -152,6 +153,8 @@ def _x_loop_ohm(circuit: EquivalentCircuit) -> float:
 
 @dataclass(frozen=True)
 class Context:
+    """The case every option changes: the unit, its supply, residual flux and pole timing."""
+
     nameplate: Nameplate
     source: Source | None
     circuit: EquivalentCircuit
