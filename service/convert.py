@@ -8,12 +8,20 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+from typing import Literal
 
 import numpy as np
 
 from core import curves, inrush, magnetizing, ridethrough, transformer
 from core.errors import LimitError
-from core.generator import BusLoad, Excitation, ExcitationSpec, Generator
+from core.generator import (
+    BusLoad,
+    DipLimit,
+    Excitation,
+    ExcitationSpec,
+    Generator,
+    iso_8528_5_class,
+)
 from core.transformer import EquivalentCircuit
 from service.models.clearance import BreakerIn, CurvePoint, FuseIn, RelayIn
 from service.models.common import (
@@ -29,7 +37,13 @@ from service.models.common import (
     TwoSlopeCurve,
     WarningItem,
 )
-from service.models.dip import BusLoadIn, GeneratorIn, PresetExcitation, RegulatorIn
+from service.models.dip import (
+    BusLoadIn,
+    CustomLimit,
+    GeneratorIn,
+    PresetExcitation,
+    RegulatorIn,
+)
 from service.settings import Settings
 
 RESIDUAL_DEFAULT_SOURCE = (
@@ -300,6 +314,13 @@ def excitation_of(exc: RegulatorIn | PresetExcitation) -> ExcitationSpec:
             exc.sensing_time_constant_s,
         )
     return exc.kind
+
+
+def dip_limit_of(limit: Literal["G1", "G2", "G3"] | CustomLimit) -> DipLimit:
+    """The core dip limit of a request's ``dip_limit`` (an ISO 8528-5 class or the caller's)."""
+    if isinstance(limit, CustomLimit):
+        return DipLimit(limit.name, limit.max_dip_percent, limit.max_recovery_s, "given")
+    return iso_8528_5_class(limit)
 
 
 def bus_load_of(load: BusLoadIn | None) -> BusLoad | None:

@@ -6,17 +6,15 @@ from typing import Annotated, Literal
 
 from pydantic import Field, model_validator
 
-from service.models.clearance import Device
 from service.models.common import (
     CAUTION,
     Assumption,
     Method,
     Model,
     SourceIn,
-    Study,
     WarningItem,
 )
-from service.models.dip import BusLoadIn, CustomLimit, ExcitationIn, GeneratorIn, PresetExcitation
+from service.models.supplied import SuppliedStudy
 
 ERROR_MS = Field(
     1.0,
@@ -174,7 +172,7 @@ class DeviceOptions(Model):
     )
 
 
-class MitigationRequest(Study):
+class MitigationRequest(SuppliedStudy):
     """Mitigations of one unit's energisation inrush, side by side."""
 
     options: list[OptionIn] | None = Field(
@@ -190,38 +188,13 @@ class MitigationRequest(Study):
         le=100.0,
         description="Largest acceptable design-basis first peak [x rated line current]",
     )
-    supply: GeneratorIn | None = Field(
-        None,
-        description="A generator energising the unit (three phase): its X''d is the source of "
-        "the peak searches and every option's dip is judged; give this or source",
-    )
-    excitation: ExcitationIn = Field(
-        default_factory=lambda: PresetExcitation(kind="unknown"),
-        description="The generator's regulator",
-    )
-    bus_load: BusLoadIn | None = None
-    dip_limit: Literal["G1", "G2", "G3"] | CustomLimit = Field(
-        "G2", description="Dip limit: an ISO 8528-5 class (values from memory) or a limit"
-    )
     dip_duration_s: float = Field(5.0, ge=0.5, le=30.0, description="Simulated dip [s]")
-    devices: list[Device] | None = Field(
-        None, min_length=1, max_length=20, description="Devices judged against every option"
-    )
     device_options: DeviceOptions = Field(default_factory=DeviceOptions)
 
     @model_validator(mode="after")
-    def _consistent(self) -> MitigationRequest:
+    def _nameplate(self) -> MitigationRequest:
         if self.transformer is None:
             raise ValueError("mitigation needs transformer (nameplate mode)")
-        if self.supply is not None:
-            if self.source is not None:
-                raise ValueError("give the generator in 'supply' or a source in 'source', not both")
-            if self.transformer.phases != 3:
-                raise ValueError("a generator supply needs a three-phase unit")
-        if self.devices is not None:
-            names = [d.name for d in self.devices]
-            if len(set(names)) != len(names):
-                raise ValueError("device names must be distinct")
         return self
 
 

@@ -4,11 +4,10 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from pydantic import Field, model_validator
+from pydantic import Field
 
-from service.models.clearance import Device
-from service.models.common import CAUTION, Assumption, Method, Model, Study, WarningItem
-from service.models.dip import BusLoadIn, CustomLimit, ExcitationIn, GeneratorIn, PresetExcitation
+from service.models.common import CAUTION, Assumption, Method, Model, WarningItem
+from service.models.supplied import SuppliedStudy
 
 
 class FixedResidualIn(Model):
@@ -77,45 +76,10 @@ class StatisticsOptions(Model):
     )
 
 
-class StatisticsRequest(Study):
+class StatisticsRequest(SuppliedStudy):
     """Distribution of the first inrush peak over random closing instants and residual flux."""
 
     options: StatisticsOptions = Field(default_factory=StatisticsOptions)
-    devices: list[Device] | None = Field(
-        None,
-        min_length=1,
-        max_length=20,
-        description="Devices whose probability of operating on the inrush is estimated",
-    )
-    supply: GeneratorIn | None = Field(
-        None,
-        description="A generator energising the unit (three phase): its X''d is the source of "
-        "the peaks and the probability that the dip exceeds dip_limit is estimated; give this "
-        "or source",
-    )
-    excitation: ExcitationIn = Field(
-        default_factory=lambda: PresetExcitation(kind="unknown"),
-        description="The generator's regulator",
-    )
-    bus_load: BusLoadIn | None = None
-    dip_limit: Literal["G1", "G2", "G3"] | CustomLimit = Field(
-        "G2", description="Dip limit: an ISO 8528-5 class (values from memory) or a limit"
-    )
-
-    @model_validator(mode="after")
-    def _supply(self) -> StatisticsRequest:
-        if self.supply is not None:
-            if self.transformer is None:
-                raise ValueError("a generator supply needs transformer (nameplate mode)")
-            if self.source is not None:
-                raise ValueError("give the generator in 'supply' or a source in 'source', not both")
-            if self.transformer.phases != 3:
-                raise ValueError("a generator supply needs a three-phase unit")
-        if self.devices is not None:
-            names = [d.name for d in self.devices]
-            if len(set(names)) != len(names):
-                raise ValueError("device names must be distinct")
-        return self
 
 
 class PercentilesOut(Model):

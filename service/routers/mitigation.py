@@ -9,11 +9,10 @@ from fastapi import APIRouter, Body, Depends
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
 
-from core import generator, mitigation, mitigation_options
+from core import mitigation, mitigation_options
 from service import convert
 from service.examples import MITIGATION_EXAMPLES
 from service.models.common import Assumption, Method
-from service.models.dip import CustomLimit
 from service.models.mitigation import (
     ControlledClosingIn,
     CoreMaterialIn,
@@ -140,11 +139,7 @@ def _mitigation(body: MitigationRequest, settings: Settings) -> MitigationRespon
     supply = None
     limit_name = None
     if body.supply is not None:
-        if isinstance(body.dip_limit, CustomLimit):
-            lim = body.dip_limit
-            limit = generator.DipLimit(lim.name, lim.max_dip_percent, lim.max_recovery_s, "given")
-        else:
-            limit = generator.iso_8528_5_class(body.dip_limit)
+        limit = convert.dip_limit_of(body.dip_limit)
         limit_name = limit.name
         supply = mitigation_options.GeneratorSupply(
             convert.generator_of(body.supply, npl.line_voltage_v, npl.frequency_hz),

@@ -21,7 +21,6 @@ from core.transformer import EquivalentCircuit
 from service import convert
 from service.examples import STATISTICS_EXAMPLES
 from service.models.common import Assumption, Method
-from service.models.dip import CustomLimit
 from service.models.statistics import (
     ConvergenceOut,
     DeviceOddsOut,
@@ -128,11 +127,8 @@ def _odds(
     dip_out = None
     approximations: list[str] = []
     if gen is not None:
-        if isinstance(body.dip_limit, CustomLimit):
-            name, limit = body.dip_limit.name, body.dip_limit.max_dip_percent
-        else:
-            lim = generator.iso_8528_5_class(body.dip_limit)
-            name, limit = lim.name, float(lim.max_dip_percent or 100.0)
+        lim = convert.dip_limit_of(body.dip_limit)
+        name, limit = lim.name, float(lim.max_dip_percent or 100.0)
         d = event_checks.dip_exceedance_odds(
             gen,
             ideal,
