@@ -203,7 +203,9 @@ class OptionDeviceOut(Model):
 
     name: str
     rides_through: bool
-    ride_through_margin: float | None = Field(description="> 1 rides through")
+    ride_through_margin: float | None = Field(
+        description="> 1 rides through; null: no finite margin (never near operating)"
+    )
     protects: bool | None = Field(description="Clears through-faults within the damage limit")
     protection_margin: float | None = Field(description="> 1 protects")
 
