@@ -18,7 +18,8 @@ What each element compares (named in ``RideThrough.compared_current``):
 * fuse minimum melt (derated), breaker long-/short-time minimum band: I_eq(t) = √((1/t)∫₀ᵗ i²),
   the heating-equivalent constant current (common practice);
 * relay inverse-time element: θ = ∫dt/t(I) over the sliding one-cycle true rms
-  (:func:`core.curves.cumulative_trip`); relay instantaneous: the largest sliding one-cycle rms;
+  (:func:`core.relay_curves.cumulative_trip`); relay instantaneous: the largest sliding
+  one-cycle rms;
 * breaker instantaneous: the largest |i| (the first peak) and the largest half-cycle rms;
 * current-limiting fuse melting I²t: the largest ∫i² over a window of half cycles.
 
@@ -37,7 +38,7 @@ from typing import Literal, cast
 import numpy as np
 import numpy.typing as npt
 
-from core import curves
+from core import fuse_breaker_curves, relay_curves
 from core.errors import ParameterError
 from core.inrush_curves import (
     Extreme,
@@ -120,7 +121,10 @@ class Relay:
     reset: Reset = "curve"
 
     def __post_init__(self) -> None:
-        tables = {"ieee_c37_112": curves.IEEE_C37_112, "iec_60255_151": curves.IEC_60255_151}
+        tables = {
+            "ieee_c37_112": relay_curves.IEEE_C37_112,
+            "iec_60255_151": relay_curves.IEC_60255_151,
+        }
         if self.standard not in tables:
             raise ParameterError("standard", self.standard, "ieee_c37_112 or iec_60255_151")
         if self.curve not in tables[self.standard]:
@@ -143,8 +147,8 @@ class Fuse:
     """
 
     name: str
-    minimum_melt: curves.TabulatedCurve
-    total_clearing: curves.TabulatedCurve | None = None
+    minimum_melt: fuse_breaker_curves.TabulatedCurve
+    total_clearing: fuse_breaker_curves.TabulatedCurve | None = None
     minimum_melting_i2t_a2s: float | None = None
     melt_current_factor: float | None = None
     melt_time_factor: float | None = None
@@ -163,7 +167,7 @@ class Breaker:
     picks up as a multiple of the rms pickup (None: :data:`DEFAULT_PEAK_FACTOR`) [-]."""
 
     name: str
-    trip_unit: curves.LowVoltageBreaker
+    trip_unit: fuse_breaker_curves.LowVoltageBreaker
     peak_factor: float | None = None
 
     def __post_init__(self) -> None:
@@ -182,16 +186,19 @@ def _relay_fns(relay: Relay, time_dial: float) -> tuple[TimeFn, TimeFn | None]:
     p = relay.pickup_a
     zero: TimeFn = lambda i: np.zeros(i.shape)  # noqa: E731
     if relay.standard == "iec_60255_151":
-        iec = cast(curves.IecCurve, relay.curve)
+        iec = cast(relay_curves.IecCurve, relay.curve)
         reset = zero if relay.reset == "instantaneous" else None  # IEC curves: no reset curve
-        return lambda i: curves.iec_60255_151_trip_time(i / p, iec, time_dial), reset
-    ieee = cast(curves.IeeeCurve, relay.curve)
+        return lambda i: relay_curves.iec_60255_151_trip_time(i / p, iec, time_dial), reset
+    ieee = cast(relay_curves.IeeeCurve, relay.curve)
+
+    def trip(i: FloatArray) -> FloatArray:
+        return relay_curves.ieee_c37_112_trip_time(i / p, ieee, time_dial)
 
     def disk(i: FloatArray) -> FloatArray:
-        return curves.ieee_c37_112_reset_time(i / p, ieee, time_dial)
+        return relay_curves.ieee_c37_112_reset_time(i / p, ieee, time_dial)
 
     resets: dict[str, TimeFn | None] = {"curve": disk, "hold": None, "instantaneous": zero}
-    return lambda i: curves.ieee_c37_112_trip_time(i / p, ieee, time_dial), resets[relay.reset]
+    return trip, resets[relay.reset]
 
 
 def _melt_factor(fuse: Fuse) -> float:
@@ -204,7 +211,7 @@ def _melt_time(fuse: Fuse, i: FloatArray) -> FloatArray:
 
 def device_times(
     device: Device, current_a: npt.ArrayLike, *, opening_time_s: float | None = None
-) -> curves.TripBand:
+) -> fuse_breaker_curves.TripBand:
     """A device's two curves at given currents: what must not operate, and what clears.
 
     Parameters
@@ -218,7 +225,7 @@ def device_times(
 
     Returns
     -------
-    core.curves.TripBand
+    core.fuse_breaker_curves.TripBand
         ``minimum_time``: relay curve (0 s above an instantaneous pickup), derated minimum melt
         or breaker minimum band; ``maximum_time``: relay curve + opening time, total clearing
         (NaN if the fuse has none) or breaker maximum band [s]; +inf where it does not operate.
@@ -230,7 +237,8 @@ def device_times(
 
     References
     ----------
-    IEEE Std C37.112, IEC 60255-151, via :mod:`core.curves`; common practice for the rest.
+    IEEE Std C37.112, IEC 60255-151, via :mod:`core.relay_curves`; common practice for the rest
+    (:mod:`core.fuse_breaker_curves`).
     """
     i = _arr(current_a, "current_a", (0, 1, 2), 0.0)
     t_open = DEFAULT_OPENING_TIME_S if opening_time_s is None else opening_time_s
@@ -239,12 +247,12 @@ def device_times(
         low = _relay_fns(device, device.time_dial)[0](i)
         if device.instantaneous_pickup_a is not None:
             low = np.where(i > device.instantaneous_pickup_a, 0.0, low)
-        return curves.TripBand(low, low + t_open)
+        return fuse_breaker_curves.TripBand(low, low + t_open)
     if isinstance(device, Fuse):
         tc = device.total_clearing
         high = np.full(i.shape, np.nan) if tc is None else tc.trip_time(i)
-        return curves.TripBand(_melt_time(device, i), high)
-    return curves.lv_breaker_trip_band(i, device.trip_unit)
+        return fuse_breaker_curves.TripBand(_melt_time(device, i), high)
+    return fuse_breaker_curves.lv_breaker_trip_band(i, device.trip_unit)
 
 
 # --------------------------------------------------------------------------------- ride-through
@@ -351,14 +359,14 @@ def relay_ride_through(relay: Relay, inrush: InrushCurves) -> RideThrough:
     RideThrough
         ``time_margin_ratio`` = 1/max θ, the factor by which TD (TMS) could be divided before
         the element operates within the record (after a trip, θ's rise per record interval is
-        capped at 2 by :func:`core.curves.cumulative_trip`, so a ratio < 1 is then exact only
-        while intervals stay under half the operating time); instantaneous ratio = pickup /
+        capped at 2 by :func:`core.relay_curves.cumulative_trip`, so a ratio < 1 is then exact
+        only while intervals stay under half the operating time); instantaneous ratio = pickup /
         largest rms.
 
     Notes
     -----
-    θ(t) by :func:`core.curves.cumulative_trip`: dθ/dt = 1/t(I), or −1/t_r(I) below pickup.
-    Both t(I) and t_r(I) are proportional to TD, so θ is proportional to 1/TD.
+    θ(t) by :func:`core.relay_curves.cumulative_trip`: dθ/dt = 1/t(I), or −1/t_r(I) below
+    pickup. Both t(I) and t_r(I) are proportional to TD, so θ is proportional to 1/TD.
 
     References
     ----------
@@ -368,7 +376,7 @@ def relay_ride_through(relay: Relay, inrush: InrushCurves) -> RideThrough:
     t, rms = inrush.rms_time_s, inrush.rms_current_a
     timed = []
     for j, row in enumerate(rms):
-        res = curves.cumulative_trip(t, row, trip_fn, reset_fn)
+        res = relay_curves.cumulative_trip(t, row, trip_fn, reset_fn)
         k = int(np.argmax(res.theta))
         ratio = math.inf if res.theta[k] <= 0.0 else 1.0 / float(res.theta[k])
         timed.append(_Check(ratio, float(t[k]), j, res.trip_time, _RMS, k == t.size - 1))
@@ -433,8 +441,8 @@ def breaker_ride_through(breaker: Breaker, inrush: InrushCurves) -> RideThrough:
 
     Notes
     -----
-    (1 − tol)·P is the band's lower edge (:func:`core.curves.lv_breaker_trip_band`); the timed
-    band is evaluated with the instantaneous element off.
+    (1 − tol)·P is the band's lower edge (:func:`core.fuse_breaker_curves.lv_breaker_trip_band`);
+    the timed band is evaluated with the instantaneous element off.
 
     References
     ----------
@@ -444,7 +452,7 @@ def breaker_ride_through(breaker: Breaker, inrush: InrushCurves) -> RideThrough:
     timed_unit = replace(unit, instantaneous_pickup=None)
 
     def band(i: FloatArray) -> FloatArray:
-        return curves.lv_breaker_trip_band(i, timed_unit).minimum_time
+        return fuse_breaker_curves.lv_breaker_trip_band(i, timed_unit).minimum_time
 
     timed = _curve_checks(inrush.eq_time_s, inrush.eq_current_a, band)
     if unit.instantaneous_pickup is None:

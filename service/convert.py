@@ -12,7 +12,7 @@ from typing import Literal
 
 import numpy as np
 
-from core import curves, inrush, magnetizing, ridethrough, transformer
+from core import fuse_breaker_curves, inrush, magnetizing, ridethrough, transformer
 from core.errors import LimitError
 from core.generator import (
     BusLoad,
@@ -328,8 +328,8 @@ def bus_load_of(load: BusLoadIn | None) -> BusLoad | None:
     return BusLoad(load.active_kw * 1e3, load.reactive_kvar * 1e3) if load is not None else None
 
 
-def _table(points: list[CurvePoint]) -> curves.TabulatedCurve:
-    return curves.TabulatedCurve(
+def _table(points: list[CurvePoint]) -> fuse_breaker_curves.TabulatedCurve:
+    return fuse_breaker_curves.TabulatedCurve(
         np.array([p.current_a for p in points]), np.array([p.time_s for p in points])
     )
 
@@ -352,7 +352,7 @@ def device_of(d: RelayIn | FuseIn | BreakerIn) -> ridethrough.Device:
         )
     return ridethrough.Breaker(
         d.name,
-        curves.LowVoltageBreaker(
+        fuse_breaker_curves.LowVoltageBreaker(
             long_time_pickup=d.long_time_pickup_a,
             long_time_delay=d.long_time_delay_s,
             short_time_pickup=d.short_time_pickup_a,

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from core import curves, event_checks, generator, statistics, transformer
+from core import event_checks, fuse_breaker_curves, generator, statistics, transformer
 from core.errors import ParameterError
 from core.ridethrough import Breaker
 
@@ -38,7 +38,7 @@ def test_an_instantaneous_element_operates_on_the_events_whose_peak_exceeds_it(
     # crest)
     c, dist = fed
     pickup = float(np.median(dist.worst_peaks_a[:100]))
-    unit = curves.LowVoltageBreaker(
+    unit = fuse_breaker_curves.LowVoltageBreaker(
         long_time_pickup=1e6, long_time_delay=10.0, instantaneous_pickup=pickup,
         pickup_tolerance=0.0, instantaneous_tolerance=0.0,
     )  # fmt: skip

@@ -15,7 +15,7 @@ import pytest
 from scipy.integrate import quad
 from scipy.optimize import brentq
 
-from core import coordination, curves, damage, ridethrough
+from core import coordination, damage, fuse_breaker_curves, ridethrough
 from core.errors import ParameterError
 
 F = 60.0  # power frequency of the synthetic records [Hz]
@@ -33,9 +33,9 @@ def record(amplitude: float, tau: float, duration: float, spc: int = 64) -> tupl
     return t, unipolar(t, amplitude, tau)
 
 
-def table(points: list[tuple[float, float]]) -> curves.TabulatedCurve:
+def table(points: list[tuple[float, float]]) -> fuse_breaker_curves.TabulatedCurve:
     cur, tim = zip(*points, strict=True)
-    return curves.TabulatedCurve(np.array(cur), np.array(tim))
+    return fuse_breaker_curves.TabulatedCurve(np.array(cur), np.array(tim))
 
 
 # -------------------------------------------------------------------------- inrush derivation
@@ -277,7 +277,7 @@ def test_fuse_melting_i2t_against_the_first_half_cycle() -> None:
 def _breaker(
     inst: float, tol: float = 0.1, peak_factor: float | None = None
 ) -> ridethrough.Breaker:
-    unit = curves.LowVoltageBreaker(
+    unit = fuse_breaker_curves.LowVoltageBreaker(
         long_time_pickup=2000.0, long_time_delay=20.0, instantaneous_pickup=inst,
         instantaneous_tolerance=tol,
     )  # fmt: skip

@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from core import curves, damage
+from core import damage, relay_curves
 
 # --------------------------------------------------------------------------------------------
 # IEEE Std C37.112-1996 (and -2018), Table 1: t = TD·(A/(M^p − 1) + B); t_r = TD·tr/(1 − M²).
@@ -33,9 +33,9 @@ IEEE_C37_112_TABLE_1_CASES = [
 
 @pytest.mark.parametrize(("curve", "td", "m", "arithmetic", "literal"), IEEE_C37_112_TABLE_1_CASES)
 def test_ieee_c37_112_table_1_trip_times(
-    curve: curves.IeeeCurve, td: float, m: float, arithmetic: float, literal: float
+    curve: relay_curves.IeeeCurve, td: float, m: float, arithmetic: float, literal: float
 ) -> None:
-    t = float(curves.ieee_c37_112_trip_time(m, curve, td))
+    t = float(relay_curves.ieee_c37_112_trip_time(m, curve, td))
     assert t == pytest.approx(arithmetic, rel=1e-12)
     assert t == pytest.approx(literal, abs=5e-5)
 
@@ -51,9 +51,9 @@ IEEE_C37_112_RESET_CASES = [
 
 @pytest.mark.parametrize(("curve", "td", "m", "arithmetic", "literal"), IEEE_C37_112_RESET_CASES)
 def test_ieee_c37_112_table_1_reset_times(
-    curve: curves.IeeeCurve, td: float, m: float, arithmetic: float, literal: float
+    curve: relay_curves.IeeeCurve, td: float, m: float, arithmetic: float, literal: float
 ) -> None:
-    t = float(curves.ieee_c37_112_reset_time(m, curve, td))
+    t = float(relay_curves.ieee_c37_112_reset_time(m, curve, td))
     assert t == pytest.approx(arithmetic, rel=1e-12)
     assert t == pytest.approx(literal, abs=5e-5)
 
@@ -76,9 +76,9 @@ IEC_60255_151_TABLE_1_CASES = [
     ("curve", "tms", "m", "arithmetic", "literal"), IEC_60255_151_TABLE_1_CASES
 )
 def test_iec_60255_151_table_1_trip_times(
-    curve: curves.IecCurve, tms: float, m: float, arithmetic: float, literal: float
+    curve: relay_curves.IecCurve, tms: float, m: float, arithmetic: float, literal: float
 ) -> None:
-    t = float(curves.iec_60255_151_trip_time(m, curve, tms))
+    t = float(relay_curves.iec_60255_151_trip_time(m, curve, tms))
     assert t == pytest.approx(arithmetic, rel=1e-12)
     assert t == pytest.approx(literal, abs=5e-5)
 
