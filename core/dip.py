@@ -83,7 +83,7 @@ J. Machowski, J. W. Bialek, J. R. Bumby, "Power System Dynamics: Stability and C
 ed., Wiley, 2008, ch. 11 (E'_q/E''_q generator model) -- from memory.
 IEEE Std 399-1997, ch. 9 (voltage-divider first dip) -- from memory.
 ISO 8528-5 (generating-set performance classes G1-G4) -- limits from memory, see
-:data:`core.generator.ISO_8528_5_CLASSES`.
+:data:`core.dip_limits.ISO_8528_5_CLASSES`.
 """
 
 from __future__ import annotations

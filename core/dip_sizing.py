@@ -38,7 +38,7 @@ References
 R. P. Brent, "Algorithms for Minimization without Derivatives", Prentice-Hall, 1973, ch. 4
 (the root finder, as scipy.optimize.brentq) -- from memory.
 ISO 8528-5 (generating-set performance classes G1-G4) -- limits from memory, see
-:data:`core.generator.ISO_8528_5_CLASSES`.
+:data:`core.dip_limits.ISO_8528_5_CLASSES`.
 """
 
 from __future__ import annotations
@@ -51,13 +51,12 @@ import scipy.optimize
 from numpy.typing import ArrayLike, NDArray
 
 from core import dip, dip_solver
+from core.dip_limits import DipLimit, iso_8528_5_class
 from core.errors import ParameterError
 from core.generator import (
     BusLoad,
-    DipLimit,
     ExcitationSpec,
     Generator,
-    iso_8528_5_class,
     source_parameters,
 )
 from core.transformer import EquivalentCircuit

@@ -1,7 +1,7 @@
 """Generator-dip study: the dip, its recovery, the verdicts, and the generator that would pass.
 
 One call for the ``/v1/generator-dip`` operation, combining :func:`core.dip.energize_from_source`
-(the coupled simulation and the hand method beside it), :func:`core.generator.verdicts` (ISO
+(the coupled simulation and the hand method beside it), :func:`core.dip_limits.verdicts` (ISO
 8528-5 classes or a caller's limit) and, for a generator source,
 :func:`core.dip_sizing.smallest_generator` (the smallest rating with the same per-unit data that
 keeps the dip within the limit). An optional pre-insertion resistor in the energising breaker
@@ -14,8 +14,9 @@ from dataclasses import dataclass
 
 from numpy.typing import ArrayLike
 
-from core import dip, dip_sizing, generator
-from core.generator import DipLimit, ExcitationSpec, Source
+from core import dip, dip_limits, dip_sizing, generator
+from core.dip_limits import DipLimit
+from core.generator import ExcitationSpec, Source
 from core.transformer import EquivalentCircuit
 
 __all__ = ["DipReport", "dip_study"]
@@ -26,7 +27,7 @@ class DipReport:
     """Result of :func:`dip_study`."""
 
     study: dip.DipStudy
-    verdicts: tuple[generator.Verdict, ...]
+    verdicts: tuple[dip_limits.Verdict, ...]
     sizing: dip_sizing.Sizing | None
 
 
@@ -36,7 +37,7 @@ def dip_study(
     closing_angle_deg: float,
     residual_flux_pu: ArrayLike,
     *,
-    limits: tuple[DipLimit, ...] = generator.ISO_8528_5_CLASSES,
+    limits: tuple[DipLimit, ...] = dip_limits.ISO_8528_5_CLASSES,
     size_for: DipLimit | None = None,
     excitation: ExcitationSpec = "unknown",
     bus_load: generator.BusLoad | None = None,
@@ -110,7 +111,7 @@ def dip_study(
         insertion_time_s=insertion_time_s,
         pole_delay_s=pole_delay_s,
     )
-    judged = generator.verdicts(
+    judged = dip_limits.verdicts(
         study.dip_percent, study.recovery_time_s, limits, simulated_s=duration_s
     )
     sizing = None

@@ -39,6 +39,7 @@ from core import (
     coordination,
     damage,
     dip,
+    dip_limits,
     energize,
     generator,
     inrush,
@@ -361,7 +362,7 @@ def _evaluate(
                 insertion_time_s=t_ins,
                 pole_delay_s=delay,
             )
-            verdict = generator.verdicts(
+            verdict = dip_limits.verdicts(
                 d.dip_percent, d.recovery_time_s, (sup.limit,), simulated_s=sup.duration_s
             )[0]
             outcome = DipOutcome(d.dip_percent, d.recovery_time_s, verdict.passed, d.inrush_peak_a)

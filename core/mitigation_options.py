@@ -11,9 +11,10 @@ import math
 from dataclasses import dataclass
 from typing import ClassVar
 
-from core import damage, generator
+from core import damage, dip_limits, generator
+from core.dip_limits import DipLimit
 from core.errors import ParameterError
-from core.generator import BusLoad, DipLimit, ExcitationSpec
+from core.generator import BusLoad, ExcitationSpec
 from core.ridethrough import Device
 from core.transformer import Source
 
@@ -50,7 +51,7 @@ DEFAULT_TAP_PERCENT = 5.0
 DEFAULT_RAMP_RISE_S = 0.5
 
 
-_G2 = generator.iso_8528_5_class("G2")
+_G2 = dip_limits.iso_8528_5_class("G2")
 
 
 def _in(name: str, value: float | None, low: float, high: float) -> None:

@@ -13,14 +13,13 @@ from typing import Literal
 import numpy as np
 
 from core import fuse_breaker_curves, inrush, magnetizing, ridethrough, transformer
+from core.dip_limits import DipLimit, iso_8528_5_class
 from core.errors import LimitError
 from core.generator import (
     BusLoad,
-    DipLimit,
     Excitation,
     ExcitationSpec,
     Generator,
-    iso_8528_5_class,
 )
 from core.transformer import EquivalentCircuit
 from service.models.clearance import BreakerIn, CurvePoint, FuseIn, RelayIn

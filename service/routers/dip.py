@@ -9,7 +9,7 @@ from fastapi import APIRouter, Body, Depends
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
 
-from core import dip_study, generator
+from core import dip_limits, dip_study, generator
 from service import convert, figures
 from service.examples import DIP_EXAMPLES
 from service.models.common import Assumption, Method
@@ -55,16 +55,16 @@ def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assump
     opt = body.options
     if isinstance(opt.limits, CustomLimit):
         lim = opt.limits
-        limits: tuple[generator.DipLimit, ...] = (
-            generator.DipLimit(lim.name, lim.max_dip_percent, lim.max_recovery_s, "given"),
+        limits: tuple[dip_limits.DipLimit, ...] = (
+            dip_limits.DipLimit(lim.name, lim.max_dip_percent, lim.max_recovery_s, "given"),
         )
     else:
-        limits = generator.ISO_8528_5_CLASSES
+        limits = dip_limits.ISO_8528_5_CLASSES
     size_for = None
     if opt.size_for == "custom":
         size_for = limits[0]
     elif opt.size_for is not None:
-        size_for = generator.iso_8528_5_class(opt.size_for)
+        size_for = dip_limits.iso_8528_5_class(opt.size_for)
     load = body.bus_load
     report = dip_study.dip_study(
         source,

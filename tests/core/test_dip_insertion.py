@@ -21,7 +21,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from core import dip, dip_sizing, dip_study, generator, magnetizing, transformer
+from core import dip, dip_limits, dip_sizing, dip_study, generator, magnetizing, transformer
 from core.errors import ParameterError
 
 F_HZ = 60.0
@@ -137,7 +137,7 @@ def test_sweep_sizing_and_study_off_are_bit_identical() -> None:
         insertion_time_s=0.1,
     )  # fmt: skip
     assert np.array_equal(plain, off)
-    kw: dict[str, Any] = {"size_for": generator.iso_8528_5_class("G2"), "duration_s": 0.5}
+    kw: dict[str, Any] = {"size_for": dip_limits.iso_8528_5_class("G2"), "duration_s": 0.5}
     report = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, **kw)
     report_off = dip_study.dip_study(
         gen, circ, 0.0, RESIDUAL, insertion_resistance_ohm=5.0, insertion_time_s=0.0, **kw
@@ -369,7 +369,7 @@ def test_study_and_sizing_use_the_resistor() -> None:
     # 5 cycles the demo back-feed dips 6.8 % instead of 54 %, so the sizing for G2 (20 %) is
     # met by a smaller machine than without it.
     gen, circ = _northgate(), _unit()
-    g2 = generator.iso_8528_5_class("G2")
+    g2 = dip_limits.iso_8528_5_class("G2")
     kw: dict[str, Any] = {"size_for": g2, "duration_s": 0.5}
     with_r = dip_study.dip_study(
         gen, circ, 0.0, RESIDUAL, insertion_resistance_ohm=0.1, insertion_time_s=5 * T, **kw

@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 import pytest
 
-from core import dip, dip_sizing, dip_study, generator, transformer
+from core import dip, dip_limits, dip_sizing, dip_study, generator, transformer
 from core.errors import ParameterError
 
 F_HZ = 60.0
@@ -111,7 +111,7 @@ def test_sweep_sizing_and_study_with_poles_at_zero_are_bit_identical() -> None:
         gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=0.0
     )
     assert np.array_equal(plain, zeros)
-    kw: dict[str, Any] = {"size_for": generator.iso_8528_5_class("G2"), "duration_s": 0.5}
+    kw: dict[str, Any] = {"size_for": dip_limits.iso_8528_5_class("G2"), "duration_s": 0.5}
     a = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, **kw)
     b = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, pole_delay_s=(0, 0, 0), **kw)
     _assert_identical(a, b)
@@ -295,7 +295,7 @@ def test_staggered_poles_are_reported_and_used_everywhere() -> None:
     assert swept[0] == pytest.approx(single.dip_percent, rel=1e-12)
     report = dip_study.dip_study(
         gen, circ, 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles,
-        size_for=generator.iso_8528_5_class("G2"),
+        size_for=dip_limits.iso_8528_5_class("G2"),
     )  # fmt: skip
     _assert_identical(report.study, single)
     assert report.sizing is not None
