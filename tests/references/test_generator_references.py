@@ -38,6 +38,7 @@ from __future__ import annotations
 
 import cmath
 import math
+from typing import NamedTuple
 
 import numpy as np
 import pytest
@@ -79,9 +80,37 @@ def northgate_case() -> tuple[generator.Generator, transformer.EquivalentCircuit
     return gen, circ
 
 
-def _reference(
-    gen: generator.Generator, circ: transformer.EquivalentCircuit
-) -> tuple[Array, Array, Array]:
+class _Machine(NamedTuple):
+    """The reference's machine, transformer and load parameters and the pre-event state."""
+
+    lam_s: float
+    l_m: float
+    l_air: float
+    r_s: float
+    l_s: float
+    r_w: float
+    x2: float
+    x1: float
+    xd: float
+    t2o: float
+    t1o: float
+    ka: float
+    ta: float
+    e_max: float
+    e_min: float
+    tr: float
+    i_b: float
+    r_l: float
+    l_l: float
+    i_l: complex
+    beta: float
+    e2_0: float
+    e1_0: float
+    efd_0: float
+    v_ref: float
+
+
+def _machine(gen: generator.Generator, circ: transformer.EquivalentCircuit) -> _Machine:
     curve = circ.curve
     assert isinstance(curve, magnetizing.PiecewiseLinearCurve)
     lam_s = float(curve.flux_wb[1])
@@ -112,24 +141,57 @@ def _reference(
     e1_0 = e2_0 + (x1 - x2) * i_d0
     efd_0 = e1_0 + (xd - x1) * i_d0
     v_ref = 1.0 + efd_0 / ka
+    return _Machine(
+        lam_s,
+        l_m,
+        l_air,
+        r_s,
+        l_s,
+        r_w,
+        x2,
+        x1,
+        xd,
+        t2o,
+        t1o,
+        ka,
+        ta,
+        e_max,
+        e_min,
+        tr,
+        i_b,
+        r_l,
+        l_l,
+        i_l,
+        beta,
+        e2_0,
+        e1_0,
+        efd_0,
+        v_ref,
+    )
+
+
+def _reference(
+    gen: generator.Generator, circ: transformer.EquivalentCircuit
+) -> tuple[Array, Array, Array]:
+    m = _machine(gen, circ)
 
     def f(lam: Array) -> tuple[Array, Array]:
         x = np.abs(lam)
-        sat = x > lam_s
-        cur = np.where(sat, lam_s / l_m + (x - lam_s) / l_air, x / l_m)
-        return np.sign(lam) * cur, np.where(sat, 1.0 / l_air, 1.0 / l_m)
+        sat = x > m.lam_s
+        cur = np.where(sat, m.lam_s / m.l_m + (x - m.lam_s) / m.l_air, x / m.l_m)
+        return np.sign(lam) * cur, np.where(sat, 1.0 / m.l_air, 1.0 / m.l_m)
 
     def parts(t: float, y: Array) -> tuple[Array, Array, Array, float, float]:
         lam, il = y[0:3], y[3:6]
         e2, e1, efd = y[6], y[7], y[8]
         c, fp = f(lam)
-        th = np.asarray(OMEGA * t + beta + SHIFT, dtype=np.float64)
-        i_d = -(2.0 / 3.0) * float(np.sum((c + il) * np.cos(th))) / (math.sqrt(2.0) * i_b)
-        de2 = (e1 - e2 - (x1 - x2) * i_d) / t2o
-        de1 = (efd - e1 - (xd - x1) * i_d) / t1o
+        th = np.asarray(OMEGA * t + m.beta + SHIFT, dtype=np.float64)
+        i_d = -(2.0 / 3.0) * float(np.sum((c + il) * np.cos(th))) / (math.sqrt(2.0) * m.i_b)
+        de2 = (e1 - e2 - (m.x1 - m.x2) * i_d) / m.t2o
+        de1 = (efd - e1 - (m.xd - m.x1) * i_d) / m.t1o
         e = math.sqrt(2.0) * V_PH * (e2 * np.sin(th) - de2 / OMEGA * np.cos(th))
-        v: Array = (e - r_s * (c + il) + l_s * fp * r_w * c + l_s * r_l * il / l_l) / (
-            1.0 + l_s * fp + l_s / l_l
+        v: Array = (e - m.r_s * (c + il) + m.l_s * fp * m.r_w * c + m.l_s * m.r_l * il / m.l_l) / (
+            1.0 + m.l_s * fp + m.l_s / m.l_l
         )
         return v, c, th, float(de2), float(de1)
 
@@ -138,18 +200,18 @@ def _reference(
         vd, vq = float(np.sum(v * np.cos(th))), float(np.sum(v * np.sin(th)))
         vmag = math.hypot(vd, vq) / (1.5 * math.sqrt(2.0) * V_PH)
         efd, vs = y[8], y[9]
-        defd = (ka * (v_ref - vs) - efd) / ta
-        if (efd >= e_max and defd > 0.0) or (efd <= e_min and defd < 0.0):
+        defd = (m.ka * (m.v_ref - vs) - efd) / m.ta
+        if (efd >= m.e_max and defd > 0.0) or (efd <= m.e_min and defd < 0.0):
             defd = 0.0
         out = np.empty(10)
-        out[0:3] = v - r_w * c
-        out[3:6] = (v - r_l * y[3:6]) / l_l
-        out[6:10] = (de2, de1, defd, (vmag - vs) / tr)
+        out[0:3] = v - m.r_w * c
+        out[3:6] = (v - m.r_l * y[3:6]) / m.l_l
+        out[6:10] = (de2, de1, defd, (vmag - vs) / m.tr)
         return out
 
     lam0 = RESIDUAL * circ.nominal_flux_wb
-    il0 = math.sqrt(2.0) * abs(i_l) * np.sin(cmath.phase(i_l) + SHIFT)
-    y0 = np.concatenate((lam0, il0, [e2_0, e1_0, efd_0, 1.0]))
+    il0 = math.sqrt(2.0) * abs(m.i_l) * np.sin(cmath.phase(m.i_l) + SHIFT)
+    y0 = np.concatenate((lam0, il0, [m.e2_0, m.e1_0, m.efd_0, 1.0]))
     atol = np.concatenate(
         (np.full(3, 1e-10 * circ.nominal_flux_wb), np.full(3, 1e-7), np.full(4, 1e-11))
     )
@@ -283,43 +345,15 @@ def _reference_inserted(
     """
     closing = np.zeros(3) if energised_s is None else np.asarray(energised_s, dtype=float)
     delta = circ.connection == "delta"
-    curve = circ.curve
-    assert isinstance(curve, magnetizing.PiecewiseLinearCurve)
-    lam_s = float(curve.flux_wb[1])
-    l_m = lam_s / float(curve.current_a[1])
-    l_air = curve.final_inductance_h
-    zb = V_LL**2 / gen.rating_va
-    r_s, l_s = gen.armature_resistance_pu * zb, gen.x_d2_pu * zb / OMEGA
-    r_w = circ.winding_resistance_ohm
-    x2, x1, xd = gen.x_d2_pu, gen.x_d1_pu, gen.x_d_pu
-    t2o, t1o = 0.03 * x1 / x2, 0.8 * xd / x1
-    exc = generator.unknown_excitation(gen)
-    ka, ta, e_max, e_min, tr = (
-        exc.gain_pu,
-        exc.time_constant_s,
-        exc.ceiling_pu,
-        exc.floor_pu,
-        exc.sensing_time_constant_s,
-    )
-    i_b = gen.rating_va / (math.sqrt(3.0) * V_LL)
-    z_l = V_PH**2 / (complex(LOAD_W, LOAD_VAR) / 3.0).conjugate()
-    r_l, l_l = z_l.real, z_l.imag / OMEGA
-    i_l = V_PH / z_l
-    emf = V_PH + complex(r_s, OMEGA * l_s) * i_l
-    beta = cmath.phase(emf)
-    i_d0 = -(i_l * cmath.rect(1.0, -beta)).imag / i_b
-    e2_0 = abs(emf) / V_PH
-    e1_0 = e2_0 + (x1 - x2) * i_d0
-    efd_0 = e1_0 + (xd - x1) * i_d0
-    v_ref = 1.0 + efd_0 / ka
+    m = _machine(gen, circ)
     prev = np.roll(np.arange(3), 1)  # winding k-1 (CA for line a)
     nxt = np.roll(np.arange(3), -1)
 
     def f(lam: Array) -> tuple[Array, Array]:
         x = np.abs(lam)
-        sat = x > lam_s
-        cur = np.where(sat, lam_s / l_m + (x - lam_s) / l_air, x / l_m)
-        return np.sign(lam) * cur, np.where(sat, 1.0 / l_air, 1.0 / l_m)
+        sat = x > m.lam_s
+        cur = np.where(sat, m.lam_s / m.l_m + (x - m.lam_s) / m.l_air, x / m.l_m)
+        return np.sign(lam) * cur, np.where(sat, 1.0 / m.l_air, 1.0 / m.l_m)
 
     def parts(t: float, y: Array, r: float, live: Array) -> tuple[Array, Array, Array, Array]:
         """Terminal phase voltages, transformer line currents, angles, derivatives of y[0:8]."""
@@ -328,23 +362,23 @@ def _reference_inserted(
         c, fp = f(lam)
         c, fp = np.where(live, c, 0.0), np.where(live, fp, 0.0)  # open: no current
         i_tr = c - c[prev] if delta else c
-        th = np.asarray(OMEGA * t + beta + SHIFT, dtype=np.float64)
-        i_d = -(2.0 / 3.0) * float(np.sum((i_tr + il) * np.cos(th))) / (math.sqrt(2.0) * i_b)
-        de2 = (e1 - e2 - (x1 - x2) * i_d) / t2o
-        de1 = (y[8] - e1 - (xd - x1) * i_d) / t1o
+        th = np.asarray(OMEGA * t + m.beta + SHIFT, dtype=np.float64)
+        i_d = -(2.0 / 3.0) * float(np.sum((i_tr + il) * np.cos(th))) / (math.sqrt(2.0) * m.i_b)
+        de2 = (e1 - e2 - (m.x1 - m.x2) * i_d) / m.t2o
+        de1 = (y[8] - e1 - (m.xd - m.x1) * i_d) / m.t1o
         e = math.sqrt(2.0) * V_PH * (e2 * np.sin(th) - de2 / OMEGA * np.cos(th))
         if delta:
-            dlam = (e - e[nxt] - (2.0 * r_s + r_w + 2.0 * r) * c) / (1.0 + 2.0 * l_s * fp)
+            dlam = (e - e[nxt] - (2.0 * m.r_s + m.r_w + 2.0 * r) * c) / (1.0 + 2.0 * m.l_s * fp)
             dlam = np.where(live, dlam, 0.0)
-            dil = (e - (r_s + r_l) * il) / (l_l + l_s)
+            dil = (e - (m.r_s + m.r_l) * il) / (m.l_l + m.l_s)
             dc = fp * dlam
-            v = e - r_s * (i_tr + il) - l_s * (dc - dc[prev] + dil)
+            v = e - m.r_s * (i_tr + il) - m.l_s * (dc - dc[prev] + dil)
         else:
-            v = (e - r_s * (c + il) + l_s * fp * (r_w + r) * c + l_s * r_l * il / l_l) / (
-                1.0 + l_s * fp + l_s / l_l
-            )
-            dlam = np.where(live, v - (r_w + r) * c, 0.0)
-            dil = (v - r_l * il) / l_l
+            v = (
+                e - m.r_s * (c + il) + m.l_s * fp * (m.r_w + r) * c + m.l_s * m.r_l * il / m.l_l
+            ) / (1.0 + m.l_s * fp + m.l_s / m.l_l)
+            dlam = np.where(live, v - (m.r_w + r) * c, 0.0)
+            dil = (v - m.r_l * il) / m.l_l
         return v, i_tr, th, np.concatenate((dlam, dil, [de2, de1]))
 
     def rhs(t: float, y: Array, r: float, live: Array) -> Array:
@@ -352,18 +386,18 @@ def _reference_inserted(
         vd, vq = float(np.sum(v * np.cos(th))), float(np.sum(v * np.sin(th)))
         vmag = math.hypot(vd, vq) / (1.5 * math.sqrt(2.0) * V_PH)
         efd, vs = y[8], y[9]
-        defd = (ka * (v_ref - vs) - efd) / ta
-        if (efd >= e_max and defd > 0.0) or (efd <= e_min and defd < 0.0):
+        defd = (m.ka * (m.v_ref - vs) - efd) / m.ta
+        if (efd >= m.e_max and defd > 0.0) or (efd <= m.e_min and defd < 0.0):
             defd = 0.0
         out = np.empty(11)
         out[0:8] = d
-        out[8:10] = (defd, (vmag - vs) / tr)
+        out[8:10] = (defd, (vmag - vs) / m.tr)
         out[10] = r * float(np.sum(i_tr**2))
         return out
 
     lam0 = RESIDUAL * circ.nominal_flux_wb
-    il0 = math.sqrt(2.0) * abs(i_l) * np.sin(cmath.phase(i_l) + SHIFT)
-    y0 = np.concatenate((lam0, il0, [e2_0, e1_0, efd_0, 1.0, 0.0]))
+    il0 = math.sqrt(2.0) * abs(m.i_l) * np.sin(cmath.phase(m.i_l) + SHIFT)
+    y0 = np.concatenate((lam0, il0, [m.e2_0, m.e1_0, m.efd_0, 1.0, 0.0]))
     atol = np.concatenate(
         (np.full(3, 1e-10 * circ.nominal_flux_wb), np.full(3, 1e-7), np.full(4, 1e-11), [1e-6])
     )
