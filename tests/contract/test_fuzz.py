@@ -18,18 +18,32 @@ from schemathesis.specs.openapi.checks import negative_data_rejection, positive_
 from service.app import create_app
 
 schema = schemathesis.openapi.from_asgi("/v1/openapi.json", create_app())
+# Operations whose requests simulate seconds of machine dynamics or many events run each case for
+# up to seconds: 10 examples each keeps the suite within its CI budget (the live-server run in
+# test_live_server.py fuzzes them again).
+HEAVY = ["mitigation", "inrush_statistics", "generator_dip", "generator_dip_figure"]
+SETTINGS = {
+    "deadline": None,
+    "derandomize": True,
+    "suppress_health_check": [HealthCheck.too_slow, HealthCheck.filter_too_much],
+}
 
 
-@schema.parametrize()
-@settings(
-    max_examples=25,
-    deadline=None,
-    derandomize=True,
-    suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much],
-)
-def test_operation(case: schemathesis.Case) -> None:
+def _check(case: schemathesis.Case) -> None:
     excluded = [positive_data_acceptance]
     if case.operation.definition.raw.get("operationId") == "inrush_peak_batch":
         # a batch answers 200 with a per-item problem for an invalid case, by design
         excluded.append(negative_data_rejection)
     case.call_and_validate(excluded_checks=excluded)
+
+
+@schema.exclude(operation_id=HEAVY).parametrize()
+@settings(max_examples=25, **SETTINGS)  # type: ignore[arg-type]
+def test_operation(case: schemathesis.Case) -> None:
+    _check(case)
+
+
+@schema.include(operation_id=HEAVY).parametrize()
+@settings(max_examples=10, **SETTINGS)  # type: ignore[arg-type]
+def test_heavy_operation(case: schemathesis.Case) -> None:
+    _check(case)
