@@ -14,49 +14,20 @@ and harmonic response are not modelled.
 
 from __future__ import annotations
 
-from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
 from scipy.integrate import cumulative_trapezoid
 
+from core import device_checks as checks
 from core.errors import ParameterError
 
 FloatArray = npt.NDArray[np.float64]
 
 
-def _scalar(value: object, name: str, allowed: str, ok: Callable[[float], bool]) -> float:
-    try:
-        out = float(value)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        out = float("nan")
-    if not (np.isfinite(out) and ok(out)):
-        raise ParameterError(name, value, allowed)
-    return out
-
-
-def _positive(value: object, name: str) -> float:
-    return _scalar(value, name, "a finite number > 0", lambda x: x > 0.0)
-
-
-def _nonnegative(value: object, name: str) -> float:
-    return _scalar(value, name, "a finite number >= 0", lambda x: x >= 0.0)
-
-
 def _fraction(value: object, name: str) -> float:
-    return _scalar(value, name, "a fraction 0 <= x < 1", lambda x: 0.0 <= x < 1.0)
-
-
-def _array(value: npt.ArrayLike, name: str, *, nonnegative: bool = True) -> FloatArray:
-    allowed = "finite numbers >= 0" if nonnegative else "finite numbers"
-    try:
-        arr = np.array(value, dtype=np.float64)
-    except (TypeError, ValueError):
-        raise ParameterError(name, value, allowed) from None
-    if not np.all(np.isfinite(arr)) or (nonnegative and np.any(arr < 0.0)):
-        raise ParameterError(name, value, allowed)
-    return arr
+    return checks.scalar(value, name, "a fraction 0 <= x < 1", lambda x: 0.0 <= x < 1.0)
 
 
 @dataclass(frozen=True, eq=False)
@@ -127,7 +98,7 @@ class TabulatedCurve:
         ----------
         Common practice (log-log reading of a published TCC).
         """
-        i = _array(current, "current")
+        i = checks.array(current, "current")
         li, lt = np.log(self.current), np.log(self.time)
         out = np.full(i.shape, np.inf)
         on = i >= self.current[0]
@@ -165,7 +136,7 @@ class TabulatedCurve:
         ----------
         Common practice.
         """
-        t = _array(time, "time")
+        t = checks.array(time, "time")
         n = self.time.size
         j = np.searchsorted(-self.time, -t, side="left")  # first j with time[j] <= t
         out = np.full(t.shape, np.inf)
@@ -225,18 +196,18 @@ class LowVoltageBreaker:
     instantaneous_clearing_time: float = 0.05
 
     def __post_init__(self) -> None:
-        _positive(self.long_time_pickup, "long_time_pickup")
-        _positive(self.long_time_delay, "long_time_delay")
+        checks.positive(self.long_time_pickup, "long_time_pickup")
+        checks.positive(self.long_time_delay, "long_time_delay")
         if self.short_time_pickup is not None:
-            _positive(self.short_time_pickup, "short_time_pickup")
-            _nonnegative(self.short_time_delay, "short_time_delay")
+            checks.positive(self.short_time_pickup, "short_time_pickup")
+            checks.nonnegative(self.short_time_delay, "short_time_delay")
         if self.short_time_i2t_reference is not None:
-            _positive(self.short_time_i2t_reference, "short_time_i2t_reference")
+            checks.positive(self.short_time_i2t_reference, "short_time_i2t_reference")
         if self.instantaneous_pickup is not None:
-            _positive(self.instantaneous_pickup, "instantaneous_pickup")
+            checks.positive(self.instantaneous_pickup, "instantaneous_pickup")
         for name in ("pickup_tolerance", "time_tolerance", "instantaneous_tolerance"):
             _fraction(getattr(self, name), name)
-        _nonnegative(self.instantaneous_clearing_time, "instantaneous_clearing_time")
+        checks.nonnegative(self.instantaneous_clearing_time, "instantaneous_clearing_time")
 
 
 @dataclass(frozen=True)
@@ -281,7 +252,7 @@ def lv_breaker_trip_band(current: npt.ArrayLike, breaker: LowVoltageBreaker) -> 
     the tolerances). IEEE Std 242-2001 describes these trip-unit elements (from memory; chapter
     not at hand).
     """
-    i = _array(current, "current")
+    i = checks.array(current, "current")
     b = breaker
     p, tau = b.pickup_tolerance, b.time_tolerance
     lo = np.full(i.shape, np.inf)
@@ -336,10 +307,10 @@ def i2t(current_samples: npt.ArrayLike, dt: float) -> FloatArray:
     ----------
     IEC 60269-1:2006, definition of the Joule integral I²t (from memory; clause not at hand).
     """
-    i = _array(current_samples, "current_samples", nonnegative=False)
+    i = checks.array(current_samples, "current_samples", nonnegative=False)
     if i.ndim != 1 or i.size < 2:
         raise ParameterError("current_samples", i.shape, "a 1-D array of at least 2 samples")
-    step = _positive(dt, "dt")
+    step = checks.positive(dt, "dt")
     with np.errstate(over="ignore"):
         return np.asarray(cumulative_trapezoid(i * i, dx=step, initial=0.0), dtype=np.float64)
 
@@ -388,7 +359,7 @@ def melting_i2t_check(
     ----------
     IEC 60269-1:2006, pre-arcing I²t (from memory; clause not at hand); common practice.
     """
-    melt = _positive(minimum_melting_i2t, "minimum_melting_i2t")
+    melt = checks.positive(minimum_melting_i2t, "minimum_melting_i2t")
     cum = i2t(current_samples, dt)
     total = float(cum[-1])
     k = int(np.argmax(cum >= melt))

@@ -21,6 +21,7 @@ from typing import Literal
 import numpy as np
 import numpy.typing as npt
 
+from core import device_checks as checks
 from core.errors import ParameterError
 
 FloatArray = npt.NDArray[np.float64]
@@ -67,35 +68,6 @@ IEC_60255_151: Mapping[str, IecConstants] = MappingProxyType(
         "long_time_inverse": IecConstants(k=120.0, alpha=1.0),
     }
 )
-
-
-def _scalar(value: object, name: str, allowed: str, ok: Callable[[float], bool]) -> float:
-    try:
-        out = float(value)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        out = float("nan")
-    if not (np.isfinite(out) and ok(out)):
-        raise ParameterError(name, value, allowed)
-    return out
-
-
-def _positive(value: object, name: str) -> float:
-    return _scalar(value, name, "a finite number > 0", lambda x: x > 0.0)
-
-
-def _nonnegative(value: object, name: str) -> float:
-    return _scalar(value, name, "a finite number >= 0", lambda x: x >= 0.0)
-
-
-def _array(value: npt.ArrayLike, name: str, *, nonnegative: bool = True) -> FloatArray:
-    allowed = "finite numbers >= 0" if nonnegative else "finite numbers"
-    try:
-        arr = np.array(value, dtype=np.float64)
-    except (TypeError, ValueError):
-        raise ParameterError(name, value, allowed) from None
-    if not np.all(np.isfinite(arr)) or (nonnegative and np.any(arr < 0.0)):
-        raise ParameterError(name, value, allowed)
-    return arr
 
 
 def _choice(value: object, name: str, table: Mapping[str, object]) -> None:
@@ -148,8 +120,8 @@ def ieee_c37_112_trip_time(
     """
     _choice(curve, "curve", IEEE_C37_112)
     c = IEEE_C37_112[curve]
-    td = _positive(time_dial, "time_dial")
-    m = _array(multiple, "multiple")
+    td = checks.positive(time_dial, "time_dial")
+    m = checks.array(multiple, "multiple")
     return _inverse(m, td, c.a, c.p, c.b)
 
 
@@ -188,8 +160,8 @@ def ieee_c37_112_reset_time(
     """
     _choice(curve, "curve", IEEE_C37_112)
     c = IEEE_C37_112[curve]
-    td = _positive(time_dial, "time_dial")
-    m = _array(multiple, "multiple")
+    td = checks.positive(time_dial, "time_dial")
+    m = checks.array(multiple, "multiple")
     out = np.full(m.shape, np.inf)
     on = m < 1.0
     out[on] = td * c.tr / (1.0 - m[on] ** 2)
@@ -229,8 +201,8 @@ def iec_60255_151_trip_time(multiple: npt.ArrayLike, curve: IecCurve, tms: float
     """
     _choice(curve, "curve", IEC_60255_151)
     c = IEC_60255_151[curve]
-    multiplier = _positive(tms, "tms")
-    m = _array(multiple, "multiple")
+    multiplier = checks.positive(tms, "tms")
+    m = checks.array(multiple, "multiple")
     return _inverse(m, multiplier, c.k, c.alpha, 0.0)
 
 
@@ -264,9 +236,9 @@ def definite_time_trip_time(current: npt.ArrayLike, pickup: float, delay: float)
     ----------
     IEC 60255-151:2009, definite-time characteristic (clause from memory); common practice.
     """
-    i = _array(current, "current")
-    p = _positive(pickup, "pickup")
-    d = _nonnegative(delay, "delay")
+    i = checks.array(current, "current")
+    p = checks.positive(pickup, "pickup")
+    d = checks.nonnegative(delay, "delay")
     return np.where(i > p, d, np.inf)
 
 
@@ -336,8 +308,8 @@ def cumulative_trip(
     IEEE Std C37.112-1996 (and -2018), clause 4, the integral form ∫dt/t(I) = 1 and the
     induction-disk reset (clause number from memory).
     """
-    t = _array(times, "times", nonnegative=False)
-    i = _array(current_rms, "current_rms")
+    t = checks.array(times, "times", nonnegative=False)
+    i = checks.array(current_rms, "current_rms")
     if t.ndim != 1 or t.size < 2 or np.any(np.diff(t) <= 0.0):
         raise ParameterError("times", t.shape, "1-D, at least 2 samples, strictly increasing")
     if i.shape != t.shape:
