@@ -2,8 +2,12 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
+from collections.abc import Callable
+from typing import Any
 
+import numpy as np
 import pytest
 
 from core import transformer
@@ -41,3 +45,29 @@ def three_phase() -> transformer.EquivalentCircuit:
 @pytest.fixture(scope="module")
 def single_phase() -> transformer.EquivalentCircuit:
     return transformer.equivalent_circuit(SINGLE_PHASE)
+
+
+def _identical(a: Any, b: Any, path: str = "") -> None:
+    """Every field equal bit for bit (arrays by np.array_equal, nan equal to nan)."""
+    if dataclasses.is_dataclass(a) and not isinstance(a, type):
+        assert type(a) is type(b), path
+        for f in dataclasses.fields(a):
+            _identical(getattr(a, f.name), getattr(b, f.name), f"{path}.{f.name}")
+    elif isinstance(a, np.ndarray):
+        assert a.shape == b.shape, path
+        assert np.array_equal(a, b, equal_nan=True), path
+    elif isinstance(a, tuple):
+        assert len(a) == len(b), path
+        for i, (x, y) in enumerate(zip(a, b, strict=True)):
+            _identical(x, y, f"{path}[{i}]")
+    elif isinstance(a, float) and math.isnan(a):
+        assert isinstance(b, float), path
+        assert math.isnan(b), path
+    else:
+        assert a == b, f"{path}: {a!r} != {b!r}"
+
+
+@pytest.fixture
+def assert_identical() -> Callable[[Any, Any], None]:
+    """Checks two results (dataclasses, arrays, tuples, numbers) are equal bit for bit."""
+    return _identical

@@ -15,6 +15,7 @@ from __future__ import annotations
 import cmath
 import dataclasses
 import math
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
@@ -73,26 +74,6 @@ def _linear(connection: str, x_ohm: float, r_ohm: float) -> transformer.Equivale
     )
 
 
-def _assert_identical(a: Any, b: Any, path: str = "") -> None:
-    """Every field equal bit for bit (arrays by np.array_equal, nan equal to nan)."""
-    if dataclasses.is_dataclass(a) and not isinstance(a, type):
-        assert type(a) is type(b), path
-        for f in dataclasses.fields(a):
-            _assert_identical(getattr(a, f.name), getattr(b, f.name), f"{path}.{f.name}")
-    elif isinstance(a, np.ndarray):
-        assert a.shape == b.shape, path
-        assert np.array_equal(a, b, equal_nan=True), path
-    elif isinstance(a, tuple):
-        assert len(a) == len(b), path
-        for i, (x, y) in enumerate(zip(a, b, strict=True)):
-            _assert_identical(x, y, f"{path}[{i}]")
-    elif isinstance(a, float) and math.isnan(a):
-        assert isinstance(b, float), path
-        assert math.isnan(b), path
-    else:
-        assert a == b, f"{path}: {a!r} != {b!r}"
-
-
 # ------------------------------------------------------------ off: the code unchanged
 
 
@@ -100,7 +81,9 @@ def _assert_identical(a: Any, b: Any, path: str = "") -> None:
 @pytest.mark.parametrize(
     ("r_ohm", "t_s"), [(0.0, 0.05), (0.3, 0.0), (1e6, 0.0), (0.0, 600.0), (0.3, 1e-6)]
 )
-def test_resistor_off_is_bit_identical(connection: str, r_ohm: float, t_s: float) -> None:
+def test_resistor_off_is_bit_identical(
+    connection: str, r_ohm: float, t_s: float, assert_identical: Callable[[Any, Any], None]
+) -> None:
     # Reference: the same study without the keywords (the behaviour before the resistor was
     # added). No resistance, no insertion time, or an insertion shorter than half a step (it
     # rounds to none) must leave every output unchanged bit for bit; only the warning that
@@ -123,11 +106,13 @@ def test_resistor_off_is_bit_identical(connection: str, r_ohm: float, t_s: float
             "insertion_rounded_out",
         ]
         off = dataclasses.replace(off, warnings=plain.warnings)
-    _assert_identical(plain, off)
+    assert_identical(plain, off)
     assert off.insertion_energy_j == 0.0
 
 
-def test_sweep_sizing_and_study_off_are_bit_identical() -> None:
+def test_sweep_sizing_and_study_off_are_bit_identical(
+    assert_identical: Callable[[Any, Any], None],
+) -> None:
     # Reference: the same calls without the keywords.
     gen, circ = _northgate(), _unit()
     ratings = [1e6, 3e6]
@@ -142,7 +127,7 @@ def test_sweep_sizing_and_study_off_are_bit_identical() -> None:
     report_off = dip_study.dip_study(
         gen, circ, 0.0, RESIDUAL, insertion_resistance_ohm=5.0, insertion_time_s=0.0, **kw
     )
-    _assert_identical(report, report_off)
+    assert_identical(report, report_off)
 
 
 # ------------------------------------------------------------------- closed forms
@@ -241,7 +226,7 @@ def test_linear_delta_loop_sees_the_line_resistor_twice() -> None:
     assert any("2R" in a for a in study.approximations)
 
 
-def test_bypass_falls_on_the_step_grid() -> None:
+def test_bypass_falls_on_the_step_grid(assert_identical: Callable[[Any, Any], None]) -> None:
     # No Runge-Kutta step straddles the bypass: every insertion time that rounds to the same
     # step (128 per cycle here) gives the same result bit for bit (reference: the time on the
     # grid itself); the next step differs.
@@ -254,7 +239,7 @@ def test_bypass_falls_on_the_step_grid() -> None:
         near = dip.energize_from_source(
             _northgate(), _unit(), 0.0, RESIDUAL, insertion_time_s=t_s, **kw
         )
-        _assert_identical(on_grid, near)
+        assert_identical(on_grid, near)
     later = dip.energize_from_source(
         _northgate(), _unit(), 0.0, RESIDUAL, insertion_time_s=41 * h, **kw
     )
@@ -364,7 +349,7 @@ def test_sweep_equals_single_study_with_the_resistor() -> None:
     assert swept[0] == single.dip_percent
 
 
-def test_study_and_sizing_use_the_resistor() -> None:
+def test_study_and_sizing_use_the_resistor(assert_identical: Callable[[Any, Any], None]) -> None:
     # dip_study passes the resistor to the simulation and to the sizing: with 0.1 ohm in for
     # 5 cycles the demo back-feed dips 6.8 % instead of 54 %, so the sizing for G2 (20 %) is
     # met by a smaller machine than without it.
@@ -383,7 +368,7 @@ def test_study_and_sizing_use_the_resistor() -> None:
         insertion_resistance_ohm=0.1,
         insertion_time_s=5 * T,
     )
-    _assert_identical(with_r.study, direct)
+    assert_identical(with_r.study, direct)
     plain = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, **kw)
     assert with_r.study.dip_percent < plain.study.dip_percent
     assert with_r.sizing is not None

@@ -58,32 +58,14 @@ def _unit(connection: str = "wye_grounded") -> transformer.EquivalentCircuit:
     )
 
 
-def _assert_identical(a: Any, b: Any, path: str = "") -> None:
-    """Every field equal bit for bit (arrays by np.array_equal, nan equal to nan)."""
-    if dataclasses.is_dataclass(a) and not isinstance(a, type):
-        assert type(a) is type(b), path
-        for f in dataclasses.fields(a):
-            _assert_identical(getattr(a, f.name), getattr(b, f.name), f"{path}.{f.name}")
-    elif isinstance(a, np.ndarray):
-        assert a.shape == b.shape, path
-        assert np.array_equal(a, b, equal_nan=True), path
-    elif isinstance(a, tuple):
-        assert len(a) == len(b), path
-        for i, (x, y) in enumerate(zip(a, b, strict=True)):
-            _assert_identical(x, y, f"{path}[{i}]")
-    elif isinstance(a, float) and math.isnan(a):
-        assert isinstance(b, float), path
-        assert math.isnan(b), path
-    else:
-        assert a == b, f"{path}: {a!r} != {b!r}"
-
-
 # ------------------------------------------------------------ all at t = 0: the code unchanged
 
 
 @pytest.mark.parametrize("connection", ["wye_grounded", "wye", "delta"])
 @pytest.mark.parametrize("zero", [0.0, (0.0, 0.0, 0.0), np.zeros(3)])
-def test_poles_at_zero_are_bit_identical(connection: str, zero: Any) -> None:
+def test_poles_at_zero_are_bit_identical(
+    connection: str, zero: Any, assert_identical: Callable[[Any, Any], None]
+) -> None:
     # Reference: the same study without the keyword (the behaviour before it was added), with a
     # bus load and a pre-insertion resistor so that every path of the kernel runs.
     kw: dict[str, Any] = {
@@ -97,12 +79,14 @@ def test_poles_at_zero_are_bit_identical(connection: str, zero: Any) -> None:
     zeros = dip.energize_from_source(
         _northgate(), _unit(connection), 20.0, RESIDUAL, pole_delay_s=zero, **kw
     )
-    _assert_identical(plain, zeros)
+    assert_identical(plain, zeros)
     assert any("all poles close together at t = 0" in a for a in plain.approximations)
     assert np.array_equal(plain.pole_delay_s, np.zeros(3))
 
 
-def test_sweep_sizing_and_study_with_poles_at_zero_are_bit_identical() -> None:
+def test_sweep_sizing_and_study_with_poles_at_zero_are_bit_identical(
+    assert_identical: Callable[[Any, Any], None],
+) -> None:
     # Reference: the same calls without the keyword.
     gen, circ = _northgate(), _unit("delta")
     ratings = [1e6, 3e6]
@@ -114,10 +98,12 @@ def test_sweep_sizing_and_study_with_poles_at_zero_are_bit_identical() -> None:
     kw: dict[str, Any] = {"size_for": dip_limits.iso_8528_5_class("G2"), "duration_s": 0.5}
     a = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, **kw)
     b = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, pole_delay_s=(0, 0, 0), **kw)
-    _assert_identical(a, b)
+    assert_identical(a, b)
 
 
-def test_delays_under_half_a_step_round_to_together() -> None:
+def test_delays_under_half_a_step_round_to_together(
+    assert_identical: Callable[[Any, Any], None],
+) -> None:
     # Reference: the study without the keyword. Instants under half a step (0.065 ms) round to
     # the first step: every number is unchanged; only the approximations say so.
     kw: dict[str, Any] = {"bus_load": LOAD, "duration_s": 0.2}
@@ -127,7 +113,7 @@ def test_delays_under_half_a_step_round_to_together() -> None:
     )
     assert not any("all poles close together" in a for a in tiny.approximations)
     assert any("poles close at a 0 ms, b 0 ms, c 0 ms" in a for a in tiny.approximations)
-    _assert_identical(plain, dataclasses.replace(tiny, approximations=plain.approximations))
+    assert_identical(plain, dataclasses.replace(tiny, approximations=plain.approximations))
 
 
 # ------------------------------------------------------------ the same event, commanded earlier
@@ -282,7 +268,9 @@ def test_pre_insertion_resistor_bypassed_before_the_poles_close_does_nothing() -
     )
 
 
-def test_staggered_poles_are_reported_and_used_everywhere() -> None:
+def test_staggered_poles_are_reported_and_used_everywhere(
+    assert_identical: Callable[[Any, Any], None],
+) -> None:
     # Reference: energize_from_source with the same poles. The sweep at one rating and the
     # study pass the poles on (vector equals scalar); the approximations name the instants
     # used and no longer say the poles close together.
@@ -297,7 +285,7 @@ def test_staggered_poles_are_reported_and_used_everywhere() -> None:
         gen, circ, 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles,
         size_for=dip_limits.iso_8528_5_class("G2"),
     )  # fmt: skip
-    _assert_identical(report.study, single)
+    assert_identical(report.study, single)
     assert report.sizing is not None
     assert report.sizing.rating_va is not None
     sized = dip_sizing.dip_sweep(
