@@ -98,13 +98,17 @@ from numpy.typing import ArrayLike, NDArray
 from core import dip_solver
 from core.errors import ParameterError
 from core.generator import (
+    POOR_DAMPING_RATIO,
     BusLoad,
+    Excitation,
     ExcitationSpec,
     Generator,
     Source,
     first_dip_voltage_divider,
+    regulator_damping_ratio,
     source_assumptions,
     source_parameters,
+    unknown_excitation,
 )
 from core.transformer import Assumption, EquivalentCircuit
 
@@ -114,8 +118,10 @@ __all__ = [
     "APPROXIMATIONS",
     "DipStudy",
     "Measure",
+    "Swings",
     "check_measure",
     "energize_from_source",
+    "voltage_swings",
 ]
 
 _BANK = "transformer phases magnetically independent (bank of single-phase cores)"
@@ -235,6 +241,16 @@ class DipStudy:
         i^2 while it is in; 0 without one [J].
     pole_delay_s : ndarray, shape (3,)
         Closing instant of poles a, b, c used, on the internal step grid [s].
+    regulator_damping_ratio : float
+        Least damping ratio of the linearised regulator loop at the state after the inrush
+        (:func:`core.generator.regulator_damping_ratio`); nan without a regulator [-].
+    swings : Swings
+        The swings of the simulated rms voltage after its lowest value (:func:`voltage_swings`).
+    recovery_reliable : bool
+        False when the regulator loop is poorly damped (either damping ratio below
+        :data:`core.generator.POOR_DAMPING_RATIO`): the recovery time then measures an
+        oscillation, not a recovery, and is not to be judged (warning
+        ``regulator_poorly_damped``).
     """
 
     source_kind: str
@@ -268,6 +284,101 @@ class DipStudy:
     warnings: tuple[tuple[str, str], ...]
     insertion_energy_j: float = 0.0
     pole_delay_s: FloatArray = field(default_factory=lambda: np.zeros(3))
+    regulator_damping_ratio: float = math.nan
+    swings: Swings = field(default_factory=lambda: Swings(0, math.nan, math.nan, math.nan))
+    recovery_reliable: bool = True
+
+
+@dataclass(frozen=True)
+class Swings:
+    """Result of :func:`voltage_swings`.
+
+    Attributes
+    ----------
+    count : int
+        Alternating swings beyond the floor after the lowest value, that one excluded [-].
+    damping_ratio : float
+        From the logarithmic decrement fitted to the swings; nan with fewer than three [-].
+    amplitude_pu : float
+        Size of the last swing about the centre; nan without swings [pu].
+    frequency_hz : float
+        1/(mean time between swings of the same sign); nan with fewer than three [Hz].
+    """
+
+    count: int
+    damping_ratio: float
+    amplitude_pu: float
+    frequency_hz: float
+
+
+def voltage_swings(voltage_pu: ArrayLike, frequency_hz: float, floor_pu: float) -> Swings:
+    """Swings of a per-cycle rms voltage about its settled value, and their damping.
+
+    Parameters
+    ----------
+    voltage_pu : array_like, shape (n_cycles,)
+        Per-cycle rms voltage, one value a cycle [pu].
+    frequency_hz : float
+        Cycles per second of the record, > 0 [Hz].
+    floor_pu : float
+        Deviations from the centre no larger than this are not swings, >= 0 [pu].
+
+    Returns
+    -------
+    Swings
+
+    Raises
+    ------
+    ParameterError
+        On a non-finite record, or a frequency or floor out of range, naming it.
+
+    Notes
+    -----
+    Centre: the mean of the last second (all of a shorter record). From the lowest value on,
+    the local extrema of x = v - centre beyond the floor are kept, consecutive ones of the same
+    sign merged into the larger; the first (the dip itself, forced by the inrush) is dropped.
+    The rest, a_k = abs(x) at t_k, are the free swings of the loop. A least-squares line through
+    ln(a_k) against t_k has slope -sigma; the period is T_d = 2*(t_last - t_first)/(n - 1) (same
+    sign extrema a period apart), the logarithmic decrement delta = sigma*T_d and the damping
+    ratio zeta = delta/sqrt(4*pi^2 + delta^2), exact for x = A*exp(-zeta*omega_n*t)*cos(omega_d*t)
+    sampled at its extrema (second-order response, e.g. K. Ogata, "Modern Control Engineering",
+    ch. 5, from memory); a growing swing gives zeta < 0. The fit over every swing, not the last
+    two, keeps the small late swings, most sensitive to the centre, from setting it alone.
+    """
+    v = np.asarray(voltage_pu, dtype=float).ravel()
+    if v.size == 0 or not np.all(np.isfinite(v)):
+        raise ParameterError("voltage_pu", "non-finite or empty", "finite values")
+    f = dip_solver.check_range("frequency_hz", frequency_hz, 0.0, 1e4)
+    floor = float(floor_pu)
+    if not (math.isfinite(floor) and floor >= 0.0):
+        raise ParameterError("floor_pu", floor_pu, ">= 0")
+    centre = float(v[-max(1, min(v.size, round(f))) :].mean())
+    x = v[int(np.argmin(v)) :] - centre
+    d = np.diff(x)
+    turns = np.nonzero(d[:-1] * d[1:] < 0.0)[0] + 1
+    kept: list[int] = []
+    for i in (0, *turns.tolist()):
+        if abs(x[i]) <= floor:
+            continue
+        if kept and (x[kept[-1]] > 0.0) == (x[i] > 0.0):
+            if abs(x[i]) > abs(x[kept[-1]]):
+                kept[-1] = i
+        else:
+            kept.append(i)
+    free = kept[1:]
+    if not free:
+        return Swings(0, math.nan, math.nan, math.nan)
+    last = abs(float(x[free[-1]]))
+    if len(free) < 3:
+        return Swings(len(free), math.nan, last, math.nan)
+    # least-squares line through ln(a_k) against the extrema's times: slope -sigma; the same-sign
+    # extrema are a period T_d apart, on average 2*(t_last - t_first)/(n - 1)
+    t = np.asarray(free, dtype=float) / f
+    slope = float(np.polyfit(t, np.log(np.abs(x[free])), 1)[0])
+    period = 2.0 * (t[-1] - t[0]) / (len(free) - 1)
+    delta = -slope * period
+    zeta = delta / math.sqrt(4.0 * math.pi**2 + delta**2)
+    return Swings(len(free), zeta, last, 1.0 / period)
 
 
 Measure = Literal["worst", "line", "phase"]
@@ -342,8 +453,8 @@ def energize_from_source(
     residual_flux_pu : array_like
         Residual flux per winding (a, b, c; ab, bc, ca for delta) [pu of lambda_N].
     excitation : Excitation, "unknown" or "constant_field"
-        Regulator; "unknown" is :func:`core.generator.unknown_excitation` (conservative
-        defaults). Ignored for a utility source.
+        Regulator; "unknown" is :func:`core.generator.unknown_excitation` (defaults set
+        for the machine, well damped). Ignored for a utility source.
     bus_load : BusLoad or None
         Load already on the bus, constant impedance.
     pre_event_voltage_pu : float
@@ -465,7 +576,36 @@ def energize_from_source(
         "phase": raw.v_rms_pu[0],
     }[voltage_measure]
     rec, ref = _recovery(both, v0, recovery_reference, recovery_band_percent, f)
-    if math.isnan(rec):
+    damping, swings = math.nan, Swings(0, math.nan, math.nan, math.nan)
+    exc = (
+        unknown_excitation(source)
+        if excitation == "unknown" and isinstance(source, Generator)
+        else excitation
+    )
+    if isinstance(source, Generator) and isinstance(exc, Excitation):
+        damping = regulator_damping_ratio(source, exc, bus_load)
+        floor = max(1e-3, 1e-3 * recovery_band_percent * ref)
+        swings = voltage_swings(both.mean(axis=0), f, floor)
+    reliable = not (damping < POOR_DAMPING_RATIO or swings.damping_ratio < POOR_DAMPING_RATIO)
+    if not reliable:
+        seen = (
+            f"; the simulated voltage swings ±{100.0 * swings.amplitude_pu / ref:.2g} % at "
+            f"{swings.frequency_hz:.2g} Hz, damping ratio {swings.damping_ratio:.2g} from "
+            "its last swings"
+            if math.isfinite(swings.damping_ratio)
+            else ""
+        )
+        warnings.append(
+            (
+                "regulator_poorly_damped",
+                "the regulator loop is poorly damped (damping ratio "
+                f"{damping:.2g} of the linearised loop after the inrush{seen}; below "
+                f"{POOR_DAMPING_RATIO:g} is poorly damped): the recovery time measures an "
+                "oscillation and is not judged; check the regulator's data and its stability "
+                "setting",
+            )
+        )
+    elif math.isnan(rec):
         warnings.append(
             (
                 "not_recovered",
@@ -538,4 +678,7 @@ def energize_from_source(
         warnings=tuple(warnings),
         insertion_energy_j=float(raw.insertion_energy_j[0]),
         pole_delay_s=raw.pole_close_s,
+        regulator_damping_ratio=damping,
+        swings=swings,
+        recovery_reliable=reliable,
     )

@@ -112,6 +112,7 @@ def verdicts(
     recovery_time_s: float,
     limits: tuple[DipLimit, ...] = ISO_8528_5_CLASSES,
     simulated_s: float = math.inf,
+    recovery_reliable: bool = True,
 ) -> tuple[Verdict, ...]:
     """Judge a dip and its recovery against limits.
 
@@ -125,6 +126,9 @@ def verdicts(
         Default: the ISO 8528-5 classes (from memory).
     simulated_s : float
         Simulated time: an unrecovered voltage fails a recovery limit only if this covers it [s].
+    recovery_reliable : bool
+        False when the recovery time measures an oscillation of a poorly damped regulator
+        (:attr:`core.dip.DipStudy.recovery_reliable`): recovery limits are then not judged.
 
     Returns
     -------
@@ -137,7 +141,12 @@ def verdicts(
         rec_ok: bool | None = None
         note = ""
         if lim.max_recovery_s is not None:
-            if math.isfinite(recovery_time_s):
+            if not recovery_reliable:
+                note = (
+                    "recovery not judged: the regulator is poorly damped, so the recovery time "
+                    "is not reliable (warning regulator_poorly_damped)"
+                )
+            elif math.isfinite(recovery_time_s):
                 rec_ok = recovery_time_s <= lim.max_recovery_s
             elif simulated_s >= lim.max_recovery_s:
                 rec_ok = False

@@ -7,7 +7,7 @@ model of :mod:`core.dip` at each rating: :func:`dip_sweep` gives the dip at a li
 one vectorised run, :func:`smallest_generator` the smallest rating whose dip is within a limit (an
 ISO 8528-5 class or the caller's own), with the recovery time judged at that rating. On the demo
 case (the 1250 kVA Northgate set energising the 2500 kVA unit, tests/core/test_generator.py) it
-finds 13,747 kVA for class G2 (20 %), dip 20.0 %, recovery 1.72 s (``dip_duration_s`` 0.5 s).
+finds 13,747 kVA for class G2 (20 %), dip 20.0 %, recovery 0.48 s (``dip_duration_s`` 0.5 s).
 
 Limits:
 
@@ -163,7 +163,8 @@ class Sizing:
     recovery_time_s : float
         Recovery time at ``rating_va`` (nan when not computed or not recovered) [s].
     recovery_ok : bool or None
-        Whether that recovery meets the limit's recovery time; None when not judged.
+        Whether that recovery meets the limit's recovery time; None when not judged (not
+        simulated, or the regulator poorly damped at that rating).
     bounds_va : tuple of float
         Search bounds [VA].
     evaluations : int
@@ -333,11 +334,17 @@ def smallest_generator(
         )
         count += 1
         rec = study.recovery_time_s
-        rec_ok = bool(math.isfinite(rec) and rec <= lim.max_recovery_s)
-        text += (
-            f" Its recovery time is {rec:.2f} s, "
-            if math.isfinite(rec)
-            else " It does not recover within the band in the time simulated, "
-        )
-        text += ("within" if rec_ok else "beyond") + f" the {lim.max_recovery_s:g} s limit."
+        if not study.recovery_reliable:
+            text += (
+                " Its recovery is not judged: the regulator is poorly damped at that rating "
+                "(warning regulator_poorly_damped)."
+            )
+        else:
+            rec_ok = bool(math.isfinite(rec) and rec <= lim.max_recovery_s)
+            text += (
+                f" Its recovery time is {rec:.2f} s, "
+                if math.isfinite(rec)
+                else " It does not recover within the band in the time simulated, "
+            )
+            text += ("within" if rec_ok else "beyond") + f" the {lim.max_recovery_s:g} s limit."
     return Sizing(lim, status, rating, dip_pct, rec, rec_ok, (lo, hi), count, text)

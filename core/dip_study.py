@@ -112,7 +112,11 @@ def dip_study(
         pole_delay_s=pole_delay_s,
     )
     judged = dip_limits.verdicts(
-        study.dip_percent, study.recovery_time_s, limits, simulated_s=duration_s
+        study.dip_percent,
+        study.recovery_time_s,
+        limits,
+        simulated_s=duration_s,
+        recovery_reliable=study.recovery_reliable,
     )
     sizing = None
     if size_for is not None and isinstance(source, generator.Generator):

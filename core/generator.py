@@ -28,6 +28,7 @@ from dataclasses import dataclass, field
 from typing import Literal
 
 import numpy as np
+import scipy.optimize
 from numpy.typing import ArrayLike, NDArray
 
 from core.dip_solver import SourceParameters
@@ -39,6 +40,7 @@ FloatArray = NDArray[np.float64]
 
 __all__ = [
     "ARMATURE_RESISTANCE_PU",
+    "POOR_DAMPING_RATIO",
     "BusLoad",
     "Excitation",
     "ExcitationSpec",
@@ -46,6 +48,8 @@ __all__ = [
     "Source",
     "UtilitySource",
     "first_dip_voltage_divider",
+    "regulator_damping_ratio",
+    "regulator_gain_for_margin",
     "source_assumptions",
     "source_parameters",
     "subtransient_source",
@@ -57,11 +61,23 @@ __all__ = [
 # longer dip, so conservative).
 ARMATURE_RESISTANCE_PU = 0.01
 # "unknown" excitation (see unknown_excitation): from memory, first-order equivalents of a
-# brushless exciter with its regulator have gains of tens to hundreds and time constants of a few
-# tenths of a second to about a second; the low gain and a slow time constant are taken
-# (slower recovery: conservative).
-UNKNOWN_GAIN_PU = 50.0
+# brushless exciter with its regulator have time constants of a few tenths of a second to about a
+# second; the slow end is taken (slower recovery: conservative). The gain is not one number: an
+# AVR's stability setting is chosen for the machine it regulates (common practice), so the gain
+# is set for a 60 degree phase margin of this machine's open-circuit loop (a margin of 45-60
+# degrees is the usual design target, about 0.5-0.6 damping ratio, from memory: G. F. Franklin,
+# J. D. Powell, A. Emami-Naeini, "Feedback Control of Dynamic Systems", ch. 6, PM ~ 100*zeta).
+# A fixed K_A = 50 with T_A = 0.5 s, the earlier default, leaves that loop undamped for a machine
+# with T'_do = 1.68 s, T''_do = 0.025 s (damping ratio 0.004): a sustained 1.2 Hz swing.
 UNKNOWN_TIME_CONSTANT_S = 0.5
+UNKNOWN_PHASE_MARGIN_DEG = 60.0
+# upper bound on the tuned gain: from memory, K_A of IEEE Std 421.5 sample data is at most a few
+# hundred (e.g. 400 for the AC1A sample); a machine with a very long T'_do would otherwise get more.
+UNKNOWN_GAIN_MAX_PU = 400.0
+# a closed regulator loop whose least-damped mode has a damping ratio below this is "poorly
+# damped": from memory, 0.05-0.1 is the usual least acceptable damping of an electromechanical or
+# control mode in planning criteria (Kundur 1994, ch. 12); the top of that range is taken.
+POOR_DAMPING_RATIO = 0.1
 # ceiling 1.5 x the rated-load field voltage: from memory, ceilings are about 1.5-2 x rated
 # field; the low end is conservative.
 UNKNOWN_CEILING_FACTOR = 1.5
@@ -215,36 +231,182 @@ class Excitation:
         )
 
 
-def unknown_excitation(generator: Generator) -> Excitation:
-    """Conservative regulator data when the excitation system is not known.
+def regulator_gain_for_margin(
+    generator: Generator,
+    time_constant_s: float,
+    sensing_time_constant_s: float = 0.0,
+    phase_margin_deg: float = UNKNOWN_PHASE_MARGIN_DEG,
+) -> float:
+    """Regulator gain giving the machine's open-circuit voltage loop a chosen phase margin.
 
     Parameters
     ----------
     generator : Generator
-        The machine (its X_d sets the rated-load field voltage).
+        The machine (its T'_do and T''_do).
+    time_constant_s : float
+        Regulator time constant T_A, > 0 [s].
+    sensing_time_constant_s : float
+        Voltage transducer lag T_R, >= 0 [s].
+    phase_margin_deg : float
+        Phase margin wanted, in (0, 90) [deg].
+
+    Returns
+    -------
+    float
+        K_A [pu field voltage per pu terminal voltage].
+
+    Raises
+    ------
+    ParameterError
+        On a time constant or margin out of range, naming it.
+
+    Notes
+    -----
+    On open circuit the terminal voltage is E''_q, and the d-axis equations of :mod:`core.dip`
+    give E''_q = E_fd/((1 + sT'_do)(1 + sT''_do)); with the regulator and the transducer the
+    loop is L(s) = K_A/((1 + sT'_do)(1 + sT''_do)(1 + sT_A)(1 + sT_R)). Its phase,
+    -sum(atan(omega*T_i)), falls monotonically from 0 to -360 deg (-270 without T_R); the
+    crossover omega_c is where it is -(180 - PM) (found by Brent's method), and
+    K_A = prod abs(1 + j*omega_c*T_i) puts the gain crossover, abs(L) = 1, there (loop shaping,
+    Franklin, Powell and Emami-Naeini, ch. 6, from memory). Load on the machine shortens its
+    effective field time constant; open circuit, the state the voltage returns to after an
+    inrush, is the least damped (Kundur 1994, ch. 8, from memory).
+    """
+    ta = _finite("excitation.time_constant_s", time_constant_s, 0.0, 100.0)
+    tr = _finite(
+        "excitation.sensing_time_constant_s", sensing_time_constant_s, 0.0, 10.0, open_low=False
+    )
+    pm = _finite("phase_margin_deg", phase_margin_deg, 0.0, 90.0)
+    if pm >= 90.0:
+        raise ParameterError("phase_margin_deg", phase_margin_deg, "in (0, 90)")
+    lags = (generator.t_d1o_open_s, generator.t_d2o_open_s, ta, tr)
+    target = math.radians(180.0 - pm)
+
+    def excess(log_w: float) -> float:
+        w = math.exp(log_w)
+        return sum(math.atan(w * t) for t in lags) - target
+
+    # the phase passes -(180 - PM) between omega = 1e-3/max(T) and 1e3/min(T > 0)
+    lo = math.log(1e-3 / max(lags))
+    hi = math.log(1e3 / min(t for t in lags if t > 0.0))
+    w = math.exp(scipy.optimize.brentq(excess, lo, hi, xtol=1e-12))
+    return math.prod(abs(complex(1.0, w * t)) for t in lags)
+
+
+def regulator_damping_ratio(
+    generator: Generator, excitation: Excitation, bus_load: BusLoad | None = None
+) -> float:
+    """Damping ratio of the least-damped mode of the machine's linearised voltage loop.
+
+    Parameters
+    ----------
+    generator : Generator
+        The machine.
+    excitation : Excitation
+        Its regulator.
+    bus_load : BusLoad or None
+        Constant-impedance load left on the machine (the state after the inrush); None for
+        open circuit.
+
+    Returns
+    -------
+    float
+        min over the eigenvalues lambda of -Re(lambda)/abs(lambda) [-]: 1 for a real decaying
+        mode, -1 for a real growing one; below 0 the loop is unstable.
+
+    Notes
+    -----
+    States E''_q, E'_q, E_fd, V_s about the steady state, the d-axis equations of
+    :mod:`core.dip` with the stator quasi-static (the stator and load transients are far faster
+    than the loop), the transformer's magnetising current neglected (about 1 % of its rating
+    once the inrush has decayed), the field within its ceiling and floor::
+
+        T''_do dE''_q/dt = E'_q - E''_q - (X'_d - X''_d)*b*E''_q
+        T'_do  dE'_q/dt  = E_fd - E'_q - (X_d - X'_d)*b*E''_q
+        T_A    dE_fd/dt  = -K_A*V_s - E_fd
+        T_R    dV_s/dt   = c*E''_q - V_s        (V_s = c*E''_q when T_R = 0)
+
+    with the load z_L = S/(P - jQ) [pu on the machine], Z_t = z_L + R_a + jX''_d,
+    b = Im(Z_t)/abs(Z_t)^2 (the lagging current per unit EMF) and c = abs(z_L)/abs(Z_t)
+    (the terminal voltage per unit EMF); open circuit b = 0, c = 1. Damping ratio of a mode
+    lambda = -zeta*omega_n + j*omega_n*sqrt(1 - zeta^2) (Kundur 1994, ch. 12, from memory).
+    """
+    g = generator
+    b, c = 0.0, 1.0
+    if bus_load is not None:
+        z_l = g.rating_va / complex(bus_load.active_power_w, -bus_load.reactive_power_var)
+        z_t = z_l + complex(g.armature_resistance_pu, g.x_d2_pu)
+        b = z_t.imag / abs(z_t) ** 2
+        c = abs(z_l) / abs(z_t)
+    t2, t1, ta, tr = (
+        g.t_d2o_open_s,
+        g.t_d1o_open_s,
+        excitation.time_constant_s,
+        excitation.sensing_time_constant_s,
+    )
+    k = excitation.gain_pu
+    a = np.zeros((4, 4))
+    a[0, :2] = (-(1.0 + (g.x_d1_pu - g.x_d2_pu) * b) / t2, 1.0 / t2)
+    a[1, :3] = (-(g.x_d_pu - g.x_d1_pu) * b / t1, -1.0 / t1, 1.0 / t1)
+    if tr > 0.0:
+        a[2, 2:] = (-1.0 / ta, -k / ta)
+        a[3, 0], a[3, 3] = c / tr, -1.0 / tr
+    else:
+        a = a[:3, :3]
+        a[2, 0], a[2, 2] = -k * c / ta, -1.0 / ta
+    lam = np.linalg.eigvals(a)
+    zeta = [
+        -z.real / abs(z) if abs(z.imag) > 1e-12 * abs(z) else (1.0 if z.real < 0.0 else -1.0)
+        for z in lam
+    ]
+    return float(min(zeta))
+
+
+def unknown_excitation(generator: Generator) -> Excitation:
+    """Regulator data, tuned to the machine, when the excitation system is not known.
+
+    Parameters
+    ----------
+    generator : Generator
+        The machine (its X_d sets the rated-load field voltage; T'_do and T''_do the gain).
 
     Returns
     -------
     Excitation
-        K_A = 50, T_A = 0.5 s, ceiling 1.5 x the rated-load field, floor 0, T_R = 0.02 s, each
-        with its provenance.
+        T_A = 0.5 s, T_R = 0.02 s, K_A from :func:`regulator_gain_for_margin` for a 60 deg
+        phase margin of the open-circuit loop (at most 400), ceiling 1.5 x the rated-load
+        field, floor 0, each with its provenance.
 
     Notes
     -----
     Rated-load field of a round-rotor machine at rated current and 0.8 pf lagging, unsaturated:
     E_fd = |1 + jX_d*(0.8 - j0.6)| (phasor diagram, Kundur 1994 ch. 3, from memory).
+
+    A fixed gain cannot suit every machine: the open-circuit loop of
+    :func:`regulator_gain_for_margin` crosses over near (K_A/(T'_do*T_A))^0.5 when T_A and
+    T'_do are long, and K_A = 50, T_A = 0.5 s on a machine with T'_do = 1.68 s leaves a
+    1.2 Hz mode with a damping ratio of 0.004. A real AVR is set up for its machine (common
+    practice); this default is set for a 60 deg margin (damping ratio about 0.5 on open
+    circuit, more under load). The slow T_A and the first-order form keep the recovery on the
+    slow side.
     """
     s = math.sqrt(1.0 - RATED_POWER_FACTOR**2)
     xd = generator.x_d_pu
     e_rated = abs(complex(1.0 + xd * s, xd * RATED_POWER_FACTOR))
+    tuned = regulator_gain_for_margin(generator, UNKNOWN_TIME_CONSTANT_S, UNKNOWN_SENSING_S)
+    gain = min(tuned, UNKNOWN_GAIN_MAX_PU)
+    cap = " (capped at 400, the top of IEEE Std 421.5 sample data, from memory)"
     return Excitation(
-        gain_pu=UNKNOWN_GAIN_PU,
+        gain_pu=gain,
         time_constant_s=UNKNOWN_TIME_CONSTANT_S,
         ceiling_pu=UNKNOWN_CEILING_FACTOR * e_rated,
         floor_pu=0.0,
         sensing_time_constant_s=UNKNOWN_SENSING_S,
         provenance={
-            "gain_pu": "default for an unknown regulator: low end of tens-hundreds (from memory)",
+            "gain_pu": "default: set for this machine, a 60 deg phase margin of its open-circuit "
+            "loop K_A/((1+sT'do)(1+sT''do)(1+sT_A)(1+sT_R)) (an AVR is set up for its machine, "
+            "common practice; 45-60 deg is the usual target, from memory)"
+            + (cap if tuned > gain else ""),
             "time_constant_s": "default: slow end of 0.1-1 s for a brushless exciter with its "
             "regulator (from memory)",
             "ceiling_pu": f"default: 1.5 x the rated-load field {e_rated:.3g} pu at 0.8 pf "
@@ -301,12 +463,16 @@ class UtilitySource:
         Rated line-to-line voltage [V].
     frequency_hz : float
         [Hz].
+    provenance : mapping of str to str
+        Where ``fault_level_va`` and ``x_over_r`` came from when not given as such (field ->
+        text), e.g. from a source impedance.
     """
 
     fault_level_va: float
     x_over_r: float
     line_voltage_v: float
     frequency_hz: float
+    provenance: Mapping[str, str] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         _finite("fault_level_va", self.fault_level_va, 0.0, 1e13)
@@ -519,8 +685,13 @@ def source_assumptions(
         else:
             out.append(Assumption("excitation", "constant_field", "-", "given"))
     else:
-        out.append(Assumption("fault_level_va", source.fault_level_va, "VA", "given"))
-        out.append(Assumption("x_over_r", source.x_over_r, "-", "given"))
+        prov = source.provenance
+        out.append(
+            Assumption(
+                "fault_level_va", source.fault_level_va, "VA", prov.get("fault_level_va", "given")
+            )
+        )
+        out.append(Assumption("x_over_r", source.x_over_r, "-", prov.get("x_over_r", "given")))
     out.append(Assumption("pre_event_voltage_pu", v0, "pu", "given or default 1.0"))
     if bus_load is not None:
         out.append(Assumption("bus_load.active_power_w", bus_load.active_power_w, "W", "given"))

@@ -363,7 +363,11 @@ def _evaluate(
                 pole_delay_s=delay,
             )
             verdict = dip_limits.verdicts(
-                d.dip_percent, d.recovery_time_s, (sup.limit,), simulated_s=sup.duration_s
+                d.dip_percent,
+                d.recovery_time_s,
+                (sup.limit,),
+                simulated_s=sup.duration_s,
+                recovery_reliable=d.recovery_reliable,
             )[0]
             outcome = DipOutcome(d.dip_percent, d.recovery_time_s, verdict.passed, d.inrush_peak_a)
     k = int(np.argmax(p.peaks))

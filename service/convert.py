@@ -14,12 +14,13 @@ import numpy as np
 
 from core import fuse_breaker_curves, inrush, magnetizing, ridethrough, transformer
 from core.dip_limits import DipLimit, iso_8528_5_class
-from core.errors import LimitError
+from core.errors import LimitError, ParameterError
 from core.generator import (
     BusLoad,
     Excitation,
     ExcitationSpec,
     Generator,
+    UtilitySource,
 )
 from core.transformer import EquivalentCircuit
 from service.models.clearance import BreakerIn, CurvePoint, FuseIn, RelayIn
@@ -300,6 +301,31 @@ def generator_of(sup: GeneratorIn, line_voltage_v: float, frequency_hz: float) -
         ),
         provenance=prov,
     )
+
+
+def utility_of(src: SourceIn | None, line_voltage_v: float, frequency_hz: float) -> UtilitySource:
+    """The core utility supply of a generator-dip request's ``source`` (fault level or impedance).
+
+    An impedance R + jX per phase is the fault level V_LL^2/abs(Z) with X/R = X/R, the same
+    circuit (common practice); the request model has already refused an ideal source and an
+    impedance without both R and X.
+    """
+    if isinstance(src, FaultLevelSource):
+        return UtilitySource(src.fault_mva * 1e6, src.x_over_r, line_voltage_v, frequency_hz)
+    if isinstance(src, ImpedanceSource):
+        z = math.hypot(src.resistance_ohm, src.reactance_ohm)
+        how = "from source kind impedance: "
+        return UtilitySource(
+            line_voltage_v**2 / z,
+            src.reactance_ohm / src.resistance_ohm,
+            line_voltage_v,
+            frequency_hz,
+            provenance={
+                "fault_level_va": how + "V_LL^2/|R + jX|",
+                "x_over_r": how + "reactance_ohm/resistance_ohm",
+            },
+        )
+    raise ParameterError("source", src, "a fault_level or impedance source")
 
 
 def excitation_of(exc: RegulatorIn | PresetExcitation) -> ExcitationSpec:

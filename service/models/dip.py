@@ -6,7 +6,16 @@ from typing import Annotated, Literal
 
 from pydantic import Field, model_validator
 
-from service.models.common import CAUTION, Assumption, Method, Model, Study, WarningItem
+from service.models.common import (
+    CAUTION,
+    Assumption,
+    IdealSource,
+    ImpedanceSource,
+    Method,
+    Model,
+    Study,
+    WarningItem,
+)
 
 
 class GeneratorIn(Model):
@@ -53,7 +62,12 @@ class RegulatorIn(Model):
 
 
 class PresetExcitation(Model):
-    """``unknown`` (conservative defaults with their provenance) or ``constant_field``."""
+    """``unknown`` or ``constant_field``.
+
+    ``unknown``: a first-order regulator set for the machine (gain for a 60 degree phase margin
+    of its open-circuit voltage loop, T_A 0.5 s, T_R 0.02 s, ceiling 1.5 x the rated-load
+    field), each value with its provenance in ``assumptions``.
+    """
 
     kind: Literal["unknown", "constant_field"]
 
@@ -96,7 +110,11 @@ ExcitationIn = Annotated[RegulatorIn | PresetExcitation, Field(discriminator="ki
 class GeneratorDipRequest(Study):
     """A transformer energised from a generator or a weak utility source."""
 
-    supply: Source = Field(description="The generator or the weak utility source")
+    supply: Source | None = Field(
+        None,
+        description="The generator or the weak utility source; give this or source (a utility "
+        "feeder by its fault level or impedance at the terminals)",
+    )
     excitation: ExcitationIn = Field(
         default_factory=lambda: PresetExcitation(kind="unknown"),
         description="Regulator (generator only)",
@@ -110,8 +128,23 @@ class GeneratorDipRequest(Study):
             raise ValueError("generator-dip needs transformer (nameplate mode)")
         if self.transformer.phases != 3:
             raise ValueError("generator-dip models three-phase units")
-        if self.source is not None:
-            raise ValueError("give the supply in 'supply', not 'source'")
+        if (self.supply is None) == (self.source is None):
+            raise ValueError(
+                "give exactly one of supply (a generator, or kind utility) or source (a utility "
+                "feeder: kind fault_level or impedance)"
+            )
+        if isinstance(self.source, IdealSource):
+            raise ValueError(
+                "an ideal source has no impedance, so energising the unit dips no voltage: give "
+                "the feeder as source kind fault_level or impedance, or a generator in supply"
+            )
+        if isinstance(self.source, ImpedanceSource) and not (
+            self.source.resistance_ohm > 0.0 and self.source.reactance_ohm > 0.0
+        ):
+            raise ValueError(
+                "source kind impedance for generator-dip needs resistance_ohm > 0 and "
+                "reactance_ohm > 0 (its X/R must be finite and > 0)"
+            )
         if self.options.size_for == "custom" and not isinstance(self.options.limits, CustomLimit):
             raise ValueError("size_for 'custom' needs options.limits to be a custom limit")
         return self
@@ -150,7 +183,8 @@ class GeneratorDipResponse(Model):
     min_voltage_pu: float
     min_voltage_time_s: float
     recovery_time_s: float | None = Field(
-        description="Into the band for good; null: not within the simulated time"
+        description="Into the band for good; null: not within the simulated time. With the "
+        "warning regulator_poorly_damped it measures an oscillation and is not judged"
     )
     inrush_peak_a: float = Field(description="First inrush peak with this source [A]")
     hand_method_dip_percent: float = Field(description="Subtransient voltage-divider estimate")

@@ -41,7 +41,10 @@ NO_FREQUENCY = (
 
 
 def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assumption]]:
-    circuit, res, _delay, assumptions = convert.study_inputs(body)
+    # the supply model replaces the source: the circuit is built on an ideal source
+    circuit, res, _delay, assumptions = convert.study_inputs(
+        body.model_copy(update={"source": None})
+    )
     t = body.transformer
     assert t is not None
     v_ll = t.energized_winding.voltage_kv * 1e3
@@ -49,8 +52,10 @@ def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assump
     source: generator.Source
     if isinstance(sup, GeneratorIn):
         source = convert.generator_of(sup, v_ll, t.frequency_hz)
-    else:
+    elif sup is not None:
         source = generator.UtilitySource(sup.fault_mva * 1e6, sup.x_over_r, v_ll, t.frequency_hz)
+    else:
+        source = convert.utility_of(body.source, v_ll, t.frequency_hz)
     excitation = convert.excitation_of(body.excitation)
     opt = body.options
     if isinstance(opt.limits, CustomLimit):

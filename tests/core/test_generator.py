@@ -350,7 +350,7 @@ def test_northgate_back_feed_end_to_end() -> None:
     study = dip.energize_from_source(gen, circ, 0.0, RESIDUAL)
     assert 40.0 < study.dip_percent < 70.0  # measured 53.9 % (phase A to neutral)
     assert 25.0 < study.dip_line_percent < study.dip_phase_percent  # measured 38.8 %
-    assert 0.5 < study.recovery_time_s < 6.0  # measured 2.12 s into +-3 %
+    assert 0.5 < study.recovery_time_s < 6.0  # measured 0.75 s into +-3 %
     assert 3.0 < study.inrush_peak_a / circ.rated_line_current_a < 10.0  # measured 5.3 x
     # the hand method, with the ideal-source inrush as a constant load, overestimates
     assert study.hand_method_dip_percent > study.dip_percent
@@ -359,7 +359,7 @@ def test_northgate_back_feed_end_to_end() -> None:
         for v in dip_limits.verdicts(study.dip_percent, study.recovery_time_s, simulated_s=10.0)
     }
     assert verdict == {"G1": False, "G2": False, "G3": False, "G4": None}
-    # measured: 13,747 kVA (dip 20.0 %, recovery 1.72 s) on the worst-voltage measure
+    # measured: 13,747 kVA (dip 20.0 %, recovery 0.48 s) on the worst-voltage measure
     sizing = dip_sizing.smallest_generator(gen, circ, "G2", 0.0, RESIDUAL, dip_duration_s=0.5)
     assert sizing.status == "found"
     assert sizing.rating_va is not None
