@@ -79,6 +79,46 @@ class _TooLargeError(Exception):
     pass
 
 
+class JsonBodyOnly:
+    """Answer 415 (problem+json) when a JSON-body operation is sent another media type.
+
+    Without this, a form-encoded or text body reached validation as raw bytes and came back as a
+    422 quoting a Python bytes literal. A body without a Content-Type is not read as JSON either
+    (FastAPI's strict content type, a guard against cross-site requests), so it gets the same 415;
+    an empty body (Content-Length 0) is left to validation, which names the missing body.
+    """
+
+    def __init__(self, app: ASGIApp, service: FastAPI) -> None:
+        self.app = app
+        self.service = service
+        self.paths: frozenset[str] | None = None
+
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        if self.paths is None:
+            self.paths = json_body_paths(self.service.openapi())
+        if scope["type"] == "http" and scope["method"] == "POST" and scope["path"] in self.paths:
+            headers = dict(scope.get("headers", []))
+            raw = headers.get(b"content-type")
+            content_type = raw.decode("latin-1") if raw is not None else None
+            if headers.get(b"content-length") != b"0" and not problems.is_json_media_type(
+                content_type
+            ):
+                response = problems.unsupported_media_type(content_type, scope["path"])
+                await response(scope, receive, send)
+                return
+        await self.app(scope, receive, send)
+
+
+def json_body_paths(contract: dict[str, Any]) -> frozenset[str]:
+    """Paths of the POST operations whose contract reads a JSON body."""
+    return frozenset(
+        path
+        for path, item in contract.get("paths", {}).items()
+        if problems.JSON_MEDIA_TYPE
+        in item.get("post", {}).get("requestBody", {}).get("content", {})
+    )
+
+
 def create_app() -> FastAPI:
     """Build the application from the current settings."""
     settings = get_settings()
@@ -139,6 +179,7 @@ def create_app() -> FastAPI:
 
     app.openapi_schema = None
     _add_problem_schema(app)
+    app.add_middleware(JsonBodyOnly, service=app)
     keys = settings.keys()
     if keys:
         app.add_middleware(auth.ApiKeyAuth, keys=keys)
@@ -176,6 +217,8 @@ def _add_problem_schema(app: FastAPI) -> None:
                 if r422 is not None:
                     r422["content"] = dict(problems.PROBLEM_RESPONSES[422]["content"])
                     r422["description"] = problems.PROBLEM_RESPONSES[422]["description"]
+                if problems.JSON_MEDIA_TYPE in op.get("requestBody", {}).get("content", {}):
+                    op["responses"]["415"] = dict(problems.UNSUPPORTED_MEDIA_TYPE)
         schema["components"]["securitySchemes"] = {
             "apiKey": {
                 "type": "apiKey",

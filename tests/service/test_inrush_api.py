@@ -182,11 +182,14 @@ def test_body_too_large_is_413(client: TestClient) -> None:
     _problem(r, 413)
 
 
-def test_malformed_json_is_422(client: TestClient) -> None:
+def test_malformed_json_is_400_with_line_and_column(client: TestClient) -> None:
+    # RFC 9110 section 15.5.1: malformed syntax is a 400 (422 is for well-formed content)
     r = client.post(
         "/v1/inrush/peak", content=b"{not json", headers={"content-type": "application/json"}
     )
-    _problem(r, 422)
+    body = _problem(r, 400)
+    assert body["type"] == "urn:firstcycle:problem:malformed-json"
+    assert "line 1, column 2" in str(body["detail"])
 
 
 def test_unknown_path_and_method(client: TestClient) -> None:
