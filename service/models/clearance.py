@@ -14,6 +14,7 @@ from service.models.common import (
     Study,
     WarningItem,
 )
+from service.settings import default_limit
 
 Name = Annotated[str, Field(min_length=1, max_length=40, pattern=r"^[A-Za-z0-9 ._/()+-]+$")]
 RelayCurve = Literal[
@@ -104,7 +105,13 @@ class ClearanceOptions(Model):
         description="Evaluate at the worst closing angle for the given residual flux, or at "
         "switching.closing_angle_deg",
     )
-    duration_s: float = Field(2.0, gt=0.1, le=10.0, description="Simulated inrush [s]")
+    duration_s: float = Field(
+        2.0,
+        gt=0.1,
+        le=default_limit("max_duration_s"),
+        description="Simulated inrush [s]; the maximum is the service's default limit: an "
+        "operator may set a lower one (FIRSTCYCLE_MAX_DURATION_S)",
+    )
     frequent_faults: bool = Field(False, description="Use the frequent-fault damage curve")
     insulation: Literal["liquid", "dry"] = Field("liquid", description="Liquid or dry type")
     opening_time_s: float | None = Field(

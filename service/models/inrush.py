@@ -8,6 +8,7 @@ from pydantic import Field
 
 from service.models.common import CAUTION, Assumption, Method, Model, Study, WarningItem
 from service.problems import Problem
+from service.settings import default_limit
 
 
 class PeakRequest(Study):
@@ -73,9 +74,20 @@ class EnvelopeOptions(Model):
     """Simulation and analysis options."""
 
     duration_s: float = Field(
-        1.0, gt=0.0, le=10.0, description="Simulated time [s] (also capped by the service limit)"
+        1.0,
+        gt=0.0,
+        le=default_limit("max_duration_s"),
+        description="Simulated time [s]; the maximum is the service's default limit: an "
+        "operator may set a lower one (FIRSTCYCLE_MAX_DURATION_S), then longer durations get a "
+        "422 limit-exceeded",
     )
-    samples_per_cycle: int = Field(128, ge=16, le=4096, description="Output samples per cycle")
+    samples_per_cycle: int = Field(
+        128,
+        ge=16,
+        le=default_limit("max_samples_per_cycle"),
+        description="Output samples per cycle; the maximum is the service's default limit: an "
+        "operator may set a lower one (FIRSTCYCLE_MAX_SAMPLES_PER_CYCLE)",
+    )
     below_x_rated: float = Field(
         1.0,
         gt=0.0,
@@ -164,9 +176,10 @@ class PeakBatchRequest(Model):
 
     cases: list[dict[str, Any]] = Field(
         min_length=1,
-        max_length=100_000,
-        description="The cases, each a PeakRequest body; at most the service's max_cases "
-        "(default 1000). Each is validated on its own.",
+        max_length=default_limit("max_cases"),
+        description="The cases, each a PeakRequest body, validated on its own. The maximum is "
+        "the service's default limit: an operator may set a lower one (FIRSTCYCLE_MAX_CASES), "
+        "then longer batches get a 422 limit-exceeded",
         json_schema_extra={"items": {"$ref": "#/components/schemas/PeakRequest"}},
     )
 

@@ -24,7 +24,7 @@ from core.waveform import STANDARD_TIMES_S
 from service.models.inrush import EnvelopeRequest, PeakRequest
 from service.problems import PROBLEM_RESPONSES
 from service.routers.inrush import _envelope, _peak
-from service.settings import Settings, settings_dependency
+from service.settings import Settings, default_limit, settings_dependency
 from service.version import API_VERSION
 
 router = APIRouter(prefix="/v1/sheet", tags=["spreadsheet"], responses=PROBLEM_RESPONSES)
@@ -133,7 +133,7 @@ class IeqQuery(SheetCase):
     duration_s: float = Field(
         1.0,
         gt=0.0,
-        le=5.0,
+        le=default_limit("max_duration_s"),
         description="Simulated time [s]; when left out, 1 s or time_s if later. I_eq(time_s) "
         "does not depend on it (the simulation runs at least to the tabulated time at or after "
         "time_s), but a given duration shorter than time_s is a contradiction and gets a 422",
@@ -143,7 +143,9 @@ class IeqQuery(SheetCase):
 class TableQuery(SheetCase):
     """Query of the CSV tables."""
 
-    duration_s: float = Field(1.0, gt=0.0, le=5.0, description="Simulated time [s]")
+    duration_s: float = Field(
+        1.0, gt=0.0, le=default_limit("max_duration_s"), description="Simulated time [s]"
+    )
 
 
 def _request(model: type[PeakRequest] | type[EnvelopeRequest], data: dict[str, Any]) -> Any:

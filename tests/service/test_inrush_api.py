@@ -160,11 +160,21 @@ def test_wrong_residual_length_rejected(client: TestClient) -> None:
 def test_duration_over_limit_is_422_limit(
     client: TestClient, monkeypatch: pytest.MonkeyPatch
 ) -> None:
+    from service.settings import get_settings
+
     req = copy.deepcopy(ENVELOPE_REQUESTS["northgate_lighting"])
-    req["options"]["duration_s"] = 8.0
+    req["options"]["duration_s"] = 8.0  # over the contract's maximum: invalid input
+    body = _problem(client.post("/v1/inrush/envelope", json=req), 422)
+    assert body["type"] == "urn:firstcycle:problem:invalid-input"
+    assert body["errors"][0]["allowed"] == "<= 5.0"  # type: ignore[index]
+    monkeypatch.setenv("FIRSTCYCLE_MAX_DURATION_S", "0.5")  # an operator's lower limit
+    get_settings.cache_clear()
+    req["options"]["duration_s"] = 1.0
     body = _problem(client.post("/v1/inrush/envelope", json=req), 422)
     assert body["type"] == "urn:firstcycle:problem:limit-exceeded"
-    assert "5" in str(body["errors"])
+    assert body["errors"][0]["field"] == "options.duration_s"  # type: ignore[index]
+    assert body["errors"][0]["allowed"] == "<= 0.5"  # type: ignore[index]
+    get_settings.cache_clear()
 
 
 def test_stiff_circuit_is_rejected_not_hung(client: TestClient) -> None:
