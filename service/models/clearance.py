@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, ClassVar, Literal
 
 from pydantic import Field, model_validator
 
@@ -11,8 +11,10 @@ from service.models.common import (
     Assumption,
     Method,
     Model,
+    Rules,
     Study,
     WarningItem,
+    given,
 )
 from service.settings import default_limit
 
@@ -47,6 +49,25 @@ class RelayIn(Model):
     instantaneous_pickup_a: float | None = Field(None, gt=0.01, le=1e7, description="[A]")
     reset: Literal["curve", "hold", "instantaneous"] = Field(
         "curve", description="Reset below pickup: the standard's disk emulation, hold, or none"
+    )
+
+    SCHEMA_RULES: ClassVar[Rules] = (
+        {
+            "anyOf": [
+                {
+                    "properties": {
+                        "standard": {"const": "ieee_c37_112"},
+                        "curve": {"enum": sorted(_IEEE)},
+                    }
+                },
+                {
+                    "properties": {
+                        "standard": {"const": "iec_60255_151"},
+                        "curve": {"enum": sorted(_IEC)},
+                    }
+                },
+            ]
+        },
     )
 
     @model_validator(mode="after")
@@ -136,6 +157,8 @@ class ClearanceRequest(Study):
 
     devices: list[Device] = Field(min_length=1, max_length=20)
     options: ClearanceOptions = Field(default_factory=ClearanceOptions)
+
+    SCHEMA_RULES: ClassVar[Rules] = (given("transformer"),)
 
     @model_validator(mode="after")
     def _nameplate_and_names(self) -> ClearanceRequest:

@@ -2,11 +2,22 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, ClassVar, Literal
 
 from pydantic import Field, model_validator
 
-from service.models.common import CAUTION, Assumption, Method, Model, Study, WarningItem
+from service.models.common import (
+    CAUTION,
+    Assumption,
+    Method,
+    Model,
+    Rules,
+    Study,
+    WarningItem,
+    given,
+    implies,
+    is_not,
+)
 
 
 class GeneratorIn(Model):
@@ -22,6 +33,10 @@ class GeneratorIn(Model):
     t_d1o_s: float | None = Field(None, gt=0.05, le=50.0, description="T'do [s] (or t_d1_s)")
     armature_resistance_pu: float | None = Field(
         None, ge=0.0, le=0.1, description="Armature resistance [pu]; default 0.01 (from memory)"
+    )
+
+    SCHEMA_RULES: ClassVar[Rules] = (
+        {"oneOf": [given("t_d1_s", "number"), given("t_d1o_s", "number")]},
     )
 
     @model_validator(mode="after")
@@ -88,6 +103,19 @@ class DipOptions(Model):
         "worst", description="Dip from the deeper of phase and line voltages, or one of them"
     )
 
+    SCHEMA_RULES: ClassVar[Rules] = (
+        implies(
+            {"required": ["size_for"], "properties": {"size_for": {"const": "custom"}}},
+            given("limits"),
+        ),
+    )
+
+    @model_validator(mode="after")
+    def _custom_size(self) -> DipOptions:
+        if self.size_for == "custom" and not isinstance(self.limits, CustomLimit):
+            raise ValueError("size_for 'custom' needs limits to be a custom limit")
+        return self
+
 
 Source = Annotated[GeneratorIn | UtilityIn, Field(discriminator="kind")]
 ExcitationIn = Annotated[RegulatorIn | PresetExcitation, Field(discriminator="kind")]
@@ -104,6 +132,16 @@ class GeneratorDipRequest(Study):
     bus_load: BusLoadIn | None = None
     options: DipOptions = Field(default_factory=DipOptions)
 
+    SCHEMA_RULES: ClassVar[Rules] = (
+        {
+            "required": ["transformer"],
+            "properties": {
+                "transformer": {"type": "object", "properties": {"phases": {"const": 3}}}
+            },
+        },
+        is_not(given("source")),
+    )
+
     @model_validator(mode="after")
     def _nameplate(self) -> GeneratorDipRequest:
         if self.transformer is None:
@@ -112,8 +150,6 @@ class GeneratorDipRequest(Study):
             raise ValueError("generator-dip models three-phase units")
         if self.source is not None:
             raise ValueError("give the supply in 'supply', not 'source'")
-        if self.options.size_for == "custom" and not isinstance(self.options.limits, CustomLimit):
-            raise ValueError("size_for 'custom' needs options.limits to be a custom limit")
         return self
 
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, ClassVar, Literal
 
 from pydantic import Field, model_validator
 
@@ -11,8 +11,10 @@ from service.models.common import (
     Assumption,
     Method,
     Model,
+    Rules,
     SourceIn,
     WarningItem,
+    given,
 )
 from service.models.supplied import SuppliedStudy
 
@@ -190,6 +192,8 @@ class MitigationRequest(SuppliedStudy):
     )
     dip_duration_s: float = Field(5.0, ge=0.5, le=30.0, description="Simulated dip [s]")
     device_options: DeviceOptions = Field(default_factory=DeviceOptions)
+
+    SCHEMA_RULES: ClassVar[Rules] = (given("transformer"),)
 
     @model_validator(mode="after")
     def _nameplate(self) -> MitigationRequest:
