@@ -116,3 +116,102 @@ def test_a_missing_field_keeps_its_name(client: TestClient) -> None:
     del req["source"]["x_over_r"]
     err = _problem(client.post("/v1/inrush/peak", json=req), 422)["errors"][0]  # type: ignore[index]
     assert err["field"] == "source.x_over_r"
+
+
+WEAK_UNIT = {
+    "rating_kva": 45,
+    "energized_winding": {"voltage_kv": 0.48, "connection": "delta", "position": "inner"},
+    "impedance_percent": 3.5,
+    "x_over_r": 1.2,
+    "no_load_current_percent": 3,
+}
+
+
+@pytest.mark.parametrize("x_over_r", [1.2, 10.0])
+def test_source_weaker_than_the_unit_names_fault_mva(client: TestClient, x_over_r: float) -> None:
+    # before: a 422 on a field "circuit" the caller never sent, about Newton iterations
+    req = {
+        "transformer": WEAK_UNIT,
+        "source": {"kind": "fault_level", "fault_mva": 0.01, "x_over_r": x_over_r},
+    }
+    problem = _problem(client.post("/v1/inrush/peak", json=req), 422)
+    err = problem["errors"][0]  # type: ignore[index]
+    assert err["field"] == "source.fault_mva"
+    assert err["value"] == "0.01"
+    assert err["allowed"].startswith("at least 0.09 MVA, twice the unit's rating of 0.045 MVA")
+    assert "Newton" not in r_text(problem)
+    req["source"]["fault_mva"] = 0.09  # type: ignore[index]
+    assert client.post("/v1/inrush/peak", json=req).status_code == 200
+
+
+def test_weak_impedance_source_names_its_impedance(client: TestClient) -> None:
+    req = {
+        "transformer": WEAK_UNIT,
+        "source": {"kind": "impedance", "resistance_ohm": 1.0, "reactance_ohm": 5.0},
+    }
+    err = _problem(client.post("/v1/inrush/peak", json=req), 422)["errors"][0]  # type: ignore[index]
+    assert err["field"] == "source.reactance_ohm"
+    # |Z| at most V^2/(2 S) = 480^2/90 000 = 2.56 ohm
+    assert "at most 2.56 ohm" in err["allowed"]
+
+
+def r_text(problem: dict[str, object]) -> str:
+    return json.dumps(problem)
+
+
+KV_TYPO = {**WEAK_UNIT, "energized_winding": {**WEAK_UNIT["energized_winding"], "voltage_kv": 480}}  # type: ignore[dict-item]
+
+
+def _codes(body: dict[str, object]) -> set[str]:
+    return {w["code"] for w in body["warnings"]}  # type: ignore[attr-defined]
+
+
+@pytest.mark.parametrize(
+    ("path", "extra"),
+    [
+        ("/v1/inrush/peak", {"method": "analytic"}),
+        ("/v1/inrush/envelope", {"options": {"duration_s": 0.2}}),
+        ("/v1/inrush/statistics", {"options": {"samples": 100}}),
+    ],
+)
+def test_volts_typed_as_kilovolts_warn(
+    client: TestClient, path: str, extra: dict[str, object]
+) -> None:
+    r = client.post(path, json={"transformer": KV_TYPO, **extra})
+    assert r.status_code == 200, r.text
+    assert {"implausible_rating_voltage", "voltage_looks_like_volts"} <= _codes(r.json())
+    fine = client.post(path, json={"transformer": WEAK_UNIT, **extra})
+    assert not _codes(fine.json()) & {"implausible_rating_voltage", "voltage_looks_like_volts"}
+
+
+def test_volts_typed_as_kilovolts_warn_in_batch_and_clearance(client: TestClient) -> None:
+    from service.examples import CLEARANCE_REQUESTS
+
+    batch = client.post(
+        "/v1/inrush/peak/batch", json={"cases": [{"transformer": KV_TYPO, "method": "analytic"}]}
+    ).json()
+    assert "implausible_rating_voltage" in _codes(batch["results"][0]["result"])
+    req = copy.deepcopy(CLEARANCE_REQUESTS["northgate_lighting"])
+    req["transformer"]["energized_winding"]["voltage_kv"] = 480.0
+    req["source"] = {"kind": "ideal"}
+    req["options"]["duration_s"] = 0.5
+    r = client.post("/v1/clearance", json=req)
+    assert r.status_code == 200, r.text
+    assert "voltage_looks_like_volts" in _codes(r.json())
+
+
+def test_volts_typed_as_kilovolts_warn_in_dip_and_mitigation(client: TestClient) -> None:
+    from service.examples import DIP_REQUESTS, MITIGATION_REQUESTS
+
+    req = copy.deepcopy(DIP_REQUESTS["northgate_backfeed"])
+    req["transformer"]["energized_winding"]["voltage_kv"] = 480.0  # 480 V typed as kV
+    req["options"] = {"duration_s": 1.0, "size_for": None}
+    r = client.post("/v1/generator-dip", json=req)
+    assert r.status_code == 200, r.text
+    assert "voltage_looks_like_volts" in _codes(r.json())
+    req = copy.deepcopy(MITIGATION_REQUESTS["northgate_backfeed"])
+    req["transformer"]["energized_winding"]["voltage_kv"] = 480.0
+    req["options"] = [{"kind": "demagnetize"}]
+    r = client.post("/v1/mitigation", json=req)
+    assert r.status_code == 200, r.text
+    assert "voltage_looks_like_volts" in _codes(r.json())
