@@ -15,7 +15,7 @@ from starlette.types import ASGIApp, Message, Receive, Scope, Send
 from service import auth, observability, problems
 from service.routers import clearance, dip, inrush, mitigation, sheet, statistics
 from service.settings import get_settings
-from service.version import API_VERSION
+from service.version import API_VERSION, PACKAGE_VERSION
 
 # Swagger UI 5.35.0 (swagger-ui-dist, Apache-2.0, LICENSE and NOTICE beside it), vendored so the
 # docs page needs no network: version 4 cannot render OpenAPI 3.1.
@@ -30,7 +30,18 @@ Every response lists the assumptions actually used with their provenance, warnin
 and its references. **Results are engineering estimates: verify with the equipment
 manufacturers' data; local codes and licensed engineering practice govern.**
 
-Errors are RFC 9457 problem documents (`application/problem+json`).
+Errors are RFC 9457 problem documents (`application/problem+json`): 422 for invalid input
+(the field's path, the value and the allowed range), 400 for a body that is not JSON text (with
+the line and column of the syntax error), 415 for a body sent as another media type.
+
+**x rated**: every field ending in `_x_rated` is a multiple of the rated rms line current of the
+energised winding, I_r = S/(sqrt(3)·V_LL) (S/V for one phase). A peak in x rated is the
+instantaneous peak over that rms current, so a steady rated current peaks at 1.414 x rated.
+
+**Versions**: `info.version` is the version of this API contract; it changes only when the
+contract does (additions raise the minor number; a breaking change gets a `/v2` path beside
+`/v1`). The software's own (package) version changes with every release of the code, contract
+changed or not; `/healthz` reports both.
 """
 
 
@@ -156,8 +167,9 @@ def create_app() -> FastAPI:
 
     @app.get("/healthz", tags=["operations"], operation_id="healthz", include_in_schema=True)
     async def healthz() -> dict[str, str]:
-        """Liveness: the process answers."""
-        return {"status": "ok"}
+        """Liveness: the process answers. Also the API contract's version (``api_version``, the
+        contract's ``info.version``) and the software's (``package_version``)."""
+        return {"status": "ok", "api_version": API_VERSION, "package_version": PACKAGE_VERSION}
 
     @app.get("/readyz", tags=["operations"], operation_id="readyz")
     async def readyz() -> dict[str, str]:

@@ -15,6 +15,7 @@ from service.models.common import (
     Study,
     WarningItem,
     given,
+    x_rated,
 )
 from service.settings import default_limit
 
@@ -200,7 +201,7 @@ class ProtectionOut(Model):
 class PointOut(Model):
     """A common-practice inrush point against the device's minimum curve."""
 
-    multiple_x_rated: float
+    multiple_x_rated: float = Field(description=x_rated("The point's current", "rms"))
     current_a: float
     time_s: float
     device_time_s: float | None = Field(description="Device minimum time there; null: never")

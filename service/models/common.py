@@ -11,6 +11,24 @@ from typing import Annotated, Any, ClassVar, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
+#: The definition every ``_x_rated`` field states: what "x rated" divides by.
+RATED_BASE = (
+    "the rated rms line current I_r = S/(sqrt(3)*V_LL) of the energised winding (S/V for one phase)"
+)
+#: Description of a peak given as a multiple of rated current.
+PEAK_X_RATED = (
+    f"Instantaneous peak [A] divided by {RATED_BASE}; a steady rated current peaks at 1.414 "
+    "x rated [-]"
+)
+#: Description of an rms value given as a multiple of rated current.
+RMS_X_RATED = f"Rms current [A] divided by {RATED_BASE} [-]"
+
+
+def x_rated(what: str, kind: str = "peak") -> str:
+    """A field description that defines x rated: ``what`` followed by the definition."""
+    return f"{what}: {PEAK_X_RATED if kind == 'peak' else RMS_X_RATED}"
+
+
 CAUTION = (
     "Engineering estimate for design studies. Verify against the equipment manufacturers' data "
     "(transformer test reports, device time-current curves); local codes and licensed "

@@ -6,7 +6,7 @@ from typing import Annotated, Literal
 
 from pydantic import Field
 
-from service.models.common import CAUTION, Assumption, Method, Model, WarningItem
+from service.models.common import CAUTION, Assumption, Method, Model, WarningItem, x_rated
 from service.models.supplied import SuppliedStudy
 from service.settings import default_limit
 
@@ -95,7 +95,7 @@ class PercentilesOut(Model):
     max_a: float
     p99_low_a: float | None = Field(description="Lower end of the P99 interval; null: unbounded")
     p99_high_a: float | None = Field(description="Upper end; null: unbounded at this size")
-    p99_x_rated: float | None
+    p99_x_rated: float | None = Field(description=x_rated("P99 of the first peak"))
 
 
 class ConvergenceOut(Model):

@@ -116,7 +116,10 @@ PeakQuantity = Literal[
 class PeakQuery(SheetCase):
     """Query of ``peak.txt``."""
 
-    quantity: PeakQuantity = Field(description="Which number to return")
+    quantity: PeakQuantity = Field(
+        description="Which number to return; the *_x_rated ones are the instantaneous peak "
+        "divided by the rated rms line current S/(sqrt(3)*V_LL) (S/V for one phase)"
+    )
 
 
 class IeqQuery(SheetCase):
@@ -129,7 +132,11 @@ class IeqQuery(SheetCase):
         description="I_eq at this time [s]; at most duration_s when duration_s is given",
     )
     line: Literal["A", "B", "C", "max"] = Field("max", description="Line, or the largest")
-    unit: Literal["a", "x_rated"] = Field("x_rated", description="Amperes or x rated")
+    unit: Literal["a", "x_rated"] = Field(
+        "x_rated",
+        description="Amperes, or x_rated: I_eq divided by the rated rms line current "
+        "S/(sqrt(3)*V_LL) (S/V for one phase)",
+    )
     duration_s: float = Field(
         1.0,
         gt=0.0,

@@ -160,3 +160,31 @@ def test_contract_and_service_agree(name: str) -> None:
     model, body, valid = CASES[name]
     assert _model_valid(model, body) is valid
     assert _schema_valid(model, body) is valid
+
+
+def _properties(schema: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
+    return list(schema.get("properties", {}).items())
+
+
+def test_every_x_rated_field_defines_x_rated() -> None:
+    fields = [
+        (f"{name}.{prop}", spec)
+        for name, schema in CONTRACT["components"]["schemas"].items()
+        for prop, spec in _properties(schema)
+        if prop.endswith("_x_rated")
+    ]
+    assert len(fields) >= 13
+    for where, spec in fields:
+        assert "rated rms line current" in spec.get("description", ""), where
+        assert "S/(sqrt(3)*V_LL)" in spec["description"], where
+    assert "x rated" in CONTRACT["info"]["description"]
+    for path in ("/v1/sheet/inrush/peak.txt", "/v1/sheet/inrush/ieq.txt"):
+        params = {p["name"]: p for p in CONTRACT["paths"][path]["get"]["parameters"]}
+        name = "quantity" if "peak" in path else "unit"
+        assert "rated rms line current" in params[name]["description"], path
+
+
+def test_the_two_versions_are_told_apart() -> None:
+    text = CONTRACT["info"]["description"]
+    assert "`info.version` is the version of this API contract" in text
+    assert "package" in text

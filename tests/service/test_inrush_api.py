@@ -210,7 +210,13 @@ def test_unknown_path_and_method(client: TestClient) -> None:
 
 
 def test_health(client: TestClient) -> None:
-    assert client.get("/healthz").json() == {"status": "ok"}
+    from importlib.metadata import version
+
+    assert client.get("/healthz").json() == {
+        "status": "ok",
+        "api_version": client.get("/v1/openapi.json").json()["info"]["version"],
+        "package_version": version("firstcycle"),  # pyproject.toml's, as installed
+    }
     assert client.get("/readyz").json() == {"status": "ready"}
 
 
