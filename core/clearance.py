@@ -143,7 +143,7 @@ def clearance_study(
     if not devices:
         raise ParameterError("devices", 0, "at least one device")
     f = circuit.frequency_hz
-    warnings: list[tuple[str, str]] = []
+    warnings: list[tuple[str, str]] = list(circuit.warnings)
     if closing_angle_deg is None:
         worst = energize.worst_closing_angle(
             circuit, residual_flux_pu, pole_delay_s, max_steps=max_steps

@@ -239,7 +239,7 @@ def evaluate(
     References
     ----------
     See :func:`relay_ride_through`, :func:`fuse_ride_through`, :func:`breaker_ride_through`,
-    :func:`protection_check`; inrush points: common practice (design.md §4).
+    :func:`protection_check`; inrush points: common practice.
     """
     names = [d.name for d in devices]
     if not names or len(set(names)) != len(names):

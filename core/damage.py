@@ -49,7 +49,7 @@ THERMAL_I2T_PU = 1250.0
 MINIMUM_CURRENT_PU = 2.0
 
 #: Duration at the maximum through-fault current that fixes K = I_sc²·t [s]. IEEE Std C57.109-1993
-#: clause 4 (from memory; design.md §4 gives the same K = 2·I_sc²).
+#: clause 4 (from memory, with K = 2·I_sc²).
 MECHANICAL_DURATION_S = 2.0
 
 #: Fraction of I_sc from which the mechanical I²t = K portion applies, by (category, frequent

@@ -520,6 +520,7 @@ def energize_from_source(
     res, warnings = dip_solver.check_inputs(
         source, circuit, closing_angle_deg, residual_flux_pu, pre_event_voltage_pu, duration_s
     )
+    warnings = [*circuit.warnings, *warnings]
     dip_solver.check_range("recovery_band_percent", recovery_band_percent, 0.0, 50.0)
     if recovery_reference not in ("pre_event", "final"):
         raise ParameterError("recovery_reference", recovery_reference, "pre_event or final")

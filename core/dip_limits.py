@@ -5,7 +5,7 @@ load increase and the voltage recovery time), a caller's own limit, and the judg
 computed dip and recovery against each: passed, failed, or undecided where a limit is set by
 agreement or the simulated time is too short to judge a recovery limit.
 
-Limits: the class values are from memory (design notes §4), not read from the standard; verify
+Limits: the class values are from memory, not read from the standard; verify
 them against ISO 8528-5. The standard states them for specified load steps at rated voltage;
 applying them to a transformer inrush is the usual practice, not the standard's own case. The dip
 and recovery judged here are computed elsewhere (:mod:`core.dip`, or the hand method of
@@ -72,7 +72,7 @@ _ISO = (
     "ISO 8528-5, performance class {c}: transient voltage deviation on load increase and "
     "voltage recovery time (values from memory, verify against the standard)"
 )
-# ISO 8528-5 performance classes, from memory (design notes §4): G1 -25 %/10 s, G2 -20 %/6 s,
+# ISO 8528-5 performance classes, from memory: G1 -25 %/10 s, G2 -20 %/6 s,
 # G3 -15 %/4 s, G4 by agreement. The standard states them for specified load steps at rated
 # voltage; applying them to an inrush is the usual practice, not the standard's own case.
 ISO_8528_5_CLASSES: tuple[DipLimit, ...] = (

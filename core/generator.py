@@ -513,7 +513,7 @@ def first_dip_voltage_divider(
 
     References
     ----------
-    IEEE Std 399-1997, ch. 9, motor-starting studies (from memory); design notes §4.
+    IEEE Std 399-1997, ch. 9, motor-starting studies (from memory).
     """
     x = np.asarray(reactance_pu, dtype=float)
     s_gen = np.asarray(source_rating_va, dtype=float)

@@ -148,7 +148,7 @@ def _common_checks(
     m = circuit.phases
     res = np.broadcast_to(np.asarray(residual_flux_pu, dtype=float), (m,)).copy()
     delay = np.broadcast_to(np.asarray(pole_delay_s, dtype=float), (m,)).copy()
-    warnings: list[tuple[str, str]] = []
+    warnings: list[tuple[str, str]] = list(circuit.warnings)
     if np.any(np.abs(res) > 0.9):
         warnings.append(
             (

@@ -144,7 +144,7 @@ def inrush_from_waveform(
 
     References
     ----------
-    I_eq and sub-cycle I²t against device curves: common practice (design.md §4); Joule
+    I_eq and sub-cycle I²t against device curves: common practice; Joule
     integral: IEC 60269-1:2006 (from memory).
     """
     t = _arr(time_s, "time_s", (1,))
@@ -235,7 +235,7 @@ def inrush_from_table(
 
     References
     ----------
-    Common practice (design.md §4).
+    Common practice.
     """
     t = _arr(time_s, "time_s", (1,))
     eq = _arr(eq_current_a, "eq_current_a", (1, 2), 0.0)

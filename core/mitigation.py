@@ -74,7 +74,7 @@ __all__ = [
 ]
 
 #: Time at which the equivalent rms is reported: the 0.1 s of the common-practice inrush point
-#: (12 x rated for 0.1 s, design.md section 4) [s].
+#: (12 x rated for 0.1 s, common practice; see core.ridethrough.INRUSH_POINTS) [s].
 IEQ_TIME_S = 0.1
 #: Scale factors of the residual-flux sweep of the baseline [-].
 RESIDUAL_SWEEP = (0.0, 0.25, 0.5, 0.75, 1.0)
@@ -474,7 +474,7 @@ def mitigation_study(
     ctx = Context(
         nameplate, peak_source, circuit, dip_circuit, res, delay, supply, target_peak_a, max_steps
     )
-    warnings: list[tuple[str, str]] = []
+    warnings: list[tuple[str, str]] = list(circuit.warnings)
     base = Plan(
         "baseline",
         "as it is (uncontrolled closing)",

@@ -48,8 +48,8 @@ class IecConstants:
 
 
 #: IEEE Std C37.112-1996 (reaffirmed in C37.112-2018), Table 1 (table number from memory); also
-#: IEC 60255-151:2009 Table 1, curves D, E, F. Values as in design.md §4 and from memory: the
-#: document was not at hand.
+#: IEC 60255-151:2009 Table 1, curves D, E, F. Values from memory: the document was not at
+#: hand.
 IEEE_C37_112: Mapping[str, IeeeConstants] = MappingProxyType(
     {
         "moderately_inverse": IeeeConstants(a=0.0515, b=0.1140, p=0.02, tr=4.85),

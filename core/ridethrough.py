@@ -90,7 +90,7 @@ DEFAULT_PEAK_FACTOR = 1.0
 PEAK_SOURCE = "default 1 (first peak compared as if rms; conservative common practice)"
 
 #: Common-practice inrush points (multiple of rated rms current, duration [s]): 12 × for 0.1 s
-#: (8 × for some large units) and 25 × for 0.01 s. Common practice; design.md §4.
+#: (8 × for some large units) and 25 × for 0.01 s. Common practice (no published source).
 INRUSH_POINTS: tuple[tuple[float, float], ...] = ((12.0, 0.1), (25.0, 0.01))
 
 #: Ranges searched for the coordination window: TD 0.5-15 (IEEE), TMS 0.05-1.5 (IEC); common

@@ -24,7 +24,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.constants import mu_0
 
-from core import magnetizing, units
+from core import magnetizing, plausibility, units
 from core.errors import ParameterError
 from core.magnetizing import MagnetizingCurve
 
@@ -223,6 +223,9 @@ class EquivalentCircuit:
         The curve's key values [H], [H], [Wb-turn].
     assumptions : tuple of Assumption
         Every parameter used, with provenance.
+    warnings : tuple of (str, str)
+        (code, message) of what the nameplate's plausibility check found
+        (:func:`core.plausibility.rating_voltage_warnings`).
     """
 
     phases: int
@@ -241,6 +244,7 @@ class EquivalentCircuit:
     magnetizing_inductance_h: float
     knee_flux_wb: float
     assumptions: tuple[Assumption, ...]
+    warnings: tuple[tuple[str, str], ...] = ()
 
 
 def _check(name: str, value: float, low: float, high: float, *, low_open: bool = True) -> float:
@@ -369,7 +373,8 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
     Raises
     ------
     ParameterError
-        On values outside the model's range, naming the parameter.
+        On values outside the model's range, naming the parameter; on a source weaker than
+        :func:`core.plausibility.check_source_strength` allows.
 
     Notes
     -----
@@ -521,6 +526,8 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
         )
 
     r_s, x_s = source_impedance(src, v_ll, npl.phases)
+    if src.kind != "ideal":
+        plausibility.check_source_strength(s_va, v_ll, r_s, x_s)
     note("source", src.kind, "-", "given" if source is not None else "default: ideal source")
     note("source_resistance_ohm", r_s, "ohm", "from the source description")
     note("source_inductance_h", x_s / omega, "H", "from the source description")
@@ -542,6 +549,7 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
         magnetizing_inductance_h=l_m,
         knee_flux_wb=lam_s,
         assumptions=tuple(assumptions),
+        warnings=plausibility.rating_voltage_warnings(s_va, npl.phases, v_ll),
     )
 
 

@@ -15,7 +15,7 @@ from starlette.types import ASGIApp, Message, Receive, Scope, Send
 from service import auth, observability, problems
 from service.routers import clearance, dip, inrush, mitigation, sheet, statistics
 from service.settings import get_settings
-from service.version import API_VERSION
+from service.version import API_VERSION, PACKAGE_VERSION
 
 # Swagger UI 5.35.0 (swagger-ui-dist, Apache-2.0, LICENSE and NOTICE beside it), vendored so the
 # docs page needs no network: version 4 cannot render OpenAPI 3.1.
@@ -30,7 +30,18 @@ Every response lists the assumptions actually used with their provenance, warnin
 and its references. **Results are engineering estimates: verify with the equipment
 manufacturers' data; local codes and licensed engineering practice govern.**
 
-Errors are RFC 9457 problem documents (`application/problem+json`).
+Errors are RFC 9457 problem documents (`application/problem+json`): 422 for invalid input
+(the field's path, the value and the allowed range), 400 for a body that is not JSON text (with
+the line and column of the syntax error), 415 for a body sent as another media type.
+
+**x rated**: every field ending in `_x_rated` is a multiple of the rated rms line current of the
+energised winding, I_r = S/(sqrt(3)·V_LL) (S/V for one phase). A peak in x rated is the
+instantaneous peak over that rms current, so a steady rated current peaks at 1.414 x rated.
+
+**Versions**: `info.version` is the version of this API contract; it changes only when the
+contract does (additions raise the minor number; a breaking change gets a `/v2` path beside
+`/v1`). The software's own (package) version changes with every release of the code, contract
+changed or not; `/healthz` reports both.
 """
 
 
@@ -79,6 +90,46 @@ class _TooLargeError(Exception):
     pass
 
 
+class JsonBodyOnly:
+    """Answer 415 (problem+json) when a JSON-body operation is sent another media type.
+
+    Without this, a form-encoded or text body reached validation as raw bytes and came back as a
+    422 quoting a Python bytes literal. A body without a Content-Type is not read as JSON either
+    (FastAPI's strict content type, a guard against cross-site requests), so it gets the same 415;
+    an empty body (Content-Length 0) is left to validation, which names the missing body.
+    """
+
+    def __init__(self, app: ASGIApp, service: FastAPI) -> None:
+        self.app = app
+        self.service = service
+        self.paths: frozenset[str] | None = None
+
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        if self.paths is None:
+            self.paths = json_body_paths(self.service.openapi())
+        if scope["type"] == "http" and scope["method"] == "POST" and scope["path"] in self.paths:
+            headers = dict(scope.get("headers", []))
+            raw = headers.get(b"content-type")
+            content_type = raw.decode("latin-1") if raw is not None else None
+            if headers.get(b"content-length") != b"0" and not problems.is_json_media_type(
+                content_type
+            ):
+                response = problems.unsupported_media_type(content_type, scope["path"])
+                await response(scope, receive, send)
+                return
+        await self.app(scope, receive, send)
+
+
+def json_body_paths(contract: dict[str, Any]) -> frozenset[str]:
+    """Paths of the POST operations whose contract reads a JSON body."""
+    return frozenset(
+        path
+        for path, item in contract.get("paths", {}).items()
+        if problems.JSON_MEDIA_TYPE
+        in item.get("post", {}).get("requestBody", {}).get("content", {})
+    )
+
+
 def create_app() -> FastAPI:
     """Build the application from the current settings."""
     settings = get_settings()
@@ -116,8 +167,9 @@ def create_app() -> FastAPI:
 
     @app.get("/healthz", tags=["operations"], operation_id="healthz", include_in_schema=True)
     async def healthz() -> dict[str, str]:
-        """Liveness: the process answers."""
-        return {"status": "ok"}
+        """Liveness: the process answers. Also the API contract's version (``api_version``, the
+        contract's ``info.version``) and the software's (``package_version``)."""
+        return {"status": "ok", "api_version": API_VERSION, "package_version": PACKAGE_VERSION}
 
     @app.get("/readyz", tags=["operations"], operation_id="readyz")
     async def readyz() -> dict[str, str]:
@@ -139,6 +191,7 @@ def create_app() -> FastAPI:
 
     app.openapi_schema = None
     _add_problem_schema(app)
+    app.add_middleware(JsonBodyOnly, service=app)
     keys = settings.keys()
     if keys:
         app.add_middleware(auth.ApiKeyAuth, keys=keys)
@@ -176,6 +229,8 @@ def _add_problem_schema(app: FastAPI) -> None:
                 if r422 is not None:
                     r422["content"] = dict(problems.PROBLEM_RESPONSES[422]["content"])
                     r422["description"] = problems.PROBLEM_RESPONSES[422]["description"]
+                if problems.JSON_MEDIA_TYPE in op.get("requestBody", {}).get("content", {}):
+                    op["responses"]["415"] = dict(problems.UNSUPPORTED_MEDIA_TYPE)
         schema["components"]["securitySchemes"] = {
             "apiKey": {
                 "type": "apiKey",

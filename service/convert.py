@@ -12,7 +12,7 @@ from typing import Literal
 
 import numpy as np
 
-from core import fuse_breaker_curves, inrush, magnetizing, ridethrough, transformer
+from core import fuse_breaker_curves, inrush, magnetizing, plausibility, ridethrough, transformer
 from core.dip_limits import DipLimit, iso_8528_5_class
 from core.errors import LimitError, ParameterError
 from core.generator import (
@@ -129,11 +129,42 @@ def source_of(src: SourceIn | None) -> transformer.Source | None:
     return None
 
 
+def _source_error(exc: ParameterError, t: TransformerNameplate, src: SourceIn) -> ParameterError:
+    """A core error about the source, named by the request field and in its unit."""
+    need_mva = plausibility.SOURCE_STRENGTH_FACTOR * t.rating_kva / 1e3
+    why = (
+        f"twice the unit's rating of {t.rating_kva / 1e3:.6g} MVA: a weaker source cannot carry "
+        "the unit's rated load at any voltage (it delivers at most half its short-circuit power "
+        "into a load); utility supplies are usually tens to thousands of times the rating "
+        "(common practice)"
+    )
+    if isinstance(src, FaultLevelSource):
+        return ParameterError(
+            "source.fault_mva", src.fault_mva, f"at least {need_mva:.6g} MVA, {why}"
+        )
+    if isinstance(src, ImpedanceSource):
+        v_kv = t.energized_winding.voltage_kv
+        z_max = v_kv * v_kv / need_mva
+        name = "reactance_ohm" if src.reactance_ohm >= src.resistance_ohm else "resistance_ohm"
+        return ParameterError(
+            f"source.{name}",
+            getattr(src, name),
+            f"a source impedance sqrt(resistance_ohm^2 + reactance_ohm^2) of at most "
+            f"{z_max:.6g} ohm (a short-circuit power of at least {need_mva:.6g} MVA), {why}",
+        )
+    return exc
+
+
 def _circuit(study: Study) -> EquivalentCircuit:
     if study.transformer is not None:
-        return transformer.equivalent_circuit(
-            nameplate_of(study.transformer), source_of(study.source)
-        )
+        try:
+            return transformer.equivalent_circuit(
+                nameplate_of(study.transformer), source_of(study.source)
+            )
+        except ParameterError as exc:
+            if exc.parameter == "source.short_circuit_power_va" and study.source is not None:
+                raise _source_error(exc, study.transformer, study.source) from None
+            raise
     assert study.circuit is not None
     ci = study.circuit
     m = ci.magnetizing
@@ -255,8 +286,8 @@ def floats(values: Sequence[float] | np.ndarray) -> list[float]:
 
 
 def warnings_out(items: Sequence[tuple[str, str]]) -> list[WarningItem]:
-    """Core (code, message) pairs to response items."""
-    return [WarningItem(code=c, message=msg) for c, msg in items]
+    """Core (code, message) pairs to response items, each once, in order."""
+    return [WarningItem(code=c, message=msg) for c, msg in dict.fromkeys(items)]
 
 
 def method_out(analytic: bool, simulated: bool, approximations: Sequence[str]) -> Method:

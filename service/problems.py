@@ -2,8 +2,14 @@
 
 One place maps each kind of failure to a status and a problem type: request validation (422,
 with every offending field's path, value and allowed range), domain errors raised by the core
-(422), compute limits (422), oversized bodies (413), routing errors (404/405, passing the
-``Allow`` header through), and anything unexpected (500, with no internals in the body).
+(422), compute limits (422), a body that is not JSON text (400, with the line and column of a
+syntax error), a body sent as another media type than JSON (415), oversized bodies (413), routing
+errors (404/405, passing the ``Allow`` header through), and anything unexpected (500, with no
+internals in the body).
+
+Malformed JSON is a 400, not a 422: RFC 9110 reserves 422 (section 15.5.21) for content whose
+media type and syntax are understood but whose instructions cannot be processed, and 400
+(section 15.5.1) for malformed request syntax.
 """
 
 from __future__ import annotations
@@ -54,7 +60,11 @@ PROBLEM_RESPONSES: dict[int | str, dict[str, Any]] = {
         "content": {PROBLEM_MEDIA_TYPE: {"schema": {"$ref": "#/components/schemas/Problem"}}},
     }
     for status, desc in (
-        (400, "Body that cannot be read as JSON text (e.g. not UTF-8)"),
+        (
+            400,
+            "Body that cannot be read as JSON text: a syntax error (its line and column are "
+            "given) or bytes that are not UTF-8",
+        ),
         (401, "Missing or invalid API key (only when the operator enables keys)"),
         (413, "Request body larger than the configured limit"),
         (422, "Invalid input, a physically inconsistent combination, or work over a limit"),
@@ -89,14 +99,14 @@ def _allowed(err: dict[str, Any]) -> str | None:
     return ", ".join(parts) or None
 
 
-def batch_problem(index: int, exc: Exception) -> Problem:
+def batch_problem(index: int, exc: Exception, case: Any = None) -> Problem:
     """The problem document of one failed batch item (validation or domain error)."""
     from pydantic import ValidationError
 
     if isinstance(exc, ValidationError):
         errors = [
             FieldProblem(
-                field=".".join(str(p) for p in e.get("loc", ())) or "case",
+                field=_loc(tuple(e.get("loc", ())), case) if e.get("loc") else "case",
                 message=str(e.get("msg", "invalid")),
                 value=_text(e.get("input")),
                 allowed=_allowed(dict(e)),
@@ -174,22 +184,124 @@ def problem_response(
     )
 
 
-def _loc(loc: tuple[Any, ...]) -> str:
-    parts = [str(p) for p in loc]
+JSON_MEDIA_TYPE = "application/json"
+UNSUPPORTED_MEDIA_TYPE: dict[str, Any] = {
+    "description": "Body sent with another Content-Type than application/json (or a "
+    "+json type); send the body as JSON with Content-Type: application/json",
+    "content": {PROBLEM_MEDIA_TYPE: {"schema": {"$ref": "#/components/schemas/Problem"}}},
+}
+
+
+def is_json_media_type(content_type: str | None) -> bool:
+    """Whether a Content-Type header names JSON (application/json or application/*+json)."""
+    if not content_type:
+        return False
+    media = content_type.split(";", 1)[0].strip().lower()
+    return media == JSON_MEDIA_TYPE or (
+        media.startswith("application/") and media.endswith("+json")
+    )
+
+
+def unsupported_media_type(content_type: str | None, path: str) -> JSONResponse:
+    """The 415 problem of a JSON operation called with another media type (RFC 9110 15.5.16)."""
+    received = content_type if content_type else "no Content-Type header"
+    err = FieldProblem(
+        field="headers.content-type",
+        message="the body must be sent as JSON",
+        value=_text(received),
+        allowed="application/json (or application/<name>+json)",
+    )
+    body = Problem(
+        type=_TYPE + "unsupported-media-type",
+        title="Unsupported media type",
+        status=415,
+        detail=f"this operation reads a JSON body; received {received}: send the body with "
+        "Content-Type: application/json",
+        instance=path,
+        errors=[err],
+    )
+    return JSONResponse(
+        body.model_dump(exclude_none=True),
+        status_code=415,
+        media_type=PROBLEM_MEDIA_TYPE,
+        headers={"Accept-Post": JSON_MEDIA_TYPE},
+    )
+
+
+def _loc(loc: tuple[Any, ...], body: Any = None) -> str:
+    """The dotted path of a field as the caller wrote it.
+
+    pydantic puts the member of a union it tried into the location (the ``kind`` of a
+    discriminated union, e.g. ``source.fault_level.fault_mva``, or a member's name); the caller
+    never wrote those, so they are dropped by walking the body received: a location element
+    that is not a key of the object at that point, and is not the last element (a missing
+    field can only be last), names a union member.
+    """
+    parts = list(loc)
     if parts and parts[0] in ("body", "query"):
         parts = parts[1:]
-    return ".".join(parts) or "body"
+    out: list[str] = []
+    cur: Any = body
+    for k, p in enumerate(parts):
+        last = k == len(parts) - 1
+        if isinstance(cur, dict):
+            if p in cur:
+                out.append(str(p))
+                cur = cur[p]
+            elif not last:
+                continue  # a union member's tag
+            else:
+                out.append(str(p))
+        elif isinstance(cur, list) and isinstance(p, int) and 0 <= p < len(cur):
+            out.append(str(p))
+            cur = cur[p]
+        elif body is not None and not isinstance(p, int) and not last:
+            continue  # a union member's tag below a value that has no fields
+        else:
+            out.append(str(p))
+            cur = None
+    return ".".join(out) or "body"
+
+
+def _line_column(doc: str, pos: int) -> tuple[int, int]:
+    """1-based line and column of character ``pos`` of ``doc`` (as json.JSONDecodeError)."""
+    line = doc.count("\n", 0, pos) + 1
+    column = pos - doc.rfind("\n", 0, pos)
+    return line, column
+
+
+def _malformed_json(request: Request, exc: RequestValidationError) -> JSONResponse:
+    err = exc.errors()[0]
+    pos = int(err["loc"][1]) if len(err.get("loc", ())) > 1 else 0
+    doc = exc.body if isinstance(exc.body, str) else ""
+    line, column = _line_column(doc, pos)
+    reason = str((err.get("ctx") or {}).get("error", "invalid JSON"))
+    excerpt = doc[max(0, pos - 20) : pos + 20]
+    detail = (
+        f"the body is not valid JSON: {reason} at line {line}, column {column} (character {pos})"
+    )
+    field = FieldProblem(
+        field="body",
+        message=f"{reason} at line {line}, column {column}",
+        value=_text(excerpt),
+        allowed="a JSON document (RFC 8259)",
+    )
+    return problem_response(400, "Malformed JSON", detail, "malformed-json", request, [field])
 
 
 async def _validation(request: Request, exc: RequestValidationError) -> JSONResponse:
+    raw = exc.errors()
+    if raw and raw[0].get("type") == "json_invalid":
+        return _malformed_json(request, exc)
+    body = getattr(exc, "body", None)
     errors = [
         FieldProblem(
-            field=_loc(tuple(e.get("loc", ()))),
+            field=_loc(tuple(e.get("loc", ())), body if e.get("loc", ("",))[0] == "body" else None),
             message=str(e.get("msg", "invalid")),
             value=_text(e.get("input")),
             allowed=_allowed(e),
         )
-        for e in exc.errors()
+        for e in raw
     ]
     first = errors[0] if errors else None
     detail = (
@@ -229,6 +341,7 @@ async def _http(request: Request, exc: Exception) -> JSONResponse:
         404: "Not found",
         405: "Method not allowed",
         413: "Request body too large",
+        415: "Unsupported media type",
     }
     return problem_response(
         exc.status_code,

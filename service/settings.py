@@ -7,8 +7,9 @@ well under a second of CPU and a few tens of MB on a 2-core machine.
 from __future__ import annotations
 
 from functools import lru_cache
+from typing import Any
 
-from pydantic import Field
+from pydantic import Field, model_validator
 from pydantic_settings import BaseSettings, SettingsConfigDict
 
 
@@ -52,6 +53,18 @@ class Settings(BaseSettings):
         None, description="File with one API key per line (e.g. a mounted secret)"
     )
 
+    @model_validator(mode="after")
+    def _within_contract(self) -> Settings:
+        for name in CONTRACT_MAXIMA:
+            value, published = getattr(self, name), default_limit(name)
+            if value > published:
+                raise ValueError(
+                    f"FIRSTCYCLE_{name.upper()}={value} is above {published}, the maximum the "
+                    "API contract publishes for its request field (requests beyond it are "
+                    "invalid input whatever this setting says); set it at most that high"
+                )
+        return self
+
     def keys(self) -> list[str]:
         """Every configured key: the list plus the lines of the key file."""
         keys = [k for k in self.api_keys if k]
@@ -59,6 +72,23 @@ class Settings(BaseSettings):
             with open(self.api_key_file, encoding="utf-8") as fh:
                 keys += [line.strip() for line in fh if line.strip()]
         return keys
+
+
+#: Limits whose defaults are also the maxima the contract publishes for the request fields they
+#: bound (options.duration_s, options.samples_per_cycle, options.samples, cases): an operator
+#: may lower them (a request over a lowered limit gets a 422 limit-exceeded naming the field),
+#: not raise them past what the contract promises.
+CONTRACT_MAXIMA = (
+    "max_duration_s",
+    "max_samples_per_cycle",
+    "max_statistics_samples",
+    "max_cases",
+)
+
+
+def default_limit(name: str) -> Any:
+    """The default of a limit setting, which the contract publishes as its field's maximum."""
+    return Settings.model_fields[name].default
 
 
 @lru_cache

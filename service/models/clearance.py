@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, ClassVar, Literal
 
 from pydantic import Field, model_validator
 
@@ -11,9 +11,13 @@ from service.models.common import (
     Assumption,
     Method,
     Model,
+    Rules,
     Study,
     WarningItem,
+    given,
+    x_rated,
 )
+from service.settings import default_limit
 
 Name = Annotated[str, Field(min_length=1, max_length=40, pattern=r"^[A-Za-z0-9 ._/()+-]+$")]
 RelayCurve = Literal[
@@ -46,6 +50,25 @@ class RelayIn(Model):
     instantaneous_pickup_a: float | None = Field(None, gt=0.01, le=1e7, description="[A]")
     reset: Literal["curve", "hold", "instantaneous"] = Field(
         "curve", description="Reset below pickup: the standard's disk emulation, hold, or none"
+    )
+
+    SCHEMA_RULES: ClassVar[Rules] = (
+        {
+            "anyOf": [
+                {
+                    "properties": {
+                        "standard": {"const": "ieee_c37_112"},
+                        "curve": {"enum": sorted(_IEEE)},
+                    }
+                },
+                {
+                    "properties": {
+                        "standard": {"const": "iec_60255_151"},
+                        "curve": {"enum": sorted(_IEC)},
+                    }
+                },
+            ]
+        },
     )
 
     @model_validator(mode="after")
@@ -104,7 +127,13 @@ class ClearanceOptions(Model):
         description="Evaluate at the worst closing angle for the given residual flux, or at "
         "switching.closing_angle_deg",
     )
-    duration_s: float = Field(2.0, gt=0.1, le=10.0, description="Simulated inrush [s]")
+    duration_s: float = Field(
+        2.0,
+        gt=0.1,
+        le=default_limit("max_duration_s"),
+        description="Simulated inrush [s]; the maximum is the service's default limit: an "
+        "operator may set a lower one (FIRSTCYCLE_MAX_DURATION_S)",
+    )
     frequent_faults: bool = Field(False, description="Use the frequent-fault damage curve")
     insulation: Literal["liquid", "dry"] = Field("liquid", description="Liquid or dry type")
     opening_time_s: float | None = Field(
@@ -129,6 +158,8 @@ class ClearanceRequest(Study):
 
     devices: list[Device] = Field(min_length=1, max_length=20)
     options: ClearanceOptions = Field(default_factory=ClearanceOptions)
+
+    SCHEMA_RULES: ClassVar[Rules] = (given("transformer"),)
 
     @model_validator(mode="after")
     def _nameplate_and_names(self) -> ClearanceRequest:
@@ -170,7 +201,7 @@ class ProtectionOut(Model):
 class PointOut(Model):
     """A common-practice inrush point against the device's minimum curve."""
 
-    multiple_x_rated: float
+    multiple_x_rated: float = Field(description=x_rated("The point's current", "rms"))
     current_a: float
     time_s: float
     device_time_s: float | None = Field(description="Device minimum time there; null: never")

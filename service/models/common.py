@@ -7,9 +7,27 @@ bounded, so NaN, infinities and values outside the model's range are rejected at
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, Any, ClassVar, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+#: The definition every ``_x_rated`` field states: what "x rated" divides by.
+RATED_BASE = (
+    "the rated rms line current I_r = S/(sqrt(3)*V_LL) of the energised winding (S/V for one phase)"
+)
+#: Description of a peak given as a multiple of rated current.
+PEAK_X_RATED = (
+    f"Instantaneous peak [A] divided by {RATED_BASE}; a steady rated current peaks at 1.414 "
+    "x rated [-]"
+)
+#: Description of an rms value given as a multiple of rated current.
+RMS_X_RATED = f"Rms current [A] divided by {RATED_BASE} [-]"
+
+
+def x_rated(what: str, kind: str = "peak") -> str:
+    """A field description that defines x rated: ``what`` followed by the definition."""
+    return f"{what}: {PEAK_X_RATED if kind == 'peak' else RMS_X_RATED}"
+
 
 CAUTION = (
     "Engineering estimate for design studies. Verify against the equipment manufacturers' data "
@@ -18,10 +36,51 @@ CAUTION = (
 )
 
 
-class Model(BaseModel):
-    """Base of every request and response model: unknown fields are rejected, no NaN/inf."""
+Rules = tuple[dict[str, Any], ...]
 
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
+
+def _schema_rules(schema: dict[str, Any], model: type[Any]) -> None:
+    """Publish a model's cross-field rules (its own and its bases') as ``allOf`` of the schema.
+
+    The rules sit under ``allOf`` so that the object keeps its properties and ``required`` list
+    where client generators (and the compatibility gate) look for them.
+    """
+    rules = [r for cls in reversed(model.__mro__) for r in cls.__dict__.get("SCHEMA_RULES", ())]
+    if rules:
+        schema["allOf"] = rules
+
+
+def given(name: str, json_type: str = "object") -> dict[str, Any]:
+    """JSON Schema: the field ``name`` is present with a value of this type (not null)."""
+    return {"required": [name], "properties": {name: {"type": json_type}}}
+
+
+def is_not(rule: dict[str, Any]) -> dict[str, Any]:
+    """JSON Schema: ``rule`` does not hold."""
+    return {"not": rule}
+
+
+def implies(condition: dict[str, Any], consequence: dict[str, Any]) -> dict[str, Any]:
+    """JSON Schema: when ``condition`` holds, so does ``consequence`` (not A, or B)."""
+    return {"anyOf": [is_not(condition), consequence]}
+
+
+def both(a: dict[str, Any], b: dict[str, Any]) -> dict[str, Any]:
+    """JSON Schema: both rules hold."""
+    return {"allOf": [a, b]}
+
+
+class Model(BaseModel):
+    """Base of every request and response model: unknown fields are rejected, no NaN/inf.
+
+    ``SCHEMA_RULES`` holds the cross-field rules a model's validators enforce, written in JSON
+    Schema so that client generators and contract fuzzers see them too.
+    """
+
+    model_config = ConfigDict(
+        extra="forbid", allow_inf_nan=False, strict=True, json_schema_extra=_schema_rules
+    )
+    SCHEMA_RULES: ClassVar[Rules] = ()
 
 
 # ---------------------------------------------------------------------------- transformer input
@@ -237,6 +296,10 @@ class Switching(Model):
         description="Closing instant of each pole after t = 0 [ms]; default all 0",
     )
 
+    SCHEMA_RULES: ClassVar[Rules] = (
+        is_not(both(given("residual_flux_pu", "array"), given("residual_flux_wb", "array"))),
+    )
+
     @model_validator(mode="after")
     def _one_residual(self) -> Switching:
         if self.residual_flux_pu is not None and self.residual_flux_wb is not None:
@@ -257,6 +320,20 @@ class Study(Model):
         None, description="Supply at the energised terminals (nameplate mode); default ideal"
     )
     switching: Switching = Field(default_factory=Switching)
+
+    SCHEMA_RULES: ClassVar[Rules] = (
+        {"oneOf": [given("transformer"), given("circuit")]},
+        is_not(both(given("circuit"), given("source"))),
+        is_not(
+            both(
+                given("transformer"),
+                {
+                    "required": ["switching"],
+                    "properties": {"switching": given("residual_flux_wb", "array")},
+                },
+            )
+        ),
+    )
 
     @model_validator(mode="after")
     def _one_mode(self) -> Study:

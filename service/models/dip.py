@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, ClassVar, Literal
 
 from pydantic import Field, model_validator
 
@@ -13,8 +13,11 @@ from service.models.common import (
     ImpedanceSource,
     Method,
     Model,
+    Rules,
     Study,
     WarningItem,
+    given,
+    implies,
 )
 
 
@@ -31,6 +34,10 @@ class GeneratorIn(Model):
     t_d1o_s: float | None = Field(None, gt=0.05, le=50.0, description="T'do [s] (or t_d1_s)")
     armature_resistance_pu: float | None = Field(
         None, ge=0.0, le=0.1, description="Armature resistance [pu]; default 0.01 (from memory)"
+    )
+
+    SCHEMA_RULES: ClassVar[Rules] = (
+        {"oneOf": [given("t_d1_s", "number"), given("t_d1o_s", "number")]},
     )
 
     @model_validator(mode="after")
@@ -102,6 +109,19 @@ class DipOptions(Model):
         "worst", description="Dip from the deeper of phase and line voltages, or one of them"
     )
 
+    SCHEMA_RULES: ClassVar[Rules] = (
+        implies(
+            {"required": ["size_for"], "properties": {"size_for": {"const": "custom"}}},
+            given("limits"),
+        ),
+    )
+
+    @model_validator(mode="after")
+    def _custom_size(self) -> DipOptions:
+        if self.size_for == "custom" and not isinstance(self.limits, CustomLimit):
+            raise ValueError("size_for 'custom' needs limits to be a custom limit")
+        return self
+
 
 Source = Annotated[GeneratorIn | UtilityIn, Field(discriminator="kind")]
 ExcitationIn = Annotated[RegulatorIn | PresetExcitation, Field(discriminator="kind")]
@@ -121,6 +141,25 @@ class GeneratorDipRequest(Study):
     )
     bus_load: BusLoadIn | None = None
     options: DipOptions = Field(default_factory=DipOptions)
+
+    SCHEMA_RULES: ClassVar[Rules] = (
+        {
+            "required": ["transformer"],
+            "properties": {
+                "transformer": {"type": "object", "properties": {"phases": {"const": 3}}}
+            },
+        },
+        # exactly one of supply and source; a source here is a feeder with an impedance
+        {"oneOf": [given("supply"), given("source")]},
+        implies(
+            given("source"),
+            {
+                "properties": {
+                    "source": {"properties": {"kind": {"enum": ["fault_level", "impedance"]}}}
+                }
+            },
+        ),
+    )
 
     @model_validator(mode="after")
     def _nameplate(self) -> GeneratorDipRequest:
@@ -145,8 +184,6 @@ class GeneratorDipRequest(Study):
                 "source kind impedance for generator-dip needs resistance_ohm > 0 and "
                 "reactance_ohm > 0 (its X/R must be finite and > 0)"
             )
-        if self.options.size_for == "custom" and not isinstance(self.options.limits, CustomLimit):
-            raise ValueError("size_for 'custom' needs options.limits to be a custom limit")
         return self
 
 

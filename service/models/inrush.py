@@ -6,8 +6,17 @@ from typing import Any, Literal
 
 from pydantic import Field
 
-from service.models.common import CAUTION, Assumption, Method, Model, Study, WarningItem
+from service.models.common import (
+    CAUTION,
+    Assumption,
+    Method,
+    Model,
+    Study,
+    WarningItem,
+    x_rated,
+)
 from service.problems import Problem
+from service.settings import default_limit
 
 
 class PeakRequest(Study):
@@ -25,7 +34,7 @@ class AnalyticWindingPeak(Model):
     closing_angle_deg: float = Field(description="Winding voltage angle when energised [deg]")
     flux_offset_pu: float = Field(description="Centre of the first flux swing [pu of nominal]")
     first_peak_a: float = Field(description="First peak [A]")
-    first_peak_x_rated: float | None = Field(description="First peak / rated rms line current")
+    first_peak_x_rated: float | None = Field(description=x_rated("First peak"))
 
 
 class SimulatedLinePeak(Model):
@@ -33,7 +42,7 @@ class SimulatedLinePeak(Model):
 
     line: str
     first_peak_a: float = Field(description="Largest |i| in the first cycles [A]")
-    first_peak_x_rated: float | None = Field(description="First peak / rated rms line current")
+    first_peak_x_rated: float | None = Field(description=x_rated("First peak"))
     time_of_peak_s: float = Field(description="Instant of the peak after t = 0 [s]")
 
 
@@ -42,7 +51,7 @@ class WorstCase(Model):
 
     over: str = Field(description="What was varied to find it")
     peak_a: float
-    peak_x_rated: float | None
+    peak_x_rated: float | None = Field(description=x_rated("Worst first peak"))
     closing_angle_deg: float | None = Field(None, description="Phase-A angle giving it [deg]")
     line: str | None = None
     residual_flux_pu: float | None = Field(None, description="Residual flux assumed [pu]")
@@ -55,7 +64,7 @@ class PeakResponse(Model):
     first_peak_a: float = Field(
         description="Largest first peak of this event, simulated when simulated, else analytic [A]"
     )
-    first_peak_x_rated: float | None
+    first_peak_x_rated: float | None = Field(description=x_rated("Largest first peak"))
     analytic: list[AnalyticWindingPeak] | None
     simulated: list[SimulatedLinePeak] | None
     worst_case_simulated: WorstCase | None
@@ -73,14 +82,25 @@ class EnvelopeOptions(Model):
     """Simulation and analysis options."""
 
     duration_s: float = Field(
-        1.0, gt=0.0, le=10.0, description="Simulated time [s] (also capped by the service limit)"
+        1.0,
+        gt=0.0,
+        le=default_limit("max_duration_s"),
+        description="Simulated time [s]; the maximum is the service's default limit: an "
+        "operator may set a lower one (FIRSTCYCLE_MAX_DURATION_S), then longer durations get a "
+        "422 limit-exceeded",
     )
-    samples_per_cycle: int = Field(128, ge=16, le=4096, description="Output samples per cycle")
+    samples_per_cycle: int = Field(
+        128,
+        ge=16,
+        le=default_limit("max_samples_per_cycle"),
+        description="Output samples per cycle; the maximum is the service's default limit: an "
+        "operator may set a lower one (FIRSTCYCLE_MAX_SAMPLES_PER_CYCLE)",
+    )
     below_x_rated: float = Field(
         1.0,
         gt=0.0,
         le=100.0,
-        description="Threshold for time_below_s: per-cycle peak / rated rms current",
+        description=x_rated("Threshold for time_below_s, on the per-cycle peaks"),
     )
     below_current_a: float | None = Field(
         None, gt=0.0, le=1e9, description="Threshold in A (overrides below_x_rated)"
@@ -110,7 +130,7 @@ class LineEnvelopeOut(Model):
 
     line: str
     cycle_peaks_a: list[float] = Field(description="Peak |i| of each cycle [A]")
-    cycle_peaks_x_rated: list[float] | None
+    cycle_peaks_x_rated: list[float] | None = Field(description=x_rated("Peak of each cycle"))
     second_harmonic_ratio: list[float | None] = Field(description="|I2|/|I1| per cycle [-]")
     min_second_harmonic_ratio: float | None = Field(
         description="Minimum over the first harmonic_cycles cycles [-]"
@@ -125,7 +145,9 @@ class LineEnvelopeOut(Model):
         "the threshold [s]; null when not reached"
     )
     equivalent_rms_a: list[float] = Field(description="I_eq(t) at equivalent_rms_times_s [A]")
-    equivalent_rms_x_rated: list[float] | None
+    equivalent_rms_x_rated: list[float] | None = Field(
+        description=x_rated("I_eq(t) at equivalent_rms_times_s", "rms")
+    )
 
 
 class AnalyticEnvelope(Model):
@@ -164,9 +186,10 @@ class PeakBatchRequest(Model):
 
     cases: list[dict[str, Any]] = Field(
         min_length=1,
-        max_length=100_000,
-        description="The cases, each a PeakRequest body; at most the service's max_cases "
-        "(default 1000). Each is validated on its own.",
+        max_length=default_limit("max_cases"),
+        description="The cases, each a PeakRequest body, validated on its own. The maximum is "
+        "the service's default limit: an operator may set a lower one (FIRSTCYCLE_MAX_CASES), "
+        "then longer batches get a 422 limit-exceeded",
         json_schema_extra={"items": {"$ref": "#/components/schemas/PeakRequest"}},
     )
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, ClassVar, Literal
 
 from pydantic import Field, model_validator
 
@@ -11,8 +11,11 @@ from service.models.common import (
     Assumption,
     Method,
     Model,
+    Rules,
     SourceIn,
     WarningItem,
+    given,
+    x_rated,
 )
 from service.models.supplied import SuppliedStudy
 
@@ -186,10 +189,12 @@ class MitigationRequest(SuppliedStudy):
         None,
         gt=0.0,
         le=100.0,
-        description="Largest acceptable design-basis first peak [x rated line current]",
+        description=x_rated("Largest acceptable design-basis first peak"),
     )
     dip_duration_s: float = Field(5.0, ge=0.5, le=30.0, description="Simulated dip [s]")
     device_options: DeviceOptions = Field(default_factory=DeviceOptions)
+
+    SCHEMA_RULES: ClassVar[Rules] = (given("transformer"),)
 
     @model_validator(mode="after")
     def _nameplate(self) -> MitigationRequest:
@@ -229,7 +234,7 @@ class OptionOut(Model):
     evaluated: bool = Field(description="False when the option does not apply (see notes)")
     passes: bool = Field(description="Every check made of it passed")
     peak_a: float | None = Field(description="Design-basis first peak [A]")
-    peak_x_rated: float | None = Field(description="[x rated line current]")
+    peak_x_rated: float | None = Field(description=x_rated("Design-basis first peak"))
     peak_reduction_percent: float | None = Field(description="Against the baseline [%]")
     peak_line: str | None
     meets_target: bool | None
@@ -238,7 +243,9 @@ class OptionOut(Model):
     pole_delay_ms: list[float]
     residual_flux_pu: list[float]
     equivalent_rms_100ms_a: float | None = Field(description="Largest line I_eq(0.1 s) [A]")
-    equivalent_rms_100ms_x_rated: float | None
+    equivalent_rms_100ms_x_rated: float | None = Field(
+        description=x_rated("Largest line I_eq(0.1 s)", "rms")
+    )
     devices: list[OptionDeviceOut] | None
     dip: OptionDipOut | None
     parameters: list[Assumption] = Field(description="What defines the option, with provenance")
@@ -252,7 +259,7 @@ class SweepOut(Model):
     scale: float
     residual_flux_pu: list[float]
     peak_a: float
-    peak_x_rated: float
+    peak_x_rated: float = Field(description=x_rated("Worst first peak"))
 
 
 class MitigationResponse(Model):

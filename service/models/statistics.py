@@ -6,8 +6,9 @@ from typing import Annotated, Literal
 
 from pydantic import Field
 
-from service.models.common import CAUTION, Assumption, Method, Model, WarningItem
+from service.models.common import CAUTION, Assumption, Method, Model, WarningItem, x_rated
 from service.models.supplied import SuppliedStudy
+from service.settings import default_limit
 
 
 class FixedResidualIn(Model):
@@ -32,8 +33,10 @@ class StatisticsOptions(Model):
     samples: int = Field(
         10_000,
         ge=10,
-        le=100_000,
-        description="Number of switching events (also capped by the service limit)",
+        le=default_limit("max_statistics_samples"),
+        description="Number of switching events; the maximum is the service's default limit: an "
+        "operator may set a lower one (FIRSTCYCLE_MAX_STATISTICS_SAMPLES), then larger samples "
+        "get a 422 limit-exceeded",
     )
     random_state: int = Field(
         1, ge=0, le=2**32 - 1, description="Random generator state, for reproducible answers"
@@ -92,7 +95,7 @@ class PercentilesOut(Model):
     max_a: float
     p99_low_a: float | None = Field(description="Lower end of the P99 interval; null: unbounded")
     p99_high_a: float | None = Field(description="Upper end; null: unbounded at this size")
-    p99_x_rated: float | None
+    p99_x_rated: float | None = Field(description=x_rated("P99 of the first peak"))
 
 
 class ConvergenceOut(Model):

@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-from typing import Literal
+from typing import ClassVar, Literal
 
 from pydantic import Field, model_validator
 
 from service.models.clearance import Device
-from service.models.common import Study
+from service.models.common import Rules, Study, both, given, implies, is_not
 from service.models.dip import BusLoadIn, CustomLimit, ExcitationIn, GeneratorIn, PresetExcitation
 
 
@@ -32,6 +32,19 @@ class SuppliedStudy(Study):
         min_length=1,
         max_length=20,
         description="Protective devices on the energised side, judged against the inrush",
+    )
+
+    SCHEMA_RULES: ClassVar[Rules] = (
+        is_not(both(given("supply"), given("source"))),
+        implies(
+            given("supply"),
+            {
+                "required": ["transformer"],
+                "properties": {
+                    "transformer": {"type": "object", "properties": {"phases": {"const": 3}}}
+                },
+            },
+        ),
     )
 
     @model_validator(mode="after")

@@ -266,7 +266,7 @@ def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse
             req = PeakRequest.model_validate(raw)
             circuit, res, delay, assumptions = convert.study_inputs(req)
         except ValidationError as exc:
-            items[idx] = BatchItem(index=idx, status=422, problem=batch_problem(idx, exc))
+            items[idx] = BatchItem(index=idx, status=422, problem=batch_problem(idx, exc, raw))
             continue
         except CoreError as exc:
             items[idx] = BatchItem(index=idx, status=422, problem=batch_problem(idx, exc))

@@ -18,16 +18,24 @@ from fastapi import APIRouter, Depends, Query, Request
 from fastapi.concurrency import run_in_threadpool
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import Response
-from pydantic import BaseModel, ConfigDict, Field, ValidationError
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError
 
+from core.waveform import STANDARD_TIMES_S
 from service.models.inrush import EnvelopeRequest, PeakRequest
 from service.problems import PROBLEM_RESPONSES
 from service.routers.inrush import _envelope, _peak
-from service.settings import Settings, settings_dependency
+from service.settings import Settings, default_limit, settings_dependency
 from service.version import API_VERSION
 
 router = APIRouter(prefix="/v1/sheet", tags=["spreadsheet"], responses=PROBLEM_RESPONSES)
 SettingsDep = Annotated[Settings, Depends(settings_dependency)]
+
+
+def _integer_text(value: Any) -> Any:
+    """A query value is text: "3" is the integer 3 (an integer literal would reject "3")."""
+    if isinstance(value, str) and value.strip().isdigit():
+        return int(value.strip())
+    return value
 
 
 class SheetCase(BaseModel):
@@ -36,7 +44,9 @@ class SheetCase(BaseModel):
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     rating_kva: float = Field(ge=0.1, le=2_000_000.0, description="Rated power [kVA]")
-    phases: Literal[1, 3] = 3
+    phases: Annotated[Literal[1, 3], BeforeValidator(_integer_text)] = Field(
+        3, description="Number of phases"
+    )
     frequency_hz: float = Field(60.0, ge=10.0, le=400.0)
     voltage_kv: float = Field(ge=0.01, le=1000.0, description="Energised winding, line-to-line")
     connection: Literal["wye_grounded", "wye", "delta"] = "wye_grounded"
@@ -106,22 +116,43 @@ PeakQuantity = Literal[
 class PeakQuery(SheetCase):
     """Query of ``peak.txt``."""
 
-    quantity: PeakQuantity = Field(description="Which number to return")
+    quantity: PeakQuantity = Field(
+        description="Which number to return; the *_x_rated ones are the instantaneous peak "
+        "divided by the rated rms line current S/(sqrt(3)*V_LL) (S/V for one phase)"
+    )
 
 
 class IeqQuery(SheetCase):
     """Query of ``ieq.txt``."""
 
-    time_s: float = Field(0.1, ge=0.01, le=2.0, description="I_eq at this time [s]")
+    time_s: float = Field(
+        0.1,
+        ge=0.01,
+        le=2.0,
+        description="I_eq at this time [s]; at most duration_s when duration_s is given",
+    )
     line: Literal["A", "B", "C", "max"] = Field("max", description="Line, or the largest")
-    unit: Literal["a", "x_rated"] = Field("x_rated", description="Amperes or x rated")
-    duration_s: float = Field(1.0, gt=0.0, le=5.0, description="Simulated time [s]")
+    unit: Literal["a", "x_rated"] = Field(
+        "x_rated",
+        description="Amperes, or x_rated: I_eq divided by the rated rms line current "
+        "S/(sqrt(3)*V_LL) (S/V for one phase)",
+    )
+    duration_s: float = Field(
+        1.0,
+        gt=0.0,
+        le=default_limit("max_duration_s"),
+        description="Simulated time [s]; when left out, 1 s or time_s if later. I_eq(time_s) "
+        "does not depend on it (the simulation runs at least to the tabulated time at or after "
+        "time_s), but a given duration shorter than time_s is a contradiction and gets a 422",
+    )
 
 
 class TableQuery(SheetCase):
     """Query of the CSV tables."""
 
-    duration_s: float = Field(1.0, gt=0.0, le=5.0, description="Simulated time [s]")
+    duration_s: float = Field(
+        1.0, gt=0.0, le=default_limit("max_duration_s"), description="Simulated time [s]"
+    )
 
 
 def _request(model: type[PeakRequest] | type[EnvelopeRequest], data: dict[str, Any]) -> Any:
@@ -204,8 +235,24 @@ async def ieq_txt(
     request: Request, q: Annotated[IeqQuery, Query()], settings: SettingsDep
 ) -> Response:
     """I_eq(t) = sqrt((1/t) * integral of i^2) from the closing instant to ``time_s``."""
-    res = await run_in_threadpool(_envelope_for, q.model_copy(update={"duration_s": max(
-        q.duration_s, q.time_s)}), settings)  # fmt: skip
+    if "duration_s" in q.model_fields_set and q.time_s > q.duration_s:
+        raise RequestValidationError(
+            [
+                {
+                    "type": "less_than_equal",
+                    "loc": ("query", "time_s"),
+                    "msg": f"time_s is beyond the simulated duration_s of {q.duration_s:g} s; "
+                    "give a time within it or a longer duration_s",
+                    "input": q.time_s,
+                    "ctx": {"ge": 0.01, "le": q.duration_s},
+                }
+            ]
+        )
+    # I_eq is tabulated at fixed times up to the simulated time: run to the first one at or
+    # after time_s (a causal simulation: the extra time does not change I_eq(time_s)).
+    table_end = min((t for t in STANDARD_TIMES_S if t >= q.time_s), default=q.time_s)
+    simulated = q.model_copy(update={"duration_s": max(q.duration_s, table_end)})
+    res = await run_in_threadpool(_envelope_for, simulated, settings)
     times = res.equivalent_rms_times_s
     values: list[float] = []
     for line in res.lines:

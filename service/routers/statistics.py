@@ -234,7 +234,7 @@ def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsRespon
         dip_exceedance=dip_odds,
         confidence_level=dist.confidence_level,
         assumptions=assumptions,
-        warnings=[],
+        warnings=convert.warnings_out(ideal.warnings),
         method=Method(
             simulated=STATISTICS_METHOD,
             approximations=list(dict.fromkeys([*dist.approximations, *dip_approximations])),

@@ -1,9 +1,11 @@
 """Schemathesis fuzzing of every operation, in process: no 5xx, responses match the schema.
 
 All of schemathesis's checks run except ``positive_data_acceptance``: the service rightly rejects
-some schema-valid bodies with a 422 naming the field, for rules JSON Schema cannot express
-(exactly one of ``transformer``/``circuit``; the air-core inductance below the magnetising
-inductance; a circuit whose saturated time constant is too short to simulate). Those 422s are
+some schema-valid bodies with a 422 naming the field, for rules JSON Schema cannot express (the
+air-core inductance below the magnetising inductance; a circuit whose saturated time constant is
+too short to simulate; distinct device names; ordered reactances). The cross-field rules it can
+express (exactly one of ``transformer``/``circuit``, supply or source, ...) are in the contract
+under ``allOf``, so generated bodies mostly satisfy them. Those 422s are
 still checked to be problem documents that conform to the contract. For the batch operation
 ``negative_data_rejection`` is off too: an invalid case inside a valid batch is answered with
 its own problem document in a 200, by design.

@@ -6,8 +6,8 @@ by hand in the comments and integrated by scipy.integrate.quad, and physical lim
 comparison with scipy's Radau integrator is in tests/references/test_generator_references.py.
 
 Demo data as in tests/core/test_generator.py: the "Northgate" 1250 kVA 480 V standby generator
-(X''_d 0.15, X'_d 0.25 pu from the design notes; X_d 2.0 pu, T''_d 0.03 s, T'_d 0.8 s invented
-demo values) and the 2500 kVA unit's 480 V inner winding.
+(X''_d 0.15, X'_d 0.25 pu from the demo scenario, service/examples.py; X_d 2.0 pu,
+T''_d 0.03 s, T'_d 0.8 s invented demo values) and the 2500 kVA unit's 480 V inner winding.
 """
 
 from __future__ import annotations
@@ -37,7 +37,7 @@ R_NAME, T_NAME = "insertion_resistance_ohm", "insertion_time_s"
 
 
 def _northgate() -> generator.Generator:
-    # X''_d, X'_d from the design notes; X_d, T''_d, T'_d invented demo values
+    # X''_d, X'_d from the demo scenario; X_d, T''_d, T'_d invented demo values
     return generator.Generator(S_GEN, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
 
 

@@ -1,6 +1,6 @@
 """Tests of core.dip_limits: the ISO 8528-5 classes as recalled, and the verdicts against them.
 
-The class values are from memory (design notes §4), not checked against the standard; the tests
+The class values are from memory, not checked against the standard; the tests
 check the table as recalled and the judging logic, including the undecided cases.
 """
 
@@ -12,7 +12,7 @@ from core import dip_limits
 
 
 def test_iso_8528_5_classes_from_memory() -> None:
-    # ISO 8528-5 performance classes as recalled in the design notes (from memory, not checked
+    # ISO 8528-5 performance classes as recalled (from memory, not checked
     # against the standard): G1 -25 %/10 s, G2 -20 %/6 s, G3 -15 %/4 s, G4 by agreement.
     got = {c.name: (c.max_dip_percent, c.max_recovery_s) for c in dip_limits.ISO_8528_5_CLASSES}
     assert got == {"G1": (25.0, 10.0), "G2": (20.0, 6.0), "G3": (15.0, 4.0), "G4": (None, None)}

@@ -4,8 +4,9 @@ core.dip_sizing (dip against rating, the smallest passing generator).
 Limiting cases are solved by hand in the comments; the comparison of the coupled equations with
 scipy's Radau integrator is in tests/references/test_generator_references.py.
 
-Demo data (design notes §5, invented): "Northgate" 1250 kVA 480 V standby generator,
-X''_d 0.15 pu and X'_d 0.25 pu from the notes; X_d 2.0 pu, T''_d 0.03 s and T'_d 0.8 s are
+Demo data (the invented scenario of service/examples.py and the README): "Northgate" 1250 kVA
+480 V standby generator,
+X''_d 0.15 pu and X'_d 0.25 pu from the scenario; X_d 2.0 pu, T''_d 0.03 s and T'_d 0.8 s are
 invented demo values chosen here (typical of a small salient-pole set, from memory), not
 data of any machine.
 """
@@ -30,7 +31,7 @@ RESIDUAL = (0.8, -0.4, -0.4)
 
 
 def _northgate() -> generator.Generator:
-    # X''_d, X'_d from the design notes; X_d, T''_d, T'_d invented demo values (see above)
+    # X''_d, X'_d from the demo scenario; X_d, T''_d, T'_d invented demo values (see above)
     return generator.Generator(S_GEN, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
 
 

@@ -1,5 +1,5 @@
 """core/ stays pure numeric code: no web framework, validation models, service layer, logging
-or printing (design notes §2; style rule 6), and no ``assert`` used for validation (rule 7)."""
+or printing (the layering DEVELOPERS.md describes), and no ``assert`` used for validation."""
 
 from __future__ import annotations
 

@@ -123,7 +123,7 @@ def _brute_force_theta(
     return theta, trip
 
 
-# very inverse, IEEE C37.112 (design.md §4, from memory): A 19.61 s, B 0.491 s, p 2, tr 21.6 s
+# very inverse, IEEE C37.112 Table 1 (from memory): A 19.61 s, B 0.491 s, p 2, tr 21.6 s
 VI = (19.61, 0.491, 2.0, 21.6)
 
 

@@ -17,10 +17,10 @@ Equations (per phase k, Kirchhoff's voltage law; d-axis model, Kundur 1994 ch. 4
     T'_do dE'_q/dt = E_fd - E'_q - (X_d - X'_d)*i_d
     T_R dV_s/dt = |v_dq| - V_s,  T_A dE_fd/dt = K_A*(V_ref - V_s) - E_fd  (held at its limits)
 
-Case: the demo back-feed (1250 kVA machine, X''_d 0.15, X'_d 0.25 pu from the design notes;
-X_d 2.0 pu, T''_d 0.03 s, T'_d 0.8 s invented demo values) energising the 2500 kVA unit's 480 V
-inner winding, residual 0.8/-0.4/-0.4 pu, with a 400 kW + 300 kvar bus load and the conservative
-"unknown" regulator, which reaches its ceiling within the compared window.
+Case: the demo back-feed (1250 kVA machine, X''_d 0.15, X'_d 0.25 pu from the demo scenario in
+service/examples.py; X_d 2.0 pu, T''_d 0.03 s, T'_d 0.8 s invented demo values) energising the 2500
+kVA unit's 480 V inner winding, residual 0.8/-0.4/-0.4 pu, with a 400 kW + 300 kvar bus load and the
+conservative "unknown" regulator, which reaches its ceiling within the compared window.
 
 solve_ivp: Radau, rtol 1e-9, max_step T/200 (scipy's LSODA was seen to stall on the sharp
 knee of these equations; Radau, an implicit method with step control, steps through it).

@@ -1,10 +1,10 @@
 """Reference values worked by hand from the standards' own equations and constants.
 
 Each expected value is written twice: as the arithmetic on the standard's constants and as the
-rounded result, so a reader can redo it on paper. The constants themselves were taken from the
-team's design notes and recalled from memory, not read from the documents in this session; each
-block says so. Tolerances: 1e-12 relative against the arithmetic (same formula, float rounding
-only), and half a unit in the last printed digit against the rounded literal.
+rounded result, so a reader can redo it on paper. The constants themselves were recalled from
+memory, not read from the documents in this session; each block says so. Tolerances: 1e-12
+relative against the arithmetic (same formula, float rounding only), and half a unit in the last
+printed digit against the rounded literal.
 """
 
 from __future__ import annotations
@@ -17,7 +17,7 @@ from core import damage, relay_curves
 # --------------------------------------------------------------------------------------------
 # IEEE Std C37.112-1996 (and -2018), Table 1: t = TD·(A/(M^p − 1) + B); t_r = TD·tr/(1 − M²).
 # Constants MI 0.0515/0.1140/0.02/4.85, VI 19.61/0.491/2/21.6, EI 28.2/0.1217/2/29.1
-# (from memory, as given in design.md §4; the document was not at hand).
+# (from memory; the document was not at hand).
 # --------------------------------------------------------------------------------------------
 IEEE_C37_112_TABLE_1_CASES = [
     # (curve, time dial, M, arithmetic, rounded literal [s])
@@ -60,7 +60,7 @@ def test_ieee_c37_112_table_1_reset_times(
 
 # --------------------------------------------------------------------------------------------
 # IEC 60255-151:2009, Table 1, curves A-C: t = TMS·k/(M^α − 1), SI 0.14/0.02, VI 13.5/1,
-# EI 80/2 (from memory, as given in design.md §4). Long-time inverse 120/1: BS 142 practice.
+# EI 80/2 (from memory). Long-time inverse 120/1: BS 142 practice.
 # --------------------------------------------------------------------------------------------
 IEC_60255_151_TABLE_1_CASES = [
     # (curve, TMS, M, arithmetic, rounded literal [s])
@@ -86,7 +86,7 @@ def test_iec_60255_151_table_1_trip_times(
 # --------------------------------------------------------------------------------------------
 # IEEE Std C57.12.00 short-circuit categories as used by IEEE Std C57.109-1993 clause 4:
 # single-phase I 5-500, II 501-1667, III 1668-10 000, IV above; three-phase I 15-500,
-# II 501-5000, III 5001-30 000, IV above (kVA; from memory, as given in design.md §4).
+# II 501-5000, III 5001-30 000, IV above (kVA; from memory).
 # --------------------------------------------------------------------------------------------
 C57_12_00_CATEGORY_BOUNDARIES = [
     (1, 5.0, "I"),
@@ -123,11 +123,11 @@ def test_c57_109_thermal_curve_points() -> None:
 
 
 def test_c57_109_category_ii_frequent_fault_worked_example() -> None:
-    # Invented demo unit (design.md §5): 2500 kVA three-phase, Z_T = 5.75 %, source 250 MVA, so
-    # Z_S = 2.5/250 = 0.01 pu and I_sc = 1/(0.0575 + 0.01) = 14.815 pu. Category II frequent
-    # faults: I²t = K = 2·I_sc² = 438.96 pu²·s from 0.7·I_sc = 10.370 pu (C57.109-1993 clause 4;
-    # K = 2·I_sc² and the 70 % start are from memory). At 12 pu: 438.96/144 = 3.0483 s, thermal
-    # would give 1250/144 = 8.6806 s.
+    # Invented demo unit (service/examples.py): 2500 kVA three-phase, Z_T = 5.75 %, source 250 MVA,
+    # so Z_S = 2.5/250 = 0.01 pu and I_sc = 1/(0.0575 + 0.01) = 14.815 pu. Category II frequent
+    # faults: I²t = K = 2·I_sc² = 438.96 pu²·s from 0.7·I_sc = 10.370 pu (C57.109-1993 clause 4; K =
+    # 2·I_sc² and the 70 % start are from memory). At 12 pu: 438.96/144 = 3.0483 s, thermal would
+    # give 1250/144 = 8.6806 s.
     i_r = 2500e3 / (np.sqrt(3.0) * 480.0)  # 3007 A on the 480 V winding
     i_sc = 1.0 / (0.0575 + 0.01)
     k = 2.0 * i_sc**2

@@ -160,11 +160,21 @@ def test_wrong_residual_length_rejected(client: TestClient) -> None:
 def test_duration_over_limit_is_422_limit(
     client: TestClient, monkeypatch: pytest.MonkeyPatch
 ) -> None:
+    from service.settings import get_settings
+
     req = copy.deepcopy(ENVELOPE_REQUESTS["northgate_lighting"])
-    req["options"]["duration_s"] = 8.0
+    req["options"]["duration_s"] = 8.0  # over the contract's maximum: invalid input
+    body = _problem(client.post("/v1/inrush/envelope", json=req), 422)
+    assert body["type"] == "urn:firstcycle:problem:invalid-input"
+    assert body["errors"][0]["allowed"] == "<= 5.0"  # type: ignore[index]
+    monkeypatch.setenv("FIRSTCYCLE_MAX_DURATION_S", "0.5")  # an operator's lower limit
+    get_settings.cache_clear()
+    req["options"]["duration_s"] = 1.0
     body = _problem(client.post("/v1/inrush/envelope", json=req), 422)
     assert body["type"] == "urn:firstcycle:problem:limit-exceeded"
-    assert "5" in str(body["errors"])
+    assert body["errors"][0]["field"] == "options.duration_s"  # type: ignore[index]
+    assert body["errors"][0]["allowed"] == "<= 0.5"  # type: ignore[index]
+    get_settings.cache_clear()
 
 
 def test_stiff_circuit_is_rejected_not_hung(client: TestClient) -> None:
@@ -182,11 +192,14 @@ def test_body_too_large_is_413(client: TestClient) -> None:
     _problem(r, 413)
 
 
-def test_malformed_json_is_422(client: TestClient) -> None:
+def test_malformed_json_is_400_with_line_and_column(client: TestClient) -> None:
+    # RFC 9110 section 15.5.1: malformed syntax is a 400 (422 is for well-formed content)
     r = client.post(
         "/v1/inrush/peak", content=b"{not json", headers={"content-type": "application/json"}
     )
-    _problem(r, 422)
+    body = _problem(r, 400)
+    assert body["type"] == "urn:firstcycle:problem:malformed-json"
+    assert "line 1, column 2" in str(body["detail"])
 
 
 def test_unknown_path_and_method(client: TestClient) -> None:
@@ -197,7 +210,13 @@ def test_unknown_path_and_method(client: TestClient) -> None:
 
 
 def test_health(client: TestClient) -> None:
-    assert client.get("/healthz").json() == {"status": "ok"}
+    from importlib.metadata import version
+
+    assert client.get("/healthz").json() == {
+        "status": "ok",
+        "api_version": client.get("/v1/openapi.json").json()["info"]["version"],
+        "package_version": version("firstcycle"),  # pyproject.toml's, as installed
+    }
     assert client.get("/readyz").json() == {"status": "ready"}
 
 

@@ -75,3 +75,47 @@ def test_bad_query_names_the_parameter(client: TestClient) -> None:
 def test_nan_in_query_rejected(client: TestClient) -> None:
     r = client.get(BASE.replace("x_over_r=7", "x_over_r=nan") + "&quantity=first_peak_a")
     assert r.status_code == 422
+
+
+LIGHTING = (
+    "rating_kva=112.5&voltage_kv=0.48&connection=delta&position=outer&impedance_percent=4.5"
+    "&x_over_r=2&no_load_current_percent=1.5"
+)
+
+
+@pytest.mark.parametrize("phases", ["1", "3"])
+def test_phases_from_the_query_string(client: TestClient, phases: str) -> None:
+    # the real query string: "phases=3" arrives as text and must be taken as the integer 3
+    r = client.get(f"/v1/sheet/inrush/peak.txt?{LIGHTING}&phases={phases}&quantity=rated_current_a")
+    assert r.status_code == 200, r.text
+    # rated line current S/(sqrt(3)*V) for three phases, S/V for one (IEEE C57.12.00 bases)
+    expected = 112_500 / (math.sqrt(3) * 480) if phases == "3" else 112_500 / 480
+    assert float(r.text) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize("phases", ["2", "three", "3.0"])
+def test_other_phases_are_422(client: TestClient, phases: str) -> None:
+    r = client.get(f"/v1/sheet/inrush/peak.txt?{LIGHTING}&phases={phases}&quantity=rated_current_a")
+    assert r.status_code == 422
+    assert r.json()["errors"][0]["field"] == "phases"
+
+
+def test_ieq_time_beyond_the_given_duration_is_422(client: TestClient) -> None:
+    r = client.get(f"/v1/sheet/inrush/ieq.txt?{LIGHTING}&time_s=0.5&duration_s=0.2")
+    assert r.status_code == 422
+    err = r.json()["errors"][0]
+    assert err["field"] == "time_s"
+    assert err["value"] == "0.5"
+    assert err["allowed"] == ">= 0.01, <= 0.2"
+
+
+def test_ieq_between_table_times_is_answered(client: TestClient) -> None:
+    # 0.3 s lies between the tabulated 0.2 s and 0.5 s: a duration of 0.3 s used to leave the
+    # table short of it and the cell empty
+    url = f"/v1/sheet/inrush/ieq.txt?{LIGHTING}&time_s=0.3&unit=a"
+    short = client.get(url + "&duration_s=0.3")
+    long = client.get(url + "&duration_s=2")
+    assert short.status_code == 200
+    assert short.text != ""
+    # I_eq(0.3 s) does not depend on how long the simulation runs past it (causality)
+    assert float(short.text) == float(long.text)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import copy
 
+import pytest
 from fastapi.testclient import TestClient
 
 from service.examples import STATISTICS_REQUESTS
@@ -33,12 +34,23 @@ def test_worst_line_p99_not_below_any_line(client: TestClient) -> None:
     assert body["worst_line"]["p99_a"] >= max(line["p99_a"] for line in body["lines"]) - 1e-9
 
 
-def test_samples_over_the_limit_is_a_limit_problem(client: TestClient) -> None:
+def test_samples_over_the_limit_is_a_limit_problem(
+    client: TestClient, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    from service.settings import get_settings
+
     req = copy.deepcopy(REQ)
-    req["options"]["samples"] = 50_000
+    req["options"]["samples"] = 50_000  # over the contract's maximum (20 000): invalid input
+    r = client.post("/v1/inrush/statistics", json=req)
+    assert r.status_code == 422
+    assert r.json()["errors"][0]["field"] == "options.samples"
+    monkeypatch.setenv("FIRSTCYCLE_MAX_STATISTICS_SAMPLES", "1000")  # an operator's lower limit
+    get_settings.cache_clear()
+    req["options"]["samples"] = 2000
     r = client.post("/v1/inrush/statistics", json=req)
     assert r.status_code == 422
     assert r.json()["type"] == "urn:firstcycle:problem:limit-exceeded"
+    get_settings.cache_clear()
 
 
 def test_device_and_dip_odds_from_the_first_events(client: TestClient) -> None:
