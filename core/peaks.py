@@ -72,6 +72,11 @@ def flux_of_current(curve: MagnetizingCurve, current_a: FloatArray) -> FloatArra
     beyond the last one lambda_k + (|i| - i_k)*L_final. Smooth knee: Newton's method on
     f(lambda) - |i|, f convex-then-linear and increasing, from the unsaturated estimate clipped
     into a bracket and bisected whenever a step leaves it, to double precision.
+
+    References
+    ----------
+    The curves' definitions in :mod:`core.magnetizing`; Newton's method with bisection
+    safeguard (common practice).
     """
     i = np.asarray(current_a, dtype=float)
     x = np.abs(i)
@@ -146,7 +151,11 @@ def _refine(
     poles = pole_delay_s[case]
     closes = np.maximum(poles, np.roll(poles, -1, axis=1)) if first.connection == "delta" else poles
     energised = closes <= t0[:, None] + 1e-9 * sample_s
-    lam0 = np.stack([flux_of_current(c.curve, cur0[k]) for k, c in enumerate(circ)])
+    lam0 = np.empty_like(cur0)
+    owner = np.array([id(c) for c in circ])
+    for key in np.unique(owner):  # one inverse per circuit, over all its windows
+        rows = owner == key
+        lam0[rows] = flux_of_current(circ[int(np.argmax(rows))].curve, cur0[rows])
     res = np.where(energised, lam0 / lam_n[:, None], residual_flux_pu[case])
     sim = energize.simulate(
         circ,
@@ -255,7 +264,13 @@ def first_peaks(
     Notes
     -----
     The candidate is the largest sample of each line; the peak is then read from the dense
-    re-integration of the two sample intervals around it (module docstring).
+    re-integration of the two sample intervals around it (module docstring), with the vertex
+    y1 + (y0 - y2)^2/(8*(2*y1 - y0 - y2)) of the parabola through the last three samples.
+
+    References
+    ----------
+    Integrator: classical Runge-Kutta (Kutta 1901) through :func:`core.energize.simulate`;
+    accuracy against a piecewise-exact reference in tests/references/test_piecewise_reference.py.
     """
     lines = sim.line_current_a
     n, m, _ = lines.shape
@@ -292,6 +307,10 @@ def cycle_peaks(
     The candidate of each cycle is its largest sample; the dense re-integration around it is
     confined to the cycle, so that a peak just past its end counts in the next one, as with
     samples (module docstring).
+
+    References
+    ----------
+    As :func:`first_peaks`.
     """
     lines = sim.line_current_a
     n, m, n_samples = lines.shape
