@@ -142,7 +142,7 @@ def _refine(
     """
     first = circuits[0]
     f = first.frequency_hz
-    factor = min(_STAGE_FACTOR, MAX_SAMPLES_PER_CYCLE // samples_per_cycle)
+    factor = max(1, min(_STAGE_FACTOR, MAX_SAMPLES_PER_CYCLE // samples_per_cycle))
     fine = samples_per_cycle * factor
     t0 = start * sample_s
     circ = [circuits[c] for c in case]
