@@ -88,7 +88,9 @@ references sampled at the output instants the coupled kernel is within 4.2e-5 (d
 Radau's own error: against DOP853 at rtol 1e-12 the samples agree to 6e-6) and 8e-6 (wye). The
 rest is the reading of a peak from 128 samples per cycle (a parabola through the three around the
 largest), which the floating-neutral current, with a corner wherever a phase crosses the knee,
-defeats most; more samples per cycle reduce it (2.3e-3 becomes 1.2e-4 at 2048). With the
+defeats most; more samples per cycle reduce it (2.3e-3 becomes 1.2e-4 at 2048). The studies
+read their peaks exactly instead (:mod:`core.peaks`: within 6.3e-6 of the first peak against a
+piecewise-exact reference, tests/references/test_piecewise_reference.py). With the
 mitigation, against the same references integrated interval by interval between the bypass and
 the ramp's corners (a resistor of 0.3 of the saturated loop reactance, a third of that for a
 delta, bypassed at 4.3 cycles; a ramp from 0.3 pu held one cycle, then rising over three), as

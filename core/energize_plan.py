@@ -395,7 +395,18 @@ def element_curves(
     flux = np.zeros((n, width))
     cur = np.zeros((n, width))
     npts = np.full(n, 2, dtype=np.int64)
+    done: dict[int, int] = {}  # a circuit repeated over many cases is laid out once
     for idx, circ in enumerate(circuits):
+        seen = done.setdefault(id(circ), idx)
+        if seen != idx:
+            kind[idx], par[idx], flux[idx], cur[idx], npts[idx] = (
+                kind[seen],
+                par[seen],
+                flux[seen],
+                cur[seen],
+                npts[seen],
+            )
+            continue
         cv = circ.curve
         if isinstance(cv, PiecewiseLinearCurve):
             p = cv.flux_wb.size

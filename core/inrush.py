@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from core import analytic, energize, waveform
+from core import analytic, energize, peaks, waveform
 from core.errors import ParameterError
 from core.transformer import EquivalentCircuit
 
@@ -24,6 +24,7 @@ FloatArray = NDArray[np.float64]
 __all__ = [
     "ANALYTIC_METHOD",
     "SIMULATED_METHOD",
+    "AnalyticEnvelope",
     "EnvelopeStudy",
     "LinePeak",
     "PeakStudy",
@@ -64,12 +65,20 @@ def line_names(circuit: EquivalentCircuit) -> tuple[str, ...]:
 
 @dataclass(frozen=True)
 class WindingEstimate:
-    """Closed-form first peak of one winding."""
+    """Closed-form first peak of one winding and of the line at its leading terminal.
+
+    ``winding_peak_a`` is the winding's own current; ``line_peak_a`` the current of ``line``
+    (A for winding A or AB, B for B or BC, C for C or CA), the same for single-phase and wye
+    windings, the difference of two winding currents for a delta
+    (:func:`core.analytic.line_first_peaks`) [A].
+    """
 
     winding: str
+    line: str
     closing_angle_deg: float
     flux_offset_pu: float
-    first_peak_a: float
+    winding_peak_a: float
+    line_peak_a: float
 
 
 @dataclass(frozen=True)
@@ -86,9 +95,13 @@ class PeakStudy:
     """Result of :func:`peak_study`; currents in [A], angles in [deg]."""
 
     rated_current_a: float
+    rated_winding_current_a: float
     analytic: tuple[WindingEstimate, ...] | None
     analytic_worst_a: float | None
     analytic_worst_residual_pu: float | None
+    analytic_worst_angle_deg: float | None
+    analytic_worst_line: str | None
+    analytic_worst_winding_a: float | None
     simulated: tuple[LinePeak, ...] | None
     simulated_worst_angle_deg: float | None
     simulated_worst_a: float | None
@@ -171,6 +184,7 @@ def worst_closing_angles(
     duration_s: float,
     max_steps: int | None = None,
     per_case: Mapping[str, FloatArray] | None = None,
+    exact: bool = False,
 ) -> tuple[FloatArray, FloatArray]:
     """Closing angle of the largest peak of each case, searched for all cases at once.
 
@@ -189,6 +203,9 @@ def worst_closing_angles(
     per_case : mapping of str to ndarray, shape (n_cases,), or None
         Further per-case keyword arguments of :func:`core.energize.simulate` (a pre-insertion
         resistor, a voltage ramp), repeated with each trial angle.
+    exact : bool
+        Read the peaks at the angles found exactly (:func:`core.peaks.first_peaks`; only
+        without ``per_case``); the search itself reads them from samples.
 
     Returns
     -------
@@ -222,6 +239,8 @@ def worst_closing_angles(
     best = energize.simulate(circuits, center, residual_flux_pu, pole_delay_s,
                              duration_s=duration_s, samples_per_cycle=128, max_steps=max_steps,
                              **extra)  # fmt: skip
+    if exact and not extra:
+        return center, peaks.first_peaks(circuits, center, residual_flux_pu, best).peak_a
     return center, energize.refined_abs_peak(best.line_current_a)
 
 
@@ -240,15 +259,14 @@ def _simulated_batch(
     duration = cycles / f + float(delay.max())
     sim = energize.simulate(circuits, angles, res, delay, duration_s=duration,
                             samples_per_cycle=128, max_steps=max_steps)  # fmt: skip
-    k = np.argmax(np.abs(sim.line_current_a), axis=-1)
-    first = energize.refined_abs_peak(sim.line_current_a)
+    first = peaks.first_peaks(circuits, angles, res, sim)
     center, best_peaks = worst_closing_angles(
-        circuits, res, delay, duration_s=duration, max_steps=max_steps
+        circuits, res, delay, duration_s=duration, max_steps=max_steps, exact=True
     )
     out: list[_Simulated] = []
     for i in range(n):
         part = tuple(
-            LinePeak(lines[j], float(first[i, j]), float(sim.time_s[k[i, j]]))
+            LinePeak(lines[j], float(first.peak_a[i, j]), float(first.time_s[i, j]))
             for j in range(len(lines))
         )
         ph = int(np.argmax(best_peaks[i]))
@@ -355,7 +373,11 @@ def peak_study(
     -----
     Analytic: per winding I = I_A*max(|b_R + cos(alpha_w)| + 1 - b_S, 0) with
     I_A = sqrt(2)*V_w/sqrt(X^2 + R^2) of the saturated loop, alpha_w the winding's voltage
-    angle when it is energised; the worst case is Wang's formula with the largest |b_R|.
+    angle when it is energised; per line :func:`core.analytic.line_first_peaks` (for a delta
+    the difference of the two windings' closed-form currents); the worst case is the largest
+    line peak over the closing angle for the given residual fluxes
+    (:func:`core.analytic.worst_line_first_peak`), Wang's formula with the largest |b_R| for
+    windings that are their own lines, which is also returned for the winding.
     Simulated: :func:`core.energize.simulate` over ``cycles`` and
     :func:`core.energize.worst_closing_angle` for the same residual flux and pole delays.
     """
@@ -369,8 +391,8 @@ def peak_study(
     names = winding_names(circuit)
     x = 2.0 * math.pi * circuit.frequency_hz * L
     analytic_part: tuple[WindingEstimate, ...] | None = None
-    worst_a: float | None = None
-    worst_res: float | None = None
+    worst_a = worst_res = worst_angle = worst_winding = None
+    worst_line: str | None = None
     if method in ("analytic", "both"):
         angles = winding_angles(circuit, closing_angle_deg, delay)
         d = analytic.flux_offset_pu(res, angles)
@@ -379,17 +401,27 @@ def peak_study(
                 circuit.winding_voltage_v, circuit.frequency_hz, L, r, 0.0, 1.0
             )
         )  # sqrt(2) V / |Z| times (2 + 0 - 1) = 1
-        peaks = amp * np.maximum(np.abs(d) + 1.0 - b_s, 0.0)
+        winding_peaks = amp * np.maximum(np.abs(d) + 1.0 - b_s, 0.0)
+        delta = circuit.connection == "delta"
+        shift = winding_angles(circuit, 0.0, np.zeros_like(delay))
+        line_peaks = analytic.line_first_peaks(amp, d, closing_angle_deg + shift, b_s, delta)
+        lines = line_names(circuit)
         analytic_part = tuple(
-            WindingEstimate(n, float(np.mod(a, 360.0)), float(dd), float(p))
-            for n, a, dd, p in zip(names, angles, d, peaks, strict=True)
+            WindingEstimate(n, ln, float(np.mod(a, 360.0)), float(dd), float(p), float(q))
+            for n, ln, a, dd, p, q in zip(
+                names, lines, angles, d, winding_peaks, line_peaks, strict=True
+            )
         )
         worst_res = float(np.abs(res).max())
-        worst_a = float(
+        worst_winding = float(
             analytic.first_peak_wang(
                 circuit.winding_voltage_v, circuit.frequency_hz, L, r, worst_res, b_s
             )
         )
+        worst_a, worst_angle, j = analytic.worst_line_first_peak(
+            amp, res, shift, winding_angles(circuit, 0.0, delay) - shift, b_s, delta
+        )
+        worst_line = lines[j]
         if r / x > ANALYTIC_VALIDITY_R_OVER_X:
             warnings.append(
                 (
@@ -429,9 +461,13 @@ def peak_study(
         approx = (*approx, "closed form: each winding treated as a single-phase circuit")
     return PeakStudy(
         rated_current_a=circuit.rated_line_current_a,
+        rated_winding_current_a=circuit.rated_winding_current_a,
         analytic=analytic_part,
         analytic_worst_a=worst_a,
         analytic_worst_residual_pu=worst_res,
+        analytic_worst_angle_deg=worst_angle,
+        analytic_worst_line=worst_line,
+        analytic_worst_winding_a=worst_winding,
         simulated=sim_part,
         simulated_worst_angle_deg=w_angle,
         simulated_worst_a=w_peak,
@@ -460,6 +496,21 @@ class LineEnvelope:
 
 
 @dataclass(frozen=True)
+class AnalyticEnvelope:
+    """Closed-form per-cycle peaks of one winding and of the line at its leading terminal.
+
+    ``simulated_over_analytic`` is the simulated per-cycle peak of ``line`` over
+    ``line_cycle_peaks_a`` (nan where the closed form has no saturation) [-]; currents [A].
+    """
+
+    winding: str
+    line: str
+    winding_cycle_peaks_a: FloatArray
+    line_cycle_peaks_a: FloatArray
+    simulated_over_analytic: FloatArray
+
+
+@dataclass(frozen=True)
 class EnvelopeStudy:
     """Result of :func:`envelope_study`."""
 
@@ -467,7 +518,7 @@ class EnvelopeStudy:
     frequency_hz: float
     lines: tuple[LineEnvelope, ...]
     equivalent_rms_times_s: FloatArray
-    analytic_cycle_peaks_a: tuple[tuple[str, FloatArray], ...]
+    analytic: tuple[AnalyticEnvelope, ...]
     below_threshold_a: float
     harmonic_cycles: int
     waveform_time_s: FloatArray | None
@@ -490,6 +541,7 @@ def envelope_study(
     harmonic_cycles: int = 5,
     waveform_points: int = 0,
     max_steps: int | None = None,
+    equivalent_rms_times_s: ArrayLike | None = None,
 ) -> EnvelopeStudy:
     """Per-cycle envelope, rms over time and harmonic content of one energisation.
 
@@ -518,6 +570,9 @@ def envelope_study(
         Return the line currents decimated to at most this many points per line (0: none) [-].
     max_steps : int or None
         Compute limit, see :func:`core.energize.simulate` [-].
+    equivalent_rms_times_s : array_like or None
+        Times at which I_eq(t) is tabulated, within the record; None for
+        :data:`core.waveform.STANDARD_TIMES_S` up to the simulated time [s].
 
     Returns
     -------
@@ -525,8 +580,11 @@ def envelope_study(
 
     Notes
     -----
-    I_eq(t) is tabulated at :data:`core.waveform.STANDARD_TIMES_S` up to the simulated time.
-    The analytic envelope is :func:`core.analytic.peak_envelope_holcomb` per winding.
+    Per-cycle peaks are read exactly (:func:`core.peaks.cycle_peaks`). I_eq(t) is tabulated
+    at :data:`core.waveform.STANDARD_TIMES_S` up to the simulated time, or at the times given.
+    The analytic envelope is :func:`core.analytic.peak_envelope_holcomb` per winding, and per
+    line :func:`core.analytic.line_first_peaks` on each cycle's decayed flux offsets
+    (:func:`core.analytic.flux_offsets_holcomb`).
     """
     res, delay, warnings = _common_checks(circuit, residual_flux_pu, pole_delay_s)
     if not (isinstance(harmonic_cycles, int) and harmonic_cycles >= 1):
@@ -552,12 +610,15 @@ def envelope_study(
     if n_cycles < 1:
         raise ParameterError("duration_s", duration_s, f">= one cycle ({1.0 / f:g} s)")
     cur = sim.line_current_a[0]
-    peaks = waveform.cycle_peaks(cur, spc)
+    cyc_peaks = peaks.cycle_peaks([circuit], np.array([closing_angle_deg]), res[None, :], sim)[0]
     h2 = waveform.harmonic_ratio(cur, spc, 2)
     t_end = float(sim.time_s[-1])
-    times = np.array([t for t in waveform.STANDARD_TIMES_S if t <= t_end * (1 + 1e-12)])
-    if times.size == 0:
-        times = np.array([t_end])
+    if equivalent_rms_times_s is not None:
+        times = np.asarray(equivalent_rms_times_s, dtype=float)
+    else:
+        times = np.array([t for t in waveform.STANDARD_TIMES_S if t <= t_end * (1 + 1e-12)])
+        if times.size == 0:
+            times = np.array([t_end])
     ieq = waveform.equivalent_rms(cur, float(sim.time_s[1]), times)
     # magnetising-level floor for the decay fit: twice the steady peak magnetising current
     lam_n = circuit.nominal_flux_wb
@@ -565,18 +626,22 @@ def envelope_study(
     lines_out = []
     hc = min(harmonic_cycles, n_cycles)
     for j, name in enumerate(line_names(circuit)):
-        fit = waveform.decay_time_constant(peaks[j], f, floor)
+        fit = waveform.decay_time_constant(cyc_peaks[j], f, floor)
         window = h2[j, :hc]
         if np.all(np.isnan(window)):
             mn, at = math.nan, 0
         else:
             at = int(np.nanargmin(window))
             mn = float(window[at])
-        tb = waveform.time_below(peaks[j], threshold, f) if math.isfinite(threshold) else math.nan
+        tb = (
+            waveform.time_below(cyc_peaks[j], threshold, f)
+            if math.isfinite(threshold)
+            else math.nan
+        )
         lines_out.append(
             LineEnvelope(
                 line=name,
-                cycle_peaks_a=peaks[j],
+                cycle_peaks_a=cyc_peaks[j],
                 second_harmonic_ratio=h2[j],
                 min_second_harmonic_ratio=mn,
                 min_second_harmonic_cycle=at,
@@ -598,15 +663,44 @@ def envelope_study(
     b_s = circuit.knee_flux_wb / lam_n
     angles = winding_angles(circuit, closing_angle_deg, delay)
     offsets = analytic.flux_offset_pu(res, angles)
+    x = 2.0 * math.pi * f * L
+    amp = float(analytic.first_peak_wang(circuit.winding_voltage_v, f, L, r, 0.0, 1.0))
+    per_cycle = np.stack(
+        [analytic.flux_offsets_holcomb(x, r, float(o), b_s, n_cycles) for o in offsets], axis=-1
+    )  # (n_cycles, n_windings); an overshoot of the decay past zero stops at zero
+    sign = np.where(offsets < 0.0, -1.0, 1.0)
+    per_cycle = sign * np.maximum(sign * per_cycle, 0.0)
+    line_env = analytic.line_first_peaks(
+        amp, per_cycle, closing_angle_deg + winding_angles(circuit, 0.0, np.zeros_like(delay)),
+        b_s, circuit.connection == "delta",
+    ).T  # fmt: skip
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.where(
+            line_env > 0.0, cyc_peaks / np.where(line_env > 0.0, line_env, 1.0), np.nan
+        )
     analytic_env = tuple(
-        (
-            wname,
+        AnalyticEnvelope(
+            wname, lname,
             analytic.peak_envelope_holcomb(
                 circuit.winding_voltage_v, f, L, r, float(o), b_s, n_cycles
             ),
+            line_env[j], ratio[j],
         )
-        for wname, o in zip(winding_names(circuit), offsets, strict=True)
-    )
+        for j, (wname, lname, o) in enumerate(
+            zip(winding_names(circuit), line_names(circuit), offsets, strict=True)
+        )
+    )  # fmt: skip
+    if r / x > analytic.ENVELOPE_VALIDITY_R_OVER_X:
+        warnings.append(
+            (
+                "analytic_envelope_outside_validity",
+                f"saturated-loop R/X = {r / x:.2f} exceeds {analytic.ENVELOPE_VALIDITY_R_OVER_X}: "
+                "the closed-form per-cycle peaks after the first deviate from the exact two-slope "
+                "solution by more than about 10 % (measured: -15 % at 0.15, -40 % at 0.27, no "
+                "saturation left after the first cycle at 0.53); use the simulated "
+                "envelope (simulated_over_analytic gives the ratio per cycle)",
+            )
+        )
     wt: FloatArray | None = None
     wc: FloatArray | None = None
     if waveform_points > 0:
@@ -618,7 +712,7 @@ def envelope_study(
         frequency_hz=f,
         lines=tuple(lines_out),
         equivalent_rms_times_s=times,
-        analytic_cycle_peaks_a=analytic_env,
+        analytic=analytic_env,
         below_threshold_a=threshold,
         harmonic_cycles=hc,
         waveform_time_s=wt,

@@ -28,13 +28,37 @@ class PeakRequest(Study):
 
 
 class AnalyticWindingPeak(Model):
-    """Closed-form first peak of one winding."""
+    """Closed-form first peak of one winding, and of the line current at its leading terminal.
+
+    For single-phase and wye windings the line current is the winding current. For a delta,
+    line A carries c_AB - c_CA (Kirchhoff's current law): equal to one winding's current when
+    only that winding saturates, the sum of two when both saturate in opposite directions.
+    """
 
     winding: str
+    line: str | None = Field(
+        None, description="Line whose current first_peak_a is: A, B, C (A for AB, B for BC...)"
+    )
     closing_angle_deg: float = Field(description="Winding voltage angle when energised [deg]")
     flux_offset_pu: float = Field(description="Centre of the first flux swing [pu of nominal]")
-    first_peak_a: float = Field(description="First peak [A]")
-    first_peak_x_rated: float | None = Field(description=x_rated("First peak"))
+    first_peak_a: float = Field(
+        description="First peak of the line current named in line [A] (for a delta the "
+        "difference of two winding currents; see winding_current_peak_a for the winding's own)"
+    )
+    first_peak_x_rated: float | None = Field(
+        description=x_rated("First peak of the line current named in line")
+    )
+    winding_current_peak_a: float | None = Field(
+        None, description="First peak of this winding's own current [A]"
+    )
+    winding_current_peak_x_rated_winding: float | None = Field(
+        None, description="winding_current_peak_a / rated rms winding current"
+    )
+    simulated_over_analytic: float | None = Field(
+        None,
+        description="Simulated first peak of the same line / first_peak_a (when both are "
+        "computed and the closed form saturates) [-]",
+    )
 
 
 class SimulatedLinePeak(Model):
@@ -55,6 +79,12 @@ class WorstCase(Model):
     closing_angle_deg: float | None = Field(None, description="Phase-A angle giving it [deg]")
     line: str | None = None
     residual_flux_pu: float | None = Field(None, description="Residual flux assumed [pu]")
+    winding_current_peak_a: float | None = Field(
+        None,
+        description="Closed form only: Wang's worst case of one winding's own current, voltage-"
+        "zero closing with the largest residual flux aligned [A]; for a delta a winding current, "
+        "not a line current",
+    )
 
 
 class PeakResponse(Model):
@@ -151,10 +181,21 @@ class LineEnvelopeOut(Model):
 
 
 class AnalyticEnvelope(Model):
-    """Closed-form per-cycle peaks of one winding."""
+    """Closed-form per-cycle peaks of one winding's line (see AnalyticWindingPeak)."""
 
     winding: str
-    cycle_peaks_a: list[float]
+    line: str | None = Field(None, description="Line whose current cycle_peaks_a is")
+    cycle_peaks_a: list[float] = Field(
+        description="Per-cycle peak of the line current named in line [A]"
+    )
+    winding_current_cycle_peaks_a: list[float] | None = Field(
+        None, description="Per-cycle peak of this winding's own current [A]"
+    )
+    simulated_over_analytic: list[float | None] | None = Field(
+        None,
+        description="Simulated per-cycle peak of the same line / cycle_peaks_a, per cycle; null "
+        "where the closed form no longer saturates [-]",
+    )
 
 
 class Waveform(Model):

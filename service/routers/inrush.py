@@ -86,14 +86,25 @@ def _peak(body: PeakRequest, settings: Settings) -> PeakResponse:
 
 def _peak_response(study: inrush.PeakStudy, assumptions: list[Assumption]) -> PeakResponse:
     rated = study.rated_current_a
+    sim_by_line = {p.line: p.first_peak_a for p in study.simulated or ()}
     analytic = (
         [
             AnalyticWindingPeak(
                 winding=w.winding,
+                line=w.line,
                 closing_angle_deg=w.closing_angle_deg,
                 flux_offset_pu=w.flux_offset_pu,
-                first_peak_a=w.first_peak_a,
-                first_peak_x_rated=convert.x_rated(w.first_peak_a, rated),
+                first_peak_a=w.line_peak_a,
+                first_peak_x_rated=convert.x_rated(w.line_peak_a, rated),
+                winding_current_peak_a=w.winding_peak_a,
+                winding_current_peak_x_rated_winding=convert.x_rated(
+                    w.winding_peak_a, study.rated_winding_current_a
+                ),
+                simulated_over_analytic=(
+                    sim_by_line[w.line] / w.line_peak_a
+                    if w.line in sim_by_line and w.line_peak_a > 0.0
+                    else None
+                ),
             )
             for w in study.analytic
         ]
@@ -130,11 +141,15 @@ def _peak_response(study: inrush.PeakStudy, assumptions: list[Assumption]) -> Pe
     )
     wa = (
         WorstCase(
-            over="closing at a voltage zero with the largest given residual flux aligned "
-            "(closed form)",
+            over="closing angle, for the given residual flux and pole delays (closed form: the "
+            "largest line current; for windings that are their own lines, closing at a voltage "
+            "zero with the largest given residual flux aligned)",
             peak_a=study.analytic_worst_a,
             peak_x_rated=convert.x_rated(study.analytic_worst_a, rated),
+            closing_angle_deg=study.analytic_worst_angle_deg,
+            line=study.analytic_worst_line,
             residual_flux_pu=study.analytic_worst_residual_pu,
+            winding_current_peak_a=study.analytic_worst_winding_a,
         )
         if study.analytic_worst_a is not None
         else None
@@ -173,7 +188,10 @@ async def envelope(
     return _json(await run_in_threadpool(_envelope, body, settings))
 
 
-def _envelope(body: EnvelopeRequest, settings: Settings) -> EnvelopeResponse:
+def _envelope(
+    body: EnvelopeRequest, settings: Settings, ieq_times_s: tuple[float, ...] | None = None
+) -> EnvelopeResponse:
+    """The envelope response; ``ieq_times_s`` replaces the I_eq table's times (for the sheet)."""
     circuit, res, delay, assumptions = convert.study_inputs(body)
     opt = body.options
     convert.check_work(
@@ -192,6 +210,7 @@ def _envelope(body: EnvelopeRequest, settings: Settings) -> EnvelopeResponse:
         harmonic_cycles=opt.harmonic_cycles,
         waveform_points=points,
         max_steps=settings.max_total_steps,
+        equivalent_rms_times_s=ieq_times_s,
     )
     rated = study.rated_current_a
     known = convert.x_rated(1.0, rated) is not None
@@ -227,8 +246,14 @@ def _envelope(body: EnvelopeRequest, settings: Settings) -> EnvelopeResponse:
         equivalent_rms_times_s=convert.floats(np.asarray(study.equivalent_rms_times_s)),
         lines=lines,
         analytic=[
-            AnalyticEnvelope(winding=w, cycle_peaks_a=convert.floats(p))
-            for w, p in study.analytic_cycle_peaks_a
+            AnalyticEnvelope(
+                winding=a.winding,
+                line=a.line,
+                cycle_peaks_a=convert.floats(a.line_cycle_peaks_a),
+                winding_current_cycle_peaks_a=convert.floats(a.winding_cycle_peaks_a),
+                simulated_over_analytic=[convert.maybe(v) for v in a.simulated_over_analytic],
+            )
+            for a in study.analytic
         ],
         waveform=wave,
         steps_per_cycle=study.steps_per_cycle,

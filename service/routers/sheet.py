@@ -20,7 +20,6 @@ from fastapi.exceptions import RequestValidationError
 from fastapi.responses import Response
 from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError
 
-from core.waveform import STANDARD_TIMES_S
 from service.models.inrush import EnvelopeRequest, PeakRequest
 from service.problems import PROBLEM_RESPONSES
 from service.routers.inrush import _envelope, _peak
@@ -215,12 +214,13 @@ async def peak_txt(
     return _cached(request, _number(values[q.quantity]), "text/plain")
 
 
-def _envelope_for(q: TableQuery | IeqQuery, settings: Settings) -> Any:
-    body = _request(
-        EnvelopeRequest,
-        {**q.study(), "options": {"duration_s": q.duration_s, "samples_per_cycle": 64}},
-    )
-    return _envelope(body, settings)
+def _envelope_for(
+    q: TableQuery | IeqQuery, settings: Settings, ieq_times_s: tuple[float, ...] | None = None
+) -> Any:
+    # the JSON operation's own request with its default options but the duration: the same
+    # simulation, sampling and reading, so a cell and the JSON answer are one computation
+    body = _request(EnvelopeRequest, {**q.study(), "options": {"duration_s": q.duration_s}})
+    return _envelope(body, settings, ieq_times_s)
 
 
 @router.get(
@@ -234,7 +234,8 @@ def _envelope_for(q: TableQuery | IeqQuery, settings: Settings) -> Any:
 async def ieq_txt(
     request: Request, q: Annotated[IeqQuery, Query()], settings: SettingsDep
 ) -> Response:
-    """I_eq(t) = sqrt((1/t) * integral of i^2) from the closing instant to ``time_s``."""
+    """I_eq(t) = sqrt((1/t) * integral of i^2) from the closing instant to ``time_s``, computed at
+    that time by the same core call as the JSON envelope (not interpolated in its table)."""
     if "duration_s" in q.model_fields_set and q.time_s > q.duration_s:
         raise RequestValidationError(
             [
@@ -248,32 +249,15 @@ async def ieq_txt(
                 }
             ]
         )
-    # I_eq is tabulated at fixed times up to the simulated time: run to the first one at or
-    # after time_s (a causal simulation: the extra time does not change I_eq(time_s)).
-    table_end = min((t for t in STANDARD_TIMES_S if t >= q.time_s), default=q.time_s)
-    simulated = q.model_copy(update={"duration_s": max(q.duration_s, table_end)})
-    res = await run_in_threadpool(_envelope_for, simulated, settings)
-    times = res.equivalent_rms_times_s
+    case = q.model_copy(update={"duration_s": max(q.duration_s, q.time_s)})
+    res = await run_in_threadpool(_envelope_for, case, settings, (q.time_s,))
     values: list[float] = []
     for line in res.lines:
         if q.line not in ("max", line.line):
             continue
         series = line.equivalent_rms_a if q.unit == "a" else (line.equivalent_rms_x_rated or [])
-        v = _interp_log(times, series, q.time_s)
-        if v is not None:
-            values.append(v)
+        values.extend(series[:1])
     return _cached(request, _number(max(values) if values else None), "text/plain")
-
-
-def _interp_log(times: list[float], values: list[float], t: float) -> float | None:
-    """Value of a tabulated I_eq(t) at t, linear in log(t) between table times."""
-    if not times or t < times[0] or t > times[-1]:
-        return None
-    for k in range(len(times) - 1):
-        if times[k] <= t <= times[k + 1]:
-            w = math.log(t / times[k]) / math.log(times[k + 1] / times[k])
-            return values[k] + w * (values[k + 1] - values[k])
-    return values[-1]
 
 
 @router.get(

@@ -1,4 +1,4 @@
-"""The README's statistics and mitigation tables say what the committed golden examples say."""
+"""The README's peak, statistics and mitigation numbers say what the golden examples say."""
 
 from __future__ import annotations
 
@@ -42,3 +42,30 @@ def test_mitigation_table() -> None:
     assert f"{values['largest_energy_kj']:.1f} kJ" in README
     kinds = [o["kind"] for o in body["options"][:3]]
     assert kinds == ["pre_magnetize", "controlled_closing", "ramp"]
+
+
+def test_peak_table_and_envelope_prose() -> None:
+    rows = {
+        "northgate_main_unit": "| main unit from the utility",
+        "northgate_backfeed": "| back-fed from the generator",
+        "northgate_lighting": "| lighting transformer",
+    }
+    for name, start in rows.items():
+        body = _response(f"inrush_peak.{name}")
+        row = next(line for line in README.splitlines() if line.startswith(start))
+        cells = [c.strip() for c in row.split("|")[2:-1]]
+        assert float(cells[0]) == round(body["rated_current_a"], 1), row
+        assert cells[1:] == [
+            f"{body['first_peak_x_rated']:.1f} × rated",
+            f"{body['worst_case_simulated']['peak_x_rated']:.1f} × rated",
+            f"{body['worst_case_analytic']['peak_x_rated']:.1f} × rated",
+        ], row
+    main = _response("inrush_peak.northgate_main_unit")
+    winding = main["worst_case_analytic"]["winding_current_peak_a"] / main["rated_current_a"]
+    assert f"winding alone would say {winding:.1f} × rated" in README
+    env = _response("inrush_envelope.northgate_main_unit")
+    a = env["lines"][0]
+    assert f"from {a['cycle_peaks_x_rated'][0]:.1f} × rated in the first cycle" in README
+    assert f"below rated after\n{a['time_below_s']:.2f} s" in README
+    ratios = " / ".join(f"{w['simulated_over_analytic'][0]:.2f}" for w in env["analytic"])
+    assert f"`simulated_over_analytic`, {ratios} for the main unit" in README

@@ -239,3 +239,41 @@ def test_winding_position_is_required(client: TestClient) -> None:
     del req["transformer"]["energized_winding"]["position"]
     body = _problem(client.post("/v1/inrush/peak", json=req), 422)
     assert body["errors"][0]["field"] == "transformer.energized_winding.position"  # type: ignore[index]
+
+
+def test_delta_closed_form_reports_line_currents(client: TestClient) -> None:
+    # The main unit's 13.8 kV winding is a delta: the closed form's first_peak_a is a line
+    # current (KCL: i_a = c_ab - c_ca), at least the winding current it contains, and the
+    # worst case is a line value at least Wang's winding value; both against the simulation.
+    body = client.post("/v1/inrush/peak", json=PEAK_REQUESTS["northgate_main_unit"]).json()
+    sim = {p["line"]: p["first_peak_a"] for p in body["simulated"]}
+    for w in body["analytic"]:
+        assert w["line"] == w["winding"][0]
+        assert w["first_peak_a"] >= w["winding_current_peak_a"] * (1 - 1e-12)
+        assert w["simulated_over_analytic"] == pytest.approx(sim[w["line"]] / w["first_peak_a"])
+        rated_winding = body["rated_current_a"] / math.sqrt(3.0)
+        assert w["winding_current_peak_x_rated_winding"] == pytest.approx(
+            w["winding_current_peak_a"] / rated_winding
+        )
+    worst = body["worst_case_analytic"]
+    assert worst["peak_a"] > worst["winding_current_peak_a"]
+    assert worst["line"] in sim
+    assert worst["closing_angle_deg"] is not None
+    # the line closed form is within 10 % of the simulated worst case (it was 26 % low)
+    ratio = body["worst_case_simulated"]["peak_a"] / worst["peak_a"]
+    assert 0.9 < ratio < 1.1, ratio
+
+
+def test_envelope_ratio_and_validity_warning(client: TestClient) -> None:
+    req = copy.deepcopy(ENVELOPE_REQUESTS["northgate_lighting"])
+    body = client.post("/v1/inrush/envelope", json=req).json()
+    for a, ln in zip(body["analytic"], body["lines"], strict=True):
+        assert a["line"] == ln["line"]
+        first = ln["cycle_peaks_a"][0] / a["cycle_peaks_a"][0]
+        assert a["simulated_over_analytic"][0] == pytest.approx(first)
+    codes = {w["code"] for w in body["warnings"]}
+    # the dry-type unit's saturated loop is resistive (R/X above 0.1): the warning is given
+    r_over_x_high = "analytic_envelope_outside_validity" in codes
+    peak = client.post("/v1/inrush/peak", json=PEAK_REQUESTS["northgate_lighting"]).json()
+    x = 2 * math.pi * 60.0 * peak["loop_inductance_h"]
+    assert r_over_x_high == (peak["loop_resistance_ohm"] / x > 0.1)

@@ -119,3 +119,36 @@ def test_ieq_between_table_times_is_answered(client: TestClient) -> None:
     assert short.text != ""
     # I_eq(0.3 s) does not depend on how long the simulation runs past it (causality)
     assert float(short.text) == float(long.text)
+
+
+def test_ieq_cell_is_the_json_envelope_value(client: TestClient) -> None:
+    # One computation: the cell is the JSON envelope's I_eq(t) for the same case, to the last
+    # digit, at a table time (0.01 s, 0.1 s); before, the sheet sampled 64 per cycle and
+    # interpolated its table in log(t) (445.52 against 445.72 A on a 12.47 kV delta).
+    case = (
+        "rating_kva=1500&voltage_kv=12.47&connection=delta&position=outer&impedance_percent=5.75"
+        "&x_over_r=7&fault_mva=250&source_x_over_r=12"
+    )
+    body = {
+        "transformer": {
+            "rating_kva": 1500, "phases": 3, "frequency_hz": 60.0,
+            "energized_winding": {"voltage_kv": 12.47, "connection": "delta", "position": "outer"},
+            "impedance_percent": 5.75, "x_over_r": 7, "no_load_current_percent": 1.0,
+            "core": {"material": "grain_oriented"},
+        },
+        "switching": {"closing_angle_deg": 0.0},
+        "source": {"kind": "fault_level", "fault_mva": 250, "x_over_r": 12},
+    }  # fmt: skip
+    env = client.post("/v1/inrush/envelope", json=body).json()
+    times = env["equivalent_rms_times_s"]
+    for t in (0.01, 0.1):
+        k = times.index(t)
+        for line in env["lines"]:
+            cell = client.get(
+                f"/v1/sheet/inrush/ieq.txt?{case}&time_s={t}&line={line['line']}&unit=a"
+            ).text
+            assert float(cell) == line["equivalent_rms_a"][k]
+    # a time off the table is computed there, not interpolated: I_eq is continuous, so the
+    # value at 0.0101 s lies within a fraction of a per cent of the 0.01 s one
+    near = float(client.get(f"/v1/sheet/inrush/ieq.txt?{case}&time_s=0.0101&line=A&unit=a").text)
+    assert near == pytest.approx(env["lines"][0]["equivalent_rms_a"][0], rel=0.02)
