@@ -42,3 +42,17 @@ def test_mitigation_table() -> None:
     assert f"{values['largest_energy_kj']:.1f} kJ" in README
     kinds = [o["kind"] for o in body["options"][:3]]
     assert kinds == ["pre_magnetize", "controlled_closing", "ramp"]
+
+
+def test_clearance_table() -> None:
+    body = _response("clearance.northgate_main_unit")
+    devices = {d["name"]: d for d in body["devices"]}
+    for name, d in devices.items():
+        row = next(line for line in README.splitlines() if line.startswith(f"| {name} |"))
+        prot = d["protection"]
+        at = f"{prot['margin_ratio']:.3g} at {prot['margin_current_a']:.0f} A"
+        assert at in row, (at, row)
+    window = devices["51 feeder"]["coordination_window"]
+    low, high = window["lowest_riding_through"], window["highest_protecting"]
+    assert f"time dial window {low:.1f} – {high:.1f}" in README
+    assert f"{body['damage']['fault_current_a']:.0f} A;" in README
