@@ -13,18 +13,24 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from core import coordination, damage, energize, ridethrough
+from core import coordination, damage, energize, fuse_breaker_curves, ridethrough
 from core.errors import ParameterError
 from core.transformer import EquivalentCircuit
 
 FloatArray = NDArray[np.float64]
 
-__all__ = ["ClearanceStudy", "DeviceCurves", "clearance_study", "source_impedance_pu"]
+__all__ = [
+    "ClearanceStudy",
+    "DeviceCurves",
+    "clearance_study",
+    "device_curves",
+    "source_impedance_pu",
+]
 
 
 @dataclass(frozen=True)
@@ -33,8 +39,13 @@ class DeviceCurves:
 
     name: str
     current_a: FloatArray  #: [A]
-    minimum_time_s: FloatArray  #: must-not-operate curve; inf where it does not operate [s]
+    minimum_time_s: FloatArray  #: must-not-operate curve; inf: no operation, nan: no data [s]
     maximum_time_s: FloatArray  #: clearing curve; nan where not defined [s]
+    minimum_label: str = ""  #: what the minimum curve is (says "derated" where it is)
+    maximum_label: str = ""  #: what the maximum curve is
+    #: vertical edges (current [A], lower time [s], upper time [s]); a lower time of 0 runs to
+    #: the bottom of the axes, an upper time of +inf to the top
+    verticals: tuple[tuple[float, float, float], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -75,6 +86,87 @@ def source_impedance_pu(circuit: EquivalentCircuit, rating_va: float) -> float:
     return math.hypot(circuit.source_resistance_ohm, x) / z_base
 
 
+def device_curves(
+    device: ridethrough.Device, grid: ArrayLike, opening_time_s: float | None = None
+) -> DeviceCurves:
+    """A device's two curves over a current grid, each only where it has data, for plotting.
+
+    Parameters
+    ----------
+    device : Relay, Fuse or Breaker
+        The device.
+    grid : array_like
+        Currents to tabulate at; the device's own points and pickups are added [A].
+    opening_time_s : float or None
+        Breaker opening time added to a relay's curve [s].
+
+    Returns
+    -------
+    DeviceCurves
+        A fuse's derated minimum melt is NaN outside its table's currents (scaled by the
+        current factor), its total clearing outside its own table: a table says nothing beyond
+        its points. A breaker's and a relay's instantaneous pickups carry vertical edges.
+
+    Notes
+    -----
+    Derated minimum melt t'(I) = k_t·t_mm(I/k_i) (see :class:`core.ridethrough.Fuse`).
+    """
+    g = np.asarray(grid, dtype=float)
+    verticals: list[tuple[float, float, float]] = []
+    low_label, high_label = "minimum curve", "clearing curve"
+    if isinstance(device, ridethrough.Fuse):
+        k = device.melt_current_factor or ridethrough.DEFAULT_MELT_CURRENT_FACTOR
+        kt = device.melt_time_factor or 1.0
+        melt = device.minimum_melt.current * k
+        tc = device.total_clearing
+        g = np.union1d(g, np.concatenate((melt, tc.current if tc is not None else [])))
+        band = ridethrough.device_times(device, g, opening_time_s=opening_time_s)
+        low = np.where((g >= melt[0]) & (g <= melt[-1]), band.minimum_time, np.nan)
+        high = np.asarray(band.maximum_time, dtype=float)
+        if tc is not None:
+            high = np.where((g >= tc.current[0]) & (g <= tc.current[-1]), high, np.nan)
+        low_label = f"minimum melt derated (current x {k:g}" + (
+            f", time x {kt:g})" if kt != 1.0 else ")"
+        )
+        high_label = "total clearing"
+        return DeviceCurves(device.name, g, low, high, low_label, high_label)
+    if isinstance(device, ridethrough.Breaker):
+        unit = device.trip_unit
+        edges = [unit.long_time_pickup, unit.short_time_pickup, unit.instantaneous_pickup]
+        tol = [unit.pickup_tolerance, unit.pickup_tolerance, unit.instantaneous_tolerance]
+        extra = [p * (1 + s * q) for p, q in zip(edges, tol, strict=True) if p for s in (-1, 1)]
+        g = np.union1d(g, extra)
+        p = unit.instantaneous_pickup
+        if p is not None:
+            q = unit.instantaneous_tolerance
+            timed = replace(unit, instantaneous_pickup=None)
+            below = fuse_breaker_curves.lv_breaker_trip_band(np.array([(1 - q) * p]), timed)
+            above = fuse_breaker_curves.lv_breaker_trip_band(np.array([(1 + q) * p]), timed)
+            t_lo, t_hi = float(below.minimum_time[0]), float(above.maximum_time[0])
+            verticals.append(((1 - q) * p, 0.0, t_lo))
+            clear = unit.instantaneous_clearing_time
+            if t_hi > clear:
+                verticals.append(((1 + q) * p, clear, t_hi))
+        low_label, high_label = "minimum band", "maximum band"
+    elif isinstance(device, ridethrough.Relay):
+        p_inst = device.instantaneous_pickup_a
+        if p_inst is not None:
+            g = np.union1d(g, [p_inst])
+            t_at = ridethrough.device_times(replace(device, instantaneous_pickup_a=None), p_inst)
+            verticals.append((p_inst, 0.0, float(t_at.minimum_time)))
+        low_label, high_label = "relay curve", "relay curve + opening time"
+    band = ridethrough.device_times(device, g, opening_time_s=opening_time_s)
+    return DeviceCurves(
+        device.name,
+        g,
+        np.asarray(band.minimum_time, dtype=float),
+        np.asarray(band.maximum_time, dtype=float),
+        low_label,
+        high_label,
+        tuple(verticals),
+    )
+
+
 def clearance_study(
     circuit: EquivalentCircuit,
     closing_angle_deg: float | None,
@@ -89,6 +181,8 @@ def clearance_study(
     insulation: damage.Insulation = "liquid",
     opening_time_s: float | None = None,
     damage_current_factor: float | None = None,
+    check_from_current: float | None = None,
+    overload_by_secondary_device: bool = True,
     windows: bool = True,
     samples_per_cycle: int = 128,
     max_steps: int | None = None,
@@ -124,6 +218,11 @@ def clearance_study(
     damage_current_factor : float or None
         Damage-curve current multiplier for the winding-to-line relation (e.g. 0.58 for a
         delta-wye unit and a secondary line-to-ground fault, common practice) [-].
+    check_from_current : float or None
+        Lowest current of the protection check; None: the default of
+        :func:`core.coordination.evaluate` [A].
+    overload_by_secondary_device : bool
+        A secondary-side device carries the overload range below the check's start.
     windows : bool
         Search the coordination window of each inverse-time relay.
     samples_per_cycle : int
@@ -186,8 +285,11 @@ def clearance_study(
         curve,
         opening_time_s=opening_time_s,
         damage_current_factor=damage_current_factor,
+        check_from_current=check_from_current,
+        overload_by_secondary_device=overload_by_secondary_device,
     )
     found: list[coordination.CoordinationWindow] = []
+    start = coordination.check_start(curve, check_from_current, overload_by_secondary_device)[0]
     if windows:
         for dev in devices:
             if isinstance(dev, ridethrough.Relay):
@@ -198,21 +300,12 @@ def clearance_study(
                         curve,
                         opening_time_s=opening_time_s,
                         damage_current_factor=damage_current_factor,
+                        check_from_current=start,
                     )
                 )
     i_r = circuit.rated_line_current_a
     grid = np.geomspace(0.5 * i_r, 1.5 * curve.short_circuit_current, 240)
-    tabulated = []
-    for dev in devices:
-        band = ridethrough.device_times(dev, grid, opening_time_s=opening_time_s)
-        tabulated.append(
-            DeviceCurves(
-                dev.name,
-                grid,
-                np.asarray(band.minimum_time, dtype=float),
-                np.asarray(band.maximum_time, dtype=float),
-            )
-        )
+    tabulated = [device_curves(dev, grid, opening_time_s) for dev in devices]
     if duration_s * f < 30:
         warnings.append(
             (

@@ -9,6 +9,7 @@ dials of an inverse-time relay that ride through and still protect.
 
 from __future__ import annotations
 
+import itertools
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
@@ -24,11 +25,13 @@ from core.ridethrough import (
     DEFAULT_MELT_CURRENT_FACTOR,
     DEFAULT_OPENING_TIME_S,
     DEFAULT_PEAK_FACTOR,
+    DEFAULT_SENSING,
     INRUSH_POINTS,
     MELT_SOURCE,
     OPENING_SOURCE,
     PEAK_SOURCE,
     RESET_SOURCE,
+    SENSING_SOURCE,
     TIME_DIAL_RANGE,
     Breaker,
     Device,
@@ -72,6 +75,90 @@ def _point_checks(
 # ----------------------------------------------------------------------------------- protection
 
 
+#: Where the protection check starts when a secondary-side device carries the overload range
+#: [multiple of rated current]. Common practice: the secondary main (at most 125 % of rated, NEC
+#: 450.3(B), from memory) and the loading guide govern overloads and low-level faults; a primary
+#: fuse (NEC 450.3(A) allows up to 300 % of rated above 1000 V, from memory; 150-300 % is common
+#: practice) is judged on the through-fault range above. 6 × is this module's choice: a fuse of
+#: 1.5-2 × rated whose minimum melt meets the E-rating definition (melting in 300 s at 200-240 %
+#: of its rating, ANSI C37.46, from memory) clears inside the C57.109 table from there.
+DEFAULT_CHECK_FROM_X_RATED = 6.0
+CHECK_FROM_SOURCE = (
+    "default 6 x rated: a secondary-side device carries the overload range below it (common "
+    "practice; primary fuses of 1.5-3 x rated, NEC 450.3 limits from memory)"
+)
+
+
+@dataclass(frozen=True)
+class Portion:
+    """A stretch of the damage curve and whether the protection check covers it."""
+
+    name: str  #: which part of the curve
+    from_current_a: float  #: [A]
+    to_current_a: float  #: [A]
+    checked: bool  #: inside the checked range
+    reason: str  #: why it is (not) checked
+
+
+def curve_portions(
+    damage: DamageCurve, check_from_a: float, check_to_a: float, below_reason: str
+) -> tuple[Portion, ...]:
+    """Split the damage curve into its thermal and mechanical parts and the checked range.
+
+    Parameters
+    ----------
+    damage : core.damage.DamageCurve
+        The curve.
+    check_from_a, check_to_a : float
+        The checked range [A].
+    below_reason : str
+        Why currents below ``check_from_a`` are not checked.
+
+    Returns
+    -------
+    tuple of Portion
+        In increasing current: each part of the curve, cut at the ends of the checked range.
+
+    Notes
+    -----
+    Parts (liquid): thermal from the C57.109 table up to 25 × rated, thermal t = 1250/I² above,
+    mechanical I²t = K from its starting current; dry-type: thermal t = 1250/I², mechanical.
+
+    References
+    ----------
+    IEEE Std C57.109-1993 clause 4 (from memory); see :mod:`core.damage`.
+    """
+    i_r, lo, hi = damage.rated_current, float(damage.current[0]), float(damage.current[-1])
+    edges = [lo]
+    names = []
+    mech = damage.mechanical_from_current
+    top_thermal = hi if mech is None else min(mech, hi)
+    if damage.insulation == "liquid" and top_thermal > 25.0 * i_r * (1 + 1e-12):
+        names += ["thermal (C57.109 table, log-log between its points)", "thermal (1250/I^2)"]
+        edges += [25.0 * i_r, top_thermal]
+    elif damage.insulation == "liquid":
+        names.append("thermal (C57.109 table, log-log between its points)")
+        edges.append(top_thermal)
+    else:
+        names.append("thermal (1250/I^2)")
+        edges.append(top_thermal)
+    if mech is not None and mech < hi:
+        names.append("mechanical (I^2 t = K)")
+        edges.append(hi)
+    out = []
+    for name, a, b in zip(names, edges[:-1], edges[1:], strict=True):
+        cuts = sorted({a, b, *(c for c in (check_from_a, check_to_a) if a < c < b)})
+        for c0, c1 in itertools.pairwise(cuts):
+            if c1 <= check_from_a * (1 + 1e-12):
+                out.append(Portion(name, c0, c1, False, below_reason))
+            elif c0 >= check_to_a * (1 - 1e-12):
+                why = "above the largest through-fault current the source allows, 1/(Z_T + Z_S)"
+                out.append(Portion(name, c0, c1, False, why))
+            else:
+                out.append(Portion(name, c0, c1, True, "checked"))
+    return tuple(out)
+
+
 @dataclass(frozen=True)
 class Protection:
     """A device's clearing curve against the damage curve; ratios > 1 protect."""
@@ -84,6 +171,20 @@ class Protection:
     margin_current_a: float  #: where it is tightest [A]
     unprotected_from_a: float | None  #: lowest checked current not cleared in time [A]
     unprotected_to_a: float | None  #: highest such current [A]
+    checked_from_a: float = math.nan  #: lowest current checked [A]
+    checked_to_a: float = math.nan  #: highest current checked [A]
+
+
+def _factor(value: float | None) -> float:
+    f = 1.0 if value is None else value
+    return _num(f, "damage_current_factor", "in (0, 1]", lambda x: 0.0 < x <= 1.0)
+
+
+def _range(current: FloatArray, fault: float, start: float | None) -> tuple[float, float]:
+    """Checked range: from ``start`` (or the curve's start) to the fault current (or its end)."""
+    top = float(current[-1]) if not math.isfinite(fault) else min(float(current[-1]), fault)
+    low = float(current[0]) if start is None else _pos(start, "check_from_current")
+    return min(max(low, float(current[0])), top), top
 
 
 def _damage_time(current: FloatArray, time: FloatArray, i: FloatArray) -> FloatArray:
@@ -102,9 +203,10 @@ def protection_check(
     *,
     opening_time_s: float | None = None,
     damage_current_factor: float | None = None,
+    check_from_current: float | None = None,
     points: int = 400,
 ) -> Protection:
-    """Does the device clear before the through-fault damage limit, at every current up to I_sc?
+    """Does the device clear before the through-fault damage limit over the checked range?
 
     Parameters
     ----------
@@ -117,6 +219,8 @@ def protection_check(
     damage_current_factor : float or None
         Multiplies the damage curve's currents, in (0, 1]; None: 1. Common practice uses 0.58
         for a delta-wye unit and a secondary line-to-ground fault [-].
+    check_from_current : float or None
+        Lowest current checked, on the curve as scaled; None: the curve's lowest current [A].
     points : int
         Log-spaced currents checked besides the curve's own points, 2-10 000 [-].
 
@@ -134,7 +238,10 @@ def protection_check(
     Notes
     -----
     t_clear: total clearing (fuse), maximum band (breaker), relay curve + opening time. The
-    damage curve is t ∝ 1/I² piecewise, so log-log interpolation between its points is exact.
+    damage curve is log-log linear between its points, so interpolation there is exact. The
+    range checked runs from ``check_from_current`` (or the curve's start) to the largest current
+    the source allows, ``damage.fault_current`` (or the curve's end), both scaled by the factor;
+    if that range is empty, the one current at its upper end is checked.
 
     References
     ----------
@@ -142,13 +249,15 @@ def protection_check(
     """
     if isinstance(device, Fuse) and device.total_clearing is None:
         raise ParameterError("total_clearing", None, "a total-clearing curve")
-    f = 1.0 if damage_current_factor is None else damage_current_factor
-    f = _num(f, "damage_current_factor", "in (0, 1]", lambda x: 0.0 < x <= 1.0)
+    f = _factor(damage_current_factor)
     ci = _arr(damage.current, "damage.current", (1,), 1e-300) * f
     ti = _arr(damage.time, "damage.time", (1,), 1e-300)
     if ci.size < 2 or ti.shape != ci.shape or np.any(np.diff(ci) < 0.0):
         raise ParameterError("damage", ci.size, "a curve of increasing currents, one time each")
-    grid = np.union1d(np.geomspace(ci[0], ci[-1], _count(points, "points", 2, 10_000)), ci)
+    n = _count(points, "points", 2, 10_000)
+    low, top = _range(ci, damage.fault_current * f, check_from_current)
+    inside = ci[(ci >= low) & (ci <= top)]
+    grid = np.union1d(np.geomspace(low, top, n), np.concatenate(([low, top], inside)))
     t_clr = device_times(device, grid, opening_time_s=opening_time_s).maximum_time
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(t_clr == 0.0, np.inf, _damage_time(ci, ti, grid) / t_clr)
@@ -165,6 +274,8 @@ def protection_check(
         float(grid[k]),
         float(bad[0]) if bad.size else None,
         float(bad[-1]) if bad.size else None,
+        float(low),
+        float(top),
     )
 
 
@@ -192,6 +303,7 @@ class Evaluation:
     ranking: tuple[str, ...]
     assumptions: tuple[Assumption, ...]  #: every default used, with its source
     warnings: tuple[tuple[str, str], ...]  #: (code, message)
+    portions: tuple[Portion, ...] = ()  #: the damage curve's parts, checked or not and why
 
 
 def _note(name: str, value: float | None, default: float, unit: str, source: str) -> Assumption:
@@ -208,6 +320,8 @@ def evaluate(
     opening_time_s: float | None = None,
     damage_current_factor: float | None = None,
     inrush_points: Sequence[tuple[float, float]] = INRUSH_POINTS,
+    check_from_current: float | None = None,
+    overload_by_secondary_device: bool = True,
 ) -> Evaluation:
     """Evaluate candidate devices against the inrush and the damage curve, and rank them.
 
@@ -224,6 +338,12 @@ def evaluate(
     inrush_points : sequence of (float, float)
         (multiple of rated current [x rated], duration [s]) checked against each device's
         minimum curve; :data:`INRUSH_POINTS` by default, skipped without a rated current.
+    check_from_current : float or None
+        Lowest current of the protection check [A]; None: :data:`DEFAULT_CHECK_FROM_X_RATED` ×
+        the damage curve's rated current when ``overload_by_secondary_device``, else the
+        curve's lowest current.
+    overload_by_secondary_device : bool
+        A secondary-side device carries the overload range (below the check's start).
 
     Returns
     -------
@@ -246,9 +366,22 @@ def evaluate(
         raise ParameterError("devices", names, "at least one device, names distinct")
     o, f, i_r = opening_time_s, damage_current_factor, inrush.rated_current_a
     notes, warnings = [], []
+    start: float | None = None
+    portions: tuple[Portion, ...] = ()
     if damage is not None:
         notes.append(_note("opening_time_s", o, DEFAULT_OPENING_TIME_S, "s", OPENING_SOURCE))
         notes.append(_note("damage_current_factor", f, 1.0, "-", "default 1 (curve as given)"))
+        start, why = check_start(damage, check_from_current, overload_by_secondary_device)
+        notes.append(Assumption("damage_check_from_a", start, "A", why))
+        scale = _factor(f)
+        low, top = _range(damage.current * scale, damage.fault_current * scale, start)
+        below = (
+            "a secondary-side device carries the overload range"
+            if overload_by_secondary_device and check_from_current is None
+            else "below the check's given start"
+        )
+        scaled = replace(damage, current=damage.current * scale)
+        portions = curve_portions(scaled, low, top, below)
     if i_r is None:
         warnings.append(("inrush_points_skipped", "no rated current: inrush points not checked"))
     else:
@@ -260,8 +393,12 @@ def evaluate(
             k, dk = d.melt_current_factor, DEFAULT_MELT_CURRENT_FACTOR
             notes.append(_note(f"{d.name}.melt_current_factor", k, dk, "-", MELT_SOURCE))
         elif isinstance(d, Breaker):
-            k, dk = d.peak_factor, DEFAULT_PEAK_FACTOR
-            notes.append(_note(f"{d.name}.peak_factor", k, dk, "-", PEAK_SOURCE))
+            sense = d.sensing or DEFAULT_SENSING
+            src = "given" if d.sensing is not None else SENSING_SOURCE
+            notes.append(Assumption(f"{d.name}.instantaneous_sensing", sense, "-", src))
+            if sense == "peak":
+                k, dk = d.peak_factor, DEFAULT_PEAK_FACTOR
+                notes.append(_note(f"{d.name}.peak_factor", k, dk, "-", PEAK_SOURCE))
         else:
             notes.append(Assumption(f"{d.name}.measured_current", _RMS, "-", "common practice"))
             notes.append(Assumption(f"{d.name}.reset", d.reset, "-", RESET_SOURCE))
@@ -271,7 +408,9 @@ def evaluate(
         if damage is not None and isinstance(d, Fuse) and d.total_clearing is None:
             warnings.append(("protection_not_checked", f"{d.name}: no total-clearing curve"))
         elif damage is not None:
-            prot = protection_check(d, damage, opening_time_s=o, damage_current_factor=f)
+            prot = protection_check(
+                d, damage, opening_time_s=o, damage_current_factor=f, check_from_current=start
+            )
         pts_out = () if i_r is None else _point_checks(d, i_r, inrush_points)
         ok = not rt.trips and prot is not None and prot.protects
         margin = None if prot is None else min(rt.margin_ratio, prot.margin_ratio)
@@ -279,7 +418,48 @@ def evaluate(
     ranked = sorted(
         (e for e in out if e.suitable), key=lambda e: (-(e.margin_ratio or 0), e.device)
     )
-    return Evaluation(tuple(out), tuple(e.device for e in ranked), tuple(notes), tuple(warnings))
+    return Evaluation(
+        tuple(out), tuple(e.device for e in ranked), tuple(notes), tuple(warnings), portions
+    )
+
+
+def check_start(
+    damage: DamageCurve, given: float | None = None, secondary: bool = True
+) -> tuple[float, str]:
+    """Where the protection check starts, and why.
+
+    Parameters
+    ----------
+    damage : core.damage.DamageCurve
+        The damage curve (its rated current and lowest current).
+    given : float or None
+        The caller's start [A]; None for the default.
+    secondary : bool
+        A secondary-side device carries the overload range.
+
+    Returns
+    -------
+    (float, str)
+        The start [A] and its provenance: given; :data:`DEFAULT_CHECK_FROM_X_RATED` × rated
+        current with a secondary-side device; else the curve's lowest current.
+
+    Raises
+    ------
+    ParameterError
+        If ``given`` is not a finite number > 0 or ``secondary`` not a bool.
+
+    References
+    ----------
+    Common practice; NEC 450.3 (from memory) for primary fuse ratings.
+    """
+    if given is not None:
+        return _pos(given, "check_from_current"), "given"
+    if not isinstance(secondary, bool):
+        raise ParameterError("overload_by_secondary_device", secondary, "True or False")
+    if secondary:
+        return DEFAULT_CHECK_FROM_X_RATED * damage.rated_current, CHECK_FROM_SOURCE
+    first = float(damage.current[0])
+    return first, "the damage curve's lowest current (no secondary-side device for overloads)"
 
 
 @dataclass(frozen=True)
@@ -303,6 +483,7 @@ def coordination_window(
     damage_current_factor: float | None = None,
     setting_range: tuple[float, float] | None = None,
     rtol: float = 1e-4,
+    check_from_current: float | None = None,
 ) -> CoordinationWindow:
     """The time dials, at the relay's pickup, that both ride through the inrush and protect.
 
@@ -320,6 +501,8 @@ def coordination_window(
         TD or TMS range; None: :data:`TIME_DIAL_RANGE` for the relay's standard [-].
     rtol : float
         Relative bracket width at which bisection stops, 1e-9 to 0.1 [-].
+    check_from_current : float or None
+        Lowest current of the protection check, as :func:`protection_check` [A].
 
     Returns
     -------
@@ -347,6 +530,7 @@ def coordination_window(
     if hi <= lo:
         raise ParameterError("setting_range", (lo, hi), "low < high")
     tol = _num(rtol, "rtol", "in [1e-9, 0.1]", lambda x: 1e-9 <= x <= 0.1)
+    start = check_from_current
 
     def rides(td: float) -> bool:
         return not relay_ride_through(replace(relay, time_dial=td), inrush).trips
@@ -354,7 +538,9 @@ def coordination_window(
     def protects(td: float) -> bool:
         trial = replace(relay, time_dial=td)
         o, f = opening_time_s, damage_current_factor
-        return protection_check(trial, damage, opening_time_s=o, damage_current_factor=f).protects
+        return protection_check(
+            trial, damage, opening_time_s=o, damage_current_factor=f, check_from_current=start
+        ).protects
 
     def bisect(passes: Callable[[float], bool], fail: float, good: float) -> float | None:
         # ``fail`` is the end expected to fail, ``good`` the end expected to pass

@@ -1,23 +1,36 @@
 """Transformer through-fault damage limits: the "damage curve" protection must clear under.
 
 Models the through-fault current-duration limits of IEEE Std C57.109 (liquid-immersed) and IEEE
-Std C57.12.59 (dry-type): the short-circuit category from the rating, the thermal limit
-t = 1250/I² (I in per unit of rated current) and, for Categories II-IV where faults are frequent,
-the mechanical portion I²t = K fixed by the through-fault current the transformer and source allow.
+Std C57.12.59 (dry-type): the short-circuit category from the rating, the thermal limit and, for
+Categories II-IV where faults are frequent, the mechanical portion I²t = K fixed by the
+through-fault current.
+
+Thermal limit (liquid-immersed): the standard's table of durations against multiples of rated
+current (2 s at 25 ×, 10 s at 11.3 ×, 30 s at 6.3 ×, 60 s at 4.75 ×, 300 s at 3 ×, 1800 s at
+2 ×), read log-log between its points, and t = 1250/I² above 25 × (low-impedance Category I
+units). The table goes back to the loading guide ANSI C57.92-1962 and was republished in
+C57.109-1993 (a secondary source says so; the values themselves are from memory). Below 5 × it
+lies well above 1250/I² (1800 s rather than 312 s at 2 ×).
+
+Through-fault current of the mechanical portion: Categories I and II from the transformer
+impedance alone, I_sc = 1/Z_T; Categories III and IV from the transformer and source,
+I_sc = 1/(Z_T + Z_S) (C57.109-1993 clause 4 and Figures 1-4, from memory). The source still
+limits the current that can actually flow, 1/(Z_T + Z_S): :class:`DamageCurve` carries both.
 
 Limits, and what is recalled rather than read: the standards were not at hand. The category
-limits, the 1250 pu²·s thermal constant, the 2 pu lower end, K = I_sc²·2 s and the 70 %/50 %
-starting points are from memory (each constant below says so), and should be checked against the
-standard before a result is relied on. Of the dry-type guide, only its clause text was read in a
-secondary copy (25 pu and 2 s ceiling; Category I limited by transformer impedance alone;
-durations over 100 s for Categories II and III deferred to the loading guide); its mechanical
-construction is assumed to follow C57.109. The long-duration end is drawn on 1250/I² throughout:
-the standards' figures lie above that line beyond about a minute (from memory), so this is
-conservative there. Overload (below 2 pu) is the loading guides' subject, not modelled.
+limits, the table, the 1250 pu²·s constant, the 2 pu lower end, K = I_sc²·2 s and the 70 %/50 %
+starting points are from memory (each constant below says so), and should be checked against
+the standard before a result is relied on. Of the dry-type guide, only its clause text was read
+in a secondary copy (25 pu and 2 s ceiling; Category I limited by transformer impedance alone;
+Categories II and III from transformer plus system impedance; durations over 100 s for
+Categories II and III deferred to the loading guide); its figures were not seen, so dry-type
+units keep t = 1250/I² over their range (at or below the liquid table: conservative). Overload
+(below 2 pu) is the loading guides' subject, not modelled.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 from types import MappingProxyType
@@ -40,9 +53,24 @@ CATEGORY_LIMITS_KVA: Mapping[int, tuple[float, float, float, float]] = MappingPr
     {1: (5.0, 500.0, 1667.0, 10_000.0), 3: (15.0, 500.0, 5000.0, 30_000.0)}
 )
 
-#: Thermal limit I²t = 1250 pu²·s (t = 1250/I²), 2 s at 25 pu. IEEE Std C57.109-1993 clause 4 and
-#: C57.12.00 (Category I short-circuit duration) (from memory).
+#: Thermal limit I²t = 1250 pu²·s (t = 1250/I²), 2 s at 25 pu; the high-current end of the thermal
+#: curve (above :data:`THERMAL_TABLE`'s 25 ×). IEEE Std C57.109-1993 clause 4 and C57.12.00
+#: (Category I short-circuit duration) (from memory).
 THERMAL_I2T_PU = 1250.0
+
+#: Thermal (long-duration) limit of liquid-immersed units: (multiple of rated current [pu],
+#: duration [s]), read log-log between points. IEEE Std C57.109-1993, table of through-fault
+#: current duration beside Figure 1 (values from memory; the table's origin in ANSI C57.92-1962 and
+#: its republication in C57.109-1993 read in a secondary source, Patterson & Price, "Transformer
+#: Overcurrent Protection Coordination", Table 2).
+THERMAL_TABLE: tuple[tuple[float, float], ...] = (
+    (2.0, 1800.0),
+    (3.0, 300.0),
+    (4.75, 60.0),
+    (6.3, 30.0),
+    (11.3, 10.0),
+    (25.0, 2.0),
+)
 
 #: Lowest current of the curves [pu of rated current]; below it is overload (loading guides).
 #: IEEE Std C57.109-1993 figures (from memory).
@@ -143,6 +171,47 @@ def through_fault_category(
     return "IV"
 
 
+def thermal_time_pu(x: npt.ArrayLike, insulation: Insulation = "liquid") -> FloatArray:
+    """Thermal through-fault duration at a multiple of rated current.
+
+    Parameters
+    ----------
+    x : array_like
+        Current, > 0 [pu of rated current].
+    insulation : str
+        "liquid" (the C57.109 table) or "dry" (t = 1250/x² throughout).
+
+    Returns
+    -------
+    numpy.ndarray
+        Duration, same shape as ``x`` [s]; below the table's 2 pu the first segment is extended
+        (callers restrict the range).
+
+    Notes
+    -----
+    Liquid: log t = log t_j + (log x − log x_j)·(log t_{j+1} − log t_j)/(log x_{j+1} − log x_j)
+    between the points of :data:`THERMAL_TABLE`, t = 1250/x² above 25 pu (the table's last point
+    lies on that line). Dry: t = 1250/x².
+
+    References
+    ----------
+    IEEE Std C57.109-1993 clause 4 and its through-fault duration table (from memory); IEEE Std
+    C57.12.59-2015 clause 4 (dry-type, 25 pu for 2 s; read in a secondary copy).
+    """
+    xa = np.asarray(x, dtype=np.float64)
+    with np.errstate(divide="ignore", over="ignore"):
+        hyperbola = THERMAL_I2T_PU / (xa * xa)
+    if insulation == "dry":
+        return np.asarray(hyperbola, dtype=np.float64)
+    tx = np.log([p[0] for p in THERMAL_TABLE])
+    tt = np.log([p[1] for p in THERMAL_TABLE])
+    with np.errstate(divide="ignore"):
+        lx = np.log(xa)
+    slope = (tt[1] - tt[0]) / (tx[1] - tx[0])
+    table = np.exp(np.where(lx < tx[0], tt[0] + slope * (lx - tx[0]), np.interp(lx, tx, tt)))
+    return np.asarray(np.where(xa > THERMAL_TABLE[-1][0], hyperbola, table), dtype=np.float64)
+
+
 def short_circuit_current_pu(z_transformer_pu: float, z_source_pu: float = 0.0) -> float:
     """Maximum symmetrical through-fault current in per unit of rated current.
 
@@ -185,7 +254,9 @@ def short_circuit_current_pu(z_transformer_pu: float, z_source_pu: float = 0.0) 
 @dataclass(frozen=True)
 class _Limits:
     category: Category
-    i_sc: float  # [pu]
+    insulation: Insulation
+    i_sc: float  # of the category rule [pu]
+    i_fault: float  # 1/(Z_T + Z_S), what can flow [pu]
     x_min: float  # [pu]
     x_max: float  # [pu]
     mech_from: float | None  # [pu]
@@ -203,28 +274,33 @@ def _limits(
     cat = through_fault_category(rating_kva, phases, insulation)
     if not isinstance(frequent, bool | np.bool_):
         raise ParameterError("frequent", frequent, "True or False")
-    # Category I: limited by the transformer impedance alone (C57.109 clause 4, from memory;
-    # C57.12.59-2015 clause 4 for dry-type, read).
-    i_sc = short_circuit_current_pu(z_transformer_pu, 0.0 if cat == "I" else z_source_pu)
+    # Liquid: Categories I and II from the transformer impedance alone, III and IV from
+    # transformer plus source (C57.109-1993 clause 4 and figure notes, from memory). Dry-type:
+    # Category I alone, II and III with the system impedance (C57.12.59-2015 clause 4, read).
+    alone = ("I",) if insulation == "dry" else ("I", "II")
+    i_fault = short_circuit_current_pu(z_transformer_pu, z_source_pu)
+    i_sc = short_circuit_current_pu(z_transformer_pu, 0.0 if cat in alone else z_source_pu)
     x_min, x_max = MINIMUM_CURRENT_PU, i_sc
     if insulation == "dry":
         x_max = min(i_sc, DRY_MAXIMUM_CURRENT_PU)
         if cat != "I":
             x_min = float(np.sqrt(THERMAL_I2T_PU / DRY_MAXIMUM_DURATION_S))
-    if x_max <= x_min:
+    if min(x_max, i_fault) <= x_min:
         raise ParameterError(
             "z_transformer_pu + z_source_pu",
-            1.0 / i_sc,
-            f"< {1.0 / x_min:.4g} pu, so that I_sc exceeds the curve's lowest {x_min:.3g} pu",
+            1.0 / i_fault,
+            f"< {1.0 / x_min:.4g} pu, so that the through-fault current exceeds the curve's "
+            f"lowest {x_min:.3g} pu",
         )
     f = MECHANICAL_FROM_FRACTION[(cat, bool(frequent))]
     mech_from = None if f is None else f * i_sc
-    return _Limits(cat, i_sc, x_min, x_max, mech_from, MECHANICAL_DURATION_S * i_sc**2)
+    k = MECHANICAL_DURATION_S * i_sc**2
+    return _Limits(cat, insulation, i_sc, min(i_fault, x_max), x_min, x_max, mech_from, k)
 
 
 def _time_pu(x: FloatArray, lim: _Limits) -> FloatArray:
+    t = thermal_time_pu(x, lim.insulation)
     with np.errstate(divide="ignore", over="ignore"):
-        t = THERMAL_I2T_PU / (x * x)
         if lim.mech_from is not None:
             t = np.where(x >= lim.mech_from, np.minimum(t, lim.k / (x * x)), t)
     # ends widened by 1e-12 so an end current given in amperes (x·I_r) is not lost to rounding
@@ -268,7 +344,8 @@ def through_fault_damage_time(
     -------
     numpy.ndarray
         Permitted duration, same shape as ``current`` [s]; NaN outside the curve (below its lowest
-        current, where loading guides apply, or above the through-fault current I_sc).
+        current, where loading guides apply, or above the category's through-fault current
+        I_sc).
 
     Raises
     ------
@@ -279,10 +356,11 @@ def through_fault_damage_time(
 
     Notes
     -----
-    With x = I/I_r and I_sc = 1/(Z_T + Z_S) (Category I: 1/Z_T): thermal t = 1250/x² for
+    With x = I/I_r and I_sc = 1/Z_T (Categories I and II; dry-type Category I only) or
+    1/(Z_T + Z_S) (the others): thermal t_th(x) from :func:`thermal_time_pu` for
     2 <= x <= I_sc. Where the mechanical portion applies (II frequent from 0.7·I_sc; III frequent
-    and IV from 0.5·I_sc), t = min(1250/x², K/x²) with K = 2·I_sc², so the curve drops vertically
-    at the starting current. Dry-type: x <= 25 and, for II and III, t <= 100 s. All constants are
+    and IV from 0.5·I_sc), t = min(t_th, K/x²) with K = 2·I_sc², so the curve drops vertically at
+    the starting current. Dry-type: x <= 25 and, for II and III, t <= 100 s. All constants are
     from memory; see the module docstring.
 
     References
@@ -313,10 +391,11 @@ class DamageCurve:
     insulation: Insulation  #: "liquid" or "dry"
     frequent: bool  #: frequent-fault curve requested
     rated_current: float  #: I_r [A]
-    short_circuit_current: float  #: I_sc [A]
-    thermal_i2t: float  #: 1250·I_r² [A²s]
+    short_circuit_current: float  #: I_sc of the category rule, where the curve ends [A]
+    thermal_i2t: float  #: 1250·I_r², the thermal curve above its table [A²s]
     mechanical_from_current: float | None  #: where the I²t = K portion starts [A]
     mechanical_i2t: float | None  #: K·I_r² [A²s]
+    fault_current: float = math.nan  #: 1/(Z_T + Z_S)·I_r, the most that can flow (<= end) [A]
 
 
 def through_fault_damage_curve(
@@ -351,8 +430,10 @@ def through_fault_damage_curve(
     Notes
     -----
     Currents are geometrically spaced from the lowest current to I_sc (dry-type: to 25 pu at
-    most); at the mechanical starting current the curve holds two points, the thermal time then
-    the mechanical one (the vertical drop of the published figures).
+    most), with the thermal table's points and the fault current 1/(Z_T + Z_S) added, so that
+    log-log interpolation between the returned points is exact; at the mechanical starting
+    current the curve holds two points, the thermal time then the mechanical one (the vertical
+    drop of the published figures).
 
     References
     ----------
@@ -367,13 +448,18 @@ def through_fault_damage_curve(
     lim = _limits(rating_kva, phases, z_transformer_pu, z_source_pu, frequent, insulation)
     i_r = _positive(rated_current, "rated_current")
     x = np.geomspace(lim.x_min, lim.x_max, int(points))
+    if insulation == "liquid":
+        x = np.union1d(x, [p[0] for p in THERMAL_TABLE if lim.x_min < p[0] < lim.x_max])
+    x = np.union1d(x, [lim.i_fault] if lim.x_min < lim.i_fault < lim.x_max else [])
     t = _time_pu(x, lim)
     xm = lim.mech_from
-    if xm is not None and lim.x_min < xm <= lim.x_max and lim.k < THERMAL_I2T_PU:
-        # vertical step at xm: thermal time, then the (lower) mechanical time
-        x = np.concatenate((x[x < xm], [xm, xm], x[x > xm]))
-        t = _time_pu(x, lim)
-        t[int(np.searchsorted(x, xm))] = THERMAL_I2T_PU / xm**2
+    if xm is not None and lim.x_min < xm <= lim.x_max:
+        t_thermal = float(thermal_time_pu(xm, insulation))
+        if lim.k / xm**2 < t_thermal:
+            # vertical step at xm: thermal time, then the (lower) mechanical time
+            x = np.concatenate((x[x < xm], [xm, xm], x[x > xm]))
+            t = _time_pu(x, lim)
+            t[int(np.searchsorted(x, xm))] = t_thermal
     k = None if lim.mech_from is None else lim.k * i_r**2
     return DamageCurve(
         current=x * i_r,
@@ -386,4 +472,5 @@ def through_fault_damage_curve(
         thermal_i2t=THERMAL_I2T_PU * i_r**2,
         mechanical_from_current=None if lim.mech_from is None else lim.mech_from * i_r,
         mechanical_i2t=k,
+        fault_current=lim.i_fault * i_r,
     )

@@ -20,7 +20,9 @@ What each element compares (named in ``RideThrough.compared_current``):
 * relay inverse-time element: θ = ∫dt/t(I) over the sliding one-cycle true rms
   (:func:`core.relay_curves.cumulative_trip`); relay instantaneous: the largest sliding
   one-cycle rms;
-* breaker instantaneous: the largest |i| (the first peak) and the largest half-cycle rms;
+* breaker instantaneous: the quantity its trip unit senses (``Breaker.sensing``): the largest
+  |i| (the first peak) against ``peak_factor`` × the rms setting (default √2), or the largest
+  sliding half-cycle or one-cycle rms against the setting itself;
 * current-limiting fuse melting I²t: the largest ∫i² over a window of half cycles.
 
 Limits: results hold for the record given (a tightest point at its end raises a warning); relay
@@ -73,6 +75,7 @@ TimeFn = Callable[[FloatArray], FloatArray]
 Standard = Literal["ieee_c37_112", "iec_60255_151"]
 Reset = Literal["curve", "hold", "instantaneous"]
 Status = Literal["protects", "partial", "does_not_protect"]
+Sensing = Literal["peak", "half_cycle_rms", "one_cycle_rms"]
 
 #: Breaker opening time added to a relay's operating time: 5 cycles at 60 Hz. Common practice for
 #: a medium-voltage breaker (rated interrupting times of 3-5 cycles, from memory).
@@ -84,10 +87,31 @@ OPENING_SOURCE = "default 5 cycles at 60 Hz (common practice; 3-5 cycle breakers
 DEFAULT_MELT_CURRENT_FACTOR = 0.8
 MELT_SOURCE = "default 0.8 (common practice 0.75-0.9 on melt current; 0.8 a modelling choice)"
 
-#: Breaker peak factor: the first peak read as if it were an rms value (conservative; common
-#: practice). √2 models a peak-sensing unit calibrated in symmetrical rms amperes.
-DEFAULT_PEAK_FACTOR = 1.0
-PEAK_SOURCE = "default 1 (first peak compared as if rms; conservative common practice)"
+#: What a breaker's instantaneous element senses, by default: the instantaneous current's peak.
+#: Common practice: electronic trip units detect the peak for their instantaneous element and
+#: compare it with √2 × the setting, which is stated in symmetrical rms amperes; a
+#: thermal-magnetic unit's magnetic element pulls on the instantaneous current, so it too
+#: responds to the asymmetrical peak (from memory; armature inertia, which lets a short peak
+#: through, is not credited: conservative). Units sensing the rms over a window are chosen with
+#: ``sensing``.
+DEFAULT_SENSING: Sensing = "peak"
+SENSING_SOURCE = (
+    "default peak: electronic trip units and magnetic elements respond to the instantaneous "
+    "peak (common practice, from memory)"
+)
+
+#: Peak factor of a peak-sensing instantaneous: the peak that picks up, as a multiple of the rms
+#: setting. √2 is the crest of a symmetrical sine at the setting, the calibration the setting is
+#: stated in (common practice, from memory).
+DEFAULT_PEAK_FACTOR = math.sqrt(2.0)
+PEAK_SOURCE = "default sqrt(2): setting in symmetrical rms, peak of a sine at it (common practice)"
+
+#: Words for each sensed quantity, used in ``RideThrough.compared_current`` and the figure.
+SENSED_WORDS = {
+    "peak": "largest |i| (first peak)",
+    "half_cycle_rms": "largest sliding half-cycle rms",
+    "one_cycle_rms": "largest sliding one-cycle rms",
+}
 
 #: Common-practice inrush points (multiple of rated rms current, duration [s]): 12 × for 0.1 s
 #: (8 × for some large units) and 25 × for 0.01 s. Common practice (no published source).
@@ -163,16 +187,23 @@ class Fuse:
 
 @dataclass(frozen=True)
 class Breaker:
-    """A low-voltage breaker by its trip unit; ``peak_factor`` is the instantaneous value that
-    picks up as a multiple of the rms pickup (None: :data:`DEFAULT_PEAK_FACTOR`) [-]."""
+    """A low-voltage breaker by its trip unit and what its instantaneous element senses.
+
+    ``sensing``: "peak" (the largest |i|, picked up at ``peak_factor`` × the rms setting;
+    None: :data:`DEFAULT_PEAK_FACTOR`), "half_cycle_rms" or "one_cycle_rms" (the largest
+    sliding rms over that window, against the setting itself); None: :data:`DEFAULT_SENSING`.
+    """
 
     name: str
     trip_unit: fuse_breaker_curves.LowVoltageBreaker
     peak_factor: float | None = None
+    sensing: Sensing | None = None
 
     def __post_init__(self) -> None:
         if self.peak_factor is not None:
             _num(self.peak_factor, "peak_factor", "in [1, 3]", lambda x: 1.0 <= x <= 3.0)
+        if self.sensing is not None and self.sensing not in SENSED_WORDS:
+            raise ParameterError("sensing", self.sensing, ", ".join(SENSED_WORDS))
 
 
 Device = Relay | Fuse | Breaker
@@ -274,6 +305,19 @@ class RideThrough:
     instantaneous_margin_ratio: float | None  #: threshold over compared current [-]
     i2t_margin_ratio: float | None  #: derated melting I²t over window I²t [-]
     warnings: tuple[tuple[str, str], ...] = ()
+    sensed: Sensed | None = None  #: breaker instantaneous: what it compared, for the figure
+
+
+@dataclass(frozen=True)
+class Sensed:
+    """A breaker instantaneous check in the setting's terms (rms amperes), worst line."""
+
+    sensing: str  #: "peak", "half_cycle_rms" or "one_cycle_rms"
+    sensed_a: float  #: the sensed value: a peak [A] or a sliding rms [A]
+    compared_a: float  #: in the setting's rms terms: peak/peak_factor, or the rms itself [A]
+    pickup_a: float  #: the band's lower edge (1 − tolerance)·setting [A]
+    time_s: float  #: when it occurs; NaN unknown [s]
+    text: str  #: the comparison in words
 
 
 @dataclass(frozen=True)
@@ -424,12 +468,12 @@ def fuse_ride_through(fuse: Fuse, inrush: InrushCurves) -> RideThrough:
 
 
 def breaker_ride_through(breaker: Breaker, inrush: InrushCurves) -> RideThrough:
-    """Check a breaker's instantaneous against peak and half-cycle rms, its band against I_eq.
+    """Check a breaker's instantaneous against what it senses, its band against I_eq.
 
     Parameters
     ----------
     breaker : Breaker
-        Trip unit and peak factor.
+        Trip unit, what its instantaneous senses, and the peak factor.
     inrush : InrushCurves
         The inrush.
 
@@ -437,16 +481,21 @@ def breaker_ride_through(breaker: Breaker, inrush: InrushCurves) -> RideThrough:
     -------
     RideThrough
         ``time_margin_ratio`` = min over t of t_min,band(I_eq(t))/t (long and short time);
-        instantaneous ratio = min(peak_factor·(1 − tol)·P/peak, (1 − tol)·P/half-cycle rms).
+        instantaneous ratio = k·(1 − tol)·P / sensed value, with k the peak factor for a
+        peak-sensing unit and 1 for an rms-sensing one; ``sensed`` holds the comparison.
 
     Notes
     -----
-    (1 − tol)·P is the band's lower edge (:func:`core.fuse_breaker_curves.lv_breaker_trip_band`);
-    the timed band is evaluated with the instantaneous element off.
+    (1 − tol)·P is the band's lower edge (:func:`core.fuse_breaker_curves.lv_breaker_trip_band`),
+    in symmetrical rms amperes. Like is compared with like: a peak-sensing unit's first peak
+    î against k·(1 − tol)·P (for a sine at the setting, î = √2·P), i.e. î/k against the band
+    on a TCC; an rms-sensing unit's largest sliding rms over its window against (1 − tol)·P.
+    The timed band is evaluated with the instantaneous element off.
 
     References
     ----------
-    Common practice (peak and half-cycle rms against the instantaneous lower edge).
+    Common practice (peak-sensing electronic trip units compared with √2 × the rms setting;
+    magnetic elements responding to the asymmetrical current), from memory.
     """
     unit = breaker.trip_unit
     timed_unit = replace(unit, instantaneous_pickup=None)
@@ -458,11 +507,29 @@ def breaker_ride_through(breaker: Breaker, inrush: InrushCurves) -> RideThrough:
     if unit.instantaneous_pickup is None:
         return _result(breaker, inrush, timed)
     lo = (1.0 - unit.instantaneous_tolerance) * unit.instantaneous_pickup
-    pf = breaker.peak_factor or DEFAULT_PEAK_FACTOR
-    inst = _pickup_checks(inrush.peak, pf * lo, "largest |i| (first peak)")
-    inst += _pickup_checks(inrush.half_cycle_rms, lo, "largest half-cycle rms")
-    note = () if inst else (("instantaneous_not_checked", "no inrush peak or half-cycle rms"),)
-    return _result(breaker, inrush, timed, inst, None, note)
+    sense = breaker.sensing or DEFAULT_SENSING
+    k = (breaker.peak_factor or DEFAULT_PEAK_FACTOR) if sense == "peak" else 1.0
+    ext = {"peak": inrush.peak, "half_cycle_rms": inrush.half_cycle_rms}.get(sense)
+    if sense == "one_cycle_rms":
+        rms, t = inrush.rms_current_a, inrush.rms_time_s
+        ext = Extreme(rms.max(axis=1), t[np.argmax(rms, axis=1)])
+    words = SENSED_WORDS[sense]
+    if ext is None:
+        note = (("instantaneous_not_checked", f"no inrush {words.removeprefix('largest ')}"),)
+        return _result(breaker, inrush, timed, None, None, note)
+    inst = _pickup_checks(ext, k * lo, words)
+    j = min(range(len(inst)), key=lambda n: inst[n].ratio)
+    value = float(ext.value[j])
+    if sense == "peak":
+        text = (
+            f"{words} {value:.4g} A / {k:.4g} = {value / k:.4g} A rms-equivalent, against the "
+            f"instantaneous lower edge {lo:.4g} A (peak-sensing: {k:.4g} × the rms setting)"
+        )
+    else:
+        text = f"{words} {value:.4g} A, against the instantaneous lower edge {lo:.4g} A"
+    inst[j] = replace(inst[j], what=text)
+    sensed = Sensed(sense, value, value / k, lo, float(ext.time_s[j]), text)
+    return replace(_result(breaker, inrush, timed, inst), sensed=sensed)
 
 
 def _ride_through(device: Device, inrush: InrushCurves) -> RideThrough:

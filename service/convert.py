@@ -384,14 +384,25 @@ def bus_load_of(load: BusLoadIn | None) -> BusLoad | None:
     return BusLoad(load.active_kw * 1e3, load.reactive_kvar * 1e3) if load is not None else None
 
 
-def _table(points: list[CurvePoint]) -> fuse_breaker_curves.TabulatedCurve:
-    return fuse_breaker_curves.TabulatedCurve(
-        np.array([p.current_a for p in points]), np.array([p.time_s for p in points])
-    )
+def _table(points: list[CurvePoint], path: str, device: str) -> fuse_breaker_curves.TabulatedCurve:
+    """A tabulated curve; a bad table is a ParameterError naming its request path and device."""
+    current = np.array([p.current_a for p in points])
+    time = np.array([p.time_s for p in points])
+    try:
+        return fuse_breaker_curves.TabulatedCurve(current, time)
+    except ParameterError as err:
+        if err.parameter == "current":
+            what = "currents must increase from each point to the next"
+        else:
+            what = "times must not rise as the current increases"
+        pairs = ", ".join(f"({c:g} A, {t:g} s)" for c, t in zip(current, time, strict=True))
+        raise ParameterError(
+            path, pairs, f"a curve of device '{device}' where {what} ({err.allowed})"
+        ) from None
 
 
-def device_of(d: RelayIn | FuseIn | BreakerIn) -> ridethrough.Device:
-    """The core protective device of a request's device."""
+def device_of(d: RelayIn | FuseIn | BreakerIn, index: int = 0) -> ridethrough.Device:
+    """The core protective device of a request's device (``index``: its place in ``devices``)."""
     if isinstance(d, RelayIn):
         return ridethrough.Relay(
             d.name, d.standard, d.curve, d.pickup_a, d.time_dial, d.instantaneous_pickup_a,
@@ -401,8 +412,8 @@ def device_of(d: RelayIn | FuseIn | BreakerIn) -> ridethrough.Device:
         tc = d.total_clearing
         return ridethrough.Fuse(
             d.name,
-            _table(d.minimum_melt),
-            _table(tc) if tc else None,
+            _table(d.minimum_melt, f"devices.{index}.minimum_melt", d.name),
+            _table(tc, f"devices.{index}.total_clearing", d.name) if tc else None,
             d.minimum_melting_i2t_a2s,
             d.melt_current_factor,
         )
@@ -417,4 +428,6 @@ def device_of(d: RelayIn | FuseIn | BreakerIn) -> ridethrough.Device:
             pickup_tolerance=d.pickup_tolerance,
             instantaneous_tolerance=d.instantaneous_tolerance,
         ),
+        peak_factor=d.peak_factor,
+        sensing=d.instantaneous_sensing,
     )

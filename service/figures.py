@@ -11,6 +11,7 @@ metadata; rc settings are applied in a context, so global state is left as found
 from __future__ import annotations
 
 import io
+import textwrap
 from collections.abc import Sequence
 from contextlib import AbstractContextManager
 from dataclasses import dataclass
@@ -32,6 +33,9 @@ TCC_FIGSIZE_IN = (8.5, 8.0)  # log-log TCC near square; the legend sits below th
 WAVEFORM_FIGSIZE_IN = (10.0, 6.5)
 POINTS_LABEL = "Inrush points (common practice: 12 × I_r at 0.1 s, 25 × I_r at 0.01 s)"
 DAMAGE_LABEL = "Through-fault damage limit (IEEE C57.109)"
+LEGEND_WIDTH_CHARS = 100  # TCC legend lines wrap here (one column below the axes)
+#: Time axis of the TCC: the span of the usual log-log TCC sheet, 0.01-1000 s (common practice).
+TCC_TIME_RANGE_S = (0.01, 1000.0)
 
 
 @dataclass(frozen=True, eq=False)
@@ -48,12 +52,41 @@ class CurveTrace:
         Lower edge (minimum melt, minimum band, relay curve); +inf or NaN leaves a gap [s].
     upper_time_s : array_like, shape (n,), optional
         Upper edge (total clearing, maximum band, relay curve plus opening time) [s].
+    verticals : sequence of (float, float, float), optional
+        Vertical edges (current [A], lower time [s], upper time [s]): a lower time of 0 runs to
+        the bottom of the axes, an upper time of +inf to the top (an instantaneous pickup).
+    tag : str, optional
+        Short name written beside the curve on the plot; empty: none.
     """
 
     label: str
     current_a: npt.ArrayLike
     time_s: npt.ArrayLike
     upper_time_s: npt.ArrayLike | None = None
+    verticals: Sequence[tuple[float, float, float]] = ()
+    tag: str = ""
+
+
+@dataclass(frozen=True)
+class Marker:
+    """A point marked on the TCC with its words, e.g. what an instantaneous element compares.
+
+    Attributes
+    ----------
+    current_a : float
+        Current [A].
+    time_s : float
+        Time; drawn at the bottom of the axes if below it [s].
+    label : str
+        Legend label.
+    tag : str
+        Short text written beside the marker.
+    """
+
+    current_a: float
+    time_s: float
+    label: str
+    tag: str = ""
 
 
 def _vec(value: npt.ArrayLike, name: str, size: int | None = None) -> FloatArray:
@@ -93,12 +126,28 @@ def _render(fig: Figure) -> str:
 
 
 def _limits(ax: Axes, xs: list[FloatArray], ys: list[FloatArray]) -> None:
-    x = np.concatenate([v[np.isfinite(v)] for v in xs] + [np.empty(0)])
-    y = np.concatenate([v[np.isfinite(v)] for v in ys] + [np.empty(0)])
+    lo, hi = TCC_TIME_RANGE_S
+    ax.set_ylim(lo, hi)
+    on = [(x, y) for x, y in zip(xs, ys, strict=True) if x.size == y.size]
+    inside = [x[np.isfinite(y) & (y >= lo) & (y <= hi) & np.isfinite(x)] for x, y in on]
+    x = np.concatenate([*inside, np.empty(0)])
     if x.size:
         ax.set_xlim(x.min() / 1.5, x.max() * 1.5)
-    if y.size:  # TCC sheets span about 0.01-1000 s (common practice); keep data, clip extremes
-        ax.set_ylim(max(y.min() / 2.0, 1e-3), min(max(y.max() * 2.0, 0.1), 1e5))
+
+
+def _tag(ax: Axes, x: FloatArray, y: FloatArray, text: str, colour: object, where: float) -> None:
+    """Write ``text`` beside the curve, at the fraction ``where`` of its visible points."""
+    lo, hi = ax.get_ylim()
+    x0, x1 = ax.get_xlim()
+    ok = np.flatnonzero(np.isfinite(x) & np.isfinite(y) & (y > lo) & (y < hi) & (x > x0) & (x < x1))
+    if not text or ok.size == 0:
+        return
+    k = int(ok[min(int(where * ok.size), ok.size - 1)])
+    ax.annotate(
+        text, (float(x[k]), float(y[k])), xytext=(4, 3), textcoords="offset points",
+        fontsize="small", color=colour, fontweight="bold",
+        bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none", "alpha": 0.75},
+    )  # fmt: skip
 
 
 def tcc_svg(
@@ -114,6 +163,8 @@ def tcc_svg(
     damage_time_s: npt.ArrayLike | None = None,
     points_label: str = POINTS_LABEL,
     damage_label: str = DAMAGE_LABEL,
+    markers: Sequence[Marker] = (),
+    current_label: str = "Current [A]",
 ) -> str:
     """Time-current characteristic on log-log axes as SVG text.
 
@@ -134,6 +185,10 @@ def tcc_svg(
         The through-fault damage curve [A], [s].
     points_label, damage_label : str
         Legend labels of the points and of the damage curve.
+    markers : sequence of Marker
+        Points to mark, each with its legend label and a short text on the plot.
+    current_label : str
+        Label of the current axis (say the reference voltage the currents are at).
 
     Returns
     -------
@@ -144,11 +199,21 @@ def tcc_svg(
     ------
     ParameterError
         On arrays of mismatched shapes.
+
+    Notes
+    -----
+    The time axis spans :data:`TCC_TIME_RANGE_S`; the current axis the visible data. Each
+    device, the damage curve and each inrush line is named on the plot as well as in the legend.
+    SVG group ids name what each line is: ``inrush-<line>``, ``inrush-points``,
+    ``device-<k>-lower``, ``device-<k>-upper``, ``device-<k>-edge-<j>``, ``damage``,
+    ``marker-<j>``.
     """
     fig = Figure(figsize=TCC_FIGSIZE_IN, layout="constrained")
     ax = fig.add_subplot()
     xs: list[FloatArray] = []
     ys: list[FloatArray] = []
+    tags: list[tuple[FloatArray, FloatArray, str, object, float]] = []
+    verticals: list[tuple[float, float, float, object, str]] = []
 
     def draw(x: FloatArray, y: FloatArray, **style: object) -> None:
         x, y = _positive(x), _positive(y)
@@ -164,7 +229,15 @@ def tcc_svg(
             for name, row in zip(
                 line_names, _rows(eq_current_a, "eq_current_a", line_names, t.size), strict=True
             ):
-                draw(row, t, linewidth=1.8, label=f"Inrush I_eq(t), line {name}")
+                draw(
+                    row,
+                    t,
+                    linewidth=1.8,
+                    label=f"Inrush I_eq(t), line {name}",
+                    gid=f"inrush-{name}",
+                )
+                line = ax.get_lines()[-1]
+                tags.append((_positive(row), t, f"I_eq {name}", line.get_color(), 0.85))
         px = _vec(points_current_a, "points_current_a")
         py = _vec(points_time_s, "points_time_s", px.size)
         if px.size:
@@ -176,15 +249,21 @@ def tcc_svg(
                 markersize=7,
                 color="tab:red",
                 label=points_label,
+                gid="inrush-points",
             )
         for k, dev in enumerate(devices):
             colour = f"C{(k + 3) % 10}"
             x = _vec(dev.current_a, f"devices[{k}].current_a")
             lo = _vec(dev.time_s, f"devices[{k}].time_s", x.size)
-            draw(x, lo, color=colour, linewidth=1.4, label=dev.label)
+            draw(x, lo, color=colour, linewidth=1.4, label=dev.label, gid=f"device-{k}-lower")
+            tags.append((_positive(x), _positive(lo), dev.tag, colour, 0.3))
+            verticals += [
+                (c, a, b, colour, f"device-{k}-edge-{j}")
+                for j, (c, a, b) in enumerate(dev.verticals)
+            ]
             if dev.upper_time_s is not None:
                 hi = _vec(dev.upper_time_s, f"devices[{k}].upper_time_s", x.size)
-                draw(x, hi, color=colour, linewidth=1.4, linestyle="--")
+                draw(x, hi, color=colour, linewidth=1.4, linestyle="--", gid=f"device-{k}-upper")
                 lo_p, hi_p = _positive(lo), _positive(hi)
                 ax.fill_between(
                     _positive(x), lo_p, hi_p, where=np.isfinite(lo_p) & np.isfinite(hi_p),
@@ -194,23 +273,36 @@ def tcc_svg(
             raise ParameterError("damage_time_s", None, "given together with damage_current_a")
         if damage_current_a is not None and damage_time_s is not None:
             dx = _vec(damage_current_a, "damage_current_a")
-            draw(
-                dx,
-                _vec(damage_time_s, "damage_time_s", dx.size),
-                color="black",
-                linewidth=2.2,
-                label=damage_label,
-            )
+            dy = _vec(damage_time_s, "damage_time_s", dx.size)
+            draw(dx, dy, color="black", linewidth=2.2, label=damage_label, gid="damage")
+            tags.append((_positive(dx), _positive(dy), "damage limit", "black", 0.1))
+        for m in markers:  # a marker below the axes is drawn at their bottom: keep it in view
+            xs.append(np.array([m.current_a]))
+            ys.append(np.array([max(m.time_s, TCC_TIME_RANGE_S[0])]))
         ax.set_xscale("log")
         ax.set_yscale("log")
         _limits(ax, xs, ys)
-        ax.set_xlabel("Current [A]")
+        bottom, top = ax.get_ylim()
+        for c, a, b, edge_colour, gid in verticals:
+            y0, y1 = (bottom if a <= 0.0 else a), (top if not np.isfinite(b) else b)
+            ax.plot([c, c], [y0, y1], color=edge_colour, linewidth=1.4, gid=gid)
+        for j, m in enumerate(markers):
+            y_m = max(float(m.time_s), bottom * 1.25) if np.isfinite(m.time_s) else bottom * 1.25
+            ax.plot([m.current_a], [y_m], linestyle="none", marker="X", markersize=10,
+                    color="crimson", label=m.label, zorder=5, gid=f"marker-{j}")  # fmt: skip
+            ax.annotate(m.tag, (m.current_a, y_m), xytext=(6, 4), textcoords="offset points",
+                        fontsize="small", color="crimson")  # fmt: skip
+        for tag_x, tag_y, text, tag_colour, where in tags:
+            _tag(ax, tag_x, tag_y, text, tag_colour, where)
+        ax.set_xlabel(current_label)
         ax.set_ylabel("Time [s]")
         ax.set_title(title)
         ax.grid(True, which="major", linewidth=0.6, alpha=0.6)
         ax.grid(True, which="minor", linewidth=0.3, alpha=0.35)
-        if ax.get_legend_handles_labels()[0]:
-            fig.legend(loc="outside lower center", ncols=2, fontsize="small")
+        handles, labels = ax.get_legend_handles_labels()
+        if handles:
+            wrapped = [textwrap.fill(text, LEGEND_WIDTH_CHARS) for text in labels]
+            fig.legend(handles, wrapped, loc="outside lower center", ncols=1, fontsize="small")
         return _render(fig)
 
 

@@ -114,6 +114,20 @@ class BreakerIn(Model):
     instantaneous_pickup_a: float | None = Field(None, gt=0.01, le=1e7, description="[A]")
     pickup_tolerance: float = Field(0.10, ge=0.0, le=0.5, description="+/- fraction [-]")
     instantaneous_tolerance: float = Field(0.10, ge=0.0, le=0.5, description="+/- [-]")
+    instantaneous_sensing: Literal["peak", "half_cycle_rms", "one_cycle_rms"] | None = Field(
+        None,
+        description="What the instantaneous element senses: the current's peak, compared with "
+        "peak_factor x the rms setting, or the rms over a sliding half or one cycle, compared "
+        "with the setting. Default peak: electronic trip units detect the peak and magnetic "
+        "elements respond to the instantaneous (asymmetrical) current (common practice)",
+    )
+    peak_factor: float | None = Field(
+        None,
+        ge=1.0,
+        le=3.0,
+        description="Peak-sensing only: the peak that picks up as a multiple of the rms "
+        "setting; default sqrt(2), the crest of a sine at the setting (common practice) [-]",
+    )
 
 
 Device = Annotated[RelayIn | FuseIn | BreakerIn, Field(discriminator="kind")]
@@ -151,6 +165,39 @@ class ClearanceOptions(Model):
         "delta-wye unit and a secondary line-to-ground fault, common practice)",
     )
     coordination_window: bool = Field(True, description="Search each relay's time-dial window")
+    overload_by_secondary_device: bool = Field(
+        True,
+        description="A secondary-side device carries the overload range, so the protection "
+        "check starts at damage_check_from_x_rated (default 6 x rated, common practice); false "
+        "checks from the damage curve's lowest current (2 x rated)",
+    )
+    damage_check_from_x_rated: float | None = Field(
+        None,
+        ge=1.0,
+        le=100.0,
+        description=x_rated("Where the protection check starts (overrides the default)", "rms"),
+    )
+    damage_check_from_a: float | None = Field(
+        None,
+        gt=0.001,
+        le=1e7,
+        description="Where the protection check starts, in amperes on the energised side [A]; "
+        "give this or damage_check_from_x_rated",
+    )
+    reference_voltage_kv: float | None = Field(
+        None,
+        ge=0.01,
+        le=1000.0,
+        description="Figure only: the voltage the TCC's currents are drawn at; currents are "
+        "scaled by energised-winding voltage / this. Default: the energised winding's voltage "
+        "[kV]",
+    )
+
+    @model_validator(mode="after")
+    def _one_start(self) -> ClearanceOptions:
+        if self.damage_check_from_x_rated is not None and self.damage_check_from_a is not None:
+            raise ValueError("give damage_check_from_x_rated or damage_check_from_a, not both")
+        return self
 
 
 class ClearanceRequest(Study):
@@ -171,6 +218,20 @@ class ClearanceRequest(Study):
         return self
 
 
+class InstantaneousCheckOut(Model):
+    """A breaker's instantaneous element against the inrush, like with like (worst line)."""
+
+    sensing: str = Field(description="What the element senses")
+    sensed_a: float = Field(description="The sensed value: a peak or a sliding rms [A]")
+    compared_a: float = Field(
+        description="The same in the setting's rms terms (peak / peak factor for a "
+        "peak-sensing unit) [A]; marked on the TCC"
+    )
+    lower_edge_a: float = Field(description="Instantaneous pickup x (1 - tolerance) [A]")
+    time_s: float | None = Field(description="When the sensed value occurs [s]")
+    statement: str = Field(description="The comparison in words")
+
+
 class RideThroughOut(Model):
     """Does the device ride through the inrush? (ratio > 1: yes)"""
 
@@ -185,6 +246,9 @@ class RideThroughOut(Model):
     compared_current: str = Field(description="Which inrush curve the tightest check compares")
     time_margin_ratio: float | None
     instantaneous_margin_ratio: float | None
+    instantaneous_check: InstantaneousCheckOut | None = Field(
+        None, description="Breakers: what the instantaneous element compared"
+    )
 
 
 class ProtectionOut(Model):
@@ -196,6 +260,8 @@ class ProtectionOut(Model):
     margin_current_a: float | None = Field(description="Where it is tightest [A]")
     unprotected_from_a: float | None
     unprotected_to_a: float | None
+    checked_from_a: float | None = Field(None, description="Lowest current checked [A]")
+    checked_to_a: float | None = Field(None, description="Highest current checked [A]")
 
 
 class PointOut(Model):
@@ -232,14 +298,34 @@ class DeviceOut(Model):
     coordination_window: WindowOut | None
 
 
+class DamagePortionOut(Model):
+    """A part of the damage curve and whether the protection check covers it."""
+
+    name: str
+    from_current_a: float
+    to_current_a: float
+    checked: bool
+    reason: str
+
+
 class DamageOut(Model):
     """The through-fault damage limit used."""
 
     category: str
     insulation: str
     frequent: bool
-    short_circuit_current_a: float
+    short_circuit_current_a: float = Field(
+        description="I_sc of the category rule, where the curve ends: 1/Z_T (Categories I and "
+        "II) or 1/(Z_T + Z_S) (III and IV), IEEE C57.109 (from memory) [A]"
+    )
     mechanical_from_current_a: float | None
+    fault_current_a: float | None = Field(
+        None, description="Largest through-fault current the source allows, 1/(Z_T + Z_S) [A]"
+    )
+    portions: list[DamagePortionOut] = Field(
+        default_factory=list,
+        description="Each part of the damage curve, whether the protection check used it, and why",
+    )
 
 
 class ClearanceResponse(Model):

@@ -10,14 +10,16 @@ from fastapi import APIRouter, Body, Depends
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
 
-from core import clearance, ridethrough
+from core import clearance, coordination, ridethrough
 from service import convert, figures
 from service.examples import CLEARANCE_EXAMPLES
 from service.models.clearance import (
     ClearanceRequest,
     ClearanceResponse,
     DamageOut,
+    DamagePortionOut,
     DeviceOut,
+    InstantaneousCheckOut,
     PointOut,
     ProtectionOut,
     RideThroughOut,
@@ -32,9 +34,12 @@ SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 CLEARANCE_METHOD = (
     "inrush simulated as for /v1/inrush (worst closing angle unless given); relays integrated "
     "as 1/t(I) over the sliding one-cycle rms with the IEEE C37.112 reset (trip when the "
-    "integral reaches 1); fuses and breaker bands against I_eq(t) = sqrt((1/t) integral i^2); "
-    "instantaneous elements against the first peak and half-cycle rms; protection against the "
-    "IEEE C57.109 through-fault curve up to the maximum through-fault current"
+    "integral reaches 1), relay instantaneous against the largest sliding one-cycle rms; fuses "
+    "and breaker bands against I_eq(t) = sqrt((1/t) integral i^2); breaker instantaneous "
+    "against what its trip unit senses (default the first peak against sqrt(2) x the rms "
+    "setting's lower edge; or the largest sliding half- or one-cycle rms against it); "
+    "protection against the IEEE C57.109 through-fault curve (thermal table, mechanical "
+    "I^2 t = K) from the check's start to the largest through-fault current the source allows"
 )
 
 
@@ -51,7 +56,7 @@ def _study(
         body.switching.closing_angle_deg if opt.closing == "given" else None,
         res,
         delay,
-        [convert.device_of(d) for d in body.devices],
+        [convert.device_of(d, n) for n, d in enumerate(body.devices)],
         rating_va=t.rating_kva * 1e3,
         impedance_percent=t.impedance_percent,
         duration_s=opt.duration_s,
@@ -59,11 +64,31 @@ def _study(
         insulation=opt.insulation,
         opening_time_s=opt.opening_time_s,
         damage_current_factor=opt.damage_current_factor,
+        check_from_current=(
+            opt.damage_check_from_a
+            if opt.damage_check_from_x_rated is None
+            else opt.damage_check_from_x_rated * circuit.rated_line_current_a
+        ),
+        overload_by_secondary_device=opt.overload_by_secondary_device,
         windows=opt.coordination_window,
         max_steps=settings.max_total_steps,
     )
     assumptions += convert.assumptions_out(study.evaluation.assumptions)
     return study, assumptions
+
+
+def _instantaneous(ev: coordination.DeviceEvaluation) -> InstantaneousCheckOut | None:
+    sensed = ev.ride_through.sensed
+    if sensed is None:
+        return None
+    return InstantaneousCheckOut(
+        sensing=sensed.sensing,
+        sensed_a=sensed.sensed_a,
+        compared_a=sensed.compared_a,
+        lower_edge_a=sensed.pickup_a,
+        time_s=convert.maybe(sensed.time_s),
+        statement=sensed.text,
+    )
 
 
 def _response(study: clearance.ClearanceStudy, assumptions: list[Assumption]) -> ClearanceResponse:
@@ -93,6 +118,7 @@ def _response(study: clearance.ClearanceStudy, assumptions: list[Assumption]) ->
                         if rt.instantaneous_margin_ratio is not None
                         else None
                     ),
+                    instantaneous_check=_instantaneous(ev),
                 ),
                 protection=ProtectionOut(
                     status=pr.status,
@@ -101,6 +127,8 @@ def _response(study: clearance.ClearanceStudy, assumptions: list[Assumption]) ->
                     margin_current_a=m(pr.margin_current_a),
                     unprotected_from_a=pr.unprotected_from_a,
                     unprotected_to_a=pr.unprotected_to_a,
+                    checked_from_a=m(pr.checked_from_a),
+                    checked_to_a=m(pr.checked_to_a),
                 )
                 if pr is not None
                 else None,
@@ -142,6 +170,17 @@ def _response(study: clearance.ClearanceStudy, assumptions: list[Assumption]) ->
             frequent=dmg.frequent,
             short_circuit_current_a=dmg.short_circuit_current,
             mechanical_from_current_a=dmg.mechanical_from_current,
+            fault_current_a=m(dmg.fault_current),
+            portions=[
+                DamagePortionOut(
+                    name=p.name,
+                    from_current_a=p.from_current_a,
+                    to_current_a=p.to_current_a,
+                    checked=p.checked,
+                    reason=p.reason,
+                )
+                for p in study.evaluation.portions
+            ],
         )
         if dmg is not None
         else None,
@@ -178,34 +217,61 @@ async def clearance_op(
 def _figure(body: ClearanceRequest, settings: Settings) -> str:
     study, _ = _study(body, settings)
     inr = study.inrush
+    t = body.transformer
+    assert t is not None
+    v_kv = t.energized_winding.voltage_kv
+    ref_kv = body.options.reference_voltage_kv or v_kv
+    scale = v_kv / ref_kv  # currents at the energised winding's voltage drawn at ref_kv
     traces = []
     for c in study.curves:
         lower = np.where(np.isfinite(c.minimum_time_s), c.minimum_time_s, np.nan)
         upper = np.where(np.isfinite(c.maximum_time_s), c.maximum_time_s, np.nan)
+        has_upper = bool(np.any(np.isfinite(upper)))
+        label = f"{c.name}: {c.minimum_label}" + (
+            f" / {c.maximum_label} (dashed)" if has_upper else ""
+        )
         traces.append(
             figures.CurveTrace(
-                c.name, c.current_a, lower, upper if np.any(np.isfinite(upper)) else None
+                label,
+                c.current_a * scale,
+                lower,
+                upper if has_upper else None,
+                verticals=[(x * scale, lo, hi) for x, lo, hi in c.verticals],
+                tag=c.name,
             )
         )
+    markers = []
+    for ev in study.evaluation.devices:
+        sensed = ev.ride_through.sensed
+        if sensed is not None:
+            markers.append(
+                figures.Marker(
+                    sensed.compared_a * scale,
+                    sensed.time_s,
+                    f"{ev.device}: instantaneous compares {sensed.text}",
+                    f"{ev.device} compares {sensed.compared_a:.4g} A",
+                )
+            )
     i_r = study.rated_current_a
     pts = ridethrough.INRUSH_POINTS
-    t = body.transformer
-    assert t is not None
     dmg = study.damage
     title = (
-        f"{t.rating_kva:g} kVA, {t.energized_winding.voltage_kv:g} kV "
+        f"{t.rating_kva:g} kVA, {v_kv:g} kV "
         f"{t.energized_winding.connection} energised: inrush, devices and damage limit"
     )
+    ok = math.isfinite(i_r)
     return figures.tcc_svg(
         title,
         eq_time_s=inr.eq_time_s,
-        eq_current_a=inr.eq_current_a,
+        eq_current_a=inr.eq_current_a * scale,
         line_names=inr.lines,
-        points_current_a=[k * i_r for k, _ in pts] if math.isfinite(i_r) else [],
-        points_time_s=[s for _, s in pts] if math.isfinite(i_r) else [],
+        points_current_a=[k * i_r * scale for k, _ in pts] if ok else [],
+        points_time_s=[s for _, s in pts] if ok else [],
         devices=traces,
-        damage_current_a=dmg.current if dmg is not None else None,
+        damage_current_a=dmg.current * scale if dmg is not None else None,
         damage_time_s=dmg.time if dmg is not None else None,
+        markers=markers,
+        current_label=f"Current [A] at {ref_kv:g} kV",
     )
 
 

@@ -152,7 +152,7 @@ def _mitigation(body: MitigationRequest, settings: Settings) -> MitigationRespon
     if body.devices is not None:
         d = body.device_options
         check = mitigation_options.DeviceCheck(
-            tuple(convert.device_of(x) for x in body.devices),
+            tuple(convert.device_of(x, n) for n, x in enumerate(body.devices)),
             d.duration_s,
             d.frequent_faults,
             d.insulation,

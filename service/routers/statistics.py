@@ -107,7 +107,7 @@ def _odds(
         odds = event_checks.device_operation_odds(
             circuit,
             dist,
-            [convert.device_of(d) for d in body.devices],
+            [convert.device_of(d, n) for n, d in enumerate(body.devices)],
             events=events,
             duration_s=opt.device_duration_s,
             max_steps=settings.max_total_steps,

@@ -69,3 +69,17 @@ def test_peak_table_and_envelope_prose() -> None:
     assert f"below rated after\n{a['time_below_s']:.2f} s" in README
     ratios = " / ".join(f"{w['simulated_over_analytic'][0]:.2f}" for w in env["analytic"])
     assert f"`simulated_over_analytic`, {ratios} for the main unit" in README
+
+
+def test_clearance_table() -> None:
+    body = _response("clearance.northgate_main_unit")
+    devices = {d["name"]: d for d in body["devices"]}
+    for name, d in devices.items():
+        row = next(line for line in README.splitlines() if line.startswith(f"| {name} |"))
+        prot = d["protection"]
+        at = f"{prot['margin_ratio']:.3g} at {prot['margin_current_a']:.0f} A"
+        assert at in row, (at, row)
+    window = devices["51 feeder"]["coordination_window"]
+    low, high = window["lowest_riding_through"], window["highest_protecting"]
+    assert f"time dial window {low:.1f} – {high:.1f}" in README
+    assert f"{body['damage']['fault_current_a']:.0f} A;" in README

@@ -17,6 +17,17 @@ from core.errors import ParameterError
 
 I_R = 100.0  # rated current used throughout [A]
 
+# IEEE Std C57.109-1993 through-fault duration table, liquid-immersed (values from memory):
+# (multiple of rated current, seconds), read log-log between points; 1250/x² above 25 ×.
+C57_109_TABLE = [(2.0, 1800.0), (3.0, 300.0), (4.75, 60.0), (6.3, 30.0), (11.3, 10.0), (25.0, 2.0)]
+
+
+def c57_109_thermal(x: np.ndarray) -> np.ndarray:
+    """The table read log-log (the reading of the standard's figure), 1250/x² above 25 ×."""
+    lx, lt = np.log([p[0] for p in C57_109_TABLE]), np.log([p[1] for p in C57_109_TABLE])
+    x = np.asarray(x, dtype=float)
+    return np.where(x > 25.0, 1250.0 / x**2, np.exp(np.interp(np.log(x), lx, lt)))
+
 
 def test_category_rating_below_category_i_is_refused() -> None:
     # C57.12.00 categories start at 5 kVA single-phase / 15 kVA three-phase (from memory)
@@ -45,12 +56,20 @@ def test_short_circuit_current() -> None:
 
 
 def test_category_i_ignores_source_impedance() -> None:
-    # Category I is limited by the transformer impedance alone (C57.109 clause 4, from memory)
+    # Category I is limited by the transformer impedance alone (C57.109 clause 4, from memory);
+    # the source still limits what can flow, 1/(Z_T + Z_S) = 10 pu
     a = damage.through_fault_damage_curve(300.0, 3, I_R, 0.05)
     b = damage.through_fault_damage_curve(300.0, 3, I_R, 0.05, z_source_pu=0.05)
-    np.testing.assert_array_equal(a.current, b.current)
-    np.testing.assert_array_equal(a.time, b.time)
+    probe = np.geomspace(2.0, 20.0, 50) * I_R
+    np.testing.assert_array_equal(
+        damage.through_fault_damage_time(probe, 300.0, 3, I_R, 0.05),
+        damage.through_fault_damage_time(probe, 300.0, 3, I_R, 0.05, 0.05),
+    )
+    assert a.current[-1] == b.current[-1] == pytest.approx(20.0 * I_R)
     assert a.short_circuit_current == pytest.approx(20.0 * I_R)
+    assert a.fault_current == pytest.approx(20.0 * I_R)
+    assert b.fault_current == pytest.approx(10.0 * I_R)
+    assert 10.0 * I_R in b.current  # the fault current is a point of the curve
     assert a.mechanical_from_current is None
 
 
@@ -59,47 +78,53 @@ def test_curve_is_nan_outside_its_range() -> None:
     t = damage.through_fault_damage_time([0.0, 1.99 * I_R, 20.01 * I_R], 300.0, 3, I_R, 0.05)
     assert np.all(np.isnan(t))
     ends = damage.through_fault_damage_time([2.0 * I_R, 20.0 * I_R], 300.0, 3, I_R, 0.05)
-    np.testing.assert_allclose(ends, [1250.0 / 4.0, 1250.0 / 400.0], rtol=1e-12)
+    np.testing.assert_allclose(ends, c57_109_thermal(np.array([2.0, 20.0])), rtol=1e-12)
+    assert ends[0] == pytest.approx(1800.0, rel=1e-12)  # the table's 2 × point, not 1250/4
 
 
 @pytest.mark.parametrize(
-    ("kva", "frequent", "fraction"),
+    ("kva", "frequent", "fraction", "with_source"),
     [
-        (2500.0, True, 0.7),  # Category II frequent: from 70 % of I_sc (from memory)
-        (2500.0, False, None),  # Category II infrequent: thermal only (from memory)
-        (10_000.0, True, 0.5),  # Category III frequent: from 50 % (from memory)
-        (10_000.0, False, None),  # Category III infrequent: thermal only (from memory)
-        (50_000.0, True, 0.5),  # Category IV: one curve from 50 % (from memory)
-        (50_000.0, False, 0.5),
+        # Category II: I_sc = 1/Z_T, transformer impedance alone (C57.109, from memory)
+        (2500.0, True, 0.7, False),  # frequent: from 70 % of I_sc (from memory)
+        (2500.0, False, None, False),  # infrequent: thermal only (from memory)
+        # Categories III and IV: I_sc = 1/(Z_T + Z_S) (C57.109, from memory)
+        (10_000.0, True, 0.5, True),  # Category III frequent: from 50 % (from memory)
+        (10_000.0, False, None, True),  # Category III infrequent: thermal only (from memory)
+        (50_000.0, True, 0.5, True),  # Category IV: one curve from 50 % (from memory)
+        (50_000.0, False, 0.5, True),
     ],
 )
-def test_mechanical_portion_by_category(kva: float, frequent: bool, fraction: float | None) -> None:
+def test_mechanical_portion_by_category(
+    kva: float, frequent: bool, fraction: float | None, with_source: bool
+) -> None:
     z_t, z_s = 0.08, 0.02
-    i_sc = 1.0 / (z_t + z_s)  # 10 pu
+    i_sc = 1.0 / (z_t + z_s) if with_source else 1.0 / z_t  # 10 pu or 12.5 pu
     c = damage.through_fault_damage_curve(kva, 3, I_R, z_t, z_s, frequent)
     assert c.short_circuit_current == pytest.approx(i_sc * I_R, rel=1e-14)
+    assert c.fault_current == pytest.approx(10.0 * I_R, rel=1e-14)  # what the source lets flow
     if fraction is None:
         assert c.mechanical_from_current is None
         assert c.mechanical_i2t is None
-        np.testing.assert_allclose(c.time, 1250.0 * I_R**2 / c.current**2, rtol=1e-12)
+        np.testing.assert_allclose(c.time, c57_109_thermal(c.current / I_R), rtol=1e-12)
         return
     assert c.mechanical_from_current == pytest.approx(fraction * i_sc * I_R, rel=1e-14)
     k = 2.0 * i_sc**2  # K = 2·I_sc² pu²·s (from memory), i.e. 2 s at I_sc
     assert c.mechanical_i2t == pytest.approx(k * I_R**2, rel=1e-14)
     x = np.array([0.99 * fraction * i_sc, fraction * i_sc, i_sc])
     t = damage.through_fault_damage_time(x * I_R, kva, 3, I_R, z_t, z_s, frequent)
-    np.testing.assert_allclose(t, [1250.0 / x[0] ** 2, k / x[1] ** 2, 2.0], rtol=1e-12)
+    np.testing.assert_allclose(t, [c57_109_thermal(x[0]), k / x[1] ** 2, 2.0], rtol=1e-12)
     # the plotted curve holds the vertical drop: two points at the starting current
     j = int(np.flatnonzero(c.current == c.mechanical_from_current)[0])
     assert c.current[j + 1] == c.current[j]
-    assert c.time[j] == pytest.approx(1250.0 / (fraction * i_sc) ** 2, rel=1e-12)
+    assert c.time[j] == pytest.approx(c57_109_thermal(fraction * i_sc), rel=1e-12)
     assert c.time[j + 1] == pytest.approx(k / (fraction * i_sc) ** 2, rel=1e-12)
 
 
 def test_low_impedance_unit_mechanical_never_below_thermal() -> None:
     # I_sc = 1/0.03 = 33 pu > 25 pu gives K = 2·I_sc² > 1250: the thermal limit governs
     c = damage.through_fault_damage_curve(50_000.0, 3, I_R, 0.03, frequent=True)
-    np.testing.assert_allclose(c.time, 1250.0 * I_R**2 / c.current**2, rtol=1e-12)
+    np.testing.assert_allclose(c.time, c57_109_thermal(c.current / I_R), rtol=1e-12)
     assert np.all(np.diff(c.current) > 0.0)  # no vertical step drawn
 
 
@@ -134,7 +159,10 @@ def test_curve_properties(
     assert np.all(np.diff(c.current) >= 0.0)  # increasing, repeated only at the step
     assert np.all(np.diff(c.time) <= 0.0)  # permitted time never rises with current
     assert np.all(np.isfinite(c.time))
-    assert np.all(c.time <= 1250.0 * I_R**2 / c.current**2 * (1 + 1e-12))  # never above thermal
+    thermal = (
+        1250.0 / (c.current / I_R) ** 2 if insulation == "dry" else c57_109_thermal(c.current / I_R)
+    )
+    assert np.all(c.time <= thermal * (1 + 1e-12))  # never above the thermal limit
     # vector equals scalar, and the time function agrees with the plotted curve off the step
     probe = c.current[c.current != (c.mechanical_from_current or -1.0)]
     vec = damage.through_fault_damage_time(probe, kva, 3, I_R, z_t, z_s, frequent, insulation)

@@ -275,13 +275,16 @@ def test_fuse_melting_i2t_against_the_first_half_cycle() -> None:
 
 
 def _breaker(
-    inst: float, tol: float = 0.1, peak_factor: float | None = None
+    inst: float,
+    tol: float = 0.1,
+    peak_factor: float | None = None,
+    sensing: ridethrough.Sensing | None = None,
 ) -> ridethrough.Breaker:
     unit = fuse_breaker_curves.LowVoltageBreaker(
         long_time_pickup=2000.0, long_time_delay=20.0, instantaneous_pickup=inst,
         instantaneous_tolerance=tol,
     )  # fmt: skip
-    return ridethrough.Breaker("cb", unit, peak_factor)
+    return ridethrough.Breaker("cb", unit, peak_factor, sensing)
 
 
 def test_breaker_instantaneous_trips_when_first_peak_exceeds_lower_edge() -> None:
@@ -294,21 +297,57 @@ def test_breaker_instantaneous_trips_when_first_peak_exceeds_lower_edge() -> Non
     crest = brentq(lambda s: W * math.sin(W * s) - (1 - math.cos(W * s)) / 0.5, 0.3 * T, 0.7 * T)
     assert peak == pytest.approx(float(unipolar(crest, 1000.0, 0.5)), rel=1e-6)
     tol = 0.15
-    trips = ridethrough.breaker_ride_through(_breaker(0.99 * peak / (1 - tol), tol), inr)
-    rides = ridethrough.breaker_ride_through(_breaker(1.01 * peak / (1 - tol), tol), inr)
+    # peak factor 1: the peak compared as if it were rms
+    trips = ridethrough.breaker_ride_through(_breaker(0.99 * peak / (1 - tol), tol, 1.0), inr)
+    rides = ridethrough.breaker_ride_through(_breaker(1.01 * peak / (1 - tol), tol, 1.0), inr)
     assert trips.trips
-    assert trips.compared_current == "largest |i| (first peak)"
+    assert trips.compared_current.startswith("largest |i| (first peak)")
     assert trips.instantaneous_margin_ratio == pytest.approx(0.99)
     assert trips.trip_time_s == pytest.approx(crest, abs=T / 128)
     assert not rides.trips
     assert rides.margin_ratio == pytest.approx(1.01)
-    # a peak-sensing unit (threshold √2 × the rms pickup) rides through where the peak read as
-    # rms trips; its half-cycle rms (about 0.83 × the crest) stays below the lower edge
-    sensing = ridethrough.breaker_ride_through(
-        _breaker(0.99 * peak / (1 - tol), tol, math.sqrt(2)), inr
-    )
-    assert not sensing.trips
-    assert sensing.compared_current == "largest half-cycle rms"
+
+
+def test_breaker_peak_sensing_compares_with_root_two_times_the_setting() -> None:
+    # common practice (from memory): a peak-sensing unit picks up when the peak reaches √2 × the
+    # rms setting (the crest of a sine at the setting): the default. The same breaker that
+    # "trips" with the peak read as rms rides through with margin 0.99·√2.
+    t, i = record(1000.0, 0.5, 0.5, spc=128)
+    inr = ridethrough.inrush_from_waveform(t, i, F)
+    crest = brentq(lambda s: W * math.sin(W * s) - (1 - math.cos(W * s)) / 0.5, 0.3 * T, 0.7 * T)
+    peak = float(unipolar(crest, 1000.0, 0.5))
+    tol = 0.15
+    got = ridethrough.breaker_ride_through(_breaker(0.99 * peak / (1 - tol), tol), inr)
+    assert not got.trips
+    assert got.instantaneous_margin_ratio == pytest.approx(0.99 * math.sqrt(2.0), rel=1e-6)
+    assert got.sensed is not None
+    assert got.sensed.sensing == "peak"
+    assert got.sensed.compared_a == pytest.approx(peak / math.sqrt(2.0), rel=1e-6)
+    assert got.sensed.pickup_a == pytest.approx(0.99 * peak, rel=1e-12)
+    # the words name what was compared, with the numbers the verdict used
+    assert got.compared_current == got.sensed.text
+    assert f"{peak / math.sqrt(2.0):.4g} A rms-equivalent" in got.compared_current
+    assert f"lower edge {0.99 * peak:.4g} A" in got.compared_current
+
+
+def test_breaker_rms_sensing_over_a_half_cycle() -> None:
+    # an rms-sensing unit: the largest sliding half-cycle rms against the lower edge itself;
+    # reference: the half-cycle rms of the analytic waveform by scipy quad over end times
+    t, i = record(1000.0, 0.5, 0.5, spc=128)
+    inr = ridethrough.inrush_from_waveform(t, i, F)
+
+    def window_rms(end: float) -> float:
+        e = quad(lambda s: float(unipolar(s, 1000.0, 0.5)) ** 2, max(end - T / 2, 0.0), end)[0]
+        return math.sqrt(e / (T / 2))
+
+    ref = max(window_rms(x) for x in np.linspace(0.3 * T, 1.2 * T, 400))
+    got = ridethrough.breaker_ride_through(_breaker(1000.0, 0.1, sensing="half_cycle_rms"), inr)
+    assert got.sensed is not None
+    assert got.sensed.sensed_a == pytest.approx(ref, rel=1e-3)
+    assert got.instantaneous_margin_ratio == pytest.approx(900.0 / ref, rel=1e-3)
+    assert got.compared_current.startswith("largest sliding half-cycle rms")
+    with pytest.raises(ParameterError, match="sensing"):
+        _breaker(1000.0, sensing="average")  # type: ignore[arg-type]
 
 
 def test_breaker_long_time_band_against_constant_current() -> None:
@@ -321,7 +360,8 @@ def test_breaker_long_time_band_against_constant_current() -> None:
 
 # --------------------------------------------------------------------------------- protection
 
-# invented 500 kVA three-phase unit, 480 V: Category I, damage t = 1250/x² from 2 pu to 1/Z
+# invented 500 kVA three-phase unit, 480 V: Category I, damage from the C57.109 table from 2 pu
+# to 1/Z (log-log between its points, which the curve holds, so interpolation is exact)
 I_R = 500e3 / (math.sqrt(3) * 480.0)
 DAMAGE = damage.through_fault_damage_curve(500.0, 3, I_R, 0.05, points=32)
 
@@ -329,7 +369,7 @@ DAMAGE = damage.through_fault_damage_curve(500.0, 3, I_R, 0.05, points=32)
 def test_clearing_at_half_the_damage_time_has_margin_two() -> None:
     # t_clear = t_damage/2 on the same 1/I² lines (log-log straight), so the ratio is 2 at
     # every current; a curve ten times above the damage curve protects nowhere
-    pts = [(1.9 * I_R, 0.5 * 1250 / 1.9**2)] + [
+    pts = [(1.9 * I_R, 0.6 * DAMAGE.time[0])] + [
         (c, 0.5 * s) for c, s in zip(DAMAGE.current, DAMAGE.time, strict=True)
     ]
     half = ridethrough.Fuse("f", table([(c * 0.9, s * 0.5) for c, s in pts]), table(pts))
@@ -400,7 +440,9 @@ def test_window_limits_match_the_time_dial_scaling() -> None:
     assert win.lowest_riding_through == pytest.approx(1.0 / margin, rel=1e-5)
     grid = np.geomspace(DAMAGE.current[0], DAMAGE.current[-1], 20001)
     f_m = 19.61 / ((grid / relay.pickup_a) ** 2 - 1) + 0.491
-    t_d = 1250 * (I_R / grid) ** 2
+    # C57.109 thermal table (from memory), log-log between its points
+    tab_x, tab_t = [2.0, 3.0, 4.75, 6.3, 11.3, 25.0], [1800.0, 300.0, 60.0, 30.0, 10.0, 2.0]
+    t_d = np.exp(np.interp(np.log(grid / I_R), np.log(tab_x), np.log(tab_t)))
     assert win.highest_protecting == pytest.approx(float(np.min((t_d - 5 / 60) / f_m)), rel=1e-4)
     # just inside each limit passes, just outside fails
     lo, hi = win.lowest_riding_through, win.highest_protecting
@@ -495,9 +537,10 @@ def test_device_validation() -> None:
 
 def test_table_with_a_peak_checks_the_instantaneous_without_a_time() -> None:
     # an I_eq table says nothing of when the peak occurs: the breaker trips, time unknown (None)
+    # (peak-sensing unit: threshold √2 × 0.9 × 1800 A = 2291 A below the 3000 A peak)
     inr = ridethrough.inrush_from_table([0.01, 0.1, 1.0], [800.0, 400.0, 150.0], peak_a=3000.0)
-    got = ridethrough.breaker_ride_through(_breaker(2500.0), inr)
+    got = ridethrough.breaker_ride_through(_breaker(1800.0), inr)
     assert got.trips
     assert got.trip_time_s is None
     assert got.margin_time_s is None
-    assert got.instantaneous_margin_ratio == pytest.approx(0.9 * 2500.0 / 3000.0)
+    assert got.instantaneous_margin_ratio == pytest.approx(math.sqrt(2) * 0.9 * 1800.0 / 3000.0)

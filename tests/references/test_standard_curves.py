@@ -111,30 +111,63 @@ def test_c57_12_00_category_boundaries(phases: int, kva: float, expected: str) -
     assert damage.through_fault_category(kva, phases) == expected
 
 
-def test_c57_109_thermal_curve_points() -> None:
-    # IEEE Std C57.109-1993 clause 4: t = 1250/I², I in pu of rated current (from memory).
-    # A Category I unit with Z = 4 % reaches 1/0.04 = 25 pu, so the curve spans 2-25 pu.
+# IEEE Std C57.109-1993 through-fault duration table for liquid-immersed units (values from
+# memory; the table's origin in ANSI C57.92-1962 and its republication in C57.109-1993 read in
+# Patterson & Price, "Transformer Overcurrent Protection Coordination", Table 2):
+C57_109_TABLE = [(25.0, 2.0), (11.3, 10.0), (6.3, 30.0), (4.75, 60.0), (3.0, 300.0), (2.0, 1800.0)]
+
+
+@pytest.mark.parametrize(("x", "seconds"), C57_109_TABLE)
+def test_c57_109_thermal_table_points(x: float, seconds: float) -> None:
+    # A Category I unit with Z = 4 % reaches 1/0.04 = 25 pu, so its curve spans the whole table
     i_r = 100.0
-    x = np.array([25.0, 10.0, 2.0])
     t = damage.through_fault_damage_time(x * i_r, 300.0, 3, i_r, 0.04)
-    expected = np.array([1250.0 / 625.0, 1250.0 / 100.0, 1250.0 / 4.0])  # 2 s, 12.5 s, 312.5 s
-    np.testing.assert_allclose(t, expected, rtol=1e-12)
-    np.testing.assert_allclose(t, [2.0, 12.5, 312.5], rtol=1e-12)
+    assert float(t) == pytest.approx(seconds, rel=1e-12)
 
 
-def test_c57_109_category_ii_frequent_fault_worked_example() -> None:
-    # Invented demo unit (service/examples.py): 2500 kVA three-phase, Z_T = 5.75 %, source 250 MVA,
-    # so Z_S = 2.5/250 = 0.01 pu and I_sc = 1/(0.0575 + 0.01) = 14.815 pu. Category II frequent
-    # faults: I²t = K = 2·I_sc² = 438.96 pu²·s from 0.7·I_sc = 10.370 pu (C57.109-1993 clause 4; K =
-    # 2·I_sc² and the 70 % start are from memory). At 12 pu: 438.96/144 = 3.0483 s, thermal would
-    # give 1250/144 = 8.6806 s.
+def test_c57_109_thermal_end_is_not_1250_over_i_squared() -> None:
+    # 1250/I² holds at the high-current end only (C57.109 clause 4, from memory): 2 s at 25 pu
+    # and, for a low-impedance Category I unit (Z = 2.5 %, I_sc = 40 pu), 1250/30² = 1.3889 s at
+    # 30 pu; at 2 pu the table's 1800 s, not 1250/4 = 312.5 s
+    i_r = 100.0
+    t = damage.through_fault_damage_time(np.array([30.0, 2.0]) * i_r, 300.0, 3, i_r, 0.025)
+    np.testing.assert_allclose(t, [1250.0 / 900.0, 1800.0], rtol=1e-12)
+    assert float(t[1]) > 5.0 * 1250.0 / 4.0
+
+
+def test_c57_109_category_ii_uses_the_transformer_impedance_alone() -> None:
+    # Invented demo unit (service/examples.py): 2500 kVA three-phase, Z_T = 5.75 %, source 250 MVA, so
+    # Z_S = 2.5/250 = 0.01 pu. Category II (C57.109, from memory): I_sc = 1/Z_T = 17.391 pu,
+    # K = 2·I_sc² = 604.91 pu²·s from 0.7·I_sc = 12.174 pu. At 14 pu (frequent faults):
+    # 604.91/196 = 3.0863 s; at 12 pu, below the 70 % start, the table between 11.3 × (10 s) and
+    # 25 × (2 s): 10·(12/11.3)^(ln 0.2/ln(25/11.3)) = 8.853 s.
     i_r = 2500e3 / (np.sqrt(3.0) * 480.0)  # 3007 A on the 480 V winding
+    i_sc = 1.0 / 0.0575
+    k = 2.0 * i_sc**2
+    assert i_sc == pytest.approx(17.3913, abs=5e-5)
+    assert k == pytest.approx(604.915, abs=5e-3)
+    args = (2500.0, 3, i_r, 0.0575, 0.01)
+    t = damage.through_fault_damage_time(np.array([14.0, 12.0]) * i_r, *args, frequent=True)
+    np.testing.assert_allclose(t, [3.0863, 8.853], atol=5e-4)
+    curve = damage.through_fault_damage_curve(*args, frequent=True)
+    assert curve.short_circuit_current == pytest.approx(i_sc * i_r, rel=1e-12)
+    assert curve.mechanical_from_current == pytest.approx(0.7 * i_sc * i_r, rel=1e-12)
+    # what the source lets flow, 1/(Z_T + Z_S) = 14.815 pu, bounds the protection check
+    assert curve.fault_current == pytest.approx(i_r / 0.0675, rel=1e-12)
+
+
+def test_c57_109_category_iii_uses_transformer_plus_source() -> None:
+    # The same impedances on a 10 000 kVA (Category III) unit: I_sc = 1/(Z_T + Z_S) = 14.815 pu,
+    # K = 2·I_sc² = 438.96 pu²·s from 0.5·I_sc = 7.407 pu (C57.109, from memory). At 12 pu:
+    # 438.96/144 = 3.0483 s; infrequent faults: the table, 8.853 s.
+    i_r = 10_000e3 / (np.sqrt(3.0) * 13_800.0)
     i_sc = 1.0 / (0.0575 + 0.01)
     k = 2.0 * i_sc**2
     assert i_sc == pytest.approx(14.8148, abs=5e-5)
     assert k == pytest.approx(438.957, abs=5e-4)
-    t = damage.through_fault_damage_time(12.0 * i_r, 2500.0, 3, i_r, 0.0575, 0.01, frequent=True)
+    args = (10_000.0, 3, i_r, 0.0575, 0.01)
+    t = damage.through_fault_damage_time(12.0 * i_r, *args, frequent=True)
     assert float(t) == pytest.approx(k / 144.0, rel=1e-12)
     assert float(t) == pytest.approx(3.0483, abs=5e-5)
-    t_inf = damage.through_fault_damage_time(12.0 * i_r, 2500.0, 3, i_r, 0.0575, 0.01)
-    assert float(t_inf) == pytest.approx(8.6806, abs=5e-5)
+    t_inf = damage.through_fault_damage_time(12.0 * i_r, *args)
+    assert float(t_inf) == pytest.approx(8.853, abs=5e-4)

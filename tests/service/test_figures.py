@@ -124,3 +124,27 @@ def test_mismatched_shapes_are_parameter_errors(kwargs: dict[str, object], name:
     with pytest.raises(ParameterError) as err:
         figures.waveform_svg("x", [0.0, 1.0], [[0.0, 1.0]] * 2, line_names=("A",))
     assert err.value.parameter == "current_a"
+
+
+def test_tcc_marks_points_draws_edges_and_names_curves_on_the_plot() -> None:
+    inputs = _tcc_inputs()
+    breaker = figures.CurveTrace(
+        "Breaker: minimum band / maximum band",
+        [100.0, 1000.0, 3000.0],
+        [100.0, 1.0, float("nan")],
+        verticals=[(2500.0, 0.0, 0.5)],
+        tag="CB-1",
+    )
+    inputs["devices"] = (*inputs["devices"], breaker)  # type: ignore[misc]
+    marker = figures.Marker(1800.0, 0.004, "CB-1: compares 1800 A", "CB-1 compares 1800 A")
+    svg = figures.tcc_svg("T", markers=[marker], current_label="Current [A] at 13.8 kV", **inputs)  # type: ignore[arg-type]
+    root = ET.fromstring(svg)
+    ids = {g.get("id") for g in root.iter(f"{SVG_NS}g")}
+    for gid in ("inrush-A", "inrush-points", "device-3-lower", "device-3-edge-0", "marker-0"):
+        assert gid in ids, gid
+    texts = [("".join(t.itertext())) for t in root.iter(f"{SVG_NS}text")]
+    assert "Current [A] at 13.8 kV" in texts
+    assert "CB-1" in texts  # named on the plot
+    assert "CB-1 compares 1800 A" in texts
+    assert "CB-1: compares 1800 A" in texts  # and in the legend
+    assert "damage limit" in texts
