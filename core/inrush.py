@@ -32,6 +32,7 @@ __all__ = [
     "line_names",
     "peak_studies",
     "peak_study",
+    "search_offsets",
     "winding_angles",
     "winding_names",
     "worst_closing_angles",
@@ -163,6 +164,35 @@ def _common_checks(
 _Simulated = tuple[tuple[LinePeak, ...], tuple[float, float, str]]
 
 
+def search_offsets() -> tuple[FloatArray, ...]:
+    """Trial angles of each stage of the worst-closing-angle search, about its centre.
+
+    Returns
+    -------
+    tuple of ndarray
+        One array per stage, offsets from the stage's centre (180 at the first stage, then the
+        best angle so far) [deg].
+
+    Notes
+    -----
+    A scan over +-180 degrees in 2.5-degree steps (145 trials), then two local refinements
+    about the best angle, each over +-one previous step in a tenth of it (21 trials each): a
+    grid search refined by decades, this project's choice. :func:`worst_closing_angles` runs it
+    (:func:`core.energize.worst_closing_angle` searches the same stages); :mod:`core.cost`
+    counts its trials.
+
+    References
+    ----------
+    Grid search with successive refinement: common practice.
+    """
+    out = []
+    span, step = 180.0, 2.5
+    for _ in range(3):
+        out.append(np.arange(-span, span + 0.5 * step, step))
+        span, step = step, step / 10.0
+    return tuple(out)
+
+
 def worst_closing_angles(
     circuits: list[EquivalentCircuit],
     residual_flux_pu: FloatArray,
@@ -205,9 +235,7 @@ def worst_closing_angles(
     n = len(circuits)
     extra = dict(per_case or {})
     center = np.full(n, 180.0)
-    span, step = 180.0, 2.5
-    for _ in range(3):
-        offsets = np.arange(-span, span + 0.5 * step, step)
+    for offsets in search_offsets():
         trial = center[:, None] + offsets[None, :]
         reps = offsets.size
         scan = energize.simulate(
@@ -218,7 +246,6 @@ def worst_closing_angles(
         )  # fmt: skip
         worst = energize.refined_abs_peak(scan.line_current_a).max(axis=-1).reshape(n, reps)
         center = trial[np.arange(n), np.argmax(worst, axis=1)]
-        span, step = step, step / 10.0
     best = energize.simulate(circuits, center, residual_flux_pu, pole_delay_s,
                              duration_s=duration_s, samples_per_cycle=128, max_steps=max_steps,
                              **extra)  # fmt: skip

@@ -15,6 +15,7 @@ given with a distribution-free confidence interval and a convergence table.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -340,6 +341,7 @@ def peak_distribution(
     cycles: float = 2.0,
     max_steps: int | None = None,
     batch: int = 2000,
+    checkpoint: Callable[[], None] | None = None,
 ) -> PeakDistribution:
     """Monte Carlo distribution of the first-cycles inrush peak over random closing instants.
 
@@ -364,6 +366,9 @@ def peak_distribution(
         Compute limit per solver call, see :func:`core.energize.simulate` [-].
     batch : int
         Energisations per solver call, in [1, 1e6] [-].
+    checkpoint : callable or None
+        Called with no argument before each solver call; it may raise to stop the work (the
+        caller's deadline) [-].
 
     Returns
     -------
@@ -414,6 +419,8 @@ def peak_distribution(
     peaks = np.empty((n, m))
     approximations: tuple[str, ...] = ()
     for start in range(0, n, size):
+        if checkpoint is not None:
+            checkpoint()
         part = slice(start, min(start + size, n))
         sim = energize.simulate(
             circuit,
