@@ -2,7 +2,7 @@
 
 Each function counts the integration steps an operation will take from the same step plan the
 solvers use (:func:`core.energize_plan.step_plan`, :func:`core.energize_plan.
-saturated_time_constant`, :func:`core.inrush.search_offsets`, :func:`core.dip_solver.
+saturated_time_constant`, :func:`core.energize_plan.search_offsets`, :func:`core.dip_solver.
 cycle_steps`), so the estimate cannot drift from the solver, and adds the judging that follows
 each simulation. The unit of work is one *winding-step*: one Runge-Kutta step of one winding of
 one case in :mod:`core.energize` (cases x windings x steps, the unit ``max_steps`` counts). The
@@ -17,7 +17,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from core import dip_solver, energize_plan, inrush
+from core import dip_solver, energize_plan
 from core.transformer import EquivalentCircuit
 
 __all__ = [
@@ -82,7 +82,7 @@ def search_cases() -> int:
     Returns
     -------
     int
-        Sum of the trials of every stage of :func:`core.inrush.search_offsets`, plus one [-].
+        Sum of the trials of every stage of :func:`core.energize_plan.search_offsets`, plus one [-].
 
     Notes
     -----
@@ -93,7 +93,7 @@ def search_cases() -> int:
     ----------
     Counts the search of :func:`core.inrush.worst_closing_angles` (this project).
     """
-    return sum(o.size for o in inrush.search_offsets()) + 1
+    return sum(o.size for o in energize_plan.search_offsets()) + 1
 
 
 def simulation_steps(
@@ -169,10 +169,19 @@ def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) ->
     return DIP_STEP_WEIGHT * float(cases) * (main + first)
 
 
+def _line_samples(circuit: EquivalentCircuit, duration_s: float, samples_per_cycle: int) -> float:
+    """Output samples of a record of ``duration_s`` [s] on every line [-]."""
+    return circuit.phases * (duration_s * circuit.frequency_hz * samples_per_cycle + 1)
+
+
 def _judging(circuit: EquivalentCircuit, devices: int, duration_s: float, events: float) -> float:
-    samples = duration_s * circuit.frequency_hz * 128 + 1
-    lines = circuit.phases
-    return DEVICE_SAMPLE_WEIGHT * events * devices * lines * samples
+    return DEVICE_SAMPLE_WEIGHT * events * devices * _line_samples(circuit, duration_s, 128)
+
+
+def _search(circuit: EquivalentCircuit, pole_delay_max_s: float, cycles: float = 2.0) -> float:
+    """Winding-steps of one worst-closing-angle search over ``cycles`` after the last pole."""
+    window = cycles / circuit.frequency_hz + pole_delay_max_s
+    return simulation_steps(circuit, search_cases(), window)
 
 
 def peak_work(
@@ -206,11 +215,9 @@ def peak_work(
     """
     if not simulated:
         return _work(())
-    duration = cycles / circuit.frequency_hz + pole_delay_max_s
-    return _work(
-        (("first peak and worst closing angle", simulation_steps(circuit, 1 + search_cases(),
-                                                                   duration)),)
-    )  # fmt: skip
+    event = simulation_steps(circuit, 1, cycles / circuit.frequency_hz + pole_delay_max_s)
+    search = _search(circuit, pole_delay_max_s, cycles)
+    return _work((("first peak and worst closing angle", event + search),))
 
 
 def envelope_work(circuit: EquivalentCircuit, duration_s: float, samples_per_cycle: int) -> Work:
@@ -239,7 +246,7 @@ def envelope_work(circuit: EquivalentCircuit, duration_s: float, samples_per_cyc
     Counts :func:`core.inrush.envelope_study` (this project).
     """
     sim = simulation_steps(circuit, 1, duration_s, samples_per_cycle)
-    analysis = circuit.phases * (duration_s * circuit.frequency_hz * samples_per_cycle + 1)
+    analysis = _line_samples(circuit, duration_s, samples_per_cycle)
     return _work((("simulation", sim), ("waveform analysis", analysis)))
 
 
@@ -343,11 +350,9 @@ def clearance_work(
     ----------
     Counts :func:`core.clearance.clearance_study` (this project).
     """
-    f = circuit.frequency_hz
     parts = []
     if worst_angle:
-        window = 2.0 / f + pole_delay_max_s
-        parts.append(("worst closing angle", simulation_steps(circuit, search_cases(), window)))
+        parts.append(("worst closing angle", _search(circuit, pole_delay_max_s)))
     parts.append(("inrush record", simulation_steps(circuit, 1, duration_s)))
     judged = _judging(circuit, devices, duration_s, 1.0) * (1 + (WINDOW_TRIALS if windows else 0))
     parts.append(("devices judged", judged))
@@ -462,7 +467,7 @@ def mitigation_work(
     f = circuit.frequency_hz
     plans = options + 1
     window = 2.0 / f + pole_delay_max_s
-    one_search = simulation_steps(circuit, search_cases(), window)
+    one_search = _search(circuit, pole_delay_max_s)
     record = max(0.1 + 1.0 / f, device_duration_s) + window
     parts = [
         ("worst-angle searches", plans * OPTION_SEARCHES * RESISTOR_SUBSTEPS * one_search),

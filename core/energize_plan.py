@@ -38,6 +38,7 @@ __all__ = [
     "on_step_grid",
     "plan_steps",
     "saturated_time_constant",
+    "search_offsets",
     "step_plan",
 ]
 
@@ -157,6 +158,35 @@ def step_plan(
     spc = samples_per_cycle * decimate
     n_steps = max(decimate, round(duration_s * frequency_hz * samples_per_cycle) * decimate)
     return spc, decimate, n_steps
+
+
+def search_offsets() -> tuple[FloatArray, ...]:
+    """Trial angles of each stage of the worst-closing-angle search, about its centre.
+
+    Returns
+    -------
+    tuple of ndarray
+        One array per stage, offsets from the stage's centre (180 at the first stage, then the
+        best angle so far) [deg].
+
+    Notes
+    -----
+    A scan over +-180 degrees in 2.5-degree steps (145 trials), then two local refinements
+    about the best angle, each over +-one previous step in a tenth of it (21 trials each): a
+    grid search refined by decades, this project's choice. :func:`core.inrush.
+    worst_closing_angles` and :func:`core.energize.worst_closing_angle` run it;
+    :mod:`core.cost` counts its trials.
+
+    References
+    ----------
+    Grid search with successive refinement: common practice.
+    """
+    out = []
+    span, step = 180.0, 2.5
+    for _ in range(3):
+        out.append(np.arange(-span, span + 0.5 * step, step))
+        span, step = step, step / 10.0
+    return tuple(out)
 
 
 def saturated_time_constant(circuit: EquivalentCircuit, extra_resistance_ohm: float = 0.0) -> float:

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from core import analytic, energize, waveform
+from core import analytic, energize, energize_plan, waveform
 from core.errors import ParameterError
 from core.transformer import EquivalentCircuit
 
@@ -32,7 +32,6 @@ __all__ = [
     "line_names",
     "peak_studies",
     "peak_study",
-    "search_offsets",
     "winding_angles",
     "winding_names",
     "worst_closing_angles",
@@ -164,35 +163,6 @@ def _common_checks(
 _Simulated = tuple[tuple[LinePeak, ...], tuple[float, float, str]]
 
 
-def search_offsets() -> tuple[FloatArray, ...]:
-    """Trial angles of each stage of the worst-closing-angle search, about its centre.
-
-    Returns
-    -------
-    tuple of ndarray
-        One array per stage, offsets from the stage's centre (180 at the first stage, then the
-        best angle so far) [deg].
-
-    Notes
-    -----
-    A scan over +-180 degrees in 2.5-degree steps (145 trials), then two local refinements
-    about the best angle, each over +-one previous step in a tenth of it (21 trials each): a
-    grid search refined by decades, this project's choice. :func:`worst_closing_angles` runs it
-    (:func:`core.energize.worst_closing_angle` searches the same stages); :mod:`core.cost`
-    counts its trials.
-
-    References
-    ----------
-    Grid search with successive refinement: common practice.
-    """
-    out = []
-    span, step = 180.0, 2.5
-    for _ in range(3):
-        out.append(np.arange(-span, span + 0.5 * step, step))
-        span, step = step, step / 10.0
-    return tuple(out)
-
-
 def worst_closing_angles(
     circuits: list[EquivalentCircuit],
     residual_flux_pu: FloatArray,
@@ -235,7 +205,7 @@ def worst_closing_angles(
     n = len(circuits)
     extra = dict(per_case or {})
     center = np.full(n, 180.0)
-    for offsets in search_offsets():
+    for offsets in energize_plan.search_offsets():
         trial = center[:, None] + offsets[None, :]
         reps = offsets.size
         scan = energize.simulate(

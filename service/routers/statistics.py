@@ -162,10 +162,7 @@ def check_limits(
             settings.max_event_checks,
             knobs=(("options.check_events", f"<= {settings.max_event_checks // judged_by}"),),
         )
-    m = circuit.phases
-    scatter = opt.pole_scatter_ms
-    if scatter is None:
-        scatter = 0.0 if m == 1 else statistics.DEFAULT_THREE_PHASE_POLE_SCATTER_MS
+    scatter = statistics.pole_scatter_sigma_ms(circuit.phases, opt.pole_scatter_ms)
 
     def estimate(o: Mapping[str, float]) -> cost.Work:
         r = budget.replaced

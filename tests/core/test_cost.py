@@ -36,6 +36,7 @@ from core import (
     dip_solver,
     dip_study,
     energize,
+    energize_plan,
     event_checks,
     fuse_breaker_curves,
     generator,
@@ -157,6 +158,14 @@ def _part(work: cost.Work, name: str) -> float:
     return dict(work.parts)[name]
 
 
+def _monte_carlo(circuit: transformer.EquivalentCircuit, samples: int, scatter_ms: float) -> float:
+    """The estimate of a statistics request without event checks."""
+    return cost.statistics_work(
+        circuit, samples=samples, pole_scatter_ms=scatter_ms, events=0, devices=0,
+        device_duration_s=2.0, dip_duration_s=None,
+    ).steps  # fmt: skip
+
+
 # ------------------------------------------------------------------ each operation, counted
 
 
@@ -183,7 +192,7 @@ def test_peak_estimate_is_the_solver_steps(
     circuit = _circuit(connection, phases, source)
     delay = np.array([0.0, pole_delay_s, 0.5 * pole_delay_s][:phases])
     inrush.peak_study(circuit, 30.0, RESIDUAL[:phases], delay, method="simulated")
-    assert len(tally.sims) == 1 + len(inrush.search_offsets()) + 1
+    assert len(tally.sims) == 1 + len(energize_plan.search_offsets()) + 1
     work = cost.peak_work(circuit, True, float(delay.max()))
     assert work.steps == sum(tally.sims)
     assert cost.peak_work(circuit, False, float(delay.max())).steps == 0.0
@@ -227,11 +236,7 @@ def test_statistics_single_phase_estimate_is_the_solver_steps(tally: Tally) -> N
     circuit = _circuit("wye_grounded", 1)
     statistics.peak_distribution(circuit, samples=3000, random_state=3, batch=1000)
     assert len(tally.sims) == 3
-    work = cost.statistics_work(
-        circuit, samples=3000, pole_scatter_ms=0.0, events=0, devices=0,
-        device_duration_s=2.0, dip_duration_s=None,
-    )  # fmt: skip
-    assert work.steps == sum(tally.sims)
+    assert _monte_carlo(circuit, 3000, 0.0) == sum(tally.sims)
 
 
 @pytest.mark.parametrize("scatter_ms", [0.5, 1.0, 3.0])
@@ -247,17 +252,14 @@ def test_statistics_three_phase_estimate_bounds_the_scattered_records(
     n = 2000
     dist = statistics.peak_distribution(circuit, samples=n, pole_scatter_ms=scatter_ms,
                                         random_state=11)  # fmt: skip
-    work = cost.statistics_work(
-        circuit, samples=n, pole_scatter_ms=scatter_ms, events=0, devices=0,
-        device_duration_s=2.0, dip_duration_s=None,
-    )  # fmt: skip
+    estimate = _monte_carlo(circuit, n, scatter_ms)
     taken = sum(tally.sims)
     spread = float(dist.pole_delay_s.max())
     assert 0.0 < spread < 10.0 * scatter_ms * 1e-3
-    assert work.steps >= taken
+    assert estimate >= taken
     per_second = taken / (2.0 / F_HZ + spread)  # winding-steps per second of record
     allowance = per_second * (10.0 * scatter_ms * 1e-3 - spread) + n * 3 * 128
-    assert work.steps <= taken + allowance
+    assert estimate <= taken + allowance
 
 
 def test_statistics_estimate_with_event_checks_counts_each_part(tally: Tally) -> None:
@@ -410,11 +412,7 @@ def test_statistics_estimate_monotone_in_samples_events_devices_and_records(
     assert work(dip_duration_s=dip_s + 0.5) >= base
     assert work(pole_scatter_ms=2.0) >= base
     # the Monte Carlo alone is linear in the samples
-    mc = cost.statistics_work(c, samples=samples, pole_scatter_ms=1.0, events=0, devices=0,
-                              device_duration_s=span_s, dip_duration_s=None)  # fmt: skip
-    mc2 = cost.statistics_work(c, samples=2 * samples, pole_scatter_ms=1.0, events=0, devices=0,
-                               device_duration_s=span_s, dip_duration_s=None)  # fmt: skip
-    assert mc2.steps == 2 * mc.steps
+    assert _monte_carlo(c, 2 * samples, 1.0) == 2 * _monte_carlo(c, samples, 1.0)
 
 
 @pytest.mark.parametrize("duration_s", [0.1, 1.0, 10.0])
