@@ -83,6 +83,7 @@ __all__ = [
     "check_insertion",
     "check_poles",
     "check_range",
+    "cycle_steps",
     "run",
 ]
 
@@ -334,6 +335,35 @@ class Raw:
     pole_close_s: FloatArray = field(default_factory=lambda: np.zeros(3))
 
 
+def cycle_steps(frequency_hz: float, duration_s: float, steps_per_cycle: int) -> int:
+    """Steps of a dip run: the whole cycles up to ``duration_s``, each of the given steps.
+
+    Parameters
+    ----------
+    frequency_hz : float
+        Frequency [Hz].
+    duration_s : float
+        Simulated time [s].
+    steps_per_cycle : int
+        Steps per cycle [-].
+
+    Returns
+    -------
+    int
+        floor(T*f) x steps per cycle (0 when T is shorter than a cycle) [-].
+
+    Notes
+    -----
+    n = floor(T*f + 1e-9)*spc: :func:`run` simulates whole cycles only (the 1e-9 keeps a
+    duration of exactly k cycles at k despite rounding).
+
+    References
+    ----------
+    This project's dip solver (:func:`run`).
+    """
+    return math.floor(duration_s * frequency_hz + 1e-9) * steps_per_cycle
+
+
 def run(
     cases: Sequence[Case],
     frequency_hz: float,
@@ -407,10 +437,10 @@ def run(
             tau_min,
             f"a shortest time constant of at least {4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s",
         )
-    n_cyc = math.floor(duration_s * f + 1e-9)
-    if n_cyc < 1:
+    n_steps = cycle_steps(f, duration_s, spc)
+    n_cyc = n_steps // spc
+    if n_steps < 1:
         raise ParameterError("duration_s", duration_s, f">= one cycle ({1.0 / f:g} s)")
-    n_steps = n_cyc * spc
     h = 1.0 / (f * spc)
     n = len(cases)
     n_in = 0

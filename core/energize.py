@@ -539,15 +539,15 @@ def worst_closing_angle(
     Notes
     -----
     A scan over 0-360 degrees in 2.5-degree steps, then two local refinements (0.25 and 0.025
-    degrees), each a single vectorised :func:`simulate` call. The angle is returned rounded to
+    degrees), each a single vectorised :func:`simulate` call
+    (:func:`core.energize_plan.search_offsets`). The angle is returned rounded to
     1e-6 degrees (the grid's accumulated rounding, ~1e-13 degrees, is noise) and wrapped into
     [0, 360), and the peaks are those simulated at exactly that angle.
     """
     duration = cycles / circuit.frequency_hz
-    center, span, step = 180.0, 180.0, 2.5
-    best_angle = 0.0
-    for _ in range(3):
-        angles = np.arange(center - span, center + span + 0.5 * step, step)
+    center = 180.0
+    for offsets in energize_plan.search_offsets():
+        angles = center + offsets
         sim = simulate(
             circuit,
             angles,
@@ -558,10 +558,8 @@ def worst_closing_angle(
         )
         peaks = refined_abs_peak(sim.line_current_a)
         worst = np.max(peaks, axis=1)
-        j = int(np.argmax(worst))
-        best_angle = float(angles[j])
-        center, span, step = best_angle, step, step / 10.0
-    angle = round(float(np.mod(round(best_angle, 6), 360.0)), 6)
+        center = float(angles[int(np.argmax(worst))])
+    angle = round(float(np.mod(round(center, 6), 360.0)), 6)
     if angle >= 360.0:  # a tiny negative angle wraps to 360 - 1e-14, which rounds to 360
         angle -= 360.0
     sim = simulate(circuit, angle, residual_flux_pu, pole_delay_s, duration_s=duration)

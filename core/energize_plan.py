@@ -37,6 +37,8 @@ __all__ = [
     "element_curves",
     "on_step_grid",
     "plan_steps",
+    "saturated_time_constant",
+    "search_offsets",
     "step_plan",
 ]
 
@@ -156,6 +158,65 @@ def step_plan(
     spc = samples_per_cycle * decimate
     n_steps = max(decimate, round(duration_s * frequency_hz * samples_per_cycle) * decimate)
     return spc, decimate, n_steps
+
+
+def search_offsets() -> tuple[FloatArray, ...]:
+    """Trial angles of each stage of the worst-closing-angle search, about its centre.
+
+    Returns
+    -------
+    tuple of ndarray
+        One array per stage, offsets from the stage's centre (180 at the first stage, then the
+        best angle so far) [deg].
+
+    Notes
+    -----
+    A scan over +-180 degrees in 2.5-degree steps (145 trials), then two local refinements
+    about the best angle, each over +-one previous step in a tenth of it (21 trials each): a
+    grid search refined by decades, this project's choice. :func:`core.inrush.
+    worst_closing_angles` and :func:`core.energize.worst_closing_angle` run it;
+    :mod:`core.cost` counts its trials.
+
+    References
+    ----------
+    Grid search with successive refinement: common practice.
+    """
+    out = []
+    span, step = 180.0, 2.5
+    for _ in range(3):
+        out.append(np.arange(-span, span + 0.5 * step, step))
+        span, step = step, step / 10.0
+    return tuple(out)
+
+
+def saturated_time_constant(circuit: EquivalentCircuit, extra_resistance_ohm: float = 0.0) -> float:
+    """Time constant of a winding's saturated loop without a pre-insertion resistor.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The winding and its source.
+    extra_resistance_ohm : float
+        Resistance added in series with the winding [ohm].
+
+    Returns
+    -------
+    float
+        (L_air + L_s)/R with R = R_w + 2*R_s + R_extra, the time constant :func:`plan_steps`
+        keeps the step below a quarter of [s].
+
+    Notes
+    -----
+    tau = (L_air + L_s)/(R_w + 2*R_s + R_extra); the factor 2 on R_s is the bound this solver
+    has always planned with (a delta's winding loop closes through two source lines).
+
+    References
+    ----------
+    First-order RL loop time constant L/R (any circuits textbook).
+    """
+    c = circuit
+    r = c.winding_resistance_ohm + 2.0 * c.source_resistance_ohm + extra_resistance_ohm
+    return (c.air_core_inductance_h + c.source_inductance_h) / max(r, 1e-300)
 
 
 def check_cases(
@@ -278,11 +339,7 @@ def plan_steps(cases: Cases, topology: int, duration_s: float, samples_per_cycle
     extra = cases.extra_resistance_ohm
     r_ins, t_ins = cases.mitigation[0], cases.mitigation[1]
     f = circ_list[0].frequency_hz
-    tau = min(
-        (c.air_core_inductance_h + c.source_inductance_h)
-        / max(c.winding_resistance_ohm + 2.0 * c.source_resistance_ohm + float(ex), 1e-300)
-        for c, ex in zip(circ_list, extra, strict=True)
-    )
+    tau = min(saturated_time_constant(c, float(ex)) for c, ex in zip(circ_list, extra, strict=True))
     spc, decimate, n_steps = step_plan(f, duration_s, samples_per_cycle, tau)
     k_line = 3.0 if topology == 2 else 1.0
     with_resistor = (

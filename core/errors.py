@@ -42,10 +42,26 @@ class LimitError(CoreError):
         The requested amount.
     limit : float
         The configured maximum.
+    knobs : tuple of (str, str)
+        Fields that would bring the work within the limit, each with the value that would
+        (``("options.samples", "<= 4000")``); empty when not known.
+    detail : str
+        Further explanation (where the work goes, what to do).
     """
 
-    def __init__(self, parameter: str, value: float, limit: float) -> None:
+    def __init__(
+        self,
+        parameter: str,
+        value: float,
+        limit: float,
+        *,
+        knobs: tuple[tuple[str, str], ...] = (),
+        detail: str = "",
+    ) -> None:
         self.parameter = parameter
         self.value = value
         self.limit = limit
-        super().__init__(f"{parameter}={value:g} exceeds the limit of {limit:g}")
+        self.knobs = knobs
+        self.detail = detail
+        text = f"{parameter}={value:g} exceeds the limit of {limit:g}"
+        super().__init__(f"{text}; {detail}" if detail else text)

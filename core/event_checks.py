@@ -17,7 +17,7 @@ Limits: those of the solver, of the device evaluation and of the dip model apply
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -94,6 +94,7 @@ def device_operation_odds(
     duration_s: float = 2.0,
     max_steps: int | None = None,
     batch: int = 50,
+    checkpoint: Callable[[], None] | None = None,
 ) -> tuple[DeviceOdds, ...]:
     """Probability that each device operates on a random energisation.
 
@@ -113,6 +114,9 @@ def device_operation_odds(
         Compute limit per solver call [-].
     batch : int
         Events simulated per solver call, in [1, 10000] (memory: batch x lines x samples) [-].
+    checkpoint : callable or None
+        Called with no argument before each solver call; it may raise to stop the work (the
+        caller's deadline) [-].
 
     Returns
     -------
@@ -132,6 +136,8 @@ def device_operation_odds(
     trips = np.zeros((len(devices), n))
     margins = np.full((len(devices), n), math.inf)
     for start in range(0, n, size):
+        if checkpoint is not None:
+            checkpoint()
         part = slice(start, min(start + size, n))
         sim = energize.simulate(
             circuit,
@@ -173,6 +179,7 @@ def dip_exceedance_odds(
     excitation: ExcitationSpec = "unknown",
     bus_load: BusLoad | None = None,
     duration_s: float = 0.5,
+    checkpoint: Callable[[], None] | None = None,
 ) -> DipOdds:
     """Probability that a random energisation from a generator dips beyond a limit.
 
@@ -195,6 +202,9 @@ def dip_exceedance_odds(
     duration_s : float
         Simulated time of each event, in [0.1, 30]: the dip falls in the first cycles, so a
         fraction of a second suffices (recovery is not judged here) [s].
+    checkpoint : callable or None
+        Called with no argument before each solver call; it may raise to stop the work (the
+        caller's deadline) [-].
 
     Returns
     -------
@@ -206,6 +216,8 @@ def dip_exceedance_odds(
     dips = np.empty(n)
     approximations: tuple[str, ...] = ()
     for k in range(n):
+        if checkpoint is not None:
+            checkpoint()
         study = dip.energize_from_source(
             gen,
             circuit,

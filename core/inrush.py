@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from core import analytic, energize, peaks, waveform
+from core import analytic, energize, energize_plan, peaks, waveform
 from core.errors import ParameterError
 from core.transformer import EquivalentCircuit
 
@@ -222,9 +222,7 @@ def worst_closing_angles(
     n = len(circuits)
     extra = dict(per_case or {})
     center = np.full(n, 180.0)
-    span, step = 180.0, 2.5
-    for _ in range(3):
-        offsets = np.arange(-span, span + 0.5 * step, step)
+    for offsets in energize_plan.search_offsets():
         trial = center[:, None] + offsets[None, :]
         reps = offsets.size
         scan = energize.simulate(
@@ -235,7 +233,6 @@ def worst_closing_angles(
         )  # fmt: skip
         worst = energize.refined_abs_peak(scan.line_current_a).max(axis=-1).reshape(n, reps)
         center = trial[np.arange(n), np.argmax(worst, axis=1)]
-        span, step = step, step / 10.0
     best = energize.simulate(circuits, center, residual_flux_pu, pole_delay_s,
                              duration_s=duration_s, samples_per_cycle=128, max_steps=max_steps,
                              **extra)  # fmt: skip

@@ -15,6 +15,7 @@ given with a distribution-free confidence interval and a convergence table.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -43,6 +44,7 @@ __all__ = [
     "exceedance_probability",
     "order_statistic_interval",
     "peak_distribution",
+    "pole_scatter_sigma_ms",
 ]
 
 # Two-sided confidence level of every interval in this module [-].
@@ -230,6 +232,35 @@ def check_int(name: str, value: object, low: int, high: int) -> int:
     return int(value)
 
 
+def pole_scatter_sigma_ms(phases: int, pole_scatter_ms: float | None) -> float:
+    """Standard deviation of each pole's closing instant that :func:`peak_distribution` draws.
+
+    Parameters
+    ----------
+    phases : int
+        Phases of the circuit, 1 or 3 [-].
+    pole_scatter_ms : float or None
+        As given, in [0, 20]; None for the default of the phases [ms].
+
+    Returns
+    -------
+    float
+        sigma [ms].
+
+    Notes
+    -----
+    sigma = the value given, else 0 on a single phase (one pole has nothing to scatter against)
+    and :data:`DEFAULT_THREE_PHASE_POLE_SCATTER_MS` on three phases.
+
+    References
+    ----------
+    The default: common practice (see :data:`DEFAULT_THREE_PHASE_POLE_SCATTER_MS`).
+    """
+    if pole_scatter_ms is None:
+        return 0.0 if phases == 1 else DEFAULT_THREE_PHASE_POLE_SCATTER_MS
+    return check_float("pole_scatter_ms", pole_scatter_ms, 0.0, 20.0)
+
+
 def check_float(name: str, value: object, low: float, high: float) -> float:
     """``value`` as a finite float in [low, high], else a ParameterError naming ``name``."""
     try:
@@ -340,6 +371,7 @@ def peak_distribution(
     cycles: float = 2.0,
     max_steps: int | None = None,
     batch: int = 2000,
+    checkpoint: Callable[[], None] | None = None,
 ) -> PeakDistribution:
     """Monte Carlo distribution of the first-cycles inrush peak over random closing instants.
 
@@ -364,6 +396,9 @@ def peak_distribution(
         Compute limit per solver call, see :func:`core.energize.simulate` [-].
     batch : int
         Energisations per solver call, in [1, 1e6] [-].
+    checkpoint : callable or None
+        Called with no argument before each solver call; it may raise to stop the work (the
+        caller's deadline) [-].
 
     Returns
     -------
@@ -398,10 +433,7 @@ def peak_distribution(
     if random_state is not None:
         check_int("random_state", random_state, 0, 2**63 - 1)
     m = circuit.phases
-    if pole_scatter_ms is None:
-        sigma_ms = 0.0 if m == 1 else DEFAULT_THREE_PHASE_POLE_SCATTER_MS
-    else:
-        sigma_ms = check_float("pole_scatter_ms", pole_scatter_ms, 0.0, 20.0)
+    sigma_ms = pole_scatter_sigma_ms(m, pole_scatter_ms)
     spec: ResidualSpec = UniformResidual() if residual is None else residual
 
     rng = np.random.default_rng(random_state)
@@ -414,6 +446,8 @@ def peak_distribution(
     peaks = np.empty((n, m))
     approximations: tuple[str, ...] = ()
     for start in range(0, n, size):
+        if checkpoint is not None:
+            checkpoint()
         part = slice(start, min(start + size, n))
         sim = energize.simulate(
             circuit,

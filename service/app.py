@@ -12,7 +12,7 @@ from fastapi.responses import HTMLResponse, Response
 from fastapi.staticfiles import StaticFiles
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
-from service import auth, observability, problems
+from service import auth, compute, observability, problems
 from service.routers import clearance, dip, inrush, mitigation, sheet, statistics
 from service.settings import get_settings
 from service.version import API_VERSION, PACKAGE_VERSION
@@ -143,6 +143,7 @@ def create_app() -> FastAPI:
         license_info={"name": "MIT", "identifier": "MIT"},
     )
     problems.install(app)
+    compute.install(app)
     app.mount("/static", StaticFiles(directory=STATIC), name="static")
 
     @app.get("/docs", include_in_schema=False)

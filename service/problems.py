@@ -331,7 +331,14 @@ async def _limit(request: Request, exc: Exception) -> JSONResponse:
     err = FieldProblem(
         field=exc.parameter, message=str(exc), value=_text(exc.value), allowed=f"<= {exc.limit:g}"
     )
-    return problem_response(422, "Over a compute limit", str(exc), "limit-exceeded", request, [err])
+    # the fields that would bring the work within the limit (service/budget.py)
+    knobs = [
+        FieldProblem(field=f, message="reduce this field to fit the work budget", allowed=a)
+        for f, a in exc.knobs
+    ]
+    return problem_response(
+        422, "Over a compute limit", str(exc), "limit-exceeded", request, [err, *knobs]
+    )
 
 
 async def _http(request: Request, exc: Exception) -> JSONResponse:

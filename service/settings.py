@@ -1,7 +1,9 @@
 """Service settings, read once from the environment (prefix ``FIRSTCYCLE_``).
 
-Compute limits bound the work any single request can cause; the defaults keep one request
-well under a second of CPU and a few tens of MB on a 2-core machine.
+Compute limits bound the work any single request can cause: the work budget
+(``max_request_steps``, estimated by core/cost.py before anything runs) keeps the heaviest legal
+request near 2 s of CPU on a 2-core machine; the deadline and the per-worker slots bound what
+runs at once (service/compute.py).
 """
 
 from __future__ import annotations
@@ -30,6 +32,28 @@ class Settings(BaseSettings):
         ge=100_000,
         description="Most integration steps (cases x windings x steps) per simulation call, a "
         "CPU-time bound",
+    )
+    max_request_steps: float = Field(
+        50_000_000,
+        ge=10_000,
+        description="Work budget of one request, in winding-steps (core/cost.py estimates it "
+        "before any simulation; about 0.1 us of CPU each on a 2-core reference machine, so "
+        "about 5 s); over it the request is refused with 422 naming the fields to reduce",
+    )
+    request_deadline_s: float = Field(
+        30.0,
+        gt=0,
+        description="A simulating request still computing after this many seconds gets 503 "
+        "(deadline-exceeded); its job stops at its next chunk [s]",
+    )
+    max_concurrent_simulations: int = Field(
+        2,
+        ge=1,
+        description="Simulating requests computed at once per worker process; a further one gets "
+        "503 (busy) with Retry-After at once",
+    )
+    busy_retry_after_s: int = Field(
+        2, ge=1, description="Retry-After of a 503 answer (busy or deadline) [s]"
     )
     max_waveform_points: int = Field(20_000, ge=100, description="Most waveform points per line")
     max_statistics_samples: int = Field(

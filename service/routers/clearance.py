@@ -3,15 +3,15 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from typing import Annotated
 
 import numpy as np
 from fastapi import APIRouter, Body, Depends
-from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
 
-from core import clearance, coordination, ridethrough
-from service import convert, figures
+from core import clearance, coordination, cost, ridethrough
+from service import budget, compute, convert, figures
 from service.examples import CLEARANCE_EXAMPLES
 from service.models.clearance import (
     ClearanceRequest,
@@ -29,7 +29,11 @@ from service.models.common import Assumption, Method
 from service.problems import PROBLEM_RESPONSES
 from service.settings import Settings, settings_dependency
 
-router = APIRouter(prefix="/v1/clearance", tags=["clearance"], responses=PROBLEM_RESPONSES)
+router = APIRouter(
+    prefix="/v1/clearance",
+    tags=["clearance"],
+    responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
+)
 SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 CLEARANCE_METHOD = (
     "inrush simulated as for /v1/inrush (worst closing angle unless given); relays integrated "
@@ -51,6 +55,26 @@ def _study(
     assert t is not None
     opt = body.options
     convert.check_work(settings, circuit.phases, circuit.frequency_hz, opt.duration_s, 128)
+    relays = sum(1 for d in body.devices if d.kind == "relay")
+
+    def estimate(o: Mapping[str, float]) -> cost.Work:
+        r = budget.replaced
+        return cost.clearance_work(
+            circuit,
+            worst_angle=opt.closing == "worst",
+            duration_s=r(o, "options.duration_s", opt.duration_s),
+            devices=int(r(o, "devices", len(body.devices))),
+            windows=opt.coordination_window and relays > 0,
+            pole_delay_max_s=float(np.max(delay)),
+        )
+
+    knobs = [
+        budget.Knob("options.duration_s", opt.duration_s, 0.1),
+        budget.Knob("devices", len(body.devices), 1, integer=True),
+    ]
+    if opt.coordination_window and relays:
+        knobs.append(budget.Knob("options.coordination_window", choice="false"))
+    budget.enforce(estimate, knobs, settings.max_request_steps)
     study = clearance.clearance_study(
         circuit,
         body.switching.closing_angle_deg if opt.closing == "given" else None,
@@ -210,7 +234,7 @@ async def clearance_op(
     def run() -> ClearanceResponse:
         return _response(*_study(body, settings))
 
-    out = await run_in_threadpool(run)
+    out = await compute.run_heavy(settings, run)
     return Response(out.model_dump_json(), media_type="application/json")
 
 
@@ -289,5 +313,5 @@ async def clearance_figure(
 ) -> Response:
     """Log-log axes: the inrush I_eq(t) per line, the common-practice inrush points, each
     device's curve or band, and the transformer's through-fault damage curve."""
-    svg = await run_in_threadpool(_figure, body, settings)
+    svg = await compute.run_heavy(settings, _figure, body, settings)
     return Response(svg, media_type="image/svg+xml")

@@ -3,14 +3,14 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from typing import Annotated
 
 from fastapi import APIRouter, Body, Depends
-from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
 
-from core import dip_limits, dip_study, generator
-from service import convert, figures
+from core import cost, dip_limits, dip_study, generator
+from service import budget, compute, convert, figures
 from service.examples import DIP_EXAMPLES
 from service.models.common import Assumption, Method
 from service.models.dip import (
@@ -24,7 +24,11 @@ from service.models.dip import (
 from service.problems import PROBLEM_RESPONSES
 from service.settings import Settings, settings_dependency
 
-router = APIRouter(prefix="/v1/generator-dip", tags=["generator-dip"], responses=PROBLEM_RESPONSES)
+router = APIRouter(
+    prefix="/v1/generator-dip",
+    tags=["generator-dip"],
+    responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
+)
 SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 DIP_METHOD = (
     "three-phase EMF behind the subtransient reactance, its amplitude following the d-axis "
@@ -142,14 +146,33 @@ def _response(report: dip_study.DipReport, assumptions: list[Assumption]) -> Gen
 
 
 def _check(body: GeneratorDipRequest, settings: Settings) -> None:
+    """The work budget (core/cost.py), before anything is simulated."""
     t = body.transformer
     f = t.frequency_hz if t is not None else 60.0
-    steps = 3 * body.options.duration_s * f * 128
-    if steps > settings.max_total_steps:
-        from core.errors import LimitError
+    opt = body.options
+    sizing = opt.size_for is not None and isinstance(body.supply, GeneratorIn)
+    recovery: float | None = None
+    if sizing:
+        if opt.size_for == "custom":
+            recovery = opt.limits.max_recovery_s if isinstance(opt.limits, CustomLimit) else None
+        else:
+            recovery = dip_limits.iso_8528_5_class(str(opt.size_for)).max_recovery_s
 
-        raise LimitError("options.duration_s", body.options.duration_s,
-                         settings.max_total_steps / (3 * f * 128))  # fmt: skip
+    def estimate(o: Mapping[str, float]) -> cost.Work:
+        rec = budget.replaced(o, "options.limits.max_recovery_s", recovery or 0.0)
+        return cost.dip_study_work(
+            f,
+            budget.replaced(o, "options.duration_s", opt.duration_s),
+            sizing=sizing,
+            recovery_limit_s=rec if recovery is not None else None,
+        )
+
+    knobs = [budget.Knob("options.duration_s", opt.duration_s, 0.5)]
+    if sizing:
+        knobs.append(budget.Knob("options.size_for", choice="null"))
+        if opt.size_for == "custom" and recovery is not None:
+            knobs.append(budget.Knob("options.limits.max_recovery_s", recovery, 0.0))
+    budget.enforce(estimate, knobs, settings.max_request_steps)
 
 
 @router.post(
@@ -170,7 +193,7 @@ async def generator_dip(
     def run() -> GeneratorDipResponse:
         return _response(*_report(body))
 
-    out = await run_in_threadpool(run)
+    out = await compute.run_heavy(settings, run)
     return Response(out.model_dump_json(), media_type="application/json")
 
 
@@ -212,5 +235,5 @@ async def generator_dip_figure(
 ) -> Response:
     """Terminal voltage (rms per cycle) against time with the limit band and recovery point."""
     _check(body, settings)
-    svg = await run_in_threadpool(_figure, body)
+    svg = await compute.run_heavy(settings, _figure, body)
     return Response(svg, media_type="image/svg+xml")

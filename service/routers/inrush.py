@@ -1,24 +1,24 @@
 """``/v1/inrush``: the first peak and the decay envelope of an energisation.
 
-CPU-bound work never runs on the event loop: simulations go to the thread pool
-(``run_in_threadpool``); only the closed-form path, a fraction of a millisecond, runs inline. The
+CPU-bound work never runs on the event loop: simulations go to a simulation slot
+(service/compute.py); only the closed-form path, a fraction of a millisecond, runs inline. The
 response model is serialised once, by pydantic, and returned as bytes (the declared
 ``response_model`` documents it in the contract).
 """
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Annotated, Any
 
 import numpy as np
 from fastapi import APIRouter, Body, Depends
-from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
 from pydantic import BaseModel, ValidationError
 
-from core import inrush
+from core import cost, inrush
 from core.errors import CoreError, LimitError
-from service import convert
+from service import budget, compute, convert
 from service.examples import (
     ENVELOPE_EXAMPLES,
     PEAK_BATCH_EXAMPLES,
@@ -58,6 +58,7 @@ def _json(model: BaseModel) -> Response:
     summary="First inrush peak and its worst case",
     response_description="First peak per winding (closed form) and per line (simulated), the "
     "worst cases, assumptions, warnings and method",
+    responses=compute.BUSY_RESPONSES,
 )
 async def peak(
     body: Annotated[PeakRequest, Body(openapi_examples=PEAK_EXAMPLES)],
@@ -68,11 +69,16 @@ async def peak(
     """
     if body.method == "analytic":
         return _json(_peak(body, settings))
-    return _json(await run_in_threadpool(_peak, body, settings))
+    return _json(await compute.run_heavy(settings, _peak, body, settings))
 
 
 def _peak(body: PeakRequest, settings: Settings) -> PeakResponse:
     circuit, res, delay, assumptions = convert.study_inputs(body)
+    if body.method != "analytic":
+        work = cost.peak_work(circuit, True, float(np.max(delay)))
+        budget.enforce(
+            lambda _o: work, [budget.Knob("method", choice="analytic")], settings.max_request_steps
+        )
     study = inrush.peak_study(
         circuit,
         body.switching.closing_angle_deg,
@@ -179,13 +185,14 @@ def _peak_response(study: inrush.PeakStudy, assumptions: list[Assumption]) -> Pe
     operation_id="inrush_envelope",
     summary="Decay envelope: per-cycle peaks, rms over time, second harmonic",
     response_description="Per-line envelope, I_eq(t) table, harmonic ratios, optional waveform",
+    responses=compute.BUSY_RESPONSES,
 )
 async def envelope(
     body: Annotated[EnvelopeRequest, Body(openapi_examples=ENVELOPE_EXAMPLES)],
     settings: SettingsDep,
 ) -> Response:
     """Simulated decay of one switching event with the closed-form envelope beside it."""
-    return _json(await run_in_threadpool(_envelope, body, settings))
+    return _json(await compute.run_heavy(settings, _envelope, body, settings))
 
 
 def _envelope(
@@ -196,6 +203,22 @@ def _envelope(
     opt = body.options
     convert.check_work(
         settings, circuit.phases, circuit.frequency_hz, opt.duration_s, opt.samples_per_cycle
+    )
+
+    def estimate(o: Mapping[str, float]) -> cost.Work:
+        return cost.envelope_work(
+            circuit,
+            budget.replaced(o, "options.duration_s", opt.duration_s) + float(np.max(delay)),
+            int(budget.replaced(o, "options.samples_per_cycle", opt.samples_per_cycle)),
+        )
+
+    budget.enforce(
+        estimate,
+        [
+            budget.Knob("options.duration_s", opt.duration_s, 1.0 / circuit.frequency_hz),
+            budget.Knob("options.samples_per_cycle", opt.samples_per_cycle, 16, integer=True),
+        ],
+        settings.max_request_steps,
     )
     points = min(opt.waveform_points, settings.max_waveform_points)
     study = inrush.envelope_study(
@@ -269,6 +292,7 @@ def _envelope(
     operation_id="inrush_peak_batch",
     summary="First peaks of many cases in one call",
     response_description="One result or one problem per case, in the order given",
+    responses=compute.BUSY_RESPONSES,
 )
 async def peak_batch(
     body: Annotated[PeakBatchRequest, Body(openapi_examples=PEAK_BATCH_EXAMPLES)],
@@ -280,7 +304,7 @@ async def peak_batch(
     """
     if len(body.cases) > settings.max_cases:
         raise LimitError("cases", len(body.cases), settings.max_cases)
-    return _json(await run_in_threadpool(_peak_batch, body, settings))
+    return _json(await compute.run_heavy(settings, _peak_batch, body, settings))
 
 
 def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse:
@@ -298,6 +322,23 @@ def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse
             continue
         case = (circuit, req.switching.closing_angle_deg, res, delay)
         valid.setdefault(req.method, []).append((idx, case, assumptions))
+    # the work of every valid case, before any of them is simulated
+    per_case = sorted(
+        (idx, cost.peak_work(c[0], method != "analytic", float(np.max(c[3]))).steps)
+        for method, group in valid.items()
+        for idx, c, _ in group
+    )
+
+    def estimate(o: Mapping[str, float]) -> cost.Work:
+        n = int(o.get("cases", len(body.cases)))
+        steps = sum(w for idx, w in per_case if idx < n)
+        return cost.Work(steps, (("simulated cases", steps),))
+
+    budget.enforce(
+        estimate,
+        [budget.Knob("cases", len(body.cases), 1, integer=True)],
+        settings.max_request_steps,
+    )
     for method, group in valid.items():
         studies: list[inrush.PeakStudy | None]
         try:
@@ -307,6 +348,7 @@ def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse
         except CoreError:  # one case breaks the vectorised call: answer each on its own
             studies = []
             for idx, case, _ in group:
+                compute.checkpoint()
                 try:
                     studies.append(
                         inrush.peak_study(*case, method=method, max_steps=settings.max_total_steps)

@@ -3,14 +3,15 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from typing import Annotated
 
+import numpy as np
 from fastapi import APIRouter, Body, Depends
-from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
 
-from core import mitigation, mitigation_options
-from service import convert
+from core import cost, mitigation, mitigation_options
+from service import budget, compute, convert
 from service.examples import MITIGATION_EXAMPLES
 from service.models.common import Assumption, Method
 from service.models.mitigation import (
@@ -34,7 +35,11 @@ from service.models.mitigation import (
 from service.problems import PROBLEM_RESPONSES
 from service.settings import Settings, settings_dependency
 
-router = APIRouter(prefix="/v1/mitigation", tags=["mitigation"], responses=PROBLEM_RESPONSES)
+router = APIRouter(
+    prefix="/v1/mitigation",
+    tags=["mitigation"],
+    responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
+)
 SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 MITIGATION_METHOD = (
     "each option applied to the same case and simulated as in /v1/inrush/peak: the design-basis "
@@ -159,6 +164,28 @@ def _mitigation(body: MitigationRequest, settings: Settings) -> MitigationRespon
             d.opening_time_s,
             d.damage_current_factor,
         )
+    n_opt = len(body.options) if body.options is not None else len(mitigation_options.KINDS) - 1
+    n_dev = len(body.devices or [])
+
+    def estimate(o: Mapping[str, float]) -> cost.Work:
+        r = budget.replaced
+        return cost.mitigation_work(
+            circuit,
+            options=int(r(o, "options", n_opt)),
+            sweep=len(mitigation.RESIDUAL_SWEEP),
+            devices=int(r(o, "devices", n_dev)),
+            device_duration_s=r(o, "device_options.duration_s", body.device_options.duration_s),
+            dip_duration_s=r(o, "dip_duration_s", body.dip_duration_s) if supply else None,
+            pole_delay_max_s=float(np.max(delay)),
+        )
+
+    knobs = [budget.Knob("options", n_opt, 1, integer=True)]
+    if supply is not None:
+        knobs.append(budget.Knob("dip_duration_s", body.dip_duration_s, 0.5))
+    if n_dev:
+        knobs.append(budget.Knob("devices", n_dev, 1, integer=True))
+        knobs.append(budget.Knob("device_options.duration_s", body.device_options.duration_s, 0.1))
+    budget.enforce(estimate, knobs, settings.max_request_steps)
     target = (
         body.target_peak_x_rated * circuit.rated_line_current_a
         if body.target_peak_x_rated is not None
@@ -226,5 +253,5 @@ async def mitigation_options_compared(
     energisation, another tap, core material or rating, energising from the other winding:
     each computed on the same case and ranked.
     """
-    out = await run_in_threadpool(_mitigation, body, settings)
+    out = await compute.run_heavy(settings, _mitigation, body, settings)
     return Response(out.model_dump_json(), media_type="application/json")

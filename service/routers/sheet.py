@@ -15,18 +15,22 @@ import math
 from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, Query, Request
-from fastapi.concurrency import run_in_threadpool
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import Response
 from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError
 
+from service import compute
 from service.models.inrush import EnvelopeRequest, PeakRequest
 from service.problems import PROBLEM_RESPONSES
 from service.routers.inrush import _envelope, _peak
 from service.settings import Settings, default_limit, settings_dependency
 from service.version import API_VERSION
 
-router = APIRouter(prefix="/v1/sheet", tags=["spreadsheet"], responses=PROBLEM_RESPONSES)
+router = APIRouter(
+    prefix="/v1/sheet",
+    tags=["spreadsheet"],
+    responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
+)
 SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 
 
@@ -192,7 +196,7 @@ async def peak_txt(
     """First peak (simulated), worst case over closing angle, or the closed-form worst case."""
     method = "analytic" if q.quantity.startswith("analytic") else "both"
     body = _request(PeakRequest, {**q.study(), "method": method})
-    res = await run_in_threadpool(_peak, body, settings)
+    res = await compute.run_heavy(settings, _peak, body, settings)
     values = {
         "first_peak_a": res.first_peak_a,
         "first_peak_x_rated": res.first_peak_x_rated,
@@ -250,7 +254,7 @@ async def ieq_txt(
             ]
         )
     case = q.model_copy(update={"duration_s": max(q.duration_s, q.time_s)})
-    res = await run_in_threadpool(_envelope_for, case, settings, (q.time_s,))
+    res = await compute.run_heavy(settings, _envelope_for, case, settings, (q.time_s,))
     values: list[float] = []
     for line in res.lines:
         if q.line not in ("max", line.line):
@@ -272,7 +276,7 @@ async def envelope_csv(
     request: Request, q: Annotated[TableQuery, Query()], settings: SettingsDep
 ) -> Response:
     """One row per cycle: cycle number, its start time, and each line's peak [A]."""
-    res = await run_in_threadpool(_envelope_for, q, settings)
+    res = await compute.run_heavy(settings, _envelope_for, q, settings)
     out = io.StringIO()
     out.write("cycle,time_s," + ",".join(f"peak_a_{ln.line}" for ln in res.lines) + "\r\n")
     n = len(res.lines[0].cycle_peaks_a)
@@ -295,7 +299,7 @@ async def ieq_csv(
     request: Request, q: Annotated[TableQuery, Query()], settings: SettingsDep
 ) -> Response:
     """One row per standard time: the time and each line's I_eq [A]."""
-    res = await run_in_threadpool(_envelope_for, q, settings)
+    res = await compute.run_heavy(settings, _envelope_for, q, settings)
     out = io.StringIO()
     out.write("time_s," + ",".join(f"ieq_a_{ln.line}" for ln in res.lines) + "\r\n")
     for k, t in enumerate(res.equivalent_rms_times_s):

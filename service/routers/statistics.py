@@ -7,18 +7,18 @@ The simulations run in the thread pool, never on the event loop.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Annotated
 
 import numpy as np
 from fastapi import APIRouter, Body, Depends
-from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import Response
 
-from core import event_checks, generator, statistics, transformer
+from core import cost, event_checks, generator, statistics, transformer
 from core.errors import LimitError
 from core.generator import Generator
 from core.transformer import EquivalentCircuit
-from service import convert
+from service import budget, compute, convert
 from service.examples import STATISTICS_EXAMPLES
 from service.models.common import Assumption, Method
 from service.models.statistics import (
@@ -82,18 +82,6 @@ def _odds(
     events = min(opt.check_events, opt.samples)
     if body.devices is None and gen is None:
         return None, None, []
-    judged = events * (len(body.devices or []) + (1 if gen is not None else 0))
-    if judged > settings.max_event_checks:
-        raise LimitError(
-            "options.check_events x (devices + dip)", judged, settings.max_event_checks
-        )
-    f = circuit.frequency_hz
-    if gen is not None:
-        # each dip event: three loops at >= 128 steps per cycle (core.dip_solver)
-        steps = events * 3 * opt.dip_duration_s * f * 128
-        if steps > settings.max_total_steps:
-            raise LimitError("options.check_events x options.dip_duration_s", steps,
-                             settings.max_total_steps)  # fmt: skip
     assumptions.append(
         Assumption(
             name="check_events",
@@ -111,6 +99,7 @@ def _odds(
             events=events,
             duration_s=opt.device_duration_s,
             max_steps=settings.max_total_steps,
+            checkpoint=compute.checkpoint,
         )
         devices = [
             DeviceOddsOut(
@@ -138,6 +127,7 @@ def _odds(
             excitation=convert.excitation_of(body.excitation),
             bus_load=convert.bus_load_of(body.bus_load),
             duration_s=opt.dip_duration_s,
+            checkpoint=compute.checkpoint,
         )
         e = d.exceeds
         dip_out = DipOddsOut(
@@ -155,12 +145,61 @@ def _odds(
     return devices, dip_out, approximations
 
 
+def check_limits(
+    body: StatisticsRequest, circuit: EquivalentCircuit, gen: Generator | None, settings: Settings
+) -> cost.Work:
+    """Every limit of a statistics request, checked before any simulation."""
+    opt = body.options
+    if opt.samples > settings.max_statistics_samples:
+        raise LimitError("options.samples", opt.samples, settings.max_statistics_samples)
+    n_dev = len(body.devices or [])
+    judged_by = n_dev + (1 if gen is not None else 0)
+    events = min(opt.check_events, opt.samples)
+    if judged_by and events * judged_by > settings.max_event_checks:
+        raise LimitError(
+            "options.check_events x (devices + dip)",
+            events * judged_by,
+            settings.max_event_checks,
+            knobs=(("options.check_events", f"<= {settings.max_event_checks // judged_by}"),),
+        )
+    scatter = statistics.pole_scatter_sigma_ms(circuit.phases, opt.pole_scatter_ms)
+
+    def estimate(o: Mapping[str, float]) -> cost.Work:
+        r = budget.replaced
+        samples = int(r(o, "options.samples", opt.samples))
+        n = int(r(o, "devices", n_dev))
+        ev = min(int(r(o, "options.check_events", opt.check_events)), samples)
+        return cost.statistics_work(
+            circuit,
+            samples=samples,
+            pole_scatter_ms=scatter,
+            events=ev if (n or gen is not None) else 0,
+            devices=n,
+            device_duration_s=r(o, "options.device_duration_s", opt.device_duration_s),
+            dip_duration_s=r(o, "options.dip_duration_s", opt.dip_duration_s)
+            if gen is not None
+            else None,
+        )
+
+    knobs = [
+        budget.Knob("options.samples", opt.samples, 10, integer=True),
+        budget.Knob("options.check_events", min(opt.check_events, opt.samples), 10, True),
+        budget.Knob("options.device_duration_s", opt.device_duration_s, 0.1),
+        budget.Knob("options.dip_duration_s", opt.dip_duration_s, 0.1),
+        budget.Knob("devices", n_dev, 0, integer=True),
+    ]
+    if n_dev == 0:
+        knobs = [k for k in knobs if k.field not in ("devices", "options.device_duration_s")]
+    if gen is None:
+        knobs = [k for k in knobs if k.field != "options.dip_duration_s"]
+    return budget.enforce(estimate, knobs, settings.max_request_steps)
+
+
 def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsResponse:
     ideal, res, _delay, assumptions = convert.study_inputs(body)
     circuit, gen = _supplied(body, ideal, assumptions)
     opt = body.options
-    if opt.samples > settings.max_statistics_samples:
-        raise LimitError("options.samples", opt.samples, settings.max_statistics_samples)
+    check_limits(body, circuit, gen, settings)
     spec: statistics.ResidualSpec
     if isinstance(opt.residual, FixedResidualIn):
         spec = statistics.FixedResidual(tuple(float(x) for x in res))
@@ -174,6 +213,7 @@ def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsRespon
         residual=spec,
         pole_scatter_ms=opt.pole_scatter_ms,
         max_steps=settings.max_total_steps,
+        checkpoint=compute.checkpoint,
     )
     rated = circuit.rated_line_current_a
     m = convert.maybe
@@ -249,11 +289,20 @@ def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsRespon
     summary="Distribution of the first peak over random closing instants and residual flux",
     response_description="P50/P95/P99/max per line and of the worst line, the P99 interval and "
     "its convergence, and the probability of exceeding a threshold",
+    responses=compute.BUSY_RESPONSES,
 )
 async def inrush_statistics(
     body: Annotated[StatisticsRequest, Body(openapi_examples=STATISTICS_EXAMPLES)],
     settings: SettingsDep,
 ) -> Response:
-    """Monte Carlo of the switching event, reproducible through ``options.random_state``."""
-    out = await run_in_threadpool(_statistics, body, settings)
+    """Monte Carlo of the switching event, reproducible through ``options.random_state``.
+
+    One request's work is bounded (samples, events checked in full, their records; a request
+    over the budget gets 422 naming the fields to reduce). For a larger study, split it across
+    requests with different ``random_state`` values: each is an independent sample, so the
+    exceedance counts (``exceedance.exceedances``, ``device_operation[].operations``,
+    ``dip_exceedance.exceedances``) and their sample counts add up to those of the combined
+    sample (recompute the interval from the sums); percentiles do not add up.
+    """
+    out = await compute.run_heavy(settings, _statistics, body, settings)
     return Response(out.model_dump_json(), media_type="application/json")

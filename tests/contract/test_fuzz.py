@@ -18,8 +18,23 @@ from hypothesis import HealthCheck, settings
 from schemathesis.specs.openapi.checks import negative_data_rejection, positive_data_acceptance
 
 from service.app import create_app
+from service.settings import Settings, get_settings, settings_dependency
 
-schema = schemathesis.openapi.from_asgi("/v1/openapi.json", create_app())
+# The contract is fuzzed here, not the timing: on a loaded machine a heavy case can compute past
+# the request deadline and be answered 503 (documented in the contract, and tested in
+# tests/service/test_bounded_work.py), which the no-server-error check counts as a failure; a
+# job past its deadline also keeps its simulation slot until its next checkpoint, so the next
+# case could be answered 503 busy. The deadline is therefore lifted for this app alone.
+FUZZ_SETTINGS = get_settings().model_copy(update={"request_deadline_s": 3600.0})
+
+
+async def _fuzz_settings() -> Settings:
+    return FUZZ_SETTINGS
+
+
+app = create_app()
+app.dependency_overrides[settings_dependency] = _fuzz_settings
+schema = schemathesis.openapi.from_asgi("/v1/openapi.json", app)
 # Operations whose requests simulate seconds of machine dynamics or many events run each case for
 # up to seconds: 10 examples each keeps the suite within its CI budget (the live-server run in
 # test_live_server.py fuzzes them again).

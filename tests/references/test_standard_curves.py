@@ -136,11 +136,11 @@ def test_c57_109_thermal_end_is_not_1250_over_i_squared() -> None:
 
 
 def test_c57_109_category_ii_uses_the_transformer_impedance_alone() -> None:
-    # Invented demo unit (service/examples.py): 2500 kVA three-phase, Z_T = 5.75 %, source 250 MVA, so
-    # Z_S = 2.5/250 = 0.01 pu. Category II (C57.109, from memory): I_sc = 1/Z_T = 17.391 pu,
-    # K = 2·I_sc² = 604.91 pu²·s from 0.7·I_sc = 12.174 pu. At 14 pu (frequent faults):
-    # 604.91/196 = 3.0863 s; at 12 pu, below the 70 % start, the table between 11.3 × (10 s) and
-    # 25 × (2 s): 10·(12/11.3)^(ln 0.2/ln(25/11.3)) = 8.853 s.
+    # Invented demo unit (service/examples.py): 2500 kVA three-phase, Z_T = 5.75 %, source
+    # 250 MVA, so Z_S = 2.5/250 = 0.01 pu. Category II (C57.109, from memory):
+    # I_sc = 1/Z_T = 17.391 pu, K = 2·I_sc² = 604.91 pu²·s from 0.7·I_sc = 12.174 pu. At 14 pu
+    # (frequent faults): 604.91/196 = 3.0863 s; at 12 pu, below the 70 % start, the table
+    # between 11.3 × (10 s) and 25 × (2 s): 10·(12/11.3)^(ln 0.2/ln(25/11.3)) = 8.853 s.
     i_r = 2500e3 / (np.sqrt(3.0) * 480.0)  # 3007 A on the 480 V winding
     i_sc = 1.0 / 0.0575
     k = 2.0 * i_sc**2

@@ -1,0 +1,496 @@
+"""Work estimates: how much an operation will compute, known before it computes anything.
+
+Each function counts the integration steps an operation will take from the same step plan the
+solvers use (:func:`core.energize_plan.step_plan`, :func:`core.energize_plan.
+saturated_time_constant`, :func:`core.energize_plan.search_offsets`, :func:`core.dip_solver.
+cycle_steps`), so the estimate cannot drift from the solver, and adds the judging that follows
+each simulation. The unit of work is one *winding-step*: one Runge-Kutta step of one winding of
+one case in :mod:`core.energize` (cases x windings x steps, the unit ``max_steps`` counts). The
+other kinds of work are weighed in it with the factors below, measured on the reference machine
+by ``tests/benchmarks/bench_heaviest.py`` (ratios of CPU times in one run; they are this
+project's measurements, not published values). The caller compares :attr:`Work.steps` with its
+budget; :attr:`Work.parts` says where the work goes.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from core import dip_solver, energize_plan, peaks
+from core.transformer import EquivalentCircuit
+
+__all__ = [
+    "DEVICE_SAMPLE_WEIGHT",
+    "DIP_STEP_WEIGHT",
+    "SIZING_EVALUATIONS",
+    "Work",
+    "clearance_work",
+    "dip_run_steps",
+    "dip_study_work",
+    "envelope_work",
+    "mitigation_work",
+    "peak_work",
+    "search_cases",
+    "simulation_steps",
+    "statistics_work",
+]
+
+# One step of the generator-dip kernel (three transformer loops, the machine's flux and
+# regulator states, per case) in winding-steps of core.energize: measured ratio (see module
+# docstring).
+DIP_STEP_WEIGHT = 40.0
+# Judging one device against one line's recorded sample (I_eq(t), the relay integral and the
+# reset, the instantaneous check) in winding-steps: measured ratio.
+DEVICE_SAMPLE_WEIGHT = 0.05
+# Dip evaluations of the generator sizing (core.dip_sizing.smallest_generator): the two ends of
+# the range, Brent's method on log(rating) to a relative 1e-3 over a factor of 200 (bisection
+# alone needs 13; Brent's superlinear steps need fewer on this smooth, monotonic dip), two steps
+# to the passing side of the root: a typical count, not a bound (the deadline is the backstop).
+SIZING_EVALUATIONS = 2 + 12 + 2
+# Simulated time of each sizing evaluation [s] (core.dip_sizing.smallest_generator's default).
+SIZING_DURATION_S = 2.0
+# The pole scatter's largest spread over a sample, counted in standard deviations: the range of
+# three normal draws exceeds 10 sigma with a probability below 1e-6 per event (normal tail at
+# 5 sigma, about 5.7e-7 two-sided); the statistics record grows by this spread.
+SCATTER_SIGMAS = 10.0
+
+
+@dataclass(frozen=True)
+class Work:
+    """An estimate of an operation's work.
+
+    ``steps`` is the total in winding-steps [-]; ``parts`` names where it goes, one
+    (description, winding-steps) pair each [-].
+    """
+
+    steps: float
+    parts: tuple[tuple[str, float], ...]
+
+    def __add__(self, other: Work) -> Work:
+        return Work(self.steps + other.steps, self.parts + other.parts)
+
+
+def _work(parts: Sequence[tuple[str, float]]) -> Work:
+    kept = tuple((name, float(v)) for name, v in parts if v > 0.0)
+    return Work(sum(v for _, v in kept), kept)
+
+
+def search_cases() -> int:
+    """Simulations one worst-closing-angle search runs per case: its trials and the last call.
+
+    Returns
+    -------
+    int
+        Sum of the trials of every stage of :func:`core.energize_plan.search_offsets`, plus one [-].
+
+    Notes
+    -----
+    n = sum over stages of the trial count + 1 (the call at the angle found); 145 + 21 + 21 + 1
+    = 188 with the present stages.
+
+    References
+    ----------
+    Counts the search of :func:`core.inrush.worst_closing_angles` (this project).
+    """
+    return sum(o.size for o in energize_plan.search_offsets()) + 1
+
+
+def simulation_steps(
+    circuit: EquivalentCircuit,
+    cases: float,
+    duration_s: float,
+    samples_per_cycle: int = 128,
+) -> float:
+    """Winding-steps of one :func:`core.energize.simulate` call without a pre-insertion resistor.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit every case shares.
+    cases : float
+        Number of cases [-].
+    duration_s : float
+        Simulated time [s].
+    samples_per_cycle : int
+        Output samples per cycle [-].
+
+    Returns
+    -------
+    float
+        cases x windings x steps [-].
+
+    Notes
+    -----
+    steps = :func:`core.energize_plan.step_plan` (f, T, samples per cycle, tau) with tau the
+    saturated loop's time constant (:func:`core.energize_plan.saturated_time_constant`): the
+    count :func:`core.energize.simulate` compares with ``max_steps``.
+
+    References
+    ----------
+    The solver's own step plan (this project).
+    """
+    tau = energize_plan.saturated_time_constant(circuit)
+    _, _, n_steps = energize_plan.step_plan(
+        circuit.frequency_hz, duration_s, samples_per_cycle, tau
+    )
+    return float(cases) * circuit.phases * n_steps
+
+
+def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) -> float:
+    """Winding-steps of one generator-dip run (:func:`core.dip.energize_from_source`).
+
+    Parameters
+    ----------
+    frequency_hz : float
+        Frequency [Hz].
+    duration_s : float
+        Simulated time [s].
+    cases : float
+        Cases run together (a sizing sweep) [-].
+
+    Returns
+    -------
+    float
+        DIP_STEP_WEIGHT x cases x (steps of the record + the one-cycle ideal-source run) [-].
+
+    Notes
+    -----
+    Steps = :func:`core.dip_solver.cycle_steps` at the solver's floor of 128 steps per cycle;
+    a machine and transformer loop faster than that needs more, which this estimate does not
+    see (the deadline is the backstop).
+
+    References
+    ----------
+    The dip solver's own step plan (this project).
+    """
+    main = dip_solver.cycle_steps(frequency_hz, duration_s, dip_solver.MIN_STEPS_PER_CYCLE)
+    first = dip_solver.MIN_STEPS_PER_CYCLE
+    return DIP_STEP_WEIGHT * float(cases) * (main + first)
+
+
+def _line_samples(circuit: EquivalentCircuit, duration_s: float, samples_per_cycle: int) -> float:
+    """Output samples of a record of ``duration_s`` [s] on every line [-]."""
+    return circuit.phases * (duration_s * circuit.frequency_hz * samples_per_cycle + 1)
+
+
+def _judging(circuit: EquivalentCircuit, devices: int, duration_s: float, events: float) -> float:
+    return DEVICE_SAMPLE_WEIGHT * events * devices * _line_samples(circuit, duration_s, 128)
+
+
+def _exact_reading(circuit: EquivalentCircuit, windows: float, samples_per_cycle: int) -> float:
+    """Winding-steps of reading ``windows`` peaks exactly (:mod:`core.peaks`), every stage."""
+    f = circuit.frequency_hz
+    return sum(
+        simulation_steps(circuit, windows, 2.0 / (f * coarse), fine)
+        for coarse, fine in peaks.refinement_stages(samples_per_cycle)
+    )
+
+
+def _search(circuit: EquivalentCircuit, pole_delay_max_s: float, cycles: float = 2.0) -> float:
+    """Winding-steps of one worst-closing-angle search over ``cycles`` after the last pole."""
+    window = cycles / circuit.frequency_hz + pole_delay_max_s
+    return simulation_steps(circuit, search_cases(), window)
+
+
+def peak_work(
+    circuit: EquivalentCircuit, simulated: bool, pole_delay_max_s: float, cycles: float = 2.0
+) -> Work:
+    """Work of :func:`core.inrush.peak_study`.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit.
+    simulated : bool
+        Whether the method simulates (``"simulated"`` or ``"both"``).
+    pole_delay_max_s : float
+        Latest pole closing [s].
+    cycles : float
+        Window of the first peak after the last pole [cycles].
+
+    Returns
+    -------
+    Work
+
+    Notes
+    -----
+    (1 event + the search's :func:`search_cases`) x :func:`simulation_steps` over
+    cycles/f + the latest pole; the closed form costs nothing here.
+
+    References
+    ----------
+    Counts :func:`core.inrush.peak_study` (this project).
+    """
+    if not simulated:
+        return _work(())
+    event = simulation_steps(circuit, 1, cycles / circuit.frequency_hz + pole_delay_max_s)
+    search = _search(circuit, pole_delay_max_s, cycles)
+    # the first peak of each line, of the event and at the worst angle, read exactly
+    exact = _exact_reading(circuit, 2 * circuit.phases, 128)
+    return _work((("first peak and worst closing angle", event + search + exact),))
+
+
+def envelope_work(circuit: EquivalentCircuit, duration_s: float, samples_per_cycle: int) -> Work:
+    """Work of :func:`core.inrush.envelope_study`: one simulation of ``duration_s`` [s].
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit.
+    duration_s : float
+        Simulated time [s].
+    samples_per_cycle : int
+        Output samples per cycle [-].
+
+    Returns
+    -------
+    Work
+
+    Notes
+    -----
+    :func:`simulation_steps` (1 case) plus the analysis of each output sample (counted as one
+    winding-step per line-sample).
+
+    References
+    ----------
+    Counts :func:`core.inrush.envelope_study` (this project).
+    """
+    sim = simulation_steps(circuit, 1, duration_s, samples_per_cycle)
+    analysis = _line_samples(circuit, duration_s, samples_per_cycle)
+    # each line's peak in each whole cycle, read exactly
+    cycles = round(duration_s * circuit.frequency_hz * samples_per_cycle) // samples_per_cycle
+    exact = _exact_reading(circuit, cycles * circuit.phases, samples_per_cycle)
+    return _work((("simulation", sim), ("waveform analysis", analysis), ("exact peaks", exact)))
+
+
+def statistics_work(
+    circuit: EquivalentCircuit,
+    *,
+    samples: int,
+    pole_scatter_ms: float,
+    events: int,
+    devices: int,
+    device_duration_s: float,
+    dip_duration_s: float | None,
+    cycles: float = 2.0,
+) -> Work:
+    """Work of a statistics request: the Monte Carlo and the events checked in full.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit the peaks are drawn for.
+    samples : int
+        Monte Carlo events [-].
+    pole_scatter_ms : float
+        Standard deviation of each pole's closing instant [ms].
+    events : int
+        Events simulated in full for the devices and the dip [-].
+    devices : int
+        Devices judged on each of those events [-].
+    device_duration_s : float
+        Record each device is judged on [s].
+    dip_duration_s : float or None
+        Simulated time of each dip event; None without a generator [s].
+    cycles : float
+        Window of the first peak [cycles].
+
+    Returns
+    -------
+    Work
+
+    Notes
+    -----
+    Monte Carlo: samples x :func:`simulation_steps` over cycles/f + d, d = SCATTER_SIGMAS x
+    sigma the largest pole spread; devices: events x steps over device_duration_s + d, plus
+    events x devices x lines x samples x DEVICE_SAMPLE_WEIGHT; dip: events x
+    :func:`dip_run_steps`.
+
+    References
+    ----------
+    Counts :func:`core.statistics.peak_distribution` and :mod:`core.event_checks` (this
+    project).
+    """
+    f = circuit.frequency_hz
+    spread = SCATTER_SIGMAS * pole_scatter_ms * 1e-3 if circuit.phases > 1 else 0.0
+    parts = [("Monte Carlo peaks", simulation_steps(circuit, samples, cycles / f + spread))]
+    if devices > 0:
+        span = device_duration_s + spread
+        parts.append(("device events simulated", simulation_steps(circuit, events, span)))
+        parts.append(("device events judged", _judging(circuit, devices, span, events)))
+    if dip_duration_s is not None:
+        parts.append(("dip events", events * dip_run_steps(f, dip_duration_s)))
+    return _work(parts)
+
+
+def clearance_work(
+    circuit: EquivalentCircuit,
+    *,
+    worst_angle: bool,
+    duration_s: float,
+    devices: int,
+    windows: bool,
+    pole_delay_max_s: float = 0.0,
+) -> Work:
+    """Work of :func:`core.clearance.clearance_study` (and of its figure).
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit.
+    worst_angle : bool
+        Whether the closing angle is searched.
+    duration_s : float
+        Simulated inrush [s].
+    devices : int
+        Devices evaluated [-].
+    windows : bool
+        Whether each relay's time-dial window is searched.
+    pole_delay_max_s : float
+        Latest pole closing [s].
+
+    Returns
+    -------
+    Work
+
+    Notes
+    -----
+    Search: :func:`search_cases` x steps over 2 cycles + the latest pole; the event: steps over
+    duration_s; judging: devices x lines x samples x DEVICE_SAMPLE_WEIGHT, times
+    (1 + WINDOW_TRIALS) with the window search (each trial judges the relay again).
+
+    References
+    ----------
+    Counts :func:`core.clearance.clearance_study` (this project).
+    """
+    parts = []
+    if worst_angle:
+        parts.append(("worst closing angle", _search(circuit, pole_delay_max_s)))
+    parts.append(("inrush record", simulation_steps(circuit, 1, duration_s)))
+    judged = _judging(circuit, devices, duration_s, 1.0) * (1 + (WINDOW_TRIALS if windows else 0))
+    parts.append(("devices judged", judged))
+    return _work(parts)
+
+
+# Judgements of one relay in its time-dial window search (core.coordination): an upper bound
+# on the bisections of the two ends, this project's count.
+WINDOW_TRIALS = 40
+
+
+def dip_study_work(
+    frequency_hz: float,
+    duration_s: float,
+    *,
+    sizing: bool,
+    recovery_limit_s: float | None,
+) -> Work:
+    """Work of :func:`core.dip_study.dip_study`.
+
+    Parameters
+    ----------
+    frequency_hz : float
+        Frequency [Hz].
+    duration_s : float
+        Simulated time of the event [s].
+    sizing : bool
+        Whether the smallest generator is searched.
+    recovery_limit_s : float or None
+        The sizing limit's recovery time (its check simulates it + 1 s) [s].
+
+    Returns
+    -------
+    Work
+
+    Notes
+    -----
+    :func:`dip_run_steps` for the event; with sizing, SIZING_EVALUATIONS runs of
+    SIZING_DURATION_S and the recovery check of recovery_limit_s + 1 s.
+
+    References
+    ----------
+    Counts :func:`core.dip_study.dip_study` and :func:`core.dip_sizing.smallest_generator`
+    (this project).
+    """
+    parts = [("dip event", dip_run_steps(frequency_hz, duration_s))]
+    if sizing:
+        parts.append(
+            ("generator sizing", SIZING_EVALUATIONS * dip_run_steps(frequency_hz,
+                                                                     SIZING_DURATION_S))
+        )  # fmt: skip
+        if recovery_limit_s is not None:
+            parts.append(("recovery check", dip_run_steps(frequency_hz, recovery_limit_s + 1.0)))
+    return _work(parts)
+
+
+# Worst-closing-angle searches one mitigation option may run: the resistor's sizing searches one
+# per trial resistance (core.resistor.smallest_resistance, a bracketing search), the controlled
+# closing's tolerance window a bisection; an upper bound per option, this project's count.
+OPTION_SEARCHES = 6
+# Sub-steps a pre-insertion resistor may add while it is in (core.energize_plan.plan_steps):
+# counted as this many times the steps of its searches, a measured allowance.
+RESISTOR_SUBSTEPS = 4.0
+
+
+def mitigation_work(
+    circuit: EquivalentCircuit,
+    *,
+    options: int,
+    sweep: int,
+    devices: int,
+    device_duration_s: float,
+    dip_duration_s: float | None,
+    pole_delay_max_s: float = 0.0,
+) -> Work:
+    """Work of :func:`core.mitigation.mitigation_study`, an upper estimate.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The unit on its peak source.
+    options : int
+        Options weighed (the baseline is added) [-].
+    sweep : int
+        Residual-flux sweep points [-].
+    devices : int
+        Devices judged at each option's design-basis event [-].
+    device_duration_s : float
+        Record the devices are judged on [s].
+    dip_duration_s : float or None
+        Simulated dip per option; None without a generator [s].
+    pole_delay_max_s : float
+        Latest pole closing [s].
+
+    Returns
+    -------
+    Work
+
+    Notes
+    -----
+    Per option and the baseline: OPTION_SEARCHES x RESISTOR_SUBSTEPS worst-angle searches over
+    2 cycles (the sizing searches, which need no more than this), the design-basis event over
+    max(0.1 s, device_duration_s), its devices judged, and the dip (with the resistor's sizing
+    dips, one 1 s run per search); per sweep point one search. The mitigation study's searches
+    depend on the case (how many trial resistances a bracket needs), so this bound is looser
+    than the other operations'.
+
+    References
+    ----------
+    Counts :mod:`core.mitigation` and :mod:`core.mitigation_plans` (this project).
+    """
+    f = circuit.frequency_hz
+    plans = options + 1
+    window = 2.0 / f + pole_delay_max_s
+    one_search = _search(circuit, pole_delay_max_s)
+    record = max(0.1 + 1.0 / f, device_duration_s) + window
+    parts = [
+        ("worst-angle searches", plans * OPTION_SEARCHES * RESISTOR_SUBSTEPS * one_search),
+        ("residual sweep", sweep * one_search),
+        ("design-basis events", plans * simulation_steps(circuit, 1, record)),
+    ]
+    if devices > 0:
+        parts.append(("devices judged", plans * _judging(circuit, devices, record, 1.0)))
+    if dip_duration_s is not None:
+        dips = plans * dip_run_steps(f, dip_duration_s) + OPTION_SEARCHES * dip_run_steps(f, 1.0)
+        parts.append(("dips", dips))
+    return _work(parts)
