@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
 from pathlib import Path
 from typing import Any
 
@@ -12,7 +14,7 @@ from fastapi.responses import HTMLResponse, Response
 from fastapi.staticfiles import StaticFiles
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
-from service import auth, observability, problems
+from service import auth, observability, problems, warmup
 from service.routers import clearance, dip, inrush, mitigation, sheet, statistics
 from service.settings import get_settings
 from service.version import API_VERSION
@@ -82,7 +84,18 @@ class _TooLargeError(Exception):
 def create_app() -> FastAPI:
     """Build the application from the current settings."""
     settings = get_settings()
+
+    @asynccontextmanager
+    async def lifespan(app: FastAPI) -> AsyncIterator[None]:
+        # compile the kernels in a thread: /healthz answers meanwhile, /readyz says 503
+        if settings.warmup:
+            warmup.start(app)
+        else:
+            warmup.skip()
+        yield
+
     app = FastAPI(
+        lifespan=lifespan,
         title="firstcycle",
         version=API_VERSION,
         description=DESCRIPTION,
@@ -119,10 +132,23 @@ def create_app() -> FastAPI:
         """Liveness: the process answers."""
         return {"status": "ok"}
 
-    @app.get("/readyz", tags=["operations"], operation_id="readyz")
-    async def readyz() -> dict[str, str]:
-        """Readiness: the compute core is importable and compiled."""
-        return {"status": "ready"}
+    @app.get(
+        "/readyz",
+        tags=["operations"],
+        operation_id="readyz",
+        response_model=dict[str, str],
+        responses={503: {**problems.PROBLEM_RESPONSES[500], "description": "Not ready yet: "
+                         "the kernels are still compiling (or the warm-up failed)"}},
+    )  # fmt: skip
+    async def readyz() -> Any:
+        """Readiness: every compute kernel is compiled and the first-request paths are warm."""
+        state = warmup.state()
+        if state.done.is_set():
+            return {"status": "ready"}
+        detail = (
+            f"warm-up failed: {state.error}" if state.error else "warming up: compiling kernels"
+        )
+        return problems.problem_response(503, "Not ready", detail, "not-ready")
 
     @app.get(
         "/metrics",

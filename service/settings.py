@@ -52,6 +52,12 @@ class Settings(BaseSettings):
         None, description="File with one API key per line (e.g. a mounted secret)"
     )
 
+    warmup: bool = Field(
+        True,
+        description="Compile the kernels and warm the first-request paths at start, before "
+        "/readyz answers ready (off: ready at once, the first requests compile)",
+    )
+
     def keys(self) -> list[str]:
         """Every configured key: the list plus the lines of the key file."""
         keys = [k for k in self.api_keys if k]
