@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import copy
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 from pathlib import Path
@@ -16,7 +17,7 @@ from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
 from service import auth, observability, problems, warmup
 from service.routers import clearance, dip, inrush, mitigation, sheet, statistics
-from service.settings import get_settings
+from service.settings import KeySourceError, get_settings
 from service.version import API_VERSION
 
 # Swagger UI 5.35.0 (swagger-ui-dist, Apache-2.0, LICENSE and NOTICE beside it), vendored so the
@@ -84,6 +85,12 @@ class _TooLargeError(Exception):
 def create_app() -> FastAPI:
     """Build the application from the current settings."""
     settings = get_settings()
+    observability.configure_logging()
+    try:
+        keys = settings.keys()
+    except KeySourceError as exc:  # fail closed: never serve without the keys asked for
+        observability.log.critical("refusing to start: %s", exc)
+        raise
 
     @asynccontextmanager
     async def lifespan(app: FastAPI) -> AsyncIterator[None]:
@@ -111,7 +118,7 @@ def create_app() -> FastAPI:
     async def docs() -> HTMLResponse:
         """Interactive documentation, every asset served by this app (works offline)."""
         return get_swagger_ui_html(
-            openapi_url="/v1/openapi.json",
+            openapi_url="/docs/openapi.json",
             title="firstcycle API",
             swagger_js_url="/static/swagger-ui/swagger-ui-bundle.js",
             swagger_css_url="/static/swagger-ui/swagger-ui.css",
@@ -119,6 +126,22 @@ def create_app() -> FastAPI:
             # no validator badge: it would call an external validation service
             swagger_ui_parameters={"validatorUrl": None, "tryItOutEnabled": True},
         )
+
+    @app.get("/docs/openapi.json", include_in_schema=False)
+    async def docs_contract() -> dict[str, Any]:
+        """The contract as this deployment applies it, for the docs page only.
+
+        The committed contract (/v1/openapi.json) is the same for every deployment: it declares
+        the API-key scheme and says it applies only when keys are configured. The docs page
+        shows an authorise button only when keys are on (and then sends the key with every
+        call); with keys off it hides the scheme.
+        """
+        doc = copy.deepcopy(app.openapi())
+        if keys:
+            doc["security"] = [{"apiKey": []}]
+        else:
+            doc.get("components", {}).pop("securitySchemes", None)
+        return doc
 
     app.include_router(inrush.router)
     app.include_router(statistics.router)
@@ -165,12 +188,10 @@ def create_app() -> FastAPI:
 
     app.openapi_schema = None
     _add_problem_schema(app)
-    keys = settings.keys()
     if keys:
         app.add_middleware(auth.ApiKeyAuth, keys=keys)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
     app.add_middleware(observability.RequestContext)
-    observability.configure_logging()
     if settings.cors_origins:
         app.add_middleware(
             CORSMiddleware,
@@ -209,7 +230,8 @@ def _add_problem_schema(app: FastAPI) -> None:
                 "name": "X-API-Key",
                 "description": "Only when the operator configures keys "
                 "(FIRSTCYCLE_API_KEYS / FIRSTCYCLE_API_KEY_FILE); then every /v1 call without "
-                "a valid key gets 401. Authorization: Bearer <key> is accepted too.",
+                "a valid key gets 401, except this contract (/v1/openapi.json), which stays "
+                "public. Authorization: Bearer <key> is accepted too.",
             }
         }
         comps.pop("HTTPValidationError", None)

@@ -11,7 +11,14 @@ from pathlib import Path
 def _serve(args: argparse.Namespace) -> int:
     import uvicorn
 
+    from service.settings import KeySourceError, get_settings
+
     os.environ.setdefault("OMP_NUM_THREADS", "1")
+    try:  # fail closed before any worker starts: a key source that yields no key
+        get_settings().keys()
+    except KeySourceError as exc:
+        print(f"firstcycle: refusing to start: {exc}", file=sys.stderr)
+        return 2
     uvicorn.run(
         "service.app:app",
         host=args.host,

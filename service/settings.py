@@ -45,11 +45,13 @@ class Settings(BaseSettings):
     cors_origins: list[str] = Field(default_factory=list, description="Allowed CORS origins")
     api_keys: list[str] = Field(
         default_factory=list,
-        description="API keys accepted on /v1 (JSON list); empty with no key file: no "
-        "authentication",
+        description="API keys accepted on /v1 (JSON list); unset with no key file: no "
+        "authentication; set but with no non-empty key: the service refuses to start",
     )
     api_key_file: str | None = Field(
-        None, description="File with one API key per line (e.g. a mounted secret)"
+        None,
+        description="File with one API key per line (e.g. a mounted secret); set but empty or "
+        "unreadable: the service refuses to start",
     )
 
     warmup: bool = Field(
@@ -59,12 +61,38 @@ class Settings(BaseSettings):
     )
 
     def keys(self) -> list[str]:
-        """Every configured key: the list plus the lines of the key file."""
+        """Every configured key: the list plus the lines of the key file.
+
+        Fails closed: a key source that is set but yields no key (an empty or all-blank list,
+        an empty or unreadable file) raises :class:`KeySourceError` naming the setting, so the
+        service refuses to start instead of serving without authentication.
+        """
         keys = [k for k in self.api_keys if k]
-        if self.api_key_file:
-            with open(self.api_key_file, encoding="utf-8") as fh:
-                keys += [line.strip() for line in fh if line.strip()]
+        if "api_keys" in self.model_fields_set and not keys:
+            raise KeySourceError(
+                "FIRSTCYCLE_API_KEYS is set but holds no non-empty key; set at least one key, "
+                "or unset it to run without authentication"
+            )
+        if "api_key_file" in self.model_fields_set:
+            path = self.api_key_file or ""
+            try:
+                with open(path, encoding="utf-8") as fh:
+                    from_file = [line.strip() for line in fh if line.strip()]
+            except (OSError, UnicodeDecodeError) as exc:
+                raise KeySourceError(
+                    f"FIRSTCYCLE_API_KEY_FILE={path!r} cannot be read ({exc.__class__.__name__}: "
+                    f"{exc}); fix the path or unset it to run without authentication"
+                ) from exc
+            if not from_file:
+                raise KeySourceError(
+                    f"FIRSTCYCLE_API_KEY_FILE={path!r} holds no key (one key per line expected)"
+                )
+            keys += from_file
         return keys
+
+
+class KeySourceError(ValueError):
+    """An API-key setting is present but yields no usable key."""
 
 
 @lru_cache
