@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import asyncio
 import copy
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
@@ -33,16 +34,28 @@ Every response lists the assumptions actually used with their provenance, warnin
 and its references. **Results are engineering estimates: verify with the equipment
 manufacturers' data; local codes and licensed engineering practice govern.**
 
-Errors are RFC 9457 problem documents (`application/problem+json`).
+Errors are RFC 9457 problem documents (`application/problem+json`). A request body larger
+than the configured limit is answered 413; one that does not arrive in full within the
+configured time, 408 (and the connection is closed).
 """
 
 
-class BodyLimit:
-    """Reject request bodies larger than ``max_bytes`` with a 413 problem document."""
+class BodyGuard:
+    """Read each request body under a size limit and a deadline before the app sees it.
 
-    def __init__(self, app: ASGIApp, max_bytes: int) -> None:
+    * larger than ``max_bytes`` (by ``content-length``, or counted as a chunked body arrives):
+      413 problem document;
+    * not complete within ``timeout_s`` of the first read (a ``content-length`` larger than
+      what is sent, or a client that trickles): 408 problem document, connection closed.
+
+    The body is then replayed to the app in one message; later reads (the disconnect) go to
+    the server as before.
+    """
+
+    def __init__(self, app: ASGIApp, max_bytes: int, timeout_s: float) -> None:
         self.app = app
         self.max_bytes = max_bytes
+        self.timeout_s = timeout_s
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         if scope["type"] != "http":
@@ -50,36 +63,56 @@ class BodyLimit:
             return
         for name, value in scope.get("headers", []):
             if name == b"content-length" and value.isdigit() and int(value) > self.max_bytes:
-                await self._reject(scope, receive, send)
+                await self._reject(scope, receive, send, 413)
                 return
+        chunks: list[bytes] = []
         seen = 0
+        loop = asyncio.get_running_loop()
+        deadline = loop.time() + self.timeout_s
+        while True:
+            try:
+                message = await asyncio.wait_for(receive(), max(deadline - loop.time(), 0.0))
+            except TimeoutError:
+                await self._reject(scope, receive, send, 408)
+                return
+            if message["type"] != "http.request":  # the client went away
+                return
+            body = message.get("body", b"")
+            seen += len(body)
+            if seen > self.max_bytes:
+                await self._reject(scope, receive, send, 413)
+                return
+            chunks.append(body)
+            if not message.get("more_body", False):
+                break
+        replayed = False
 
-        async def limited() -> Message:
-            nonlocal seen
-            message = await receive()
-            if message["type"] == "http.request":
-                seen += len(message.get("body", b""))
-                if seen > self.max_bytes:
-                    raise _TooLargeError
-            return message
+        async def replay() -> Message:
+            nonlocal replayed
+            if not replayed:
+                replayed = True
+                return {"type": "http.request", "body": b"".join(chunks), "more_body": False}
+            return await receive()
 
-        try:
-            await self.app(scope, limited, send)
-        except _TooLargeError:
-            await self._reject(scope, receive, send)
+        await self.app(scope, replay, send)
 
-    async def _reject(self, scope: Scope, receive: Receive, send: Send) -> None:
-        response = problems.problem_response(
-            413,
-            "Request body too large",
-            f"the body exceeds the limit of {self.max_bytes} bytes",
-            "body-too-large",
-        )
+    async def _reject(self, scope: Scope, receive: Receive, send: Send, status: int) -> None:
+        if status == 413:
+            response = problems.problem_response(
+                413,
+                "Request body too large",
+                f"the body exceeds the limit of {self.max_bytes} bytes",
+                "body-too-large",
+            )
+        else:
+            response = problems.problem_response(
+                408,
+                "Request timeout",
+                f"the request body did not arrive within {self.timeout_s:g} s",
+                "request-timeout",
+                headers={"Connection": "close"},
+            )
         await response(scope, receive, send)
-
-
-class _TooLargeError(Exception):
-    pass
 
 
 def create_app() -> FastAPI:
@@ -190,7 +223,9 @@ def create_app() -> FastAPI:
     _add_problem_schema(app)
     if keys:
         app.add_middleware(auth.ApiKeyAuth, keys=keys)
-    app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
+    app.add_middleware(
+        BodyGuard, max_bytes=settings.max_body_bytes, timeout_s=settings.body_timeout_s
+    )
     app.add_middleware(observability.RequestContext)
     if settings.cors_origins:
         app.add_middleware(

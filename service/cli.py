@@ -11,6 +11,7 @@ from pathlib import Path
 def _serve(args: argparse.Namespace) -> int:
     import uvicorn
 
+    from service.connection import HeaderDeadlineProtocol
     from service.settings import KeySourceError, get_settings
 
     os.environ.setdefault("OMP_NUM_THREADS", "1")
@@ -26,6 +27,8 @@ def _serve(args: argparse.Namespace) -> int:
         workers=args.workers,
         log_level=args.log_level,
         proxy_headers=True,
+        http=HeaderDeadlineProtocol,  # httptools with a deadline for the headers
+        timeout_keep_alive=5,  # idle keep-alive connections closed after 5 s
     )
     return 0
 

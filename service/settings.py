@@ -42,6 +42,20 @@ class Settings(BaseSettings):
     )
     max_cases: int = Field(1000, ge=1, description="Most cases in one batch request")
     max_body_bytes: int = Field(1_048_576, ge=1024, description="Largest request body [bytes]")
+    body_timeout_s: float = Field(
+        10.0,
+        gt=0,
+        le=600,
+        description="Longest time to receive a request body, from its first byte; later: 408 "
+        "and the connection closed [s]",
+    )
+    header_timeout_s: float = Field(
+        10.0,
+        gt=0,
+        le=600,
+        description="Longest time to receive a request's line and headers, from the "
+        "connection or the request's first byte (firstcycle serve); later: 408, closed [s]",
+    )
     cors_origins: list[str] = Field(default_factory=list, description="Allowed CORS origins")
     api_keys: list[str] = Field(
         default_factory=list,
