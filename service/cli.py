@@ -1,4 +1,5 @@
-"""``firstcycle`` command line: ``serve`` runs the service, ``openapi`` writes the contract."""
+"""``firstcycle`` command line: ``serve`` runs the service, ``warmup`` fills numba's cache,
+``openapi`` writes the contract."""
 
 from __future__ import annotations
 
@@ -42,6 +43,16 @@ def _openapi(args: argparse.Namespace) -> int:
     return 0
 
 
+def _warmup(args: argparse.Namespace) -> int:
+    from service import warmup
+    from service.app import create_app
+
+    os.environ.setdefault("OMP_NUM_THREADS", "1")
+    seconds = warmup.run(create_app())
+    print(f"warm-up done in {seconds:.1f} s (numba cache: {os.environ.get('NUMBA_CACHE_DIR')})")
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``firstcycle`` console script."""
     parser = argparse.ArgumentParser(prog="firstcycle", description=__doc__)
@@ -52,6 +63,12 @@ def main(argv: list[str] | None = None) -> int:
     s.add_argument("--workers", type=int, default=int(os.environ.get("FIRSTCYCLE_WORKERS", "1")))
     s.add_argument("--log-level", default="info")
     s.set_defaults(func=_serve)
+    w = sub.add_parser(
+        "warmup",
+        help="compile every kernel into numba's cache (NUMBA_CACHE_DIR) and exit, e.g. while "
+        "building an image",
+    )
+    w.set_defaults(func=_warmup)
     o = sub.add_parser("openapi", help="write openapi/v1/ (contract, schemas, examples)")
     o.add_argument("--out", default="openapi/v1")
     o.set_defaults(func=_openapi)
