@@ -59,6 +59,9 @@ def _worker_rss_kb(pid: int) -> dict[int, int]:
     out = {}
     for p in pids or [pid]:
         status = Path(f"/proc/{p}/status")
+        cmdline = Path(f"/proc/{p}/cmdline")
+        if cmdline.exists() and b"resource_tracker" in cmdline.read_bytes():
+            continue  # multiprocessing's helper, not a worker
         if status.exists():
             m = re.search(r"VmRSS:\s+(\d+)", status.read_text())
             out[p] = int(m.group(1)) if m else 0
