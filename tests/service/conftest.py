@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import os
 from collections.abc import Iterator
 
 import pytest
@@ -10,10 +9,6 @@ from fastapi.testclient import TestClient
 
 from service.app import create_app
 from service.settings import get_settings
-
-# The kernel warm-up runs once per process at app start; here the tests compile what they use,
-# and tests/service/test_warmup.py checks the warm-up itself.
-os.environ.setdefault("FIRSTCYCLE_WARMUP", "false")
 
 
 @pytest.fixture
