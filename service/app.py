@@ -2,6 +2,10 @@
 
 from __future__ import annotations
 
+import asyncio
+import copy
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
 from pathlib import Path
 from typing import Any
 
@@ -12,9 +16,9 @@ from fastapi.responses import HTMLResponse, Response
 from fastapi.staticfiles import StaticFiles
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
-from service import auth, compute, observability, problems
+from service import auth, compute, observability, problems, warmup
 from service.routers import clearance, dip, inrush, mitigation, sheet, statistics
-from service.settings import get_settings
+from service.settings import KeySourceError, get_settings
 from service.version import API_VERSION, PACKAGE_VERSION
 
 # Swagger UI 5.35.0 (swagger-ui-dist, Apache-2.0, LICENSE and NOTICE beside it), vendored so the
@@ -32,7 +36,9 @@ manufacturers' data; local codes and licensed engineering practice govern.**
 
 Errors are RFC 9457 problem documents (`application/problem+json`): 422 for invalid input
 (the field's path, the value and the allowed range), 400 for a body that is not JSON text (with
-the line and column of the syntax error), 415 for a body sent as another media type.
+the line and column of the syntax error), 415 for a body sent as another media type, 413 for a
+body larger than the configured limit, 408 for one that does not arrive in full within the
+configured time (and the connection is closed).
 
 **x rated**: every field ending in `_x_rated` is a multiple of the rated rms line current of the
 energised winding, I_r = S/(sqrt(3)·V_LL) (S/V for one phase). A peak in x rated is the
@@ -45,12 +51,22 @@ changed or not; `/healthz` reports both.
 """
 
 
-class BodyLimit:
-    """Reject request bodies larger than ``max_bytes`` with a 413 problem document."""
+class BodyGuard:
+    """Read each request body under a size limit and a deadline before the app sees it.
 
-    def __init__(self, app: ASGIApp, max_bytes: int) -> None:
+    * larger than ``max_bytes`` (by ``content-length``, or counted as a chunked body arrives):
+      413 problem document;
+    * not complete within ``timeout_s`` of the first read (a ``content-length`` larger than
+      what is sent, or a client that trickles): 408 problem document, connection closed.
+
+    The body is then replayed to the app in one message; later reads (the disconnect) go to
+    the server as before.
+    """
+
+    def __init__(self, app: ASGIApp, max_bytes: int, timeout_s: float) -> None:
         self.app = app
         self.max_bytes = max_bytes
+        self.timeout_s = timeout_s
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         if scope["type"] != "http":
@@ -58,36 +74,56 @@ class BodyLimit:
             return
         for name, value in scope.get("headers", []):
             if name == b"content-length" and value.isdigit() and int(value) > self.max_bytes:
-                await self._reject(scope, receive, send)
+                await self._reject(scope, receive, send, 413)
                 return
+        chunks: list[bytes] = []
         seen = 0
+        loop = asyncio.get_running_loop()
+        deadline = loop.time() + self.timeout_s
+        while True:
+            try:
+                message = await asyncio.wait_for(receive(), max(deadline - loop.time(), 0.0))
+            except TimeoutError:
+                await self._reject(scope, receive, send, 408)
+                return
+            if message["type"] != "http.request":  # the client went away
+                return
+            body = message.get("body", b"")
+            seen += len(body)
+            if seen > self.max_bytes:
+                await self._reject(scope, receive, send, 413)
+                return
+            chunks.append(body)
+            if not message.get("more_body", False):
+                break
+        replayed = False
 
-        async def limited() -> Message:
-            nonlocal seen
-            message = await receive()
-            if message["type"] == "http.request":
-                seen += len(message.get("body", b""))
-                if seen > self.max_bytes:
-                    raise _TooLargeError
-            return message
+        async def replay() -> Message:
+            nonlocal replayed
+            if not replayed:
+                replayed = True
+                return {"type": "http.request", "body": b"".join(chunks), "more_body": False}
+            return await receive()
 
-        try:
-            await self.app(scope, limited, send)
-        except _TooLargeError:
-            await self._reject(scope, receive, send)
+        await self.app(scope, replay, send)
 
-    async def _reject(self, scope: Scope, receive: Receive, send: Send) -> None:
-        response = problems.problem_response(
-            413,
-            "Request body too large",
-            f"the body exceeds the limit of {self.max_bytes} bytes",
-            "body-too-large",
-        )
+    async def _reject(self, scope: Scope, receive: Receive, send: Send, status: int) -> None:
+        if status == 413:
+            response = problems.problem_response(
+                413,
+                "Request body too large",
+                f"the body exceeds the limit of {self.max_bytes} bytes",
+                "body-too-large",
+            )
+        else:
+            response = problems.problem_response(
+                408,
+                "Request timeout",
+                f"the request body did not arrive within {self.timeout_s:g} s",
+                "request-timeout",
+                headers={"Connection": "close"},
+            )
         await response(scope, receive, send)
-
-
-class _TooLargeError(Exception):
-    pass
 
 
 class JsonBodyOnly:
@@ -133,7 +169,24 @@ def json_body_paths(contract: dict[str, Any]) -> frozenset[str]:
 def create_app() -> FastAPI:
     """Build the application from the current settings."""
     settings = get_settings()
+    observability.configure_logging()
+    try:
+        keys = settings.keys()
+    except KeySourceError as exc:  # fail closed: never serve without the keys asked for
+        observability.log.critical("refusing to start: %s", exc)
+        raise
+
+    @asynccontextmanager
+    async def lifespan(app: FastAPI) -> AsyncIterator[None]:
+        # compile the kernels in a thread: /healthz answers meanwhile, /readyz says 503
+        if settings.warmup:
+            warmup.start(app)
+        else:
+            warmup.skip()
+        yield
+
     app = FastAPI(
+        lifespan=lifespan,
         title="firstcycle",
         version=API_VERSION,
         description=DESCRIPTION,
@@ -150,7 +203,7 @@ def create_app() -> FastAPI:
     async def docs() -> HTMLResponse:
         """Interactive documentation, every asset served by this app (works offline)."""
         return get_swagger_ui_html(
-            openapi_url="/v1/openapi.json",
+            openapi_url="/docs/openapi.json",
             title="firstcycle API",
             swagger_js_url="/static/swagger-ui/swagger-ui-bundle.js",
             swagger_css_url="/static/swagger-ui/swagger-ui.css",
@@ -158,6 +211,22 @@ def create_app() -> FastAPI:
             # no validator badge: it would call an external validation service
             swagger_ui_parameters={"validatorUrl": None, "tryItOutEnabled": True},
         )
+
+    @app.get("/docs/openapi.json", include_in_schema=False)
+    async def docs_contract() -> dict[str, Any]:
+        """The contract as this deployment applies it, for the docs page only.
+
+        The committed contract (/v1/openapi.json) is the same for every deployment: it declares
+        the API-key scheme and says it applies only when keys are configured. The docs page
+        shows an authorise button only when keys are on (and then sends the key with every
+        call); with keys off it hides the scheme.
+        """
+        doc = copy.deepcopy(app.openapi())
+        if keys:
+            doc["security"] = [{"apiKey": []}]
+        else:
+            doc.get("components", {}).pop("securitySchemes", None)
+        return doc
 
     app.include_router(inrush.router)
     app.include_router(statistics.router)
@@ -172,10 +241,23 @@ def create_app() -> FastAPI:
         contract's ``info.version``) and the software's (``package_version``)."""
         return {"status": "ok", "api_version": API_VERSION, "package_version": PACKAGE_VERSION}
 
-    @app.get("/readyz", tags=["operations"], operation_id="readyz")
-    async def readyz() -> dict[str, str]:
-        """Readiness: the compute core is importable and compiled."""
-        return {"status": "ready"}
+    @app.get(
+        "/readyz",
+        tags=["operations"],
+        operation_id="readyz",
+        response_model=dict[str, str],
+        responses={503: {**problems.PROBLEM_RESPONSES[500], "description": "Not ready yet: "
+                         "the kernels are still compiling (or the warm-up failed)"}},
+    )  # fmt: skip
+    async def readyz() -> Any:
+        """Readiness: every compute kernel is compiled and the first-request paths are warm."""
+        state = warmup.state()
+        if state.done.is_set():
+            return {"status": "ready"}
+        detail = (
+            f"warm-up failed: {state.error}" if state.error else "warming up: compiling kernels"
+        )
+        return problems.problem_response(503, "Not ready", detail, "not-ready")
 
     @app.get(
         "/metrics",
@@ -193,12 +275,12 @@ def create_app() -> FastAPI:
     app.openapi_schema = None
     _add_problem_schema(app)
     app.add_middleware(JsonBodyOnly, service=app)
-    keys = settings.keys()
     if keys:
         app.add_middleware(auth.ApiKeyAuth, keys=keys)
-    app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
+    app.add_middleware(
+        BodyGuard, max_bytes=settings.max_body_bytes, timeout_s=settings.body_timeout_s
+    )
     app.add_middleware(observability.RequestContext)
-    observability.configure_logging()
     if settings.cors_origins:
         app.add_middleware(
             CORSMiddleware,
@@ -239,7 +321,8 @@ def _add_problem_schema(app: FastAPI) -> None:
                 "name": "X-API-Key",
                 "description": "Only when the operator configures keys "
                 "(FIRSTCYCLE_API_KEYS / FIRSTCYCLE_API_KEY_FILE); then every /v1 call without "
-                "a valid key gets 401. Authorization: Bearer <key> is accepted too.",
+                "a valid key gets 401, except this contract (/v1/openapi.json), which stays "
+                "public. Authorization: Bearer <key> is accepted too.",
             }
         }
         comps.pop("HTTPValidationError", None)

@@ -67,14 +67,36 @@ class Settings(BaseSettings):
     )
     max_cases: int = Field(1000, ge=1, description="Most cases in one batch request")
     max_body_bytes: int = Field(1_048_576, ge=1024, description="Largest request body [bytes]")
+    body_timeout_s: float = Field(
+        10.0,
+        gt=0,
+        le=600,
+        description="Longest time to receive a request body, from its first byte; later: 408 "
+        "and the connection closed [s]",
+    )
+    header_timeout_s: float = Field(
+        10.0,
+        gt=0,
+        le=600,
+        description="Longest time to receive a request's line and headers, from the "
+        "connection or the request's first byte (firstcycle serve); later: 408, closed [s]",
+    )
     cors_origins: list[str] = Field(default_factory=list, description="Allowed CORS origins")
     api_keys: list[str] = Field(
         default_factory=list,
-        description="API keys accepted on /v1 (JSON list); empty with no key file: no "
-        "authentication",
+        description="API keys accepted on /v1 (JSON list); unset with no key file: no "
+        "authentication; set but with no non-empty key: the service refuses to start",
     )
     api_key_file: str | None = Field(
-        None, description="File with one API key per line (e.g. a mounted secret)"
+        None,
+        description="File with one API key per line (e.g. a mounted secret); set but empty or "
+        "unreadable: the service refuses to start",
+    )
+
+    warmup: bool = Field(
+        True,
+        description="Compile the kernels and warm the first-request paths at start, before "
+        "/readyz answers ready (off: ready at once, the first requests compile)",
     )
 
     @model_validator(mode="after")
@@ -90,11 +112,33 @@ class Settings(BaseSettings):
         return self
 
     def keys(self) -> list[str]:
-        """Every configured key: the list plus the lines of the key file."""
+        """Every configured key: the list plus the lines of the key file.
+
+        Fails closed: a key source that is set but yields no key (an empty or all-blank list,
+        an empty or unreadable file) raises :class:`KeySourceError` naming the setting, so the
+        service refuses to start instead of serving without authentication.
+        """
         keys = [k for k in self.api_keys if k]
-        if self.api_key_file:
-            with open(self.api_key_file, encoding="utf-8") as fh:
-                keys += [line.strip() for line in fh if line.strip()]
+        if "api_keys" in self.model_fields_set and not keys:
+            raise KeySourceError(
+                "FIRSTCYCLE_API_KEYS is set but holds no non-empty key; set at least one key, "
+                "or unset it to run without authentication"
+            )
+        if "api_key_file" in self.model_fields_set:
+            path = self.api_key_file or ""
+            try:
+                with open(path, encoding="utf-8") as fh:
+                    from_file = [line.strip() for line in fh if line.strip()]
+            except (OSError, UnicodeDecodeError) as exc:
+                raise KeySourceError(
+                    f"FIRSTCYCLE_API_KEY_FILE={path!r} cannot be read ({exc.__class__.__name__}: "
+                    f"{exc}); fix the path or unset it to run without authentication"
+                ) from exc
+            if not from_file:
+                raise KeySourceError(
+                    f"FIRSTCYCLE_API_KEY_FILE={path!r} holds no key (one key per line expected)"
+                )
+            keys += from_file
         return keys
 
 
@@ -113,6 +157,10 @@ CONTRACT_MAXIMA = (
 def default_limit(name: str) -> Any:
     """The default of a limit setting, which the contract publishes as its field's maximum."""
     return Settings.model_fields[name].default
+
+
+class KeySourceError(ValueError):
+    """An API-key setting is present but yields no usable key."""
 
 
 @lru_cache

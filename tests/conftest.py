@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import socket
 import subprocess
 import sys
@@ -10,6 +11,11 @@ import urllib.request
 from collections.abc import Iterator
 
 import pytest
+
+# The kernel warm-up runs once per process when an app starts (schemathesis starts one while
+# collecting tests/contract); the tests compile what they use instead, and
+# tests/service/test_warmup.py checks the warm-up itself.
+os.environ.setdefault("FIRSTCYCLE_WARMUP", "false")
 
 
 def _free_port() -> int:
