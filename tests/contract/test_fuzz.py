@@ -25,6 +25,7 @@ from service.settings import Settings, get_settings, settings_dependency
 # tests/service/test_bounded_work.py), which the no-server-error check counts as a failure; a
 # job past its deadline also keeps its simulation slot until its next checkpoint, so the next
 # case could be answered 503 busy. The deadline is therefore lifted for this app alone.
+FUZZ_TIMEOUT_S = 120.0
 FUZZ_SETTINGS = get_settings().model_copy(update={"request_deadline_s": 3600.0})
 
 
@@ -51,7 +52,9 @@ def _check(case: schemathesis.Case) -> None:
     if case.operation.definition.raw.get("operationId") == "inrush_peak_batch":
         # a batch answers 200 with a per-item problem for an invalid case, by design
         excluded.append(negative_data_rejection)
-    case.call_and_validate(excluded_checks=excluded)
+    # schemathesis waits 10 s for an answer by default; a legal heavy case may compute longer on
+    # a loaded machine (the work budget bounds it, the lifted deadline above does not cut it)
+    case.call_and_validate(excluded_checks=excluded, timeout=FUZZ_TIMEOUT_S)
 
 
 @schema.exclude(operation_id=HEAVY).parametrize()

@@ -26,6 +26,8 @@ def test_schemathesis_cli_all_checks(live_server: str, tmp_path: Path) -> None:
                 exe, "run", live_server + "/v1/openapi.json", selector, "inrush_peak_batch",
                 "--checks", "all", "--exclude-checks", excluded,
                 "--max-examples", "10", "--seed", "20261201", "--workers", "1",
+                # the contract is checked here, not the timing (see test_fuzz.py)
+                "--request-timeout", "120",
             ],
             capture_output=True, text=True, timeout=900, check=False, cwd=tmp_path,
         )  # fmt: skip

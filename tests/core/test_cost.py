@@ -14,8 +14,8 @@ stated allowance where it deliberately bounds a random or searched quantity.
 
 Circuits: the 2.5 MVA, 480 V distribution unit of tests/core/conftest.py (typical nameplate
 values, common practice) in each connection, on an ideal source or a source impedance, and the
-"Northgate" 1250 kVA standby generator of tests/core/test_generator.py (X''_d, X'_d from the
-design notes; X_d, T''_d, T'_d invented demo values).
+"Northgate" 1250 kVA standby generator of tests/core/test_generator.py (X''_d, X'_d of the
+invented demo scenario in service/examples.py; X_d, T''_d, T'_d invented demo values).
 """
 
 from __future__ import annotations
@@ -205,7 +205,9 @@ def test_peak_estimate_is_the_solver_steps(
     stages = len(peaks.refinement_stages(128))
     assert len(tally.sims) == 1 + len(energize_plan.search_offsets()) + 1 + 2 * stages
     work = cost.peak_work(circuit, True, float(delay.max()))
-    assert work.steps == sum(tally.sims)
+    assert _part(work, "first peak and worst closing angle") == sum(tally.sims)
+    # plus a fixed allowance a case for what is not a kernel step (measured, PEAK_CASE_WEIGHT)
+    assert work.steps == sum(tally.sims) + cost.PEAK_CASE_WEIGHT
     assert cost.peak_work(circuit, False, float(delay.max())).steps == 0.0
 
 
@@ -217,7 +219,9 @@ def test_peak_estimate_follows_a_step_raised_by_a_resistive_source(tally: Tally)
     circuit = _circuit("wye_grounded", 1, resistive)
     inrush.peak_study(circuit, 0.0, 0.8, method="simulated")
     assert min(tally.steps_per_cycle) > 128
-    assert cost.peak_work(circuit, True, 0.0).steps == sum(tally.sims)
+    assert _part(cost.peak_work(circuit, True, 0.0), "first peak and worst closing angle") == sum(
+        tally.sims
+    )
 
 
 @pytest.mark.parametrize(("connection", "phases", "source"), CONNECTIONS[:3])
