@@ -16,6 +16,11 @@ import pytest
 # collecting tests/contract); the tests compile what they use instead, and
 # tests/service/test_warmup.py checks the warm-up itself.
 os.environ.setdefault("FIRSTCYCLE_WARMUP", "false")
+# The tests check answers, not timing: on a loaded machine, and with kernels compiling on first
+# use (no warm-up above), a legal heavy case may compute past the 30 s request deadline and
+# answer 503. The deadline is lifted for every app the tests build; the deadline itself is
+# tested with its own setting in tests/service/test_bounded_work.py.
+os.environ.setdefault("FIRSTCYCLE_REQUEST_DEADLINE_S", "3600")
 
 
 def _free_port() -> int:
@@ -29,9 +34,7 @@ def _free_port() -> int:
 def live_server() -> Iterator[str]:
     """Base URL of the service run by uvicorn on 127.0.0.1 for the whole session."""
     port = _free_port()
-    # The contract is checked against this server, not the timing: on a loaded machine a legal
-    # heavy case may compute past the request deadline (503, tested in
-    # tests/service/test_bounded_work.py), so the deadline is lifted here.
+    # The contract is checked against this server, not the timing (deadline lifted, see above).
     env = {**os.environ, "FIRSTCYCLE_REQUEST_DEADLINE_S": "3600"}
     proc = subprocess.Popen(
         [sys.executable, "-m", "uvicorn", "service.app:app", "--host", "127.0.0.1",
