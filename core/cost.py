@@ -21,9 +21,19 @@ from core import dip_solver, energize_plan, peaks
 from core.transformer import EquivalentCircuit
 
 __all__ = [
+    "DEVICE_JUDGEMENT_WEIGHT",
     "DEVICE_SAMPLE_WEIGHT",
+    "DIP_FIGURE_WEIGHT",
+    "DIP_RUN_WEIGHT",
     "DIP_STEP_WEIGHT",
+    "ENVELOPE_SAMPLE_WEIGHT",
+    "EVENT_SAMPLE_WEIGHT",
+    "EVENT_WEIGHT",
+    "PEAK_CASE_WEIGHT",
+    "RECORD_SAMPLE_WEIGHT",
     "SIZING_EVALUATIONS",
+    "TCC_FIGURE_WEIGHT",
+    "WINDOW_JUDGEMENTS",
     "Work",
     "clearance_work",
     "dip_run_steps",
@@ -36,18 +46,43 @@ __all__ = [
     "statistics_work",
 ]
 
+# The weights below put every kind of work in winding-steps of core.energize. They are this
+# project's measurements on the reference machine (2 cores; tests/benchmarks/bench_heaviest.py,
+# CPU-time ratios in one run), where one winding-step of the kernel costs about 56 ns of CPU, so
+# the default budget of 35 million winding-steps is about 2 s of CPU for any operation.
+#
 # One step of the generator-dip kernel (three transformer loops, the machine's flux and
-# regulator states, per case) in winding-steps of core.energize: measured ratio (see module
-# docstring).
-DIP_STEP_WEIGHT = 40.0
-# Judging one device against one line's recorded sample (I_eq(t), the relay integral and the
-# reset, the instantaneous check) in winding-steps: measured ratio.
-DEVICE_SAMPLE_WEIGHT = 0.05
+# regulator states, per case).
+DIP_STEP_WEIGHT = 80.0
+# One generator-dip run besides its steps (the machine's case built, the record read for the
+# dip, the recovery and the band): about 3 ms.
+DIP_RUN_WEIGHT = 55_000.0
+# Judging one device against one event: per line-sample of the record (the sliding one-cycle
+# rms, I_eq(t), the relay integral and its reset) and per judgement (the device's curve built
+# and its verdict read): 45 ns a line-sample and 1.7 ms a judgement.
+DEVICE_SAMPLE_WEIGHT = 0.8
+DEVICE_JUDGEMENT_WEIGHT = 30_000.0
+# Reading an event's record as the devices see it (I_eq(t), sliding rms per line) before any
+# device is judged: per line-sample and per event (statistics' events checked in full).
+EVENT_SAMPLE_WEIGHT = 1.2
+EVENT_WEIGHT = 45_000.0
+# Reading the clearance study's record (I_eq(t), harmonics, what each device would see and the
+# through-fault comparison), per line-sample.
+RECORD_SAMPLE_WEIGHT = 6.0
+# The envelope's waveform analysis (peak per cycle, I_eq(t), time below a level, harmonics per
+# cycle), per line-sample.
+ENVELOPE_SAMPLE_WEIGHT = 8.0
+# A relay's time-dial window search (core.coordination) re-judges the relay at trial dials on
+# the one-cycle rms it has already computed: about 1.1 judgements in all, counted as 1.5.
+WINDOW_JUDGEMENTS = 1.5
 # What a simulated peak case costs besides its kernel steps (the closed-form worst line, the
-# search's bookkeeping, the request's validation and conversion), in winding-steps: a batch of
-# 1000 circuit-mode cases took 15 s of CPU against 4.9 s for its steps alone (about 10 ms a
-# case at the 0.1 us a step of the module docstring).
-PEAK_CASE_WEIGHT = 100_000.0
+# search's bookkeeping, the request's validation and conversion): a batch of 203 three-phase
+# cases took 5.75 s of CPU, 28 ms a case against 8 ms for its steps alone.
+PEAK_CASE_WEIGHT = 360_000.0
+# Drawing a figure (matplotlib's layout and SVG writer): the log-log TCC with its tick labels
+# about 1.2 s, the voltage-time figure of the dip about 0.25 s, whatever the record.
+TCC_FIGURE_WEIGHT = 22_000_000.0
+DIP_FIGURE_WEIGHT = 4_500_000.0
 # Dip evaluations of the generator sizing (core.dip_sizing.smallest_generator): the two ends of
 # the range, Brent's method on log(rating) to a relative 1e-3 over a factor of 200 (bisection
 # alone needs 13; Brent's superlinear steps need fewer on this smooth, monotonic dip), two steps
@@ -157,7 +192,8 @@ def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) ->
     Returns
     -------
     float
-        DIP_STEP_WEIGHT x cases x (steps of the record + the one-cycle ideal-source run) [-].
+        cases x (DIP_STEP_WEIGHT x (steps of the record + the one-cycle ideal-source run) +
+        DIP_RUN_WEIGHT) [-].
 
     Notes
     -----
@@ -171,7 +207,7 @@ def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) ->
     """
     main = dip_solver.cycle_steps(frequency_hz, duration_s, dip_solver.MIN_STEPS_PER_CYCLE)
     first = dip_solver.MIN_STEPS_PER_CYCLE
-    return DIP_STEP_WEIGHT * float(cases) * (main + first)
+    return float(cases) * (DIP_STEP_WEIGHT * (main + first) + DIP_RUN_WEIGHT)
 
 
 def _line_samples(circuit: EquivalentCircuit, duration_s: float, samples_per_cycle: int) -> float:
@@ -179,8 +215,10 @@ def _line_samples(circuit: EquivalentCircuit, duration_s: float, samples_per_cyc
     return circuit.phases * (duration_s * circuit.frequency_hz * samples_per_cycle + 1)
 
 
-def _judging(circuit: EquivalentCircuit, devices: int, duration_s: float, events: float) -> float:
-    return DEVICE_SAMPLE_WEIGHT * events * devices * _line_samples(circuit, duration_s, 128)
+def _judging(circuit: EquivalentCircuit, devices: float, duration_s: float, events: float) -> float:
+    """Winding-steps of judging ``devices`` on each of ``events`` records of ``duration_s``."""
+    per = DEVICE_SAMPLE_WEIGHT * _line_samples(circuit, duration_s, 128) + DEVICE_JUDGEMENT_WEIGHT
+    return events * devices * per
 
 
 def _exact_reading(circuit: EquivalentCircuit, windows: float, samples_per_cycle: int) -> float:
@@ -259,15 +297,16 @@ def envelope_work(circuit: EquivalentCircuit, duration_s: float, samples_per_cyc
 
     Notes
     -----
-    :func:`simulation_steps` (1 case) plus the analysis of each output sample (counted as one
-    winding-step per line-sample).
+    :func:`simulation_steps` (1 case) plus the analysis of each output sample
+    (ENVELOPE_SAMPLE_WEIGHT winding-steps per line-sample) and the exact peak of each line in
+    each whole cycle.
 
     References
     ----------
     Counts :func:`core.inrush.envelope_study` (this project).
     """
     sim = simulation_steps(circuit, 1, duration_s, samples_per_cycle)
-    analysis = _line_samples(circuit, duration_s, samples_per_cycle)
+    analysis = ENVELOPE_SAMPLE_WEIGHT * _line_samples(circuit, duration_s, samples_per_cycle)
     # each line's peak in each whole cycle, read exactly
     cycles = round(duration_s * circuit.frequency_hz * samples_per_cycle) // samples_per_cycle
     exact = _exact_reading(circuit, cycles * circuit.phases, samples_per_cycle)
@@ -313,9 +352,10 @@ def statistics_work(
     Notes
     -----
     Monte Carlo: samples x :func:`simulation_steps` over cycles/f + d, d = SCATTER_SIGMAS x
-    sigma the largest pole spread; devices: events x steps over device_duration_s + d, plus
-    events x devices x lines x samples x DEVICE_SAMPLE_WEIGHT; dip: events x
-    :func:`dip_run_steps`.
+    sigma the largest pole spread; devices: events x steps over device_duration_s + d, each
+    event's record read (EVENT_WEIGHT + EVENT_SAMPLE_WEIGHT x lines x samples) and each device
+    judged on it (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT x lines x samples); dip:
+    events x :func:`dip_run_steps`.
 
     References
     ----------
@@ -327,7 +367,9 @@ def statistics_work(
     parts = [("Monte Carlo peaks", simulation_steps(circuit, samples, cycles / f + spread))]
     if devices > 0:
         span = device_duration_s + spread
+        read = events * (EVENT_WEIGHT + EVENT_SAMPLE_WEIGHT * _line_samples(circuit, span, 128))
         parts.append(("device events simulated", simulation_steps(circuit, events, span)))
+        parts.append(("device events read", read))
         parts.append(("device events judged", _judging(circuit, devices, span, events)))
     if dip_duration_s is not None:
         parts.append(("dip events", events * dip_run_steps(f, dip_duration_s)))
@@ -342,6 +384,7 @@ def clearance_work(
     devices: int,
     windows: bool,
     pole_delay_max_s: float = 0.0,
+    figure: bool = False,
 ) -> Work:
     """Work of :func:`core.clearance.clearance_study` (and of its figure).
 
@@ -359,6 +402,8 @@ def clearance_work(
         Whether each relay's time-dial window is searched.
     pole_delay_max_s : float
         Latest pole closing [s].
+    figure : bool
+        Whether the TCC figure is drawn.
 
     Returns
     -------
@@ -367,8 +412,9 @@ def clearance_work(
     Notes
     -----
     Search: :func:`search_cases` x steps over 2 cycles + the latest pole; the event: steps over
-    duration_s; judging: devices x lines x samples x DEVICE_SAMPLE_WEIGHT, times
-    (1 + WINDOW_TRIALS) with the window search (each trial judges the relay again).
+    duration_s, its record read (RECORD_SAMPLE_WEIGHT x lines x samples); judging: devices x
+    (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT x lines x samples), times
+    (1 + WINDOW_JUDGEMENTS) with the window search; the figure TCC_FIGURE_WEIGHT.
 
     References
     ----------
@@ -378,14 +424,14 @@ def clearance_work(
     if worst_angle:
         parts.append(("worst closing angle", _search(circuit, pole_delay_max_s)))
     parts.append(("inrush record", simulation_steps(circuit, 1, duration_s)))
-    judged = _judging(circuit, devices, duration_s, 1.0) * (1 + (WINDOW_TRIALS if windows else 0))
+    parts.append(("record read", RECORD_SAMPLE_WEIGHT * _line_samples(circuit, duration_s, 128)))
+    judged = _judging(circuit, devices, duration_s, 1.0) * (
+        1 + (WINDOW_JUDGEMENTS if windows else 0)
+    )
     parts.append(("devices judged", judged))
+    if figure:
+        parts.append(("figure", TCC_FIGURE_WEIGHT))
     return _work(parts)
-
-
-# Judgements of one relay in its time-dial window search (core.coordination): an upper bound
-# on the bisections of the two ends, this project's count.
-WINDOW_TRIALS = 40
 
 
 def dip_study_work(
@@ -394,6 +440,7 @@ def dip_study_work(
     *,
     sizing: bool,
     recovery_limit_s: float | None,
+    figure: bool = False,
 ) -> Work:
     """Work of :func:`core.dip_study.dip_study`.
 
@@ -407,6 +454,8 @@ def dip_study_work(
         Whether the smallest generator is searched.
     recovery_limit_s : float or None
         The sizing limit's recovery time (its check simulates it + 1 s) [s].
+    figure : bool
+        Whether the voltage-time figure is drawn.
 
     Returns
     -------
@@ -415,7 +464,8 @@ def dip_study_work(
     Notes
     -----
     :func:`dip_run_steps` for the event; with sizing, SIZING_EVALUATIONS runs of
-    SIZING_DURATION_S and the recovery check of recovery_limit_s + 1 s.
+    SIZING_DURATION_S and the recovery check of recovery_limit_s + 1 s; the figure
+    DIP_FIGURE_WEIGHT.
 
     References
     ----------
@@ -430,6 +480,8 @@ def dip_study_work(
         )  # fmt: skip
         if recovery_limit_s is not None:
             parts.append(("recovery check", dip_run_steps(frequency_hz, recovery_limit_s + 1.0)))
+    if figure:
+        parts.append(("figure", DIP_FIGURE_WEIGHT))
     return _work(parts)
 
 

@@ -34,28 +34,57 @@ class Knob:
     choice: str | None = None
 
 
-def _largest_fitting(estimate: Estimate, knob: Knob, budget: float) -> float | None:
-    """Largest value of the knob in [low, current] whose estimate fits, None if none does."""
+def _largest_fitting(
+    estimate: Estimate, knob: Knob, budget: float, others: Mapping[str, float] | None = None
+) -> float | None:
+    """Largest value of the knob in [low, current] whose estimate fits (with ``others`` set as
+    given), None if none does."""
+    base = dict(others or {})
     lo: float = knob.low
     hi: float = knob.current
-    if estimate({knob.field: lo}).steps > budget:
+    if estimate({**base, knob.field: lo}).steps > budget:
         return None
     if knob.integer:
         a, b = int(knob.low), int(knob.current)
         while b - a > 1:
             k = (a + b) // 2
-            if estimate({knob.field: k}).steps <= budget:
+            if estimate({**base, knob.field: k}).steps <= budget:
                 a = k
             else:
                 b = k
         return float(a)
     for _ in range(50):
         mid = 0.5 * (lo + hi)
-        if estimate({knob.field: mid}).steps <= budget:
+        if estimate({**base, knob.field: mid}).steps <= budget:
             lo = mid
         else:
             hi = mid
     return math.floor(lo * 1e3) / 1e3 if lo >= 1e-3 else lo
+
+
+def _shown(knob: Knob, value: float) -> str:
+    return f"{int(value)}" if knob.integer else f"{value:g}"
+
+
+def _together(estimate: Estimate, knobs: list[Knob], budget: float) -> list[tuple[str, str]]:
+    """When no knob fits alone: the knobs in their order, each at its smallest value until the
+    next one, searched, brings the request within the budget; [] if even all at their smallest
+    do not."""
+    chosen: dict[str, float] = {}
+    numeric = [k for k in knobs if k.choice is None and k.current > k.low]
+    for k in numeric:
+        v = _largest_fitting(estimate, k, budget, chosen)
+        if v is not None:
+            chosen[k.field] = v
+            break
+        chosen[k.field] = k.low
+    else:
+        return []
+    by_field = {k.field: k for k in numeric}
+    return [
+        (f, f"<= {_shown(by_field[f], v)} (now {by_field[f].current:g}) with the others listed")
+        for f, v in chosen.items()
+    ]
 
 
 def enforce(estimate: Estimate, knobs: list[Knob], budget: float) -> Work:
@@ -84,8 +113,9 @@ def enforce(estimate: Estimate, knobs: list[Knob], budget: float) -> Work:
         v = _largest_fitting(estimate, k, budget)
         if v is None:
             continue
-        shown = f"{int(v)}" if k.integer else f"{v:g}"
-        hints.append((k.field, f"<= {shown} (now {k.current:g})"))
+        hints.append((k.field, f"<= {_shown(k, v)} (now {k.current:g})"))
+    if not any(a.startswith("<=") for _, a in hints):  # no field fits alone: several together
+        hints.extend(_together(estimate, knobs, budget))
     parts = ", ".join(f"{name} {steps:.3g}" for name, steps in work.parts)
     raise LimitError(
         "work (integration steps, core/cost.py)",
@@ -93,7 +123,8 @@ def enforce(estimate: Estimate, knobs: list[Knob], budget: float) -> Work:
         budget,
         knobs=tuple(hints),
         detail=f"where the work goes: {parts}. Reduce one of the fields listed (each alone "
-        "would bring the request within the budget) or split the work across requests.",
+        "would bring the request within the budget, or those marked 'with the others listed' "
+        "together) or split the work across requests.",
     )
 
 

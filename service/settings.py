@@ -34,11 +34,12 @@ class Settings(BaseSettings):
         "CPU-time bound",
     )
     max_request_steps: float = Field(
-        50_000_000,
+        40_000_000,
         ge=10_000,
         description="Work budget of one request, in winding-steps (core/cost.py estimates it "
-        "before any simulation; about 0.1 us of CPU each on a 2-core reference machine, so "
-        "about 5 s); over it the request is refused with 422 naming the fields to reduce",
+        "before any simulation, every kind of work weighed in them; about 56 ns of CPU each on "
+        "a 2-core reference machine, so about 2 s); over it the request is refused with 422 "
+        "naming the fields to reduce",
     )
     request_deadline_s: float = Field(
         30.0,

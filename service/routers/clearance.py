@@ -48,7 +48,7 @@ CLEARANCE_METHOD = (
 
 
 def _study(
-    body: ClearanceRequest, settings: Settings
+    body: ClearanceRequest, settings: Settings, figure: bool = False
 ) -> tuple[clearance.ClearanceStudy, list[Assumption]]:
     circuit, res, delay, assumptions = convert.study_inputs(body)
     t = body.transformer
@@ -66,6 +66,7 @@ def _study(
             devices=int(r(o, "devices", len(body.devices))),
             windows=opt.coordination_window and relays > 0,
             pole_delay_max_s=float(np.max(delay)),
+            figure=figure,
         )
 
     knobs = [
@@ -239,7 +240,7 @@ async def clearance_op(
 
 
 def _figure(body: ClearanceRequest, settings: Settings) -> str:
-    study, _ = _study(body, settings)
+    study, _ = _study(body, settings, figure=True)
     inr = study.inrush
     t = body.transformer
     assert t is not None

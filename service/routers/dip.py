@@ -145,7 +145,7 @@ def _response(report: dip_study.DipReport, assumptions: list[Assumption]) -> Gen
     )
 
 
-def _check(body: GeneratorDipRequest, settings: Settings) -> None:
+def _check(body: GeneratorDipRequest, settings: Settings, figure: bool = False) -> None:
     """The work budget (core/cost.py), before anything is simulated."""
     t = body.transformer
     f = t.frequency_hz if t is not None else 60.0
@@ -165,6 +165,7 @@ def _check(body: GeneratorDipRequest, settings: Settings) -> None:
             budget.replaced(o, "options.duration_s", opt.duration_s),
             sizing=sizing,
             recovery_limit_s=rec if recovery is not None else None,
+            figure=figure,
         )
 
     knobs = [budget.Knob("options.duration_s", opt.duration_s, 0.5)]
@@ -234,6 +235,6 @@ async def generator_dip_figure(
     settings: SettingsDep,
 ) -> Response:
     """Terminal voltage (rms per cycle) against time with the limit band and recovery point."""
-    _check(body, settings)
+    _check(body, settings, figure=True)
     svg = await compute.run_heavy(settings, _figure, body)
     return Response(svg, media_type="image/svg+xml")

@@ -13,7 +13,9 @@ import pytest
 from fastapi.testclient import TestClient
 
 from core import statistics
-from service import compute
+from core.cost import Work
+from core.errors import LimitError
+from service import budget, compute
 from service.app import create_app
 from service.settings import get_settings
 
@@ -76,6 +78,24 @@ def test_over_budget_names_the_knobs_and_their_values(monkeypatch: pytest.Monkey
     body["options"]["samples"] = n
     with _app(monkeypatch, max_request_steps="5000000") as c:
         assert c.post("/v1/inrush/statistics", json=body).status_code == 200
+
+
+def test_when_no_field_fits_alone_the_fields_to_turn_together_are_named() -> None:
+    # work = 10 x a + 10 x b winding-steps, budget 100: at a = 10, b = 10 (200) neither knob
+    # alone fits (a -> 1 leaves 110); a at its smallest (1) with b <= 9 does (10 + 90 = 100)
+    def estimate(o: Any) -> Work:
+        a, b = o.get("a", 10), o.get("b", 10)
+        return Work(10.0 * a + 10.0 * b, (("a", 10.0 * a), ("b", 10.0 * b)))
+
+    knobs = [budget.Knob("a", 10, 1, integer=True), budget.Knob("b", 10, 1, integer=True)]
+    with pytest.raises(LimitError) as err:
+        budget.enforce(estimate, knobs, 100.0)
+    hints = dict(err.value.knobs)
+    assert hints == {"a": "<= 1 (now 10) with the others listed",
+                     "b": "<= 9 (now 10) with the others listed"}  # fmt: skip
+    assert estimate({"a": 1, "b": 9}).steps <= 100.0
+    # a request within the budget passes with its estimate
+    assert budget.enforce(estimate, knobs, 200.0).steps == 200.0
 
 
 def test_batch_over_budget_names_the_case_count(monkeypatch: pytest.MonkeyPatch) -> None:

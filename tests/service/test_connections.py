@@ -68,6 +68,8 @@ def _read_all(sock: socket.socket, limit_s: float) -> tuple[bytes, float]:
             part = sock.recv(65536)
         except TimeoutError:
             continue
+        except ConnectionResetError:  # cut off with a reset: closed all the same
+            break
         if not part:
             break
         data += part
@@ -93,21 +95,30 @@ def test_trickling_body_gets_408(server: tuple[str, int]) -> None:
         s.sendall(_head("/v1/inrush/peak", "Content-Length: 1000\r\n"))
         t0 = time.monotonic()
         data = b""
+        reset = False
         for _ in range(int((DEADLINE_S + SLACK_S) / 0.2)):  # one byte every 0.2 s
             try:
                 s.sendall(b" ")
-            except OSError:  # closed by the server
+            except OSError:  # closed by the server (a reset or a broken pipe)
+                reset = True
                 break
             s.settimeout(0.2)
             try:
                 data += s.recv(65536)
             except TimeoutError:
                 continue
+            except ConnectionResetError:
+                reset = True
+                break
             if data:
                 break
         more, _ = _read_all(s, SLACK_S)
         data += more
-    assert data.startswith(b"HTTP/1.1 408"), data[:200]
+    # The server answers 408 and closes. A byte the client sends after that close is answered
+    # with a TCP reset, and Linux then drops the 408 still unread in the client's buffer (RFC
+    # 9293 section 3.10.7.4, a reset flushes the queues): the connection cut within the
+    # deadline is what is checked then.
+    assert data.startswith(b"HTTP/1.1 408") or (reset and not data), data[:200]
     assert time.monotonic() - t0 < DEADLINE_S + 2 * SLACK_S
 
 
