@@ -252,6 +252,43 @@ DIP_REQUESTS: dict[str, dict[str, Any]] = {
         "options": {"limits": "iso_8528_5", "size_for": "G2", "duration_s": 10.0},
     },
 }
+
+
+def _sheet_points(points: list[dict[str, float]]) -> str:
+    return ",".join(f"{p['current_a']:g}:{p['time_s']:g}" for p in points)
+
+
+# The same demo cases as spreadsheet cells: the fused switch's fuse and the feeder relay against
+# the main unit's inrush, and the standby generator's dip (the JSON examples above, by GET).
+SHEET_REQUESTS["northgate_main_fuse"] = (
+    "sheet_clearance_ride_through",
+    "/v1/sheet/clearance/ride-through.txt?quantity=margin_ratio&device=fuse&melt_points="
+    + _sheet_points(MAIN_FUSE["minimum_melt"])
+    + "&clearing_points="
+    + _sheet_points(MAIN_FUSE["total_clearing"])
+    + "&"
+    + _SHEET_CASE,
+)
+SHEET_REQUESTS["northgate_feeder_relay"] = (
+    "sheet_clearance_ride_through",
+    "/v1/sheet/clearance/ride-through.txt?quantity=verdict&device=relay"
+    "&relay_standard=ieee_c37_112&relay_curve=very_inverse&pickup_a=150&time_dial=2"
+    "&instantaneous_pickup_a=2000&" + _SHEET_CASE,
+)
+_SHEET_BACKFEED = (
+    "rating_kva=2500&voltage_kv=0.48&connection=wye_grounded&position=inner"
+    "&impedance_percent=5.75&x_over_r=7&no_load_current_percent=0.8&residual_flux_pu=0.8,-0.4,-0.4"
+    "&generator_kva=1250&x_d2_pu=0.15&x_d1_pu=0.25&x_d_pu=2&t_d2_s=0.03&t_d1_s=0.8"
+)
+SHEET_REQUESTS["northgate_backfeed_dip"] = (
+    "sheet_generator_dip",
+    "/v1/sheet/generator-dip/dip.txt?quantity=dip_percent&limit=G2&" + _SHEET_BACKFEED,
+)
+SHEET_REQUESTS["northgate_backfeed_generator_size"] = (
+    "sheet_generator_dip",
+    "/v1/sheet/generator-dip/dip.txt?quantity=smallest_generator_kva&limit=G2&" + _SHEET_BACKFEED,
+)
+
 DIP_EXAMPLES = {
     "northgate_backfeed": {
         "summary": "Demo: the 1250 kVA standby generator back-feeds the 2500 kVA unit at 480 V",

@@ -44,10 +44,15 @@ def _schema_rules(schema: dict[str, Any], model: type[Any]) -> None:
 
     The rules sit under ``allOf`` so that the object keeps its properties and ``required`` list
     where client generators (and the compatibility gate) look for them.
+    A rule that constrains properties at its own top level (``given("transformer")``) is
+    published as the one member of an ``anyOf``: the same constraint, but a client generator that
+    merges the properties of ``allOf`` members into the model (openapi-python-client 0.29 does)
+    would otherwise try to merge the rule's bare ``{"type": "object"}`` with the field's own
+    schema, fail, and leave the whole request model (and its operation) out of the client.
     """
     rules = [r for cls in reversed(model.__mro__) for r in cls.__dict__.get("SCHEMA_RULES", ())]
     if rules:
-        schema["allOf"] = rules
+        schema["allOf"] = [{"anyOf": [r]} if "properties" in r else r for r in rules]
 
 
 def given(name: str, json_type: str = "object") -> dict[str, Any]:

@@ -39,7 +39,13 @@ schema = schemathesis.openapi.from_asgi("/v1/openapi.json", app)
 # Operations whose requests simulate seconds of machine dynamics or many events run each case for
 # up to seconds: 10 examples each keeps the suite within its CI budget (the live-server run in
 # test_live_server.py fuzzes them again).
-HEAVY = ["mitigation", "inrush_statistics", "generator_dip", "generator_dip_figure"]
+HEAVY = [
+    "mitigation",
+    "inrush_statistics",
+    "generator_dip",
+    "generator_dip_figure",
+    "sheet_generator_dip",
+]
 SETTINGS = {
     "deadline": None,
     "derandomize": True,
