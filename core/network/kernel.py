@@ -33,34 +33,42 @@ GROUNDED_WYE, FLOATING_WYE, DELTA = 0, 1, 2
 MAX_ITERATIONS = 60
 
 
-@numba.njit(cache=True, inline="always")
-def _curve(
-    lam: float,
-    kd: int,
-    par: FloatArray,
-    flux: FloatArray,
-    cur: FloatArray,
-    u: int,
-    top: int,
+# The hot path (the stages' algebra, derivatives and outputs) is written out in one function
+# with scalar helpers only: a call that passes arrays to a function numba does not inline costs
+# atomic reference-count updates per array, which measured several microseconds per stage when
+# the algebra was split into array-taking helpers.
+
+
+@numba.njit(cache=True)
+def _curve_s(
+    lam: float, kd: int, p0: float, p1: float, p2: float, p3: float, p4: float
 ) -> tuple[float, float]:  # pragma: no cover - compiled
-    # Current f(lambda) and slope di/d(lambda) of unit u's curve: kind 0 two-slope
-    # (par = 1/L_m, lambda_S, 1/L_air, i_S), 1 smooth knee (1/L_m, 1/L_air - 1/L_m, lambda_S,
-    # width, g0), 2 table (flux[u], cur[u] up to index top; par[0] the final slope).
+    # Current f(lambda) and slope di/d(lambda): kind 0 two-slope (p = 1/L_m, lambda_S, 1/L_air,
+    # i_S), kind 1 smooth knee (1/L_m, 1/L_air - 1/L_m, lambda_S, width, g0)
     x = abs(lam)
     if kd == 0:
-        if x > par[u, 1]:
-            d = par[u, 2]
-            i = par[u, 3] + (x - par[u, 1]) * d
+        if x > p1:
+            d = p2
+            i = p3 + (x - p1) * d
         else:
-            d = par[u, 0]
+            d = p0
             i = x * d
-    elif kd == 1:
-        s = x - par[u, 2]
-        q = math.sqrt(s * s + par[u, 3] * par[u, 3])
-        i = par[u, 0] * x + par[u, 1] * (0.5 * (s + q) - par[u, 4])
-        d = par[u, 0] + par[u, 1] * 0.5 * (1.0 + s / q)
-    elif x >= flux[u, top]:
-        d = par[u, 0]
+    else:
+        s = x - p2
+        q = math.sqrt(s * s + p3 * p3)
+        i = p0 * x + p1 * (0.5 * (s + q) - p4)
+        d = p0 + p1 * 0.5 * (1.0 + s / q)
+    return (i if lam >= 0.0 else -i), d
+
+
+@numba.njit(cache=True)
+def _curve_table(
+    lam: float, flux: FloatArray, cur: FloatArray, u: int, top: int, final: float
+) -> tuple[float, float]:  # pragma: no cover - compiled
+    # kind 2, a table: breakpoints flux[u, :top + 1], cur[u, :top + 1], final slope beyond
+    x = abs(lam)
+    if x >= flux[u, top]:
+        d = final
         i = cur[u, top] + (x - flux[u, top]) * d
     else:
         lo = 0
@@ -74,6 +82,39 @@ def _curve(
         d = (cur[u, hi] - cur[u, lo]) / (flux[u, hi] - flux[u, lo])
         i = cur[u, lo] + (x - flux[u, lo]) * d
     return (i if lam >= 0.0 else -i), d
+
+
+@numba.njit(cache=True)
+def _solve3(
+    m00: float,
+    m01: float,
+    m02: float,
+    m11: float,
+    m12: float,
+    m22: float,
+    b0: float,
+    b1: float,
+    b2: float,
+) -> tuple[float, float, float]:  # pragma: no cover - compiled
+    # x = m^-1 b for a symmetric 3x3 m, by Cramer's rule
+    c00 = m11 * m22 - m12 * m12
+    c01 = m12 * m02 - m01 * m22
+    c02 = m01 * m12 - m11 * m02
+    det = m00 * c00 + m01 * c01 + m02 * c02
+    x0 = (b0 * c00 + b1 * c01 + b2 * c02) / det
+    x1 = (b0 * c01 + b1 * (m00 * m22 - m02 * m02) + b2 * (m02 * m01 - m00 * m12)) / det
+    x2 = (b0 * c02 + b1 * (m02 * m01 - m00 * m12) + b2 * (m00 * m11 - m01 * m01)) / det
+    return x0, x1, x2
+
+
+@numba.njit(cache=True)
+def _source_scale(x: float, j: int, g0: float, slope: float, kh: int, ke: int) -> float:
+    # EMF amplitude factor at step position x (in steps) of step j: the piece is the step's
+    if j >= ke:
+        return 1.0
+    if j < kh:
+        return g0
+    return g0 + slope * (x - kh)
 
 
 @numba.njit(cache=True)
@@ -109,348 +150,76 @@ def _status(
 
 
 @numba.njit(cache=True)
-def _eval_unit(
-    u: int,
-    conn: int,
-    mode: int,
-    phi: FloatArray,
-    psi: FloatArray,
-    lam: FloatArray,
-    cw: FloatArray,
-    dw: FloatArray,
-    sig: FloatArray,
-    q: FloatArray,
-    avec: FloatArray,
-    on: NDArray[np.bool_],
-    closed: NDArray[np.bool_],
-    kind: IntArray,
-    par: FloatArray,
-    flux: FloatArray,
-    cur: FloatArray,
-    npts: IntArray,
-    tol: float,
-) -> bool:  # pragma: no cover - compiled
-    # Winding fluxes, currents and slopes of unit u for the source fluxes phi; False when the
-    # floating node's solve did not converge. Unenergised windings keep lambda, carry nothing.
-    kd = kind[u]
-    top = npts[u] - 1
-    p0 = phi[0] if closed[u, 0] else 0.0
-    p1 = phi[1] if closed[u, 1] else 0.0
-    p2 = phi[2] if closed[u, 2] else 0.0
-    if conn == DELTA:
-        x0 = psi[u, 0] - (p0 - p1)
-        x1 = psi[u, 1] - (p1 - p2)
-        x2 = psi[u, 2] - (p2 - p0)
-    else:
-        x0 = psi[u, 0] - p0
-        x1 = psi[u, 1] - p1
-        x2 = psi[u, 2] - p2
-    if mode == 0:
-        for k in range(3):
-            cw[u, k] = 0.0
-            dw[u, k] = 0.0
-        return True
-    if mode == 1:
-        for k in range(3):
-            if on[u, k]:
-                xk = x0 if k == 0 else (x1 if k == 1 else x2)
-                lam[u, k] = xk
-                cw[u, k], dw[u, k] = _curve(xk, kd, par, flux, cur, u, top)
-            else:
-                cw[u, k] = 0.0
-                dw[u, k] = 0.0
-        return True
-    # one floating node: g(s) = sum_k a_k*f(x_k + a_k*s) - q = 0, increasing in s
-    a0 = avec[u, 0]
-    a1 = avec[u, 1]
-    a2 = avec[u, 2]
-    s = sig[u]
-    lo = -math.inf
-    hi = math.inf
-    ok = False
-    for _ in range(MAX_ITERATIONS):
-        g = -q[u]
-        dg = 0.0
-        if a0 != 0.0:
-            i0, d0 = _curve(x0 + a0 * s, kd, par, flux, cur, u, top)
-            g += a0 * i0
-            dg += d0
-        if a1 != 0.0:
-            i1, d1 = _curve(x1 + a1 * s, kd, par, flux, cur, u, top)
-            g += a1 * i1
-            dg += d1
-        if a2 != 0.0:
-            i2, d2 = _curve(x2 + a2 * s, kd, par, flux, cur, u, top)
-            g += a2 * i2
-            dg += d2
-        if g == 0.0:
-            ok = True
-            break
-        if g < 0.0:
-            lo = s
-        else:
-            hi = s
-        step = g / dg
-        new = s - step
-        if not (lo < new < hi):
-            new = 0.5 * (lo + hi) if math.isfinite(lo) and math.isfinite(hi) else s - 2.0 * step
-        if abs(new - s) <= tol:
-            s = new
-            ok = True
-            break
-        s = new
-    sig[u] = s
-    xs = (x0, x1, x2)
-    for k in range(3):
-        if on[u, k]:
-            lk = xs[k] + avec[u, k] * s
-            lam[u, k] = lk
-            cw[u, k], dw[u, k] = _curve(lk, kd, par, flux, cur, u, top)
-        else:
-            cw[u, k] = 0.0
-            dw[u, k] = 0.0
-    return ok
-
-
-@numba.njit(cache=True)
-def _reduced_slopes(
-    u: int, mode: int, dw: FloatArray, avec: FloatArray, dt: FloatArray
-) -> None:  # pragma: no cover - compiled
-    # D~ = D - (D a)(D a)^T/(a^T D a) with a floating node, D = diag(f') otherwise (3x3 into dt)
-    for i in range(3):
-        for j in range(3):
-            dt[i, j] = 0.0
-        dt[i, i] = dw[u, i]
-    if mode == 2:
-        den = 0.0
-        for k in range(3):
-            den += avec[u, k] * avec[u, k] * dw[u, k]
-        if den > 0.0:
-            for i in range(3):
-                for j in range(3):
-                    dt[i, j] -= avec[u, i] * dw[u, i] * avec[u, j] * dw[u, j] / den
-
-
-@numba.njit(cache=True)
-def _line_matrix(conn: int, dt: FloatArray, out: FloatArray) -> None:  # pragma: no cover
-    # out = C dt C^T, C = I for a wye, A for a delta (line a = c_ab - c_ca, ...)
-    if conn != DELTA:
-        for i in range(3):
-            for j in range(3):
-                out[i, j] = dt[i, j]
-        return
-    # rows: (A dt)_i,j = dt[i, j] - dt[i - 1, j]
-    for i in range(3):
-        for j in range(3):
-            out[i, j] = (
-                dt[i, j] - dt[i, (j + 2) % 3] - dt[(i + 2) % 3, j] + dt[(i + 2) % 3, (j + 2) % 3]
-            )
-
-
-@numba.njit(cache=True)
-def _solve3(m: FloatArray, b: FloatArray, x: FloatArray) -> None:  # pragma: no cover - compiled
-    # x = m^{-1} b by Cramer's rule (m symmetric positive definite here)
-    c00 = m[1, 1] * m[2, 2] - m[1, 2] * m[2, 1]
-    c01 = m[1, 2] * m[2, 0] - m[1, 0] * m[2, 2]
-    c02 = m[1, 0] * m[2, 1] - m[1, 1] * m[2, 0]
-    det = m[0, 0] * c00 + m[0, 1] * c01 + m[0, 2] * c02
-    x[0] = (
-        b[0] * c00
-        + m[0, 1] * (m[1, 2] * b[2] - b[1] * m[2, 2])
-        + m[0, 2] * (b[1] * m[2, 1] - m[1, 1] * b[2])
-    ) / det
-    x[1] = (
-        m[0, 0] * (b[1] * m[2, 2] - m[1, 2] * b[2])
-        + b[0] * c01
-        + m[0, 2] * (m[1, 0] * b[2] - b[1] * m[2, 0])
-    ) / det
-    x[2] = (
-        m[0, 0] * (m[1, 1] * b[2] - b[1] * m[2, 1])
-        + m[0, 1] * (b[1] * m[2, 0] - m[1, 0] * b[2])
-        + b[0] * c02
-    ) / det
-
-
-@numba.njit(cache=True)
-def _lines(
-    u: int, conn: int, cw: FloatArray, closed: NDArray[np.bool_], line: FloatArray
-) -> None:  # pragma: no cover - compiled
-    # line currents of unit u into its terminals (0 on an open pole)
-    if conn == DELTA:
-        la = cw[u, 0] - cw[u, 2]
-        lb = cw[u, 1] - cw[u, 0]
-        lc = cw[u, 2] - cw[u, 1]
-    else:
-        la = cw[u, 0]
-        lb = cw[u, 1]
-        lc = cw[u, 2]
-    line[u, 0] = la if closed[u, 0] else 0.0
-    line[u, 1] = lb if closed[u, 1] else 0.0
-    line[u, 2] = lc if closed[u, 2] else 0.0
-
-
-@numba.njit(cache=True)
-def _algebra(
-    n_units: int,
+def _switch(
     conn: IntArray,
+    closed: NDArray[np.bool_],
+    on: NDArray[np.bool_],
+    avec: FloatArray,
     mode: IntArray,
-    phi: FloatArray,
-    psi: FloatArray,
-    psi_l: FloatArray,
     lam: FloatArray,
     cw: FloatArray,
-    dw: FloatArray,
+    line: FloatArray,
     sig: FloatArray,
     q: FloatArray,
-    avec: FloatArray,
-    on: NDArray[np.bool_],
-    closed: NDArray[np.bool_],
-    kind: IntArray,
-    par: FloatArray,
-    flux: FloatArray,
-    cur: FloatArray,
-    npts: IntArray,
-    tol_u: FloatArray,
-    tol_phi: float,
+    psi: FloatArray,
+    phi: FloatArray,
+    psi_l: FloatArray,
+    i_l: FloatArray,
     l_s: float,
     l_l: float,
-    has_load: bool,
-    line: FloatArray,
-    i_l: FloatArray,
-    i_s: FloatArray,
-    jac: FloatArray,
-    work: FloatArray,
-) -> int:  # pragma: no cover - compiled
-    # Solve the stage's algebra: Phi from KCL at the bus, every unit's fluxes and currents, the
-    # line, load and source currents; jac holds J = I/L_s + sum G_u + I/L_L at the solution.
-    # Returns the number of solves that did not converge.
-    failed = 0
-    dt = work[0]
-    gm = work[1]
-    res = work[2, 0]
-    dphi = work[2, 1]
-    trial = work[2, 2]
-    if l_s <= 0.0:
-        tot = work[3, 0]
-        for k in range(3):
-            phi[k] = 0.0
-            tot[k] = 0.0
-        for u in range(n_units):
-            if not _eval_unit(
-                u, conn[u], mode[u], phi, psi, lam, cw, dw, sig, q, avec, on, closed,
-                kind, par, flux, cur, npts, tol_u[u],
-            ):  # fmt: skip
-                failed += 1
-            _lines(u, conn[u], cw, closed, line)
-            for k in range(3):
-                tot[k] += line[u, k]
-        for k in range(3):
-            i_l[k] = psi_l[k] / l_l if has_load else 0.0
-            i_s[k] = tot[k] + i_l[k]
-        return failed
-    norm0 = math.inf
-    t = 1.0
-    for k in range(3):
-        trial[k] = phi[k]
-    converged = False
-    for _ in range(4 * MAX_ITERATIONS):
-        # evaluate the residual and the Jacobian at the trial point
-        for i in range(3):
-            for j in range(3):
-                jac[i, j] = 0.0
-            jac[i, i] = 1.0 / l_s + (1.0 / l_l if has_load else 0.0)
-            res[i] = trial[i] / l_s
-        bad = 0
-        for u in range(n_units):
-            if not _eval_unit(
-                u, conn[u], mode[u], trial, psi, lam, cw, dw, sig, q, avec, on, closed,
-                kind, par, flux, cur, npts, tol_u[u],
-            ):  # fmt: skip
-                bad += 1
-            _lines(u, conn[u], cw, closed, line)
-            if mode[u] == 0:
-                continue
-            _reduced_slopes(u, mode[u], dw, avec, dt)
-            _line_matrix(conn[u], dt, gm)
-            for i in range(3):
-                res[i] -= line[u, i]
-                if closed[u, i]:
-                    for j in range(3):
-                        if closed[u, j]:
-                            jac[i, j] += gm[i, j]
-        for k in range(3):
-            i_l[k] = (psi_l[k] - trial[k]) / l_l if has_load else 0.0
-            res[k] -= i_l[k]
-        norm = abs(res[0]) + abs(res[1]) + abs(res[2])
-        if norm > norm0 and t > 1e-6:
-            # the full step increased the residual: halve it from the last accepted point
-            t *= 0.5
-            for k in range(3):
-                trial[k] = phi[k] - t * dphi[k]
-            continue
-        for k in range(3):
-            phi[k] = trial[k]
-        norm0 = norm
-        failed_here = bad
-        _solve3(jac, res, dphi)
-        step = max(abs(dphi[0]), abs(dphi[1]), abs(dphi[2]))
-        if step <= tol_phi or norm == 0.0:
-            converged = True
-            failed += failed_here
-            break
-        t = 1.0
-        for k in range(3):
-            trial[k] = phi[k] - dphi[k]
-    if not converged:
-        failed += 1
-    for k in range(3):
-        i_s[k] = phi[k] / l_s
-    return failed
-
-
-@numba.njit(cache=True)
-def _derivatives(
-    n_units: int,
-    conn: IntArray,
-    mode: IntArray,
-    on: NDArray[np.bool_],
-    closed: NDArray[np.bool_],
-    r_w: FloatArray,
-    r_ins_now: FloatArray,
-    e: FloatArray,
-    r_s: float,
-    r_l: float,
-    cw: FloatArray,
-    line: FloatArray,
-    i_s: FloatArray,
-    i_l: FloatArray,
-    kpsi: FloatArray,
-    kl: FloatArray,
-    drive: FloatArray,
+    kind: IntArray,
+    par: FloatArray,
+    flux: FloatArray,
+    cur: FloatArray,
+    npts: IntArray,
 ) -> None:  # pragma: no cover - compiled
-    # psi' of every winding and psi_L' of the load (Kirchhoff's voltage law around each loop)
-    for k in range(3):
-        kl[k] = e[k] - r_s * i_s[k] - r_l * i_l[k]
+    # After poles switch (or at t = 0): the windings' status, the floating nodes' held current
+    # q, and the states rebuilt from the fluxes lambda and load currents i_L (continuous), the
+    # source flux taking KCL's new sum of the line currents.
+    n_units = conn.shape[0]
+    t0 = t1 = t2 = 0.0
     for u in range(n_units):
+        mode[u] = _status(conn[u], closed[u], on[u], avec[u])
+        sig[u] = 0.0
         for k in range(3):
-            drive[k] = e[k] - r_s * i_s[k] - r_ins_now[u] * line[u, k] if closed[u, k] else 0.0
-        for k in range(3):
-            if mode[u] == 0 or not on[u, k]:
-                kpsi[u, k] = 0.0
-            elif conn[u] == DELTA:
-                kpsi[u, k] = drive[k] - drive[(k + 1) % 3] - r_w[u] * cw[u, k]
+            if on[u, k]:
+                if kind[u] == 2:
+                    cw[u, k] = _curve_table(lam[u, k], flux, cur, u, npts[u] - 1, par[u, 0])[0]
+                else:
+                    cw[u, k] = _curve_s(
+                        lam[u, k], kind[u], par[u, 0], par[u, 1], par[u, 2], par[u, 3], par[u, 4]
+                    )[0]
             else:
-                kpsi[u, k] = drive[k] - r_w[u] * cw[u, k]
-
-
-@numba.njit(cache=True)
-def _source_scale(x: float, j: int, g0: float, slope: float, kh: int, ke: int) -> float:
-    # EMF amplitude factor at step position x (in steps) of step j: the piece is the step's
-    if j >= ke:
-        return 1.0
-    if j < kh:
-        return g0
-    return g0 + slope * (x - kh)
+                cw[u, k] = 0.0
+        qq = 0.0
+        for k in range(3):
+            lk = cw[u, k] - cw[u, (k + 2) % 3] if conn[u] == DELTA else cw[u, k]
+            line[u, k] = lk if closed[u, k] else 0.0
+            qq += avec[u, k] * cw[u, k]
+        q[u] = qq
+        t0 += line[u, 0]
+        t1 += line[u, 1]
+        t2 += line[u, 2]
+    if l_s > 0.0:
+        phi[0] = l_s * (t0 + i_l[0])
+        phi[1] = l_s * (t1 + i_l[1])
+        phi[2] = l_s * (t2 + i_l[2])
+    else:
+        phi[0] = phi[1] = phi[2] = 0.0
+    for k in range(3):
+        psi_l[k] = phi[k] + l_l * i_l[k]
+    for u in range(n_units):
+        p0 = phi[0] if closed[u, 0] else 0.0
+        p1 = phi[1] if closed[u, 1] else 0.0
+        p2 = phi[2] if closed[u, 2] else 0.0
+        if conn[u] == DELTA:
+            psi[u, 0] = lam[u, 0] + p0 - p1
+            psi[u, 1] = lam[u, 1] + p1 - p2
+            psi[u, 2] = lam[u, 2] + p2 - p0
+        else:
+            psi[u, 0] = lam[u, 0] + p0
+            psi[u, 1] = lam[u, 1] + p1
+            psi[u, 2] = lam[u, 2] + p2
 
 
 @numba.njit(cache=True, nogil=True)
@@ -500,6 +269,7 @@ def integrate(
     n_units = conn.shape[0]
     g0, slope = ramp[0], ramp[1]
     kh, ke = ramp_steps[0], ramp_steps[1]
+    inv_ll = 1.0 / l_l if has_load else 0.0
     failed = 0
     for c in range(n_cases):
         psi = np.zeros((n_units, 3))
@@ -518,6 +288,7 @@ def integrate(
         line = np.zeros((n_units, 3))
         r_now = np.zeros(n_units)
         phi = np.zeros(3)
+        trial = np.zeros(3)
         psi_l = np.zeros(3)
         base_l = np.zeros(3)
         acc_l = np.zeros(3)
@@ -525,131 +296,301 @@ def integrate(
         i_l = il0[c].copy()
         i_s = np.zeros(3)
         e = np.zeros(3)
-        jac = np.zeros((3, 3))
-        work = np.zeros((4, 3, 3))
-        rhs = np.zeros(3)
-        dphi = np.zeros(3)
-        dt = np.zeros((3, 3))
-        gm = np.zeros((3, 3))
-        first = True
-        for j in range(n_steps + 1):
-            # switching at the step boundary: poles closing now, then re-initialise the states
-            # from the fluxes and load currents (continuous) and KCL for the source current
-            changed = first
-            for u in range(n_units):
-                for k in range(3):
-                    if not closed[u, k] and close_step[c, u, k] == j:
-                        closed[u, k] = True
-                        changed = True
-                r_now[u] = r_ins[u] if j < bypass_step[u] else 0.0
-            if changed:
-                if not first:
-                    # fluxes and load currents at t_j with the poles as they were
-                    failed += _algebra(
-                        n_units, conn, mode, phi, psi, psi_l, lam, cw, dw, sig, q, avec, on,
-                        closed, kind, par, flux, cur, npts, tol_u, tol_phi, l_s, l_l, has_load,
-                        line, i_l, i_s, jac, work,
-                    )  # fmt: skip
-                first = False
-                tot = work[3, 2]
-                for k in range(3):
-                    tot[k] = 0.0
-                for u in range(n_units):
-                    mode[u] = _status(conn[u], closed[u], on[u], avec[u])
-                    sig[u] = 0.0
-                    for k in range(3):
-                        if on[u, k]:
-                            cw[u, k], dw[u, k] = _curve(
-                                lam[u, k], kind[u], par, flux, cur, u, npts[u] - 1
-                            )
-                        else:
-                            cw[u, k] = 0.0
-                    _lines(u, conn[u], cw, closed, line)
-                    qq = 0.0
-                    for k in range(3):
-                        tot[k] += line[u, k]
-                        qq += avec[u, k] * cw[u, k]
-                    q[u] = qq
-                for k in range(3):
-                    phi[k] = l_s * (tot[k] + i_l[k]) if l_s > 0.0 else 0.0
-                    psi_l[k] = phi[k] + l_l * i_l[k]
-                for u in range(n_units):
-                    p0 = phi[0] if closed[u, 0] else 0.0
-                    p1 = phi[1] if closed[u, 1] else 0.0
-                    p2 = phi[2] if closed[u, 2] else 0.0
-                    for k in range(3):
-                        if conn[u] == DELTA:
-                            pk = (p0, p1, p2)[k] - (p0, p1, p2)[(k + 1) % 3]
-                        else:
-                            pk = (p0, p1, p2)[k]
-                        psi[u, k] = lam[u, k] + pk
-            # four stages
+        xs = np.zeros(3)
+        drv = np.zeros(3)
+        for u in range(n_units):
             for k in range(3):
-                acc_l[k] = 0.0
-                base_l[k] = psi_l[k]
+                closed[u, k] = close_step[c, u, k] <= 0
+        _switch(
+            conn, closed, on, avec, mode, lam, cw, line, sig, q, psi, phi, psi_l, i_l, l_s,
+            l_l, kind, par, flux, cur, npts,
+        )  # fmt: skip
+        j00 = j01 = j02 = j11 = j12 = j22 = 0.0
+        for j in range(n_steps + 1):
+            pending = False
             for u in range(n_units):
+                r_now[u] = r_ins[u] if j < bypass_step[u] else 0.0
+                if j > 0:
+                    for k in range(3):
+                        if close_step[c, u, k] == j:
+                            pending = True
+            st = 0
+            while st < 4:
+                x_st = j + (0.0 if st == 0 else (1.0 if st == 3 else 0.5))
+                # ---- algebra: Phi from KCL at the bus (Newton), every unit's currents ----
+                if l_s > 0.0:
+                    trial[0], trial[1], trial[2] = phi[0], phi[1], phi[2]
+                else:
+                    trial[0] = trial[1] = trial[2] = 0.0
+                norm0 = math.inf
+                tstep = 1.0
+                d0 = d1 = d2 = 0.0
+                converged = False
+                for _ in range(4 * MAX_ITERATIONS):
+                    r0 = r1 = r2 = 0.0  # sum of the line currents into the units
+                    g00 = g01 = g02 = g11 = g12 = g22 = 0.0
+                    bad = 0
+                    for u in range(n_units):
+                        md = mode[u]
+                        if md == 0:
+                            for k in range(3):
+                                cw[u, k] = 0.0
+                                dw[u, k] = 0.0
+                                line[u, k] = 0.0
+                            continue
+                        cu = conn[u]
+                        kd = kind[u]
+                        top = npts[u] - 1
+                        c0, c1, c2 = closed[u, 0], closed[u, 1], closed[u, 2]
+                        q0 = trial[0] if c0 else 0.0
+                        q1 = trial[1] if c1 else 0.0
+                        q2 = trial[2] if c2 else 0.0
+                        if cu == DELTA:
+                            xs[0] = psi[u, 0] - (q0 - q1)
+                            xs[1] = psi[u, 1] - (q1 - q2)
+                            xs[2] = psi[u, 2] - (q2 - q0)
+                        else:
+                            xs[0] = psi[u, 0] - q0
+                            xs[1] = psi[u, 1] - q1
+                            xs[2] = psi[u, 2] - q2
+                        s = 0.0
+                        if md == 2:
+                            # floating node: sum_k a_k*f(x_k + a_k*s) = q, increasing in s
+                            s = sig[u]
+                            lo = -math.inf
+                            hi = math.inf
+                            ok = False
+                            for _i in range(MAX_ITERATIONS):
+                                gs = -q[u]
+                                dg = 0.0
+                                for k in range(3):
+                                    ak = avec[u, k]
+                                    if ak != 0.0:
+                                        if kd == 2:
+                                            ik, dk = _curve_table(
+                                                xs[k] + ak * s, flux, cur, u, top, par[u, 0]
+                                            )
+                                        else:
+                                            ik, dk = _curve_s(
+                                                xs[k] + ak * s, kd, par[u, 0], par[u, 1],
+                                                par[u, 2], par[u, 3], par[u, 4],
+                                            )  # fmt: skip
+                                        gs += ak * ik
+                                        dg += dk
+                                if gs == 0.0:
+                                    ok = True
+                                    break
+                                if gs < 0.0:
+                                    lo = s
+                                else:
+                                    hi = s
+                                new = s - gs / dg
+                                if not (lo < new < hi):
+                                    if math.isfinite(lo) and math.isfinite(hi):
+                                        new = 0.5 * (lo + hi)
+                                    else:
+                                        new = s - 2.0 * gs / dg
+                                if abs(new - s) <= tol_u[u]:
+                                    s = new
+                                    ok = True
+                                    break
+                                s = new
+                            if not ok:
+                                bad += 1
+                            sig[u] = s
+                        for k in range(3):
+                            if on[u, k]:
+                                lk = xs[k] + avec[u, k] * s
+                                lam[u, k] = lk
+                                if kd == 2:
+                                    ik, dk = _curve_table(lk, flux, cur, u, top, par[u, 0])
+                                else:
+                                    ik, dk = _curve_s(
+                                        lk, kd, par[u, 0], par[u, 1], par[u, 2], par[u, 3],
+                                        par[u, 4],
+                                    )  # fmt: skip
+                                cw[u, k] = ik
+                                dw[u, k] = dk
+                            else:
+                                cw[u, k] = 0.0
+                                dw[u, k] = 0.0
+                        w0, w1, w2 = cw[u, 0], cw[u, 1], cw[u, 2]
+                        if cu == DELTA:
+                            la, lb, lc = w0 - w2, w1 - w0, w2 - w1
+                        else:
+                            la, lb, lc = w0, w1, w2
+                        line[u, 0] = la if c0 else 0.0
+                        line[u, 1] = lb if c1 else 0.0
+                        line[u, 2] = lc if c2 else 0.0
+                        r0 += line[u, 0]
+                        r1 += line[u, 1]
+                        r2 += line[u, 2]
+                        if l_s <= 0.0:
+                            continue
+                        # G_u = S C D~ C^T S, D~ = D - (D a)(D a)^T/(a^T D a)
+                        e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
+                        t00, t11, t22 = e0, e1, e2
+                        t01 = t02 = t12 = 0.0
+                        if md == 2:
+                            a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
+                            den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
+                            if den > 0.0:
+                                b0, b1, b2 = a0 * e0, a1 * e1, a2 * e2
+                                t00 -= b0 * b0 / den
+                                t11 -= b1 * b1 / den
+                                t22 -= b2 * b2 / den
+                                t01 = -b0 * b1 / den
+                                t02 = -b0 * b2 / den
+                                t12 = -b1 * b2 / den
+                        if cu == DELTA:
+                            # (A T A^T)_ij = T_ij - T_i,j-1 - T_i-1,j + T_i-1,j-1
+                            h00 = t00 - 2.0 * t02 + t22
+                            h11 = t11 - 2.0 * t01 + t00
+                            h22 = t22 - 2.0 * t12 + t11
+                            h01 = t01 - t00 - t12 + t02
+                            h02 = t02 - t01 - t22 + t12
+                            h12 = t12 - t11 - t02 + t01
+                        else:
+                            h00, h11, h22, h01, h02, h12 = t00, t11, t22, t01, t02, t12
+                        g00 += h00 if c0 else 0.0
+                        g11 += h11 if c1 else 0.0
+                        g22 += h22 if c2 else 0.0
+                        g01 += h01 if (c0 and c1) else 0.0
+                        g02 += h02 if (c0 and c2) else 0.0
+                        g12 += h12 if (c1 and c2) else 0.0
+                    if l_s <= 0.0:
+                        failed += bad
+                        for k in range(3):
+                            i_l[k] = psi_l[k] * inv_ll
+                        i_s[0] = r0 + i_l[0]
+                        i_s[1] = r1 + i_l[1]
+                        i_s[2] = r2 + i_l[2]
+                        converged = True
+                        break
+                    for k in range(3):
+                        i_l[k] = (psi_l[k] - trial[k]) * inv_ll
+                    f0 = trial[0] / l_s - r0 - i_l[0]
+                    f1 = trial[1] / l_s - r1 - i_l[1]
+                    f2 = trial[2] / l_s - r2 - i_l[2]
+                    norm = abs(f0) + abs(f1) + abs(f2)
+                    if norm > norm0 and tstep > 1e-6:
+                        # the step increased the residual: halve it from the accepted point
+                        tstep *= 0.5
+                        trial[0] = phi[0] - tstep * d0
+                        trial[1] = phi[1] - tstep * d1
+                        trial[2] = phi[2] - tstep * d2
+                        continue
+                    phi[0], phi[1], phi[2] = trial[0], trial[1], trial[2]
+                    norm0 = norm
+                    diag = 1.0 / l_s + inv_ll
+                    j00, j11, j22 = diag + g00, diag + g11, diag + g22
+                    j01, j02, j12 = g01, g02, g12
+                    d0, d1, d2 = _solve3(j00, j01, j02, j11, j12, j22, f0, f1, f2)
+                    if max(abs(d0), abs(d1), abs(d2)) <= tol_phi or norm == 0.0:
+                        failed += bad
+                        converged = True
+                        break
+                    tstep = 1.0
+                    trial[0] = phi[0] - d0
+                    trial[1] = phi[1] - d1
+                    trial[2] = phi[2] - d2
+                if not converged:
+                    failed += 1
+                if l_s > 0.0:
+                    i_s[0] = phi[0] / l_s
+                    i_s[1] = phi[1] / l_s
+                    i_s[2] = phi[2] / l_s
+                if st == 0 and pending:
+                    # poles close at this step: lambda and i_L are now those of t_j
+                    pending = False
+                    for u in range(n_units):
+                        for k in range(3):
+                            if close_step[c, u, k] == j:
+                                closed[u, k] = True
+                    _switch(
+                        conn, closed, on, avec, mode, lam, cw, line, sig, q, psi, phi, psi_l,
+                        i_l, l_s, l_l, kind, par, flux, cur, npts,
+                    )  # fmt: skip
+                    continue
+                # ---- derivatives: KVL around every loop ----
+                gsc = _source_scale(x_st, j, g0, slope, kh, ke)
+                wt = omega * x_st * h
                 for k in range(3):
-                    acc[u, k] = 0.0
-                    base[u, k] = psi[u, k]
-            for st in range(4):
-                x = j + (0.0 if st == 0 else (1.0 if st == 3 else 0.5))
-                g = _source_scale(x, j, g0, slope, kh, ke)
-                for k in range(3):
-                    e[k] = g * vpk * math.sin(omega * x * h + phase[c, k])
-                failed += _algebra(
-                    n_units, conn, mode, phi, psi, psi_l, lam, cw, dw, sig, q, avec, on,
-                    closed, kind, par, flux, cur, npts, tol_u, tol_phi, l_s, l_l, has_load,
-                    line, i_l, i_s, jac, work,
-                )  # fmt: skip
+                    e[k] = gsc * vpk * math.sin(wt + phase[c, k])
+                    kl[k] = e[k] - r_s * i_s[k] - r_l * i_l[k]
+                for u in range(n_units):
+                    if mode[u] == 0:
+                        kpsi[u, 0] = kpsi[u, 1] = kpsi[u, 2] = 0.0
+                        continue
+                    for k in range(3):
+                        drv[k] = (
+                            e[k] - r_s * i_s[k] - r_now[u] * line[u, k] if closed[u, k] else 0.0
+                        )
+                    rw = r_w[u]
+                    for k in range(3):
+                        if not on[u, k]:
+                            kpsi[u, k] = 0.0
+                        elif conn[u] == DELTA:
+                            kpsi[u, k] = drv[k] - drv[(k + 1) % 3] - rw * cw[u, k]
+                        else:
+                            kpsi[u, k] = drv[k] - rw * cw[u, k]
+                # ---- outputs at the sample instants ----
                 if st == 0 and (j % decimate == 0 or j == n_steps):
                     s_idx = j // decimate
-                    _derivatives(
-                        n_units, conn, mode, on, closed, r_w, r_now, e, r_s, r_l, cw, line,
-                        i_s, i_l, kpsi, kl, work[3, 1],
-                    )  # fmt: skip
                     # bus voltage v = e - R_s*i_s - Phi', J*Phi' = sum S C D~ psi' + psi_L'/L_L
-                    for k in range(3):
-                        dphi[k] = 0.0
+                    p0 = p1 = p2 = 0.0
                     if l_s > 0.0:
-                        for k in range(3):
-                            rhs[k] = kl[k] / l_l if has_load else 0.0
+                        b0 = kl[0] * inv_ll
+                        b1 = kl[1] * inv_ll
+                        b2 = kl[2] * inv_ll
                         for u in range(n_units):
-                            if mode[u] == 0:
+                            md = mode[u]
+                            if md == 0:
                                 continue
-                            _reduced_slopes(u, mode[u], dw, avec, dt)
-                            # S C dt psi'
-                            for i in range(3):
-                                gm[0, i] = 0.0
-                                for m2 in range(3):
-                                    gm[0, i] += dt[i, m2] * kpsi[u, m2]
-                            for i in range(3):
-                                if not closed[u, i]:
-                                    continue
-                                if conn[u] == DELTA:
-                                    rhs[i] += gm[0, i] - gm[0, (i + 2) % 3]
-                                else:
-                                    rhs[i] += gm[0, i]
-                        _solve3(jac, rhs, dphi)
+                            e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
+                            k0, k1, k2 = kpsi[u, 0], kpsi[u, 1], kpsi[u, 2]
+                            y0, y1, y2 = e0 * k0, e1 * k1, e2 * k2
+                            if md == 2:
+                                a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
+                                den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
+                                if den > 0.0:
+                                    f = (a0 * e0 * k0 + a1 * e1 * k1 + a2 * e2 * k2) / den
+                                    y0 -= a0 * e0 * f
+                                    y1 -= a1 * e1 * f
+                                    y2 -= a2 * e2 * f
+                            if conn[u] == DELTA:
+                                y0, y1, y2 = y0 - y2, y1 - y0, y2 - y1
+                            b0 += y0 if closed[u, 0] else 0.0
+                            b1 += y1 if closed[u, 1] else 0.0
+                            b2 += y2 if closed[u, 2] else 0.0
+                        p0, p1, p2 = _solve3(j00, j01, j02, j11, j12, j22, b0, b1, b2)
+                    out_bus[c, 0, s_idx] = e[0] - r_s * i_s[0] - p0
+                    out_bus[c, 1, s_idx] = e[1] - r_s * i_s[1] - p1
+                    out_bus[c, 2, s_idx] = e[2] - r_s * i_s[2] - p2
                     for k in range(3):
                         out_src[c, k, s_idx] = i_s[k]
-                        out_bus[c, k, s_idx] = e[k] - r_s * i_s[k] - dphi[k]
                         for u in range(n_units):
                             out_line[c, u, k, s_idx] = line[u, k]
                             out_wind[c, u, k, s_idx] = cw[u, k]
                             out_flux[c, u, k, s_idx] = lam[u, k]
                     if j == n_steps:
                         break
-                else:
-                    _derivatives(
-                        n_units, conn, mode, on, closed, r_w, r_now, e, r_s, r_l, cw, line,
-                        i_s, i_l, kpsi, kl, work[3, 1],
-                    )  # fmt: skip
-                w = 1.0 if st == 0 or st == 3 else 2.0
-                for k in range(3):
-                    acc_l[k] += w * kl[k]
-                for u in range(n_units):
+                # ---- Runge-Kutta ----
+                if st == 0:
                     for k in range(3):
-                        acc[u, k] += w * kpsi[u, k]
+                        base_l[k] = psi_l[k]
+                        acc_l[k] = kl[k]
+                    for u in range(n_units):
+                        for k in range(3):
+                            base[u, k] = psi[u, k]
+                            acc[u, k] = kpsi[u, k]
+                else:
+                    wgt = 1.0 if st == 3 else 2.0
+                    for k in range(3):
+                        acc_l[k] += wgt * kl[k]
+                    for u in range(n_units):
+                        for k in range(3):
+                            acc[u, k] += wgt * kpsi[u, k]
                 if st < 3:
                     hs = h if st == 2 else 0.5 * h
                     for k in range(3):
@@ -663,4 +604,5 @@ def integrate(
                     for u in range(n_units):
                         for k in range(3):
                             psi[u, k] = base[u, k] + h / 6.0 * acc[u, k]
+                st += 1
     return failed
