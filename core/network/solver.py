@@ -58,6 +58,20 @@ on a Thevenin source the states are those of :func:`core.energize.simulate` for 
 and a delta (psi = lambda + L_s*i, psi = lambda + L_s*M*c) and equivalent to its floating-wye
 state, so the two agree to rounding and the Newton tolerances.
 
+Accuracy, measured over the first ten cycles at 128 samples per cycle against an independent
+reference written from Kirchhoff's laws (winding fluxes and load currents from one dense
+system per call, scipy's LSODA at rtol 1e-10 stopped at every knee crossing;
+tests/references/test_network_vs_scipy.py), as the worst per-cycle peak deviation relative to
+that signal's largest peak: a unit energised beside an identical one in service 6.1e-6 (the
+one in service 1.6e-5), a delta beside a floating wye in service 3.5e-6 (4.3e-5), four mixed
+units with a bus load 1.1e-5 (3.0e-4 for the delta whose pre-insertion resistor is bypassed
+after 2.5 cycles), staggered poles on a delta 1.9e-5, on a grounded wye 6.9e-6, on a floating
+wye 1.1e-5; source currents within 2e-5, bus voltages within 8e-6 of their amplitude. One unit
+on a Thevenin source agrees with :func:`core.energize.simulate` within 1e-11 of the largest
+current for the three connections and the three curve kinds, but for a grounded wye on the
+smooth knee, where that solver integrates lambda itself (2.8e-4 apart; against a 2048-step
+solution this solver is within 4.5e-7, that one 2.8e-4).
+
 Approximations: phases magnetically independent (bank of single-phase cores); no hysteresis or
 core loss; a source of equal zero- and positive-sequence impedance; an ideal breaker and
 pre-insertion resistor; the pole instants, the bypass and the ramp's corners rounded to the
@@ -530,9 +544,9 @@ def simulate_network(
     The equations are in the module docstring. The step is h = 1/(f*spc) with
     spc = samples_per_cycle*ceil(need/samples_per_cycle), need = max(128, 4/(f*tau_min)),
     tau_min the shortest of (L_air + L_s)/(R_w + 2*R_s + k*R_ins) over the units (k = 3 for a
-    delta, 1 otherwise) and (L_L + L_s)/(R_L + R_s) for the load; the record has
-    round(duration*f*samples_per_cycle) samples per ... after t = 0. Pole instants are rounded
-    to the step.
+    delta, 1 otherwise) and (L_L + L_s)/(R_L + R_s) for the load; the record holds
+    round(duration*f*samples_per_cycle) + 1 samples from t = 0. Pole instants, the bypass and
+    the ramp's corners are rounded to the step.
 
     References
     ----------

@@ -290,3 +290,26 @@ def test_invalid_units_name_the_parameter(unit: Unit, name: str) -> None:
     with pytest.raises(ParameterError) as exc:
         simulate_network(Source(V_LL, F), [unit], closing_angle_deg=0.0, duration_s=0.02)
     assert exc.value.parameter == name
+
+
+def test_network_package_is_pure() -> None:
+    # the layering rule of core/ (tests/core/test_purity.py reads core/*.py only): no web
+    # framework, validation models, service layer, logging or printing in core/network
+    import ast
+    from pathlib import Path
+
+    forbidden = {"fastapi", "pydantic", "pydantic_settings", "starlette", "service", "logging"}
+    files = sorted((Path(__file__).resolve().parents[3] / "core" / "network").glob("*.py"))
+    assert len(files) >= 3
+    for path in files:
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        for node in ast.walk(tree):
+            if isinstance(node, ast.Import):
+                roots = {a.name.split(".")[0] for a in node.names}
+            elif isinstance(node, ast.ImportFrom) and node.module:
+                roots = {node.module.split(".")[0]}
+            else:
+                roots = set()
+            assert not roots & forbidden, path.name
+            if isinstance(node, ast.Call) and isinstance(node.func, ast.Name):
+                assert node.func.id != "print", path.name
