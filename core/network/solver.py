@@ -594,16 +594,15 @@ def simulate_network(
     closing = np.zeros((n, n_units, 3))
     residual = np.zeros((n, n_units, 3))
     for k, u in enumerate(units):
-        closing[:, k] = _broadcast(
-            f"units[{k}].breaker.closing_time_s", u.breaker.closing_time_s, n
-        )
-        residual[:, k] = _broadcast(f"units[{k}].residual_flux_pu", u.residual_flux_pu, n)
-    if np.any(closing < 0.0) or np.any(closing > duration_s):
-        raise ParameterError(
-            "breaker.closing_time_s", float(closing.max()), f"in [0, {duration_s:g}] s"
-        )
-    if np.any(np.abs(residual) > 5.0):
-        raise ParameterError("residual_flux_pu", float(np.abs(residual).max()), "in [-5, 5]")
+        name = f"units[{k}].breaker.closing_time_s"
+        closing[:, k] = _broadcast(name, u.breaker.closing_time_s, n)
+        if np.any(closing[:, k] < 0.0) or np.any(closing[:, k] > duration_s):
+            bad = closing[:, k][(closing[:, k] < 0.0) | (closing[:, k] > duration_s)]
+            raise ParameterError(name, float(bad[0]), f"in [0, {duration_s:g}] s")
+        name = f"units[{k}].residual_flux_pu"
+        residual[:, k] = _broadcast(name, u.residual_flux_pu, n)
+        if np.any(np.abs(residual[:, k]) > 5.0):
+            raise ParameterError(name, float(np.abs(residual[:, k]).max()), "in [-5, 5]")
 
     # step plan: the rule of core.energize, over every loop of the network
     taus = [math.inf]

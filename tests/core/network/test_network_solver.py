@@ -278,8 +278,8 @@ def test_invalid_inputs_name_the_parameter(kwargs: dict[str, object], name: str)
         (Unit(_circuit("delta"), connection="zigzag"), "units[0].connection"),
         (Unit(_circuit("delta"), in_service=True, breaker=Breaker(0.01)), "units[0].breaker"),
         (Unit(_circuit("delta"), breaker=Breaker([0.0, 0.0])), "units[0].breaker.closing_time_s"),
-        (Unit(_circuit("delta"), breaker=Breaker(-1.0)), "breaker.closing_time_s"),
-        (Unit(_circuit("delta"), residual_flux_pu=9.0), "residual_flux_pu"),
+        (Unit(_circuit("delta"), breaker=Breaker(-1.0)), "units[0].breaker.closing_time_s"),
+        (Unit(_circuit("delta"), residual_flux_pu=9.0), "units[0].residual_flux_pu"),
         (
             Unit(_circuit("delta"), breaker=Breaker(0.0, -2.0)),
             "units[0].breaker.insertion_resistance_ohm",
