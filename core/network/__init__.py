@@ -1,0 +1,16 @@
+"""One network model: a three-phase source, a bus with its load, and transformers on breakers.
+
+:func:`simulate_network` is the public entry; :mod:`core.network.solver` holds the equations
+and the references, :mod:`core.network.kernel` the compiled integration.
+"""
+
+from core.network.solver import (
+    Breaker,
+    BusLoad,
+    NetworkResult,
+    Source,
+    Unit,
+    simulate_network,
+)
+
+__all__ = ["Breaker", "BusLoad", "NetworkResult", "Source", "Unit", "simulate_network"]

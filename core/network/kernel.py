@@ -1,0 +1,608 @@
+"""Compiled kernel of :func:`core.network.simulate_network`: the network's loop fluxes by RK4.
+
+The equations, the states and the references are in the docstring of
+:mod:`core.network.solver`; this module holds only the compiled arithmetic. Per case the states
+are the loop fluxes psi of every energised winding (one per winding, shape (n_units, 3)) and
+psi_L of each bus-load phase; at every Runge-Kutta stage the source-inductor fluxes
+Phi = L_s*i_s follow from Kirchhoff's current law at the bus by Newton's method on the 3-vector
+Phi (each unit contributing its own 3x3 block, so one iteration costs O(n_units)), and each unit
+with a floating node (the neutral of an ungrounded wye, the terminal of a delta whose pole is
+still open) solves one monotone scalar equation for that node's flux.
+
+Compiled with numba (``cache=True``). Everything the kernel inlines is defined in this file:
+numba keys its cache by the file of the cached function only.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+from numpy.typing import NDArray
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
+
+__all__ = ["DELTA", "FLOATING_WYE", "GROUNDED_WYE", "MAX_ITERATIONS", "integrate"]
+
+GROUNDED_WYE, FLOATING_WYE, DELTA = 0, 1, 2
+# Newton's method on Phi and on a floating node's flux: iteration cap (a guard, not a budget:
+# warm-started from the previous stage a piecewise-linear curve needs two evaluations when no
+# winding crosses a breakpoint) [-].
+MAX_ITERATIONS = 60
+
+
+# The hot path (the stages' algebra, derivatives and outputs) is written out in one function
+# with scalar helpers only: a call that passes arrays to a function numba does not inline costs
+# atomic reference-count updates per array, which measured several microseconds per stage when
+# the algebra was split into array-taking helpers.
+
+
+@numba.njit(cache=True)
+def _curve_s(
+    lam: float, kd: int, p0: float, p1: float, p2: float, p3: float, p4: float
+) -> tuple[float, float]:  # pragma: no cover - compiled
+    # Current f(lambda) and slope di/d(lambda): kind 0 two-slope (p = 1/L_m, lambda_S, 1/L_air,
+    # i_S), kind 1 smooth knee (1/L_m, 1/L_air - 1/L_m, lambda_S, width, g0)
+    x = abs(lam)
+    if kd == 0:
+        if x > p1:
+            d = p2
+            i = p3 + (x - p1) * d
+        else:
+            d = p0
+            i = x * d
+    else:
+        s = x - p2
+        q = math.sqrt(s * s + p3 * p3)
+        i = p0 * x + p1 * (0.5 * (s + q) - p4)
+        d = p0 + p1 * 0.5 * (1.0 + s / q)
+    return (i if lam >= 0.0 else -i), d
+
+
+@numba.njit(cache=True)
+def _curve_table(
+    lam: float, flux: FloatArray, cur: FloatArray, u: int, top: int, final: float
+) -> tuple[float, float]:  # pragma: no cover - compiled
+    # kind 2, a table: breakpoints flux[u, :top + 1], cur[u, :top + 1], final slope beyond
+    x = abs(lam)
+    if x >= flux[u, top]:
+        d = final
+        i = cur[u, top] + (x - flux[u, top]) * d
+    else:
+        lo = 0
+        hi = top
+        while hi - lo > 1:
+            mid = (lo + hi) // 2
+            if flux[u, mid] < x:
+                lo = mid
+            else:
+                hi = mid
+        d = (cur[u, hi] - cur[u, lo]) / (flux[u, hi] - flux[u, lo])
+        i = cur[u, lo] + (x - flux[u, lo]) * d
+    return (i if lam >= 0.0 else -i), d
+
+
+@numba.njit(cache=True)
+def _solve3(
+    m00: float,
+    m01: float,
+    m02: float,
+    m11: float,
+    m12: float,
+    m22: float,
+    b0: float,
+    b1: float,
+    b2: float,
+) -> tuple[float, float, float]:  # pragma: no cover - compiled
+    # x = m^-1 b for a symmetric 3x3 m, by Cramer's rule
+    c00 = m11 * m22 - m12 * m12
+    c01 = m12 * m02 - m01 * m22
+    c02 = m01 * m12 - m11 * m02
+    det = m00 * c00 + m01 * c01 + m02 * c02
+    x0 = (b0 * c00 + b1 * c01 + b2 * c02) / det
+    x1 = (b0 * c01 + b1 * (m00 * m22 - m02 * m02) + b2 * (m02 * m01 - m00 * m12)) / det
+    x2 = (b0 * c02 + b1 * (m02 * m01 - m00 * m12) + b2 * (m00 * m11 - m01 * m01)) / det
+    return x0, x1, x2
+
+
+@numba.njit(cache=True)
+def _source_scale(x: float, j: int, g0: float, slope: float, kh: int, ke: int) -> float:
+    # EMF amplitude factor at step position x (in steps) of step j: the piece is the step's
+    if j >= ke:
+        return 1.0
+    if j < kh:
+        return g0
+    return g0 + slope * (x - kh)
+
+
+@numba.njit(cache=True)
+def _status(
+    conn: int, closed: NDArray[np.bool_], on: NDArray[np.bool_], avec: FloatArray
+) -> int:  # pragma: no cover - compiled
+    # Which windings of a unit are energised and its floating-node incidence a, from the pole
+    # states; returns the mode: 0 unenergised, 1 no floating node, 2 one floating node.
+    n_closed = int(closed[0]) + int(closed[1]) + int(closed[2])
+    for k in range(3):
+        on[k] = False
+        avec[k] = 0.0
+    if conn == GROUNDED_WYE:
+        for k in range(3):
+            on[k] = closed[k]
+        return 1 if n_closed > 0 else 0
+    if n_closed < 2:
+        return 0
+    if conn == FLOATING_WYE:
+        for k in range(3):
+            on[k] = closed[k]
+            avec[k] = 1.0 if closed[k] else 0.0
+        return 2
+    for k in range(3):
+        on[k] = True
+    if n_closed == 3:
+        return 1
+    # delta with terminal o open: lambda = psi - A^T S Phi + a*sigma, a = A^T e_o
+    o = 0 if not closed[0] else (1 if not closed[1] else 2)
+    avec[o] = 1.0  # winding o runs from terminal o to the next
+    avec[(o + 2) % 3] = -1.0  # winding o - 1 ends at terminal o
+    return 2
+
+
+@numba.njit(cache=True)
+def _switch(
+    conn: IntArray,
+    closed: NDArray[np.bool_],
+    on: NDArray[np.bool_],
+    avec: FloatArray,
+    mode: IntArray,
+    lam: FloatArray,
+    cw: FloatArray,
+    line: FloatArray,
+    sig: FloatArray,
+    q: FloatArray,
+    psi: FloatArray,
+    phi: FloatArray,
+    psi_l: FloatArray,
+    i_l: FloatArray,
+    l_s: float,
+    l_l: float,
+    kind: IntArray,
+    par: FloatArray,
+    flux: FloatArray,
+    cur: FloatArray,
+    npts: IntArray,
+) -> None:  # pragma: no cover - compiled
+    # After poles switch (or at t = 0): the windings' status, the floating nodes' held current
+    # q, and the states rebuilt from the fluxes lambda and load currents i_L (continuous), the
+    # source flux taking KCL's new sum of the line currents.
+    n_units = conn.shape[0]
+    t0 = t1 = t2 = 0.0
+    for u in range(n_units):
+        mode[u] = _status(conn[u], closed[u], on[u], avec[u])
+        sig[u] = 0.0
+        for k in range(3):
+            if on[u, k]:
+                if kind[u] == 2:
+                    cw[u, k] = _curve_table(lam[u, k], flux, cur, u, npts[u] - 1, par[u, 0])[0]
+                else:
+                    cw[u, k] = _curve_s(
+                        lam[u, k], kind[u], par[u, 0], par[u, 1], par[u, 2], par[u, 3], par[u, 4]
+                    )[0]
+            else:
+                cw[u, k] = 0.0
+        qq = 0.0
+        for k in range(3):
+            lk = cw[u, k] - cw[u, (k + 2) % 3] if conn[u] == DELTA else cw[u, k]
+            line[u, k] = lk if closed[u, k] else 0.0
+            qq += avec[u, k] * cw[u, k]
+        q[u] = qq
+        t0 += line[u, 0]
+        t1 += line[u, 1]
+        t2 += line[u, 2]
+    if l_s > 0.0:
+        phi[0] = l_s * (t0 + i_l[0])
+        phi[1] = l_s * (t1 + i_l[1])
+        phi[2] = l_s * (t2 + i_l[2])
+    else:
+        phi[0] = phi[1] = phi[2] = 0.0
+    for k in range(3):
+        psi_l[k] = phi[k] + l_l * i_l[k]
+    for u in range(n_units):
+        p0 = phi[0] if closed[u, 0] else 0.0
+        p1 = phi[1] if closed[u, 1] else 0.0
+        p2 = phi[2] if closed[u, 2] else 0.0
+        if conn[u] == DELTA:
+            psi[u, 0] = lam[u, 0] + p0 - p1
+            psi[u, 1] = lam[u, 1] + p1 - p2
+            psi[u, 2] = lam[u, 2] + p2 - p0
+        else:
+            psi[u, 0] = lam[u, 0] + p0
+            psi[u, 1] = lam[u, 1] + p1
+            psi[u, 2] = lam[u, 2] + p2
+
+
+@numba.njit(cache=True, nogil=True)
+def integrate(
+    n_steps: int,
+    decimate: int,
+    h: float,
+    omega: float,
+    vpk: float,
+    phase: FloatArray,
+    ramp: FloatArray,
+    ramp_steps: IntArray,
+    r_s: float,
+    l_s: float,
+    r_l: float,
+    l_l: float,
+    has_load: bool,
+    conn: IntArray,
+    r_w: FloatArray,
+    r_ins: FloatArray,
+    bypass_step: IntArray,
+    kind: IntArray,
+    par: FloatArray,
+    flux: FloatArray,
+    cur: FloatArray,
+    npts: IntArray,
+    close_step: IntArray,
+    lam0: FloatArray,
+    il0: FloatArray,
+    tol_u: FloatArray,
+    tol_phi: float,
+    out_src: FloatArray,
+    out_bus: FloatArray,
+    out_line: FloatArray,
+    out_wind: FloatArray,
+    out_flux: FloatArray,
+) -> int:  # pragma: no cover - compiled
+    """Integrate every case; returns the number of algebraic solves that did not converge.
+
+    Shapes: phase (n_cases, 3) [rad] (EMF e_k = g*vpk*sin(omega*t + phase_k)); ramp (g0,
+    slope per step); ramp_steps (end of hold, end of rise) [steps]; per unit conn, r_w [ohm],
+    r_ins [ohm], bypass_step, curve (kind, par, flux, cur, npts); close_step (n_cases,
+    n_units, 3) [steps]; lam0 (n_cases, n_units, 3) [Wb-turn]; il0 (n_cases, 3) [A]; outputs
+    (n_cases, 3, n_samples) and (n_cases, n_units, 3, n_samples).
+    """
+    n_cases = phase.shape[0]
+    n_units = conn.shape[0]
+    g0, slope = ramp[0], ramp[1]
+    kh, ke = ramp_steps[0], ramp_steps[1]
+    inv_ll = 1.0 / l_l if has_load else 0.0
+    failed = 0
+    for c in range(n_cases):
+        psi = np.zeros((n_units, 3))
+        base = np.zeros((n_units, 3))
+        acc = np.zeros((n_units, 3))
+        kpsi = np.zeros((n_units, 3))
+        lam = lam0[c].copy()
+        cw = np.zeros((n_units, 3))
+        dw = np.zeros((n_units, 3))
+        sig = np.zeros(n_units)
+        q = np.zeros(n_units)
+        avec = np.zeros((n_units, 3))
+        on = np.zeros((n_units, 3), dtype=np.bool_)
+        closed = np.zeros((n_units, 3), dtype=np.bool_)
+        mode = np.zeros(n_units, dtype=np.int64)
+        line = np.zeros((n_units, 3))
+        r_now = np.zeros(n_units)
+        phi = np.zeros(3)
+        trial = np.zeros(3)
+        psi_l = np.zeros(3)
+        base_l = np.zeros(3)
+        acc_l = np.zeros(3)
+        kl = np.zeros(3)
+        i_l = il0[c].copy()
+        i_s = np.zeros(3)
+        e = np.zeros(3)
+        xs = np.zeros(3)
+        drv = np.zeros(3)
+        for u in range(n_units):
+            for k in range(3):
+                closed[u, k] = close_step[c, u, k] <= 0
+        _switch(
+            conn, closed, on, avec, mode, lam, cw, line, sig, q, psi, phi, psi_l, i_l, l_s,
+            l_l, kind, par, flux, cur, npts,
+        )  # fmt: skip
+        j00 = j01 = j02 = j11 = j12 = j22 = 0.0
+        for j in range(n_steps + 1):
+            pending = False
+            for u in range(n_units):
+                r_now[u] = r_ins[u] if j < bypass_step[u] else 0.0
+                if j > 0:
+                    for k in range(3):
+                        if close_step[c, u, k] == j:
+                            pending = True
+            st = 0
+            while st < 4:
+                x_st = j + (0.0 if st == 0 else (1.0 if st == 3 else 0.5))
+                # ---- algebra: Phi from KCL at the bus (Newton), every unit's currents ----
+                if l_s > 0.0:
+                    trial[0], trial[1], trial[2] = phi[0], phi[1], phi[2]
+                else:
+                    trial[0] = trial[1] = trial[2] = 0.0
+                norm0 = math.inf
+                tstep = 1.0
+                d0 = d1 = d2 = 0.0
+                converged = False
+                for _ in range(4 * MAX_ITERATIONS):
+                    r0 = r1 = r2 = 0.0  # sum of the line currents into the units
+                    g00 = g01 = g02 = g11 = g12 = g22 = 0.0
+                    bad = 0
+                    for u in range(n_units):
+                        md = mode[u]
+                        if md == 0:
+                            for k in range(3):
+                                cw[u, k] = 0.0
+                                dw[u, k] = 0.0
+                                line[u, k] = 0.0
+                            continue
+                        cu = conn[u]
+                        kd = kind[u]
+                        top = npts[u] - 1
+                        c0, c1, c2 = closed[u, 0], closed[u, 1], closed[u, 2]
+                        q0 = trial[0] if c0 else 0.0
+                        q1 = trial[1] if c1 else 0.0
+                        q2 = trial[2] if c2 else 0.0
+                        if cu == DELTA:
+                            xs[0] = psi[u, 0] - (q0 - q1)
+                            xs[1] = psi[u, 1] - (q1 - q2)
+                            xs[2] = psi[u, 2] - (q2 - q0)
+                        else:
+                            xs[0] = psi[u, 0] - q0
+                            xs[1] = psi[u, 1] - q1
+                            xs[2] = psi[u, 2] - q2
+                        s = 0.0
+                        if md == 2:
+                            # floating node: sum_k a_k*f(x_k + a_k*s) = q, increasing in s
+                            s = sig[u]
+                            lo = -math.inf
+                            hi = math.inf
+                            ok = False
+                            for _i in range(MAX_ITERATIONS):
+                                gs = -q[u]
+                                dg = 0.0
+                                for k in range(3):
+                                    ak = avec[u, k]
+                                    if ak != 0.0:
+                                        if kd == 2:
+                                            ik, dk = _curve_table(
+                                                xs[k] + ak * s, flux, cur, u, top, par[u, 0]
+                                            )
+                                        else:
+                                            ik, dk = _curve_s(
+                                                xs[k] + ak * s, kd, par[u, 0], par[u, 1],
+                                                par[u, 2], par[u, 3], par[u, 4],
+                                            )  # fmt: skip
+                                        gs += ak * ik
+                                        dg += dk
+                                if gs == 0.0:
+                                    ok = True
+                                    break
+                                if gs < 0.0:
+                                    lo = s
+                                else:
+                                    hi = s
+                                new = s - gs / dg
+                                if not (lo < new < hi):
+                                    if math.isfinite(lo) and math.isfinite(hi):
+                                        new = 0.5 * (lo + hi)
+                                    else:
+                                        new = s - 2.0 * gs / dg
+                                if abs(new - s) <= tol_u[u]:
+                                    s = new
+                                    ok = True
+                                    break
+                                s = new
+                            if not ok:
+                                bad += 1
+                            sig[u] = s
+                        for k in range(3):
+                            if on[u, k]:
+                                lk = xs[k] + avec[u, k] * s
+                                lam[u, k] = lk
+                                if kd == 2:
+                                    ik, dk = _curve_table(lk, flux, cur, u, top, par[u, 0])
+                                else:
+                                    ik, dk = _curve_s(
+                                        lk, kd, par[u, 0], par[u, 1], par[u, 2], par[u, 3],
+                                        par[u, 4],
+                                    )  # fmt: skip
+                                cw[u, k] = ik
+                                dw[u, k] = dk
+                            else:
+                                cw[u, k] = 0.0
+                                dw[u, k] = 0.0
+                        w0, w1, w2 = cw[u, 0], cw[u, 1], cw[u, 2]
+                        if cu == DELTA:
+                            la, lb, lc = w0 - w2, w1 - w0, w2 - w1
+                        else:
+                            la, lb, lc = w0, w1, w2
+                        line[u, 0] = la if c0 else 0.0
+                        line[u, 1] = lb if c1 else 0.0
+                        line[u, 2] = lc if c2 else 0.0
+                        r0 += line[u, 0]
+                        r1 += line[u, 1]
+                        r2 += line[u, 2]
+                        if l_s <= 0.0:
+                            continue
+                        # G_u = S C D~ C^T S, D~ = D - (D a)(D a)^T/(a^T D a)
+                        e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
+                        t00, t11, t22 = e0, e1, e2
+                        t01 = t02 = t12 = 0.0
+                        if md == 2:
+                            a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
+                            den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
+                            if den > 0.0:
+                                b0, b1, b2 = a0 * e0, a1 * e1, a2 * e2
+                                t00 -= b0 * b0 / den
+                                t11 -= b1 * b1 / den
+                                t22 -= b2 * b2 / den
+                                t01 = -b0 * b1 / den
+                                t02 = -b0 * b2 / den
+                                t12 = -b1 * b2 / den
+                        if cu == DELTA:
+                            # (A T A^T)_ij = T_ij - T_i,j-1 - T_i-1,j + T_i-1,j-1
+                            h00 = t00 - 2.0 * t02 + t22
+                            h11 = t11 - 2.0 * t01 + t00
+                            h22 = t22 - 2.0 * t12 + t11
+                            h01 = t01 - t00 - t12 + t02
+                            h02 = t02 - t01 - t22 + t12
+                            h12 = t12 - t11 - t02 + t01
+                        else:
+                            h00, h11, h22, h01, h02, h12 = t00, t11, t22, t01, t02, t12
+                        g00 += h00 if c0 else 0.0
+                        g11 += h11 if c1 else 0.0
+                        g22 += h22 if c2 else 0.0
+                        g01 += h01 if (c0 and c1) else 0.0
+                        g02 += h02 if (c0 and c2) else 0.0
+                        g12 += h12 if (c1 and c2) else 0.0
+                    if l_s <= 0.0:
+                        failed += bad
+                        for k in range(3):
+                            i_l[k] = psi_l[k] * inv_ll
+                        i_s[0] = r0 + i_l[0]
+                        i_s[1] = r1 + i_l[1]
+                        i_s[2] = r2 + i_l[2]
+                        converged = True
+                        break
+                    for k in range(3):
+                        i_l[k] = (psi_l[k] - trial[k]) * inv_ll
+                    f0 = trial[0] / l_s - r0 - i_l[0]
+                    f1 = trial[1] / l_s - r1 - i_l[1]
+                    f2 = trial[2] / l_s - r2 - i_l[2]
+                    norm = abs(f0) + abs(f1) + abs(f2)
+                    if norm > norm0 and tstep > 1e-6:
+                        # the step increased the residual: halve it from the accepted point
+                        tstep *= 0.5
+                        trial[0] = phi[0] - tstep * d0
+                        trial[1] = phi[1] - tstep * d1
+                        trial[2] = phi[2] - tstep * d2
+                        continue
+                    phi[0], phi[1], phi[2] = trial[0], trial[1], trial[2]
+                    norm0 = norm
+                    diag = 1.0 / l_s + inv_ll
+                    j00, j11, j22 = diag + g00, diag + g11, diag + g22
+                    j01, j02, j12 = g01, g02, g12
+                    d0, d1, d2 = _solve3(j00, j01, j02, j11, j12, j22, f0, f1, f2)
+                    if max(abs(d0), abs(d1), abs(d2)) <= tol_phi or norm == 0.0:
+                        failed += bad
+                        converged = True
+                        break
+                    tstep = 1.0
+                    trial[0] = phi[0] - d0
+                    trial[1] = phi[1] - d1
+                    trial[2] = phi[2] - d2
+                if not converged:
+                    failed += 1
+                if l_s > 0.0:
+                    i_s[0] = phi[0] / l_s
+                    i_s[1] = phi[1] / l_s
+                    i_s[2] = phi[2] / l_s
+                if st == 0 and pending:
+                    # poles close at this step: lambda and i_L are now those of t_j
+                    pending = False
+                    for u in range(n_units):
+                        for k in range(3):
+                            if close_step[c, u, k] == j:
+                                closed[u, k] = True
+                    _switch(
+                        conn, closed, on, avec, mode, lam, cw, line, sig, q, psi, phi, psi_l,
+                        i_l, l_s, l_l, kind, par, flux, cur, npts,
+                    )  # fmt: skip
+                    continue
+                # ---- derivatives: KVL around every loop ----
+                gsc = _source_scale(x_st, j, g0, slope, kh, ke)
+                wt = omega * x_st * h
+                for k in range(3):
+                    e[k] = gsc * vpk * math.sin(wt + phase[c, k])
+                    kl[k] = e[k] - r_s * i_s[k] - r_l * i_l[k]
+                for u in range(n_units):
+                    if mode[u] == 0:
+                        kpsi[u, 0] = kpsi[u, 1] = kpsi[u, 2] = 0.0
+                        continue
+                    for k in range(3):
+                        drv[k] = (
+                            e[k] - r_s * i_s[k] - r_now[u] * line[u, k] if closed[u, k] else 0.0
+                        )
+                    rw = r_w[u]
+                    for k in range(3):
+                        if not on[u, k]:
+                            kpsi[u, k] = 0.0
+                        elif conn[u] == DELTA:
+                            kpsi[u, k] = drv[k] - drv[(k + 1) % 3] - rw * cw[u, k]
+                        else:
+                            kpsi[u, k] = drv[k] - rw * cw[u, k]
+                # ---- outputs at the sample instants ----
+                if st == 0 and (j % decimate == 0 or j == n_steps):
+                    s_idx = j // decimate
+                    # bus voltage v = e - R_s*i_s - Phi', J*Phi' = sum S C D~ psi' + psi_L'/L_L
+                    p0 = p1 = p2 = 0.0
+                    if l_s > 0.0:
+                        b0 = kl[0] * inv_ll
+                        b1 = kl[1] * inv_ll
+                        b2 = kl[2] * inv_ll
+                        for u in range(n_units):
+                            md = mode[u]
+                            if md == 0:
+                                continue
+                            e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
+                            k0, k1, k2 = kpsi[u, 0], kpsi[u, 1], kpsi[u, 2]
+                            y0, y1, y2 = e0 * k0, e1 * k1, e2 * k2
+                            if md == 2:
+                                a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
+                                den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
+                                if den > 0.0:
+                                    f = (a0 * e0 * k0 + a1 * e1 * k1 + a2 * e2 * k2) / den
+                                    y0 -= a0 * e0 * f
+                                    y1 -= a1 * e1 * f
+                                    y2 -= a2 * e2 * f
+                            if conn[u] == DELTA:
+                                y0, y1, y2 = y0 - y2, y1 - y0, y2 - y1
+                            b0 += y0 if closed[u, 0] else 0.0
+                            b1 += y1 if closed[u, 1] else 0.0
+                            b2 += y2 if closed[u, 2] else 0.0
+                        p0, p1, p2 = _solve3(j00, j01, j02, j11, j12, j22, b0, b1, b2)
+                    out_bus[c, 0, s_idx] = e[0] - r_s * i_s[0] - p0
+                    out_bus[c, 1, s_idx] = e[1] - r_s * i_s[1] - p1
+                    out_bus[c, 2, s_idx] = e[2] - r_s * i_s[2] - p2
+                    for k in range(3):
+                        out_src[c, k, s_idx] = i_s[k]
+                        for u in range(n_units):
+                            out_line[c, u, k, s_idx] = line[u, k]
+                            out_wind[c, u, k, s_idx] = cw[u, k]
+                            out_flux[c, u, k, s_idx] = lam[u, k]
+                    if j == n_steps:
+                        break
+                # ---- Runge-Kutta ----
+                if st == 0:
+                    for k in range(3):
+                        base_l[k] = psi_l[k]
+                        acc_l[k] = kl[k]
+                    for u in range(n_units):
+                        for k in range(3):
+                            base[u, k] = psi[u, k]
+                            acc[u, k] = kpsi[u, k]
+                else:
+                    wgt = 1.0 if st == 3 else 2.0
+                    for k in range(3):
+                        acc_l[k] += wgt * kl[k]
+                    for u in range(n_units):
+                        for k in range(3):
+                            acc[u, k] += wgt * kpsi[u, k]
+                if st < 3:
+                    hs = h if st == 2 else 0.5 * h
+                    for k in range(3):
+                        psi_l[k] = base_l[k] + hs * kl[k]
+                    for u in range(n_units):
+                        for k in range(3):
+                            psi[u, k] = base[u, k] + hs * kpsi[u, k]
+                else:
+                    for k in range(3):
+                        psi_l[k] = base_l[k] + h / 6.0 * acc_l[k]
+                    for u in range(n_units):
+                        for k in range(3):
+                            psi[u, k] = base[u, k] + h / 6.0 * acc[u, k]
+                st += 1
+    return failed
