@@ -10,7 +10,8 @@ import numpy as np
 from fastapi import APIRouter, Body, Depends
 from fastapi.responses import Response
 
-from core import clearance, coordination, cost, ridethrough
+from core import cost
+from core.protection import coordination, device_operation, protection_study
 from service import budget, compute, convert, figures
 from service.examples import CLEARANCE_EXAMPLES
 from service.models.clearance import (
@@ -49,7 +50,7 @@ CLEARANCE_METHOD = (
 
 def _study(
     body: ClearanceRequest, settings: Settings
-) -> tuple[clearance.ClearanceStudy, list[Assumption]]:
+) -> tuple[protection_study.ClearanceStudy, list[Assumption]]:
     circuit, res, delay, assumptions = convert.study_inputs(body)
     t = body.transformer
     assert t is not None
@@ -75,7 +76,7 @@ def _study(
     if opt.coordination_window and relays:
         knobs.append(budget.Knob("options.coordination_window", choice="false"))
     budget.enforce(estimate, knobs, settings.max_request_steps)
-    study = clearance.clearance_study(
+    study = protection_study.clearance_study(
         circuit,
         body.switching.closing_angle_deg if opt.closing == "given" else None,
         res,
@@ -115,7 +116,9 @@ def _instantaneous(ev: coordination.DeviceEvaluation) -> InstantaneousCheckOut |
     )
 
 
-def _response(study: clearance.ClearanceStudy, assumptions: list[Assumption]) -> ClearanceResponse:
+def _response(
+    study: protection_study.ClearanceStudy, assumptions: list[Assumption]
+) -> ClearanceResponse:
     windows = {w.device: w for w in study.windows}
     m = convert.maybe
     devices = []
@@ -277,7 +280,7 @@ def _figure(body: ClearanceRequest, settings: Settings) -> str:
                 )
             )
     i_r = study.rated_current_a
-    pts = ridethrough.INRUSH_POINTS
+    pts = device_operation.INRUSH_POINTS
     dmg = study.damage
     title = (
         f"{t.rating_kva:g} kVA, {v_kv:g} kV "

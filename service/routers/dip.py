@@ -9,7 +9,8 @@ from typing import Annotated
 from fastapi import APIRouter, Body, Depends
 from fastapi.responses import Response
 
-from core import cost, dip_limits, dip_study, generator
+from core import cost
+from core.supply import dip_limits, dip_study, sources
 from service import budget, compute, convert, figures
 from service.examples import DIP_EXAMPLES
 from service.models.common import Assumption, Method
@@ -53,11 +54,11 @@ def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assump
     assert t is not None
     v_ll = t.energized_winding.voltage_kv * 1e3
     sup = body.supply
-    source: generator.Source
+    source: sources.Source
     if isinstance(sup, GeneratorIn):
         source = convert.generator_of(sup, v_ll, t.frequency_hz)
     elif sup is not None:
-        source = generator.UtilitySource(sup.fault_mva * 1e6, sup.x_over_r, v_ll, t.frequency_hz)
+        source = sources.UtilitySource(sup.fault_mva * 1e6, sup.x_over_r, v_ll, t.frequency_hz)
     else:
         source = convert.utility_of(body.source, v_ll, t.frequency_hz)
     excitation = convert.excitation_of(body.excitation)

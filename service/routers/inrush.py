@@ -16,7 +16,8 @@ from fastapi import APIRouter, Body, Depends
 from fastapi.responses import Response
 from pydantic import BaseModel, ValidationError
 
-from core import cost, inrush
+from core import cost
+from core.energization import inrush_study
 from core.errors import CoreError, LimitError
 from service import budget, compute, convert
 from service.examples import (
@@ -79,7 +80,7 @@ def _peak(body: PeakRequest, settings: Settings) -> PeakResponse:
         budget.enforce(
             lambda _o: work, [budget.Knob("method", choice="analytic")], settings.max_request_steps
         )
-    study = inrush.peak_study(
+    study = inrush_study.peak_study(
         circuit,
         body.switching.closing_angle_deg,
         res,
@@ -90,7 +91,7 @@ def _peak(body: PeakRequest, settings: Settings) -> PeakResponse:
     return _peak_response(study, assumptions)
 
 
-def _peak_response(study: inrush.PeakStudy, assumptions: list[Assumption]) -> PeakResponse:
+def _peak_response(study: inrush_study.PeakStudy, assumptions: list[Assumption]) -> PeakResponse:
     rated = study.rated_current_a
     sim_by_line = {p.line: p.first_peak_a for p in study.simulated or ()}
     analytic = (
@@ -221,7 +222,7 @@ def _envelope(
         settings.max_request_steps,
     )
     points = min(opt.waveform_points, settings.max_waveform_points)
-    study = inrush.envelope_study(
+    study = inrush_study.envelope_study(
         circuit,
         body.switching.closing_angle_deg,
         res,
@@ -340,9 +341,9 @@ def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse
         settings.max_request_steps,
     )
     for method, group in valid.items():
-        studies: list[inrush.PeakStudy | None]
+        studies: list[inrush_study.PeakStudy | None]
         try:
-            studies = inrush.peak_studies(  # type: ignore[assignment]
+            studies = inrush_study.peak_studies(  # type: ignore[assignment]
                 [c for _, c, _ in group], method=method, max_steps=settings.max_total_steps
             )
         except CoreError:  # one case breaks the vectorised call: answer each on its own
@@ -351,7 +352,9 @@ def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse
                 compute.checkpoint()
                 try:
                     studies.append(
-                        inrush.peak_study(*case, method=method, max_steps=settings.max_total_steps)
+                        inrush_study.peak_study(
+                            *case, method=method, max_steps=settings.max_total_steps
+                        )
                     )
                 except CoreError as exc:
                     items[idx] = BatchItem(index=idx, status=422, problem=batch_problem(idx, exc))

@@ -10,7 +10,8 @@ import numpy as np
 from fastapi import APIRouter, Body, Depends
 from fastapi.responses import Response
 
-from core import cost, mitigation, mitigation_options
+from core import cost
+from core.mitigation import mitigation_options, mitigation_study
 from service import budget, compute, convert
 from service.examples import MITIGATION_EXAMPLES
 from service.models.common import Assumption, Method
@@ -86,7 +87,9 @@ def _option(o: OptionIn) -> mitigation_options.Option:
     raise TypeError(type(o).__name__)  # pragma: no cover - the union is exhaustive
 
 
-def _out(r: mitigation.OptionResult, rank: int | None, base: float, limit: str | None) -> OptionOut:
+def _out(
+    r: mitigation_study.OptionResult, rank: int | None, base: float, limit: str | None
+) -> OptionOut:
     m = convert.maybe
     devices = None
     if r.devices is not None:
@@ -172,7 +175,7 @@ def _mitigation(body: MitigationRequest, settings: Settings) -> MitigationRespon
         return cost.mitigation_work(
             circuit,
             options=int(r(o, "options", n_opt)),
-            sweep=len(mitigation.RESIDUAL_SWEEP),
+            sweep=len(mitigation_study.RESIDUAL_SWEEP),
             devices=int(r(o, "devices", n_dev)),
             device_duration_s=r(o, "device_options.duration_s", body.device_options.duration_s),
             dip_duration_s=r(o, "dip_duration_s", body.dip_duration_s) if supply else None,
@@ -191,7 +194,7 @@ def _mitigation(body: MitigationRequest, settings: Settings) -> MitigationRespon
         if body.target_peak_x_rated is not None
         else None
     )
-    study = mitigation.mitigation_study(
+    study = mitigation_study.mitigation_study(
         npl,
         convert.source_of(body.source),
         res,

@@ -1,4 +1,5 @@
-"""Tests of the pre-insertion resistor in core.dip (energize_from_source) and core.dip_sizing.
+"""Tests of the pre-insertion resistor in core.supply.dip (energize_from_source) and
+core.supply.generator_sizing.
 
 References beside each check: the code's own results without the resistor (bit for bit, the
 behaviour the resistor must not change when it is off), closed forms for a linear load solved
@@ -22,8 +23,9 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from core import dip, dip_limits, dip_sizing, dip_study, generator, magnetizing, transformer
 from core.errors import ParameterError
+from core.supply import dip, dip_limits, dip_study, generator_sizing, sources
+from core.transformer import circuit_model, magnetizing
 
 F_HZ = 60.0
 T = 1.0 / F_HZ
@@ -32,18 +34,18 @@ V_LL = 480.0
 V_PH = V_LL / math.sqrt(3.0)
 S_GEN = 1.25e6
 RESIDUAL = (0.8, -0.4, -0.4)
-LOAD = generator.BusLoad(400e3, 300e3)
+LOAD = sources.BusLoad(400e3, 300e3)
 R_NAME, T_NAME = "insertion_resistance_ohm", "insertion_time_s"
 
 
-def _northgate() -> generator.Generator:
+def _northgate() -> sources.Generator:
     # X''_d, X'_d from the demo scenario; X_d, T''_d, T'_d invented demo values
-    return generator.Generator(S_GEN, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
+    return sources.Generator(S_GEN, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
 
 
-def _unit(connection: str = "wye_grounded") -> transformer.EquivalentCircuit:
-    return transformer.equivalent_circuit(
-        transformer.Nameplate(
+def _unit(connection: str = "wye_grounded") -> circuit_model.EquivalentCircuit:
+    return circuit_model.equivalent_circuit(
+        circuit_model.Nameplate(
             rating_va=2.5e6,
             phases=3,
             frequency_hz=60,
@@ -57,7 +59,7 @@ def _unit(connection: str = "wye_grounded") -> transformer.EquivalentCircuit:
     )
 
 
-def _linear(connection: str, x_ohm: float, r_ohm: float) -> transformer.EquivalentCircuit:
+def _linear(connection: str, x_ohm: float, r_ohm: float) -> circuit_model.EquivalentCircuit:
     """The demo unit with a linear core: winding reactance x_ohm and resistance r_ohm.
 
     The knee is put at 100 x lambda_N, so the curve never saturates.
@@ -116,8 +118,8 @@ def test_sweep_sizing_and_study_off_are_bit_identical(
     # Reference: the same calls without the keywords.
     gen, circ = _northgate(), _unit()
     ratings = [1e6, 3e6]
-    plain = dip_sizing.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2)
-    off = dip_sizing.dip_sweep(
+    plain = generator_sizing.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2)
+    off = generator_sizing.dip_sweep(
         gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2, insertion_resistance_ohm=0.0,
         insertion_time_s=0.1,
     )  # fmt: skip
@@ -154,7 +156,7 @@ def test_linear_wye_branch_is_the_complex_divider_and_joule_energy() -> None:
     # quad. Tolerances: voltage 1e-6 pu (with matched X/R the terminal voltage does not depend
     # on the integrated current, so it is exact: measured 6e-16), energy 1e-6 relative (the
     # integrator's error, measured 8.0e-8).
-    src = generator.UtilitySource(10e6, 5.0, V_LL, F_HZ)
+    src = sources.UtilitySource(10e6, 5.0, V_LL, F_HZ)
     z_s = V_LL**2 / 10e6 * complex(1.0, 5.0) / math.sqrt(26.0)
     x, r = V_LL**2 / S_GEN, 0.02
     r_w = 0.2 * x - r
@@ -192,7 +194,7 @@ def test_linear_delta_loop_sees_the_line_resistor_twice() -> None:
     # t = 0. Energy: R * sum over the three lines of integral i_k^2, each winding current
     # c_j = sqrt(2)*(Im(C_j e^(j w t)) - Im(C_j) exp(-t/tau)), by quad. Tolerances as for
     # the wye (measured 4e-16 pu and 8.0e-8).
-    src = generator.UtilitySource(10e6, 5.0, V_LL, F_HZ)
+    src = sources.UtilitySource(10e6, 5.0, V_LL, F_HZ)
     z_s = V_LL**2 / 10e6 * complex(1.0, 5.0) / math.sqrt(26.0)
     x_w, r = 3.0 * V_LL**2 / S_GEN, 0.02
     r_w = 0.2 * x_w - 2.0 * r
@@ -252,7 +254,7 @@ def test_bypass_falls_on_the_step_grid(assert_identical: Callable[[Any, Any], No
 @pytest.mark.parametrize("connection", ["wye_grounded", "delta"])
 @pytest.mark.parametrize("bus_load", [None, LOAD])
 def test_more_resistance_smaller_dip_and_lower_peak(
-    connection: str, bus_load: generator.BusLoad | None
+    connection: str, bus_load: sources.BusLoad | None
 ) -> None:
     # The resistor in for the whole simulated time: more resistance, more damping of the
     # inrush. The peak falls over the whole range the step allows; the dip falls while the
@@ -343,7 +345,7 @@ def test_sweep_equals_single_study_with_the_resistor() -> None:
     # study at the same step count exactly
     kw: dict[str, Any] = {"insertion_resistance_ohm": 0.5, "insertion_time_s": 2.0 * T}
     single = dip.energize_from_source(_northgate(), _unit(), 0.0, RESIDUAL, duration_s=0.2, **kw)
-    swept = dip_sizing.dip_sweep(
+    swept = generator_sizing.dip_sweep(
         _northgate(), _unit(), [S_GEN, 4.0 * S_GEN], 0.0, RESIDUAL, duration_s=0.2, **kw
     )
     assert swept[0] == single.dip_percent
@@ -403,8 +405,10 @@ def test_invalid_insertion_names_the_parameter(kwargs: dict[str, Any], parameter
         lambda: dip.energize_from_source(
             _northgate(), _unit("delta"), 0.0, RESIDUAL, duration_s=0.1, **kwargs
         ),
-        lambda: dip_sizing.dip_sweep(_northgate(), _unit(), [S_GEN], duration_s=0.1, **kwargs),
-        lambda: dip_sizing.smallest_generator(_northgate(), _unit(), "G2", **kwargs),
+        lambda: generator_sizing.dip_sweep(
+            _northgate(), _unit(), [S_GEN], duration_s=0.1, **kwargs
+        ),
+        lambda: generator_sizing.smallest_generator(_northgate(), _unit(), "G2", **kwargs),
         lambda: dip_study.dip_study(_northgate(), _unit(), 0.0, 0.0, duration_s=0.1, **kwargs),
     ):
         with pytest.raises(ParameterError) as err:

@@ -1,4 +1,5 @@
-"""Tests of core.dip_limits: the ISO 8528-5 classes as recalled, and the verdicts against them.
+"""Tests of core.supply.dip_limits: the ISO 8528-5 classes as recalled, and the verdicts against
+them.
 
 The class values are from memory, not checked against the standard; the tests
 check the table as recalled and the judging logic, including the undecided cases.
@@ -8,7 +9,7 @@ from __future__ import annotations
 
 import math
 
-from core import dip_limits
+from core.supply import dip_limits
 
 
 def test_iso_8528_5_classes_from_memory() -> None:

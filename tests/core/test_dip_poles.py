@@ -1,4 +1,5 @@
-"""Tests of the pole closing instants (``pole_delay_s``) in core.dip, dip_sizing and dip_study.
+"""Tests of the pole closing instants (``pole_delay_s``) in core.supply.dip, dip_sizing and
+dip_study.
 
 References beside each check: the code's own results without the keyword (bit for bit, the
 behaviour the poles must not change when they all close at t = 0); the same event seen from a
@@ -24,27 +25,28 @@ from typing import Any
 import numpy as np
 import pytest
 
-from core import dip, dip_limits, dip_sizing, dip_study, generator, transformer
 from core.errors import ParameterError
+from core.supply import dip, dip_limits, dip_study, generator_sizing, sources
+from core.transformer import circuit_model
 
 F_HZ = 60.0
 T = 1.0 / F_HZ
 V_LL = 480.0
 S_GEN = 1.25e6
 RESIDUAL = (0.8, -0.4, -0.4)
-LOAD = generator.BusLoad(400e3, 300e3)
+LOAD = sources.BusLoad(400e3, 300e3)
 SPC = 128  # the default steps per cycle, which these circuits do not raise
 H = T / SPC
 
 
-def _northgate() -> generator.Generator:
+def _northgate() -> sources.Generator:
     # X''_d, X'_d from the demo scenario; X_d, T''_d, T'_d invented demo values
-    return generator.Generator(S_GEN, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
+    return sources.Generator(S_GEN, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
 
 
-def _unit(connection: str = "wye_grounded") -> transformer.EquivalentCircuit:
-    return transformer.equivalent_circuit(
-        transformer.Nameplate(
+def _unit(connection: str = "wye_grounded") -> circuit_model.EquivalentCircuit:
+    return circuit_model.equivalent_circuit(
+        circuit_model.Nameplate(
             rating_va=2.5e6,
             phases=3,
             frequency_hz=60,
@@ -90,8 +92,8 @@ def test_sweep_sizing_and_study_with_poles_at_zero_are_bit_identical(
     # Reference: the same calls without the keyword.
     gen, circ = _northgate(), _unit("delta")
     ratings = [1e6, 3e6]
-    plain = dip_sizing.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2)
-    zeros = dip_sizing.dip_sweep(
+    plain = generator_sizing.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2)
+    zeros = generator_sizing.dip_sweep(
         gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=0.0
     )
     assert np.array_equal(plain, zeros)
@@ -194,7 +196,7 @@ def test_grounded_wye_phases_on_a_utility_source_close_independently() -> None:
     # t_k; before t_k it carries no current (its flux kept, as the later match shows).
     # Measured when written: 4e-15 of the first peak (rounding: the angle enters through
     # omega*t at different t); tolerance 1e-12.
-    util = generator.UtilitySource(20e6, 8.0, V_LL, F_HZ)
+    util = sources.UtilitySource(20e6, 8.0, V_LL, F_HZ)
     circ = _unit()
     # b and c close near the voltage zero that drives their residual -0.4 pu deeper (b at
     # 107 steps, 300.9 deg of phase A, c at 21 steps, 59.1 deg): both saturate
@@ -277,7 +279,7 @@ def test_staggered_poles_are_reported_and_used_everywhere(
     gen, circ = _northgate(), _unit("delta")
     poles = (0.0, 2.1e-3, 4.7e-3)
     single = dip.energize_from_source(gen, circ, 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles)
-    swept = dip_sizing.dip_sweep(
+    swept = generator_sizing.dip_sweep(
         gen, circ, [S_GEN], 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles
     )
     assert swept[0] == pytest.approx(single.dip_percent, rel=1e-12)
@@ -288,7 +290,7 @@ def test_staggered_poles_are_reported_and_used_everywhere(
     assert_identical(report.study, single)
     assert report.sizing is not None
     assert report.sizing.rating_va is not None
-    sized = dip_sizing.dip_sweep(
+    sized = generator_sizing.dip_sweep(
         gen, circ, [report.sizing.rating_va], 0.0, RESIDUAL, pole_delay_s=poles
     )  # the sizing's own 2 s dip simulation
     assert report.sizing.dip_percent == pytest.approx(float(sized[0]), rel=1e-12)
@@ -313,10 +315,10 @@ def test_invalid_pole_delays_name_the_parameter(bad: Any) -> None:
         lambda: dip.energize_from_source(
             gen, circ, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=bad
         ),
-        lambda: dip_sizing.dip_sweep(
+        lambda: generator_sizing.dip_sweep(
             gen, circ, [S_GEN], 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=bad
         ),
-        lambda: dip_sizing.smallest_generator(
+        lambda: generator_sizing.smallest_generator(
             gen, circ, "G2", 0.0, RESIDUAL, dip_duration_s=0.2, pole_delay_s=bad
         ),
         lambda: dip_study.dip_study(gen, circ, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=bad),

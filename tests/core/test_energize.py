@@ -1,4 +1,5 @@
-"""Tests of core.energize: analytic limiting cases, connection identities and properties.
+"""Tests of core.energization.energize: analytic limiting cases, connection identities and
+properties.
 
 The comparison with scipy's integrators is in tests/references/test_solver_vs_scipy.py.
 """
@@ -14,8 +15,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core import analytic, energize, magnetizing, transformer, waveform
+from core.energization import closed_form, energize, waveform
 from core.errors import LimitError, ParameterError
+from core.transformer import circuit_model, magnetizing
 
 F_HZ = 60.0
 OMEGA = 2.0 * math.pi * F_HZ
@@ -26,20 +28,20 @@ L_M = 600.0 * L_AIR  # [H]
 SPC = 128
 
 
-def _lossless(knee_pu: float) -> transformer.EquivalentCircuit:
+def _lossless(knee_pu: float) -> circuit_model.EquivalentCircuit:
     """R = 0, L_s = 0, two-slope curve with the knee at knee_pu * lambda_N."""
     curve = magnetizing.two_slope(L_M, knee_pu * LAMBDA_N, L_AIR)
-    return transformer.circuit_from_si(V_RMS, F_HZ, 0.0, 0.0, curve)
+    return circuit_model.circuit_from_si(V_RMS, F_HZ, 0.0, 0.0, curve)
 
 
 def _first_cycle_peak(sim: energize.Simulation) -> float:
     return float(waveform.cycle_peaks(sim.line_current_a, sim.samples_per_cycle)[0, :, 0].max())
 
 
-def _single_phase_unit() -> transformer.EquivalentCircuit:
+def _single_phase_unit() -> circuit_model.EquivalentCircuit:
     # a 167 kVA single-phase unit, 13.8 kV/sqrt(3) winding, defaults otherwise
-    npl = transformer.Nameplate(167e3, 1, F_HZ, V_RMS, no_load_current_percent=1.0)
-    return transformer.equivalent_circuit(npl)
+    npl = circuit_model.Nameplate(167e3, 1, F_HZ, V_RMS, no_load_current_percent=1.0)
+    return circuit_model.equivalent_circuit(npl)
 
 
 # ------------------------------------------------------------------ limiting cases
@@ -54,7 +56,7 @@ def test_lossless_first_peak_is_wang_plus_knee_current(residual: float, knee: fl
     # cycle), so only the integrator's error remains: RK4 on d(lambda)/dt = v(t) is Simpson's
     # rule, ~1e-9 relative at 128 steps per cycle; 1e-6 leaves margin.
     sim = energize.simulate(_lossless(knee), 0.0, residual, duration_s=1.0 / F_HZ)
-    wang = float(analytic.first_peak_wang(V_RMS, F_HZ, L_AIR, 0.0, residual, knee))
+    wang = float(closed_form.first_peak_wang(V_RMS, F_HZ, L_AIR, 0.0, residual, knee))
     expected = wang + knee * LAMBDA_N / L_M
     assert _first_cycle_peak(sim) == pytest.approx(expected, rel=1e-6)
 
@@ -80,7 +82,7 @@ def test_below_the_knee_the_current_is_the_linear_rl_transient() -> None:
     # Tolerance 1e-6 of the peak: RK4's error on this smooth linear ODE is ~1e-9.
     ls, r, b_r, alpha = 0.2 * L_AIR, 2.0, 0.8, math.radians(0.0)
     curve = magnetizing.two_slope(L_M, 4.0 * LAMBDA_N, L_AIR)
-    circuit = transformer.circuit_from_si(V_RMS, F_HZ, r, ls, curve)
+    circuit = circuit_model.circuit_from_si(V_RMS, F_HZ, r, ls, curve)
     sim = energize.simulate(circuit, 0.0, b_r, duration_s=5.0 / F_HZ)
     t = sim.time_s
     big_l = L_M + ls
@@ -116,8 +118,8 @@ def test_controlled_closing_gives_magnetising_level_current(residual: float) -> 
 # ------------------------------------------------------------------ three phase, connections
 
 
-def _demo_unit(connection: str, voltage: float, position: str) -> transformer.EquivalentCircuit:
-    npl = transformer.Nameplate(
+def _demo_unit(connection: str, voltage: float, position: str) -> circuit_model.EquivalentCircuit:
+    npl = circuit_model.Nameplate(
         2500e3,
         3,
         F_HZ,
@@ -126,7 +128,7 @@ def _demo_unit(connection: str, voltage: float, position: str) -> transformer.Eq
         position=position,
         no_load_current_percent=0.8,
     )
-    return transformer.equivalent_circuit(npl)
+    return circuit_model.equivalent_circuit(npl)
 
 
 def test_pole_delay_keeps_a_phase_at_zero_until_it_closes() -> None:
@@ -169,7 +171,7 @@ def test_delta_on_ideal_source_line_current_is_difference_of_winding_currents() 
     # line-to-line voltage, which leads the phase voltage by 30 deg: e_ab = sqrt(3) V_ph
     # sin(wt + alpha + 30). rtol 1e-9: only the voltage's rounding differs.
     for k, shift in enumerate((0.0, -120.0, 120.0)):
-        single = transformer.circuit_from_si(
+        single = circuit_model.circuit_from_si(
             circuit.line_voltage_v, F_HZ, circuit.winding_resistance_ohm, 0.0, circuit.curve
         )
         one = energize.simulate(single, alpha + shift + 30.0, residual[k], duration_s=4.0 / F_HZ)
@@ -183,7 +185,7 @@ def test_grounded_wye_phases_are_independent_single_phase_circuits() -> None:
     residual = np.array([0.6, 0.1, -0.7])
     sim = energize.simulate(circuit, 45.0, residual, duration_s=3.0 / F_HZ)
     for k, shift in enumerate((0.0, -120.0, 120.0)):  # ABC sequence: B lags, C leads
-        single = transformer.circuit_from_si(
+        single = circuit_model.circuit_from_si(
             circuit.winding_voltage_v, F_HZ, circuit.winding_resistance_ohm, 0.0, circuit.curve
         )
         one = energize.simulate(single, 45.0 + shift, residual[k], duration_s=3.0 / F_HZ)
@@ -234,15 +236,15 @@ def test_a_batch_gives_the_same_as_one_case_at_a_time() -> None:
     base = _single_phase_unit()
     circuits = [
         base,
-        transformer.circuit_from_si(V_RMS, F_HZ, 1.0, 0.1 * L_AIR, base.curve),
-        transformer.circuit_from_si(
+        circuit_model.circuit_from_si(V_RMS, F_HZ, 1.0, 0.1 * L_AIR, base.curve),
+        circuit_model.circuit_from_si(
             V_RMS,
             F_HZ,
             0.5,
             0.0,
             magnetizing.smooth_knee(L_M, 1.2 * LAMBDA_N, L_AIR, 0.05 * LAMBDA_N),
         ),
-        transformer.circuit_from_si(
+        circuit_model.circuit_from_si(
             V_RMS,
             F_HZ,
             0.8,
@@ -263,9 +265,9 @@ def test_a_batch_gives_the_same_as_one_case_at_a_time() -> None:
 
 def test_a_three_phase_batch_gives_the_same_as_one_case_at_a_time() -> None:
     for connection, voltage in (("delta", 13.8e3), ("wye", 480.0)):
-        circuit = transformer.equivalent_circuit(
-            transformer.Nameplate(2500e3, 3, F_HZ, voltage, connection=connection),
-            transformer.Source("fault_level", fault_va=250e6, x_over_r=12.0),
+        circuit = circuit_model.equivalent_circuit(
+            circuit_model.Nameplate(2500e3, 3, F_HZ, voltage, connection=connection),
+            circuit_model.Source("fault_level", fault_va=250e6, x_over_r=12.0),
         )
         angles = np.array([0.0, 100.0, 250.0])
         residual = np.array([[0.8, -0.4, -0.4], [0.0, 0.5, -0.5], [-0.2, 0.7, -0.5]])
@@ -341,12 +343,12 @@ def test_worst_closing_angle_is_rounded_and_wrapped_into_a_turn() -> None:
 # ------------------------------------------------------------------ pre-insertion resistor, ramp
 
 
-def _mitigation_circuits() -> list[tuple[str, transformer.EquivalentCircuit]]:
+def _mitigation_circuits() -> list[tuple[str, circuit_model.EquivalentCircuit]]:
     """One circuit per kernel path: independent windings, delta on an ideal source, coupled."""
-    src = transformer.Source("fault_level", fault_va=50e6, x_over_r=12.0)
+    src = circuit_model.Source("fault_level", fault_va=50e6, x_over_r=12.0)
     three = [
-        (f"{conn}-{'source' if s else 'ideal'}", transformer.equivalent_circuit(
-            transformer.Nameplate(
+        (f"{conn}-{'source' if s else 'ideal'}", circuit_model.equivalent_circuit(
+            circuit_model.Nameplate(
                 2500e3, 3, F_HZ, 13.8e3, connection=conn, no_load_current_percent=0.8
             ),
             s,
@@ -361,7 +363,7 @@ MITIGATION_IDS = [name for name, _ in MITIGATION_CIRCUITS]
 RESIDUAL = (0.8, -0.4, -0.4)
 
 
-def _run(circuit: transformer.EquivalentCircuit, **kwargs: Any) -> energize.Simulation:
+def _run(circuit: circuit_model.EquivalentCircuit, **kwargs: Any) -> energize.Simulation:
     residual = RESIDUAL[: circuit.phases]
     return energize.simulate(
         circuit, (0.0, 100.0), residual, (0.0, 1.3e-3, 2.9e-3)[: circuit.phases],
@@ -378,7 +380,7 @@ def _assert_identical(a: energize.Simulation, b: energize.Simulation) -> None:
 
 @pytest.mark.parametrize(("name", "circuit"), MITIGATION_CIRCUITS, ids=MITIGATION_IDS)
 def test_a_zero_resistor_is_the_default_bit_for_bit(
-    name: str, circuit: transformer.EquivalentCircuit
+    name: str, circuit: circuit_model.EquivalentCircuit
 ) -> None:
     # Limiting case R_ins = 0: the kernels add exactly 0.0 to each line's resistance
     default = _run(circuit)
@@ -390,7 +392,7 @@ def test_a_zero_resistor_is_the_default_bit_for_bit(
 
 @pytest.mark.parametrize(("name", "circuit"), MITIGATION_CIRCUITS, ids=MITIGATION_IDS)
 def test_a_resistor_bypassed_at_closing_is_none_bit_for_bit(
-    name: str, circuit: transformer.EquivalentCircuit
+    name: str, circuit: circuit_model.EquivalentCircuit
 ) -> None:
     # Limiting case t_ins = 0: shorted from the first instant, the resistor never carries
     # current; the step plan and the kernel (a delta on an ideal source stays on the
@@ -402,7 +404,7 @@ def test_a_resistor_bypassed_at_closing_is_none_bit_for_bit(
 
 @pytest.mark.parametrize(("name", "circuit"), MITIGATION_CIRCUITS, ids=MITIGATION_IDS)
 def test_a_ramp_from_full_voltage_is_the_default_bit_for_bit(
-    name: str, circuit: transformer.EquivalentCircuit
+    name: str, circuit: circuit_model.EquivalentCircuit
 ) -> None:
     # Limiting case start = 1: g = 1 + 0*(t - t_hold)/t_rise is exactly 1 throughout, and the
     # EMF multiplied by exactly 1.0 is the EMF
@@ -412,7 +414,7 @@ def test_a_ramp_from_full_voltage_is_the_default_bit_for_bit(
 
 @pytest.mark.parametrize(("name", "circuit"), MITIGATION_CIRCUITS, ids=MITIGATION_IDS)
 def test_more_insertion_resistance_gives_a_lower_first_peak(
-    name: str, circuit: transformer.EquivalentCircuit
+    name: str, circuit: circuit_model.EquivalentCircuit
 ) -> None:
     # monotone property: a larger series resistance, in for the whole first cycle, leaves less
     # of the source voltage across the winding while it saturates; the first peak falls
@@ -520,7 +522,7 @@ def test_below_the_knee_a_bypassed_resistor_gives_two_rl_transients(ramp: bool) 
     # it, and g evaluated at the whole step's stage times in every sub-step by 1.2e-5
     # (measured; 9.8e-6 for the delta below).
     ls, r, r_ins, b_r = 0.2 * L_AIR, 2.0, 3000.0, 0.8
-    circuit = transformer.circuit_from_si(
+    circuit = circuit_model.circuit_from_si(
         V_RMS, F_HZ, r, ls, magnetizing.two_slope(L_M, 4.0 * LAMBDA_N, L_AIR)
     )
     sim = energize.simulate(
@@ -555,7 +557,7 @@ def test_lossless_linear_flux_under_a_ramp_is_the_integral_of_the_emf(rise_cycle
     # ~1e-9 per cycle when g is evaluated at every stage, so 1e-6 of the peak; g held over each
     # step instead is off by ~(1 - start)/rise*h/2 of the EMF (~1e-3).
     start, alpha = 0.3, math.radians(40.0)
-    circuit = transformer.circuit_from_si(
+    circuit = circuit_model.circuit_from_si(
         V_RMS, F_HZ, 0.0, 0.0, magnetizing.two_slope(L_M, 4.0 * LAMBDA_N, L_AIR)
     )
     sim = energize.simulate(

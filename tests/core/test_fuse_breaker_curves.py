@@ -1,5 +1,5 @@
-"""Tests of core.fuse_breaker_curves: tabulated curves, the low-voltage breaker band and the
-fuse I²t, with limiting cases, properties and explicit validation.
+"""Tests of core.protection.fuse_breaker_curves: tabulated curves, the low-voltage breaker band and
+the fuse I²t, with limiting cases, properties and explicit validation.
 """
 
 from __future__ import annotations
@@ -11,8 +11,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core import fuse_breaker_curves
 from core.errors import ParameterError
+from core.protection import fuse_breaker_curves
 
 # ------------------------------------------------------------------------------ tabulated curves
 

@@ -1,5 +1,5 @@
-"""Tests of core.generator (source models, hand method), core.dip (coupled dip) and
-core.dip_sizing (dip against rating, the smallest passing generator).
+"""Tests of core.supply.sources (source models, hand method), core.supply.dip (coupled dip) and
+core.supply.generator_sizing (dip against rating, the smallest passing generator).
 
 Limiting cases are solved by hand in the comments; the comparison of the coupled equations with
 scipy's Radau integrator is in tests/references/test_generator_references.py.
@@ -19,8 +19,9 @@ import math
 import numpy as np
 import pytest
 
-from core import dip, dip_limits, dip_sizing, generator, magnetizing, transformer
 from core.errors import ParameterError
+from core.supply import dip, dip_limits, generator_sizing, sources
+from core.transformer import circuit_model, magnetizing
 
 F_HZ = 60.0
 OMEGA = 2.0 * math.pi * F_HZ
@@ -30,14 +31,14 @@ S_GEN = 1.25e6
 RESIDUAL = (0.8, -0.4, -0.4)
 
 
-def _northgate() -> generator.Generator:
+def _northgate() -> sources.Generator:
     # X''_d, X'_d from the demo scenario; X_d, T''_d, T'_d invented demo values (see above)
-    return generator.Generator(S_GEN, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
+    return sources.Generator(S_GEN, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
 
 
-def _unit() -> transformer.EquivalentCircuit:
-    return transformer.equivalent_circuit(
-        transformer.Nameplate(
+def _unit() -> circuit_model.EquivalentCircuit:
+    return circuit_model.equivalent_circuit(
+        circuit_model.Nameplate(
             rating_va=2.5e6,
             phases=3,
             frequency_hz=60,
@@ -51,7 +52,7 @@ def _unit() -> transformer.EquivalentCircuit:
     )
 
 
-def _linear_load(s_va: float, r_over_x: float = 0.0) -> transformer.EquivalentCircuit:
+def _linear_load(s_va: float, r_over_x: float = 0.0) -> circuit_model.EquivalentCircuit:
     """The demo unit with its core replaced by a linear inductance drawing s_va at rated voltage.
 
     The knee is put at 100 x lambda_N, so the curve never saturates: a constant-impedance
@@ -69,12 +70,12 @@ def _linear_load(s_va: float, r_over_x: float = 0.0) -> transformer.EquivalentCi
 def test_voltage_divider_formula() -> None:
     # Delta V = X*S/(S_gen + X*S): 0.15*1/(1 + 0.15) = 13.04 % for a load equal to the rating;
     # no load, no dip; an infinite load takes the voltage to zero.
-    d = generator.first_dip_voltage_divider(0.15, S_GEN, [0.0, S_GEN, 1e15])
+    d = sources.first_dip_voltage_divider(0.15, S_GEN, [0.0, S_GEN, 1e15])
     assert d[0] == 0.0
     assert d[1] == pytest.approx(100.0 * 0.15 / 1.15, rel=1e-12)
     assert d[2] == pytest.approx(100.0, rel=1e-6)
     with pytest.raises(ParameterError) as err:
-        generator.first_dip_voltage_divider(0.0, S_GEN, 1.0)
+        sources.first_dip_voltage_divider(0.0, S_GEN, 1.0)
     assert err.value.parameter == "reactance_pu"
 
 
@@ -91,7 +92,7 @@ def test_constant_reactive_load_reproduces_the_voltage_divider(load_pu: float) -
     study = dip.energize_from_source(
         gen, _linear_load(load_pu * S_GEN), 0.0, 0.0, excitation="constant_field", duration_s=0.05
     )
-    expected = 1.0 - float(generator.first_dip_voltage_divider(0.15, S_GEN, load_pu * S_GEN)) / 100
+    expected = 1.0 - float(sources.first_dip_voltage_divider(0.15, S_GEN, load_pu * S_GEN)) / 100
     np.testing.assert_allclose(study.voltage_rms_pu[:, 0], expected, atol=5e-5)
     np.testing.assert_allclose(study.voltage_line_rms_pu[:, 0], expected, atol=5e-5)
 
@@ -100,7 +101,7 @@ def test_utility_source_dip_is_the_complex_divider() -> None:
     # Constant EMF behind R + jX (fault level 10 MVA, X/R 5); a linear load of 1.25 MVA with the
     # same X/R, so the load's DC offset again produces no terminal voltage and the voltage is
     # E*|Z_L|/|Z_L + Z_S| from t = 0: exact up to the integrator (1e-6 pu; measured 3e-16).
-    src = generator.UtilitySource(10e6, 5.0, V_LL, F_HZ)
+    src = sources.UtilitySource(10e6, 5.0, V_LL, F_HZ)
     study = dip.energize_from_source(src, _linear_load(S_GEN, 0.2), 30.0, 0.0, duration_s=0.05)
     z_s = V_LL**2 / 10e6 * complex(1.0, 5.0) / math.sqrt(26.0)
     z_l = V_LL**2 / S_GEN * complex(0.2, 1.0)
@@ -116,7 +117,7 @@ def _regulated(gain: float, ceiling: float, t_d1_s: float) -> dip.DipStudy:
     # Fast subtransient (T''_d = 5 ms) and fast regulator (T_A = 5 ms, no transducer lag):
     # after a few cycles the machine is its transient model, E'_q behind X'_d.
     gen = dataclasses.replace(_northgate(), t_d2_s=0.005, t_d1_s=t_d1_s, armature_resistance_pu=0.0)
-    exc = generator.Excitation(gain, 0.005, ceiling, 0.0, 0.0)
+    exc = sources.Excitation(gain, 0.005, ceiling, 0.0, 0.0)
     return dip.energize_from_source(
         gen, _linear_load(S_GEN), 0.0, 0.0, excitation=exc, duration_s=3.0
     )
@@ -174,7 +175,7 @@ def test_bus_load_pre_event_state_is_steady() -> None:
         _linear_load(0.1),
         17.0,
         0.0,
-        bus_load=generator.BusLoad(500e3, 300e3),
+        bus_load=sources.BusLoad(500e3, 300e3),
         pre_event_voltage_pu=0.98,
         duration_s=0.5,
     )
@@ -188,7 +189,7 @@ def test_bus_load_pre_event_state_is_steady() -> None:
 
 def test_larger_generator_gives_smaller_dip() -> None:
     ratings = S_GEN * np.array([0.5, 1.0, 2.0, 4.0, 8.0])
-    dips = dip_sizing.dip_sweep(_northgate(), _unit(), ratings, 0.0, RESIDUAL, duration_s=0.5)
+    dips = generator_sizing.dip_sweep(_northgate(), _unit(), ratings, 0.0, RESIDUAL, duration_s=0.5)
     assert np.all(np.diff(dips) < 0.0), dips
 
 
@@ -205,7 +206,7 @@ def test_higher_residual_flux_gives_deeper_dip() -> None:
 def test_sweep_equals_single_study() -> None:
     # vector equals scalar: the vectorised sweep reproduces the single-case study exactly
     single = dip.energize_from_source(_northgate(), _unit(), 0.0, RESIDUAL, duration_s=0.5)
-    swept = dip_sizing.dip_sweep(
+    swept = generator_sizing.dip_sweep(
         _northgate(), _unit(), [S_GEN, 2 * S_GEN], 0.0, RESIDUAL, duration_s=0.5
     )
     assert swept[0] == pytest.approx(single.dip_percent, rel=1e-12)
@@ -229,7 +230,7 @@ def test_delta_independent_loops_are_conservative() -> None:
     study = dip.energize_from_source(
         gen, circ, 0.0, 0.0, excitation="constant_field", duration_s=0.05
     )
-    exact = float(generator.first_dip_voltage_divider(0.15, S_GEN, S_GEN))
+    exact = float(sources.first_dip_voltage_divider(0.15, S_GEN, S_GEN))
     assert exact < study.dip_percent < exact + 1.0
     assert any("delta" in a for a in study.approximations)
 
@@ -264,42 +265,42 @@ def test_invalid_generator_data_names_the_field(change: dict[str, object], field
     }
     args.update(change)
     with pytest.raises(ParameterError) as err:
-        generator.Generator(**args)  # type: ignore[arg-type]
+        sources.Generator(**args)  # type: ignore[arg-type]
     assert err.value.parameter == field
 
 
 def test_open_circuit_time_constant_is_converted() -> None:
     # T'_d = T'_do*X'_d/X_d (Kundur 1994, ch. 4, from memory): 6.4 s * 0.25/2 = 0.8 s
-    g = generator.Generator(S_GEN, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1o_s=6.4)
+    g = sources.Generator(S_GEN, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1o_s=6.4)
     assert g.t_d1_short_s == pytest.approx(0.8)
     assert g.t_d2o_open_s == pytest.approx(0.05)
 
 
 def test_circuit_with_its_own_source_is_refused() -> None:
     npl = dataclasses.replace(
-        transformer.Nameplate(2.5e6, 3, F_HZ, V_LL), connection="wye_grounded"
+        circuit_model.Nameplate(2.5e6, 3, F_HZ, V_LL), connection="wye_grounded"
     )
-    circ = transformer.equivalent_circuit(npl, transformer.Source("fault_level", 50e6, 10.0))
+    circ = circuit_model.equivalent_circuit(npl, circuit_model.Source("fault_level", 50e6, 10.0))
     with pytest.raises(ParameterError) as err:
         dip.energize_from_source(_northgate(), circ, duration_s=0.1)
     assert err.value.parameter == "circuit.source_inductance_h"
 
 
 def test_excitation_ceiling_below_the_load_field_is_refused() -> None:
-    exc = generator.Excitation(50.0, 0.5, 1.2)
+    exc = sources.Excitation(50.0, 0.5, 1.2)
     with pytest.raises(ParameterError) as err:
         dip.energize_from_source(
             _northgate(),
             _unit(),
             excitation=exc,
-            bus_load=generator.BusLoad(1e6, 750e3),
+            bus_load=sources.BusLoad(1e6, 750e3),
             duration_s=0.1,
         )
     assert err.value.parameter == "excitation.ceiling_pu"
 
 
 def test_unknown_excitation_states_its_provenance() -> None:
-    exc = generator.unknown_excitation(_northgate())
+    exc = sources.unknown_excitation(_northgate())
     # rated-load field |1 + jX_d(0.8 - j0.6)| = |2.2 + j1.6| = 2.72 pu; ceiling 1.5 x that
     assert exc.ceiling_pu == pytest.approx(1.5 * abs(complex(2.2, 1.6)))
     assert set(exc.provenance) == {
@@ -316,13 +317,13 @@ def test_unknown_excitation_states_its_provenance() -> None:
 
 
 def test_sizing_states_when_the_bounds_decide() -> None:
-    small = dip_sizing.smallest_generator(
+    small = generator_sizing.smallest_generator(
         _northgate(), _unit(), "G2", 0.0, RESIDUAL, bounds_va=(1e5, 2e5), dip_duration_s=0.3
     )
     assert small.status == "largest_bound_fails"
     assert small.rating_va is None
     assert "Even the largest rating searched" in small.statement
-    big = dip_sizing.smallest_generator(
+    big = generator_sizing.smallest_generator(
         _northgate(),
         _unit(),
         "G2",
@@ -336,7 +337,7 @@ def test_sizing_states_when_the_bounds_decide() -> None:
     assert big.rating_va == 1e8
     assert "Even the smallest rating searched" in big.statement
     with pytest.raises(ParameterError):
-        dip_sizing.smallest_generator(_northgate(), _unit(), "G4")
+        generator_sizing.smallest_generator(_northgate(), _unit(), "G4")
 
 
 # ------------------------------------------------------------------------- demo case
@@ -361,12 +362,12 @@ def test_northgate_back_feed_end_to_end() -> None:
     }
     assert verdict == {"G1": False, "G2": False, "G3": False, "G4": None}
     # measured: 13,747 kVA (dip 20.0 %, recovery 0.48 s) on the worst-voltage measure
-    sizing = dip_sizing.smallest_generator(gen, circ, "G2", 0.0, RESIDUAL, dip_duration_s=0.5)
+    sizing = generator_sizing.smallest_generator(gen, circ, "G2", 0.0, RESIDUAL, dip_duration_s=0.5)
     assert sizing.status == "found"
     assert sizing.rating_va is not None
     assert sizing.rating_va > S_GEN
     assert sizing.dip_percent <= 20.0
-    below = dip_sizing.dip_sweep(
+    below = generator_sizing.dip_sweep(
         gen, circ, [sizing.rating_va * 0.99], 0.0, RESIDUAL, duration_s=0.5
     )
     assert below[0] > 20.0  # 1 % smaller already fails: it is the smallest
@@ -375,11 +376,11 @@ def test_northgate_back_feed_end_to_end() -> None:
 
 def test_bus_load_validation() -> None:
     with pytest.raises(ParameterError) as err:
-        generator.BusLoad(0.0, 0.0)
+        sources.BusLoad(0.0, 0.0)
     assert err.value.parameter == "bus_load.active_power_w"
     # 1 kW purely resistive: (L_L + L_s)/(R_L + R_s) = 0.3 us, beyond the step limit
     with pytest.raises(ParameterError) as err:
         dip.energize_from_source(
-            _northgate(), _unit(), bus_load=generator.BusLoad(1e3, 0.0), duration_s=0.1
+            _northgate(), _unit(), bus_load=sources.BusLoad(1e3, 0.0), duration_s=0.1
         )
     assert err.value.parameter == "bus_load.reactive_power_var"

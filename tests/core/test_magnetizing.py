@@ -1,5 +1,5 @@
-"""Tests of core.magnetizing: curve values, the smooth knee's limits, the rms of a sinusoidal
-flux, the open-circuit (rms) to peak conversion, and validation.
+"""Tests of core.transformer.magnetizing: curve values, the smooth knee's limits, the rms of a
+sinusoidal flux, the open-circuit (rms) to peak conversion, and validation.
 
 The independent references are scipy.integrate.quad of the defining integrals.
 """
@@ -12,8 +12,8 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from core import magnetizing
 from core.errors import ParameterError
+from core.transformer import magnetizing
 
 # ------------------------------------------------------------------ two-slope and table
 

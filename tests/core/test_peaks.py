@@ -1,11 +1,12 @@
-"""Tests of core.peaks: the curve inverse and the exact reading's basic properties."""
+"""Tests of core.energization.peaks: the curve inverse and the exact reading's basic properties."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from core import energize, magnetizing, peaks, transformer
+from core.energization import energize, peaks
+from core.transformer import circuit_model, magnetizing
 
 
 @pytest.mark.parametrize(
@@ -25,8 +26,8 @@ def test_flux_of_current_inverts_the_curve(curve: magnetizing.MagnetizingCurve) 
 
 
 def test_exact_peaks_are_never_below_the_samples_and_stay_in_their_cycle() -> None:
-    npl = transformer.Nameplate(2500e3, 3, 60.0, 13.8e3, connection="wye")
-    c = transformer.equivalent_circuit(npl)
+    npl = circuit_model.Nameplate(2500e3, 3, 60.0, 13.8e3, connection="wye")
+    c = circuit_model.equivalent_circuit(npl)
     res = np.array([[0.8, -0.4, -0.4]])
     sim = energize.simulate(c, 0.0, res, duration_s=5.0 / 60.0, samples_per_cycle=64)
     got = peaks.cycle_peaks([c], np.array([0.0]), res, sim)[0]

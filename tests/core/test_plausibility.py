@@ -1,4 +1,4 @@
-"""core.plausibility: the source-strength floor and the rating/voltage warnings."""
+"""core.transformer.plausibility: the source-strength floor and the rating/voltage warnings."""
 
 from __future__ import annotations
 
@@ -7,8 +7,8 @@ import math
 import pytest
 from scipy.optimize import minimize_scalar
 
-from core import plausibility, transformer
 from core.errors import ParameterError
+from core.transformer import circuit_model, plausibility
 
 
 def _max_resistive_power_w(v: float, r_s: float, x_s: float) -> float:
@@ -49,14 +49,14 @@ def test_source_floor_is_twice_the_rating() -> None:
 def test_the_reported_case_is_rejected_by_the_nameplate_conversion() -> None:
     # 45 kVA, 480 V delta, Z 3.5 %, X/R 1.2, no-load 3 %, on a 0.01 MVA source: the source is
     # 0.22 x the rating (S_sc/S_r), far below the floor of 2
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         rating_va=45e3, phases=3, frequency_hz=60.0, line_voltage_v=480.0, connection="delta",
         position="inner", impedance_percent=3.5, x_over_r=1.2, no_load_current_percent=3.0,
     )  # fmt: skip
     with pytest.raises(ParameterError) as err:
-        transformer.equivalent_circuit(npl, transformer.Source("fault_level", 1e4, 10.0))
+        circuit_model.equivalent_circuit(npl, circuit_model.Source("fault_level", 1e4, 10.0))
     assert err.value.value == pytest.approx(1e4, rel=1e-12)
-    ok = transformer.equivalent_circuit(npl, transformer.Source("fault_level", 9e4, 10.0))
+    ok = circuit_model.equivalent_circuit(npl, circuit_model.Source("fault_level", 9e4, 10.0))
     assert ok.warnings == ()
 
 

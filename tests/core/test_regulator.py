@@ -2,7 +2,7 @@
 
 References: the loop's phase margin and closed-loop poles are recomputed with scipy.signal and
 numpy polynomial roots from the transfer function written out here (independent of the state
-matrix in core.generator); damping ratio of a mode and the logarithmic decrement of a damped
+matrix in core.supply.sources); damping ratio of a mode and the logarithmic decrement of a damped
 sinusoid, Kundur 1994 ch. 12 and Ogata, "Modern Control Engineering", ch. 5 (from memory).
 
 The machine of the reported case: 937.5 kVA, X''d 0.15, X'd 0.25, Xd 2.8 pu, T''d 0.015 s,
@@ -20,17 +20,18 @@ import pytest
 import scipy.optimize
 import scipy.signal
 
-from core import dip, dip_limits, generator, transformer
 from core.errors import ParameterError
+from core.supply import dip, dip_limits, sources
+from core.transformer import circuit_model
 
 F_HZ = 60.0
 V_LL = 480.0
 RESIDUAL = (0.8, -0.4, -0.4)
 
 
-def _unit() -> transformer.EquivalentCircuit:
-    return transformer.equivalent_circuit(
-        transformer.Nameplate(
+def _unit() -> circuit_model.EquivalentCircuit:
+    return circuit_model.equivalent_circuit(
+        circuit_model.Nameplate(
             rating_va=1e6,
             phases=3,
             frequency_hz=F_HZ,
@@ -44,11 +45,11 @@ def _unit() -> transformer.EquivalentCircuit:
     )
 
 
-def _reported(rating_va: float = 937.5e3) -> generator.Generator:
-    return generator.Generator(rating_va, V_LL, F_HZ, 0.15, 0.25, 2.8, 0.015, t_d1_s=0.15)
+def _reported(rating_va: float = 937.5e3) -> sources.Generator:
+    return sources.Generator(rating_va, V_LL, F_HZ, 0.15, 0.25, 2.8, 0.015, t_d1_s=0.15)
 
 
-def _loop(g: generator.Generator, exc: generator.Excitation) -> scipy.signal.TransferFunction:
+def _loop(g: sources.Generator, exc: sources.Excitation) -> scipy.signal.TransferFunction:
     # L(s) = K_A/((1 + sT'do)(1 + sT''do)(1 + sT_A)(1 + sT_R)), open circuit
     den = np.array([1.0])
     for t in (g.t_d1o_open_s, g.t_d2o_open_s, exc.time_constant_s, exc.sensing_time_constant_s):
@@ -56,7 +57,7 @@ def _loop(g: generator.Generator, exc: generator.Excitation) -> scipy.signal.Tra
     return scipy.signal.TransferFunction([exc.gain_pu], den)
 
 
-def _closed_loop_zeta(g: generator.Generator, exc: generator.Excitation) -> float:
+def _closed_loop_zeta(g: sources.Generator, exc: sources.Excitation) -> float:
     # characteristic polynomial of the unity-feedback loop: den(s) + K_A
     tf = _loop(g, exc)
     char = np.polyadd(tf.den, tf.num)
@@ -72,11 +73,11 @@ TIME_CONSTANTS = ((0.002, 0.02), (0.005, 0.05), (0.015, 0.15), (0.05, 1.0), (0.2
                   (0.9, 20.0))  # fmt: skip
 
 
-def _machines() -> list[generator.Generator]:
+def _machines() -> list[sources.Generator]:
     out = []
     for (x2, x1, xd), (t2, t1) in itertools.product(REACTANCES, TIME_CONSTANTS):
         try:
-            out.append(generator.Generator(1e6, V_LL, F_HZ, x2, x1, xd, t2, t_d1_s=t1))
+            out.append(sources.Generator(1e6, V_LL, F_HZ, x2, x1, xd, t2, t_d1_s=t1))
         except ParameterError:  # T''do >= T'do: not a machine the model accepts
             continue
     return out
@@ -85,13 +86,13 @@ def _machines() -> list[generator.Generator]:
 def test_default_gain_gives_the_phase_margin() -> None:
     # scipy.signal's frequency response of the loop: where abs(L) = 1 the phase is -120 deg
     for g in _machines():
-        exc = generator.unknown_excitation(g)
+        exc = sources.unknown_excitation(g)
         tf = _loop(g, exc)
 
         def mag(log_w: float, tf: scipy.signal.TransferFunction = tf) -> float:
             return float(abs(scipy.signal.freqresp(tf, [math.exp(log_w)])[1][0])) - 1.0
 
-        if exc.gain_pu < generator.regulator_gain_for_margin(g, 0.5, 0.02):
+        if exc.gain_pu < sources.regulator_gain_for_margin(g, 0.5, 0.02):
             continue  # capped at 400: less gain, more margin (checked below)
         w = math.exp(scipy.optimize.brentq(mag, -12.0, 12.0, xtol=1e-13))
         phase = math.degrees(np.angle(scipy.signal.freqresp(tf, [w])[1][0]))
@@ -103,12 +104,12 @@ def test_default_closed_loop_well_damped_across_machines() -> None:
     # least-damped mode >= 0.4 on open circuit; the state-matrix value agrees with it
     seen = []
     for g in _machines():
-        exc = generator.unknown_excitation(g)
+        exc = sources.unknown_excitation(g)
         zeta = _closed_loop_zeta(g, exc)
         assert zeta >= 0.4
-        assert generator.regulator_damping_ratio(g, exc) == pytest.approx(zeta, abs=1e-7)
+        assert sources.regulator_damping_ratio(g, exc) == pytest.approx(zeta, abs=1e-7)
         seen.append(exc.gain_pu)
-    assert max(seen) == generator.UNKNOWN_GAIN_MAX_PU  # the cap is reached in this grid
+    assert max(seen) == sources.UNKNOWN_GAIN_MAX_PU  # the cap is reached in this grid
     assert min(seen) > 1.0
 
 
@@ -117,20 +118,20 @@ def test_default_damped_with_a_bus_load(pf: float) -> None:
     # a load left on the machine shortens its field time constant: the default stays damped
     for g, load_pu in itertools.product(_machines(), (0.1, 0.5, 1.0)):
         s = load_pu * g.rating_va
-        load = generator.BusLoad(s * pf, s * math.sqrt(1.0 - pf * pf))
-        exc = generator.unknown_excitation(g)
-        assert generator.regulator_damping_ratio(g, exc, load) >= 0.35
+        load = sources.BusLoad(s * pf, s * math.sqrt(1.0 - pf * pf))
+        exc = sources.unknown_excitation(g)
+        assert sources.regulator_damping_ratio(g, exc, load) >= 0.35
 
 
 def test_damping_ratio_without_transducer_lag() -> None:
     g = _reported()
-    exc = generator.Excitation(200.0, 0.05, 5.0, 0.0, 0.0)
+    exc = sources.Excitation(200.0, 0.05, 5.0, 0.0, 0.0)
     # third-order loop: (1 + 1.68s)(1 + 0.025s)(1 + 0.05s) + 200, unstable (Routh: gain above
     # the critical value), so the least-damped pair has zeta < 0
-    assert generator.regulator_damping_ratio(g, exc) == pytest.approx(
+    assert sources.regulator_damping_ratio(g, exc) == pytest.approx(
         _closed_loop_zeta(g, exc), abs=1e-9
     )
-    assert generator.regulator_damping_ratio(g, exc) < 0.0
+    assert sources.regulator_damping_ratio(g, exc) < 0.0
 
 
 def test_swings_log_decrement_of_a_damped_sinusoid() -> None:
@@ -170,7 +171,7 @@ def test_reported_case_recovers_with_the_default() -> None:
 def test_reported_case_with_the_old_gain_is_flagged() -> None:
     # the earlier default given as the caller's regulator: a 1.2 Hz swing, flagged
     g = _reported()
-    old = generator.Excitation(50.0, 0.5, generator.unknown_excitation(g).ceiling_pu, 0.0, 0.02)
+    old = sources.Excitation(50.0, 0.5, sources.unknown_excitation(g).ceiling_pu, 0.0, 0.02)
     study = dip.energize_from_source(g, _unit(), 0.0, RESIDUAL, excitation=old)
     assert not study.recovery_reliable
     assert study.regulator_damping_ratio < 0.01
@@ -194,7 +195,7 @@ def test_reported_case_with_the_old_gain_is_flagged() -> None:
 def test_fast_high_gain_regulator_limit_cycle_is_flagged() -> None:
     # K_A = 200, T_A = 0.05 s, no transducer lag: linearly unstable; the floor and ceiling hold
     # it in a limit cycle inside the 3 % band, so "recovered" would be read from an oscillation
-    exc = generator.Excitation(200.0, 0.05, 5.0, 0.0, 0.0)
+    exc = sources.Excitation(200.0, 0.05, 5.0, 0.0, 0.0)
     study = dip.energize_from_source(_reported(), _unit(), 0.0, RESIDUAL, excitation=exc)
     assert not study.recovery_reliable
     assert study.swings.count > 10
@@ -213,7 +214,7 @@ def test_default_recovers_without_sustained_swing(
     rating: float, x: tuple[float, float, float], t: tuple[float, float]
 ) -> None:
     # simulated: into the 3 % band, and any swing after the dip decays (no sustained swing)
-    g = generator.Generator(rating, V_LL, F_HZ, *x, t[0], t_d1_s=t[1])
+    g = sources.Generator(rating, V_LL, F_HZ, *x, t[0], t_d1_s=t[1])
     study = dip.energize_from_source(g, _unit(), 0.0, RESIDUAL, duration_s=6.0)
     assert study.recovery_reliable
     assert math.isfinite(study.recovery_time_s)
@@ -226,8 +227,8 @@ def test_default_recovers_without_sustained_swing(
 def test_gain_for_margin_checks_inputs() -> None:
     g = _reported()
     with pytest.raises(ParameterError) as err:
-        generator.regulator_gain_for_margin(g, 0.5, 0.02, phase_margin_deg=90.0)
+        sources.regulator_gain_for_margin(g, 0.5, 0.02, phase_margin_deg=90.0)
     assert err.value.parameter == "phase_margin_deg"
     with pytest.raises(ParameterError) as err:
-        generator.regulator_gain_for_margin(g, 0.0)
+        sources.regulator_gain_for_margin(g, 0.0)
     assert err.value.parameter == "excitation.time_constant_s"

@@ -1,5 +1,5 @@
-"""Tests of core.relay_curves: limiting cases, properties, integration against independent
-references, and explicit validation. Published reference values are in
+"""Tests of core.protection.relay_curves: limiting cases, properties, integration against
+independent references, and explicit validation. Published reference values are in
 tests/references/test_standard_curves.py.
 """
 
@@ -16,8 +16,8 @@ from hypothesis import strategies as st
 from scipy.integrate import quad
 from scipy.optimize import brentq
 
-from core import relay_curves
 from core.errors import ParameterError
+from core.protection import relay_curves
 
 IEEE = ("moderately_inverse", "very_inverse", "extremely_inverse")
 IEC = ("standard_inverse", "very_inverse", "extremely_inverse", "long_time_inverse")
@@ -227,8 +227,8 @@ def test_invalid_inputs_name_the_parameter(call: object, parameter: str) -> None
 
 
 def test_core_modules_import_only_numpy_scipy_and_core() -> None:
-    root = Path(__file__).resolve().parents[2] / "core"
-    for name in ("relay_curves.py", "fuse_breaker_curves.py", "damage.py"):
+    root = Path(__file__).resolve().parents[2] / "core" / "protection"
+    for name in ("relay_curves.py", "fuse_breaker_curves.py", "damage_curves.py"):
         tree = ast.parse((root / name).read_text(encoding="utf-8"))
         for node in ast.walk(tree):
             if isinstance(node, ast.Import):

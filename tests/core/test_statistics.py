@@ -1,4 +1,4 @@
-"""Tests of core.statistics: Monte Carlo peak distribution and exceedance."""
+"""Tests of core.statistics.monte_carlo: Monte Carlo peak distribution and exceedance."""
 
 from __future__ import annotations
 
@@ -7,8 +7,10 @@ import math
 import numpy as np
 import pytest
 
-from core import energize, statistics, transformer
+from core.energization import energize
 from core.errors import ParameterError
+from core.statistics import monte_carlo
+from core.transformer import circuit_model
 
 
 def _overlap(a: tuple[float, float], b: tuple[float, float]) -> bool:
@@ -16,12 +18,12 @@ def _overlap(a: tuple[float, float], b: tuple[float, float]) -> bool:
 
 
 def test_two_random_states_agree_within_p99_interval(
-    three_phase: transformer.EquivalentCircuit,
+    three_phase: circuit_model.EquivalentCircuit,
 ) -> None:
     # two independent samples of the same distribution: their 95 % P99 intervals overlap (each
     # covers the true P99 with probability >= 95 %, so both miss it on the same side rarely)
-    a = statistics.peak_distribution(three_phase, samples=10_000, random_state=1)
-    b = statistics.peak_distribution(three_phase, samples=10_000, random_state=2)
+    a = monte_carlo.peak_distribution(three_phase, samples=10_000, random_state=1)
+    b = monte_carlo.peak_distribution(three_phase, samples=10_000, random_state=2)
     assert _overlap(a.worst_line.p99_interval_a, b.worst_line.p99_interval_a)
     # (not asserted per line: with four comparisons a miss is no longer rare -- for these two
     # random states line B's intervals do not overlap, while against a 200,000-sample reference
@@ -33,9 +35,9 @@ def test_two_random_states_agree_within_p99_interval(
 
 
 def test_percentiles_ordered_and_convergence_table(
-    three_phase: transformer.EquivalentCircuit,
+    three_phase: circuit_model.EquivalentCircuit,
 ) -> None:
-    d = statistics.peak_distribution(three_phase, samples=3000, random_state=5)
+    d = monte_carlo.peak_distribution(three_phase, samples=3000, random_state=5)
     for p in (*d.by_line, d.worst_line):
         assert p.p50_a <= p.p95_a <= p.p99_a <= p.max_a
     np.testing.assert_array_equal(d.convergence.samples, [250, 500, 1000, 2000, 3000])
@@ -53,15 +55,15 @@ def test_percentiles_ordered_and_convergence_table(
 
 
 def test_max_approaches_worst_closing_angle_from_below(
-    three_phase: transformer.EquivalentCircuit,
+    three_phase: circuit_model.EquivalentCircuit,
 ) -> None:
     residual = (0.8, -0.4, -0.4)
     worst = energize.worst_closing_angle(three_phase, residual)
-    d = statistics.peak_distribution(
+    d = monte_carlo.peak_distribution(
         three_phase,
         samples=4000,
         random_state=3,
-        residual=statistics.FixedResidual(residual),
+        residual=monte_carlo.FixedResidual(residual),
         pole_scatter_ms=0.0,
     )
     # from below: the search refines to 0.025 deg, so random angles cannot beat it by more than
@@ -71,21 +73,21 @@ def test_max_approaches_worst_closing_angle_from_below(
     assert d.worst_line.max_a >= 0.97 * worst.peak_a
 
 
-def test_deterministic_and_batch_independent(single_phase: transformer.EquivalentCircuit) -> None:
-    a = statistics.peak_distribution(single_phase, samples=300, random_state=11)
-    b = statistics.peak_distribution(single_phase, samples=300, random_state=11, batch=7)
+def test_deterministic_and_batch_independent(single_phase: circuit_model.EquivalentCircuit) -> None:
+    a = monte_carlo.peak_distribution(single_phase, samples=300, random_state=11)
+    b = monte_carlo.peak_distribution(single_phase, samples=300, random_state=11, batch=7)
     np.testing.assert_array_equal(a.peaks_a, b.peaks_a)
     assert a.worst_line == b.worst_line
-    c = statistics.peak_distribution(single_phase, samples=300, random_state=12)
+    c = monte_carlo.peak_distribution(single_phase, samples=300, random_state=12)
     assert not np.array_equal(a.peaks_a, c.peaks_a)
 
 
-def test_zero_sum_residual(three_phase: transformer.EquivalentCircuit) -> None:
-    d = statistics.peak_distribution(
+def test_zero_sum_residual(three_phase: circuit_model.EquivalentCircuit) -> None:
+    d = monte_carlo.peak_distribution(
         three_phase,
         samples=50,
         random_state=0,
-        residual=statistics.UniformResidual(-0.8, 0.8, random_sign=False, zero_sum=True),
+        residual=monte_carlo.UniformResidual(-0.8, 0.8, random_sign=False, zero_sum=True),
     )
     np.testing.assert_allclose(d.residual_flux_pu.sum(axis=1), 0.0, atol=1e-12)
 
@@ -97,26 +99,26 @@ def test_zero_sum_residual(three_phase: transformer.EquivalentCircuit) -> None:
         ({"samples": 10, "batch": 0}, "batch"),
         ({"samples": 10, "cycles": 0.0}, "cycles"),
         ({"samples": 10, "pole_scatter_ms": -1.0}, "pole_scatter_ms"),
-        ({"samples": 10, "residual": statistics.UniformResidual(0.8, 0.2)}, "residual.high_pu"),
-        ({"samples": 10, "residual": statistics.UniformResidual(-0.1, 0.5)}, "residual.low_pu"),
-        ({"samples": 10, "residual": statistics.FixedResidual((0.5,))}, "residual.flux_pu"),
+        ({"samples": 10, "residual": monte_carlo.UniformResidual(0.8, 0.2)}, "residual.high_pu"),
+        ({"samples": 10, "residual": monte_carlo.UniformResidual(-0.1, 0.5)}, "residual.low_pu"),
+        ({"samples": 10, "residual": monte_carlo.FixedResidual((0.5,))}, "residual.flux_pu"),
     ],
 )
 def test_parameter_errors_name_the_field(
-    three_phase: transformer.EquivalentCircuit, kwargs: dict[str, object], field: str
+    three_phase: circuit_model.EquivalentCircuit, kwargs: dict[str, object], field: str
 ) -> None:
     with pytest.raises(ParameterError) as info:
-        statistics.peak_distribution(three_phase, random_state=0, **kwargs)  # type: ignore[arg-type]
+        monte_carlo.peak_distribution(three_phase, random_state=0, **kwargs)  # type: ignore[arg-type]
     assert info.value.parameter == field
 
 
-def test_zero_sum_needs_three_phases(single_phase: transformer.EquivalentCircuit) -> None:
+def test_zero_sum_needs_three_phases(single_phase: circuit_model.EquivalentCircuit) -> None:
     with pytest.raises(ParameterError) as info:
-        statistics.peak_distribution(
+        monte_carlo.peak_distribution(
             single_phase,
             samples=5,
             random_state=0,
-            residual=statistics.UniformResidual(zero_sum=True),
+            residual=monte_carlo.UniformResidual(zero_sum=True),
         )
     assert info.value.parameter == "residual.zero_sum"
 
@@ -124,22 +126,22 @@ def test_zero_sum_needs_three_phases(single_phase: transformer.EquivalentCircuit
 @pytest.mark.parametrize("method", ["clopper_pearson", "wilson"])
 def test_exceedance_limits(method: str) -> None:
     peaks = np.linspace(1.0, 2.0, 200)
-    none = statistics.exceedance_probability(peaks, 5.0, method=method)
+    none = monte_carlo.exceedance_probability(peaks, 5.0, method=method)
     assert none.probability == 0.0
     assert none.low == 0.0
     assert 0.0 < none.high < 0.03  # Clopper-Pearson: 1 - 0.025**(1/200) = 0.018
-    every = statistics.exceedance_probability(peaks, 0.0, method=method)
+    every = monte_carlo.exceedance_probability(peaks, 0.0, method=method)
     assert every.probability == 1.0
     assert every.high == pytest.approx(1.0)
     assert 0.97 < every.low < 1.0
-    half = statistics.exceedance_probability(peaks, 1.5, method=method)
+    half = monte_carlo.exceedance_probability(peaks, 1.5, method=method)
     assert half.exceedances == 100
     assert half.low < 0.5 < half.high
 
 
 def test_clopper_pearson_zero_is_closed_form() -> None:
     # k = 0: the upper end solves (1 - p)^n = a/2
-    out = statistics.exceedance_probability(np.zeros(200), 1.0)
+    out = monte_carlo.exceedance_probability(np.zeros(200), 1.0)
     assert out.high == pytest.approx(1.0 - 0.025 ** (1.0 / 200), rel=1e-9)
 
 
@@ -154,17 +156,17 @@ def test_exceedance_interval_coverage(method: str, minimum: float) -> None:
     trials = 600
     for _ in range(trials):
         x = (rng.random(200) < p_true).astype(float)
-        out = statistics.exceedance_probability(x, 0.5, method=method)
+        out = monte_carlo.exceedance_probability(x, 0.5, method=method)
         hits += out.low <= p_true <= out.high
     assert hits / trials >= minimum - 0.02
 
 
 def test_exceedance_errors() -> None:
     with pytest.raises(ParameterError) as info:
-        statistics.exceedance_probability([], 1.0)
+        monte_carlo.exceedance_probability([], 1.0)
     assert info.value.parameter == "peaks"
     with pytest.raises(ParameterError) as info:
-        statistics.exceedance_probability([1.0], 1.0, method="normal")
+        monte_carlo.exceedance_probability([1.0], 1.0, method="normal")
     assert info.value.parameter == "method"
 
 
@@ -174,7 +176,7 @@ def test_order_statistic_interval_coverage() -> None:
     hits = sum(
         lo <= math.log(10.0) <= hi
         for lo, hi in (
-            statistics.order_statistic_interval(np.sort(rng.exponential(size=400)), 0.9)
+            monte_carlo.order_statistic_interval(np.sort(rng.exponential(size=400)), 0.9)
             for _ in range(400)
         )
     )

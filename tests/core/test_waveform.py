@@ -1,4 +1,5 @@
-"""Tests of core.waveform on synthetic signals whose answers are known in closed form."""
+"""Tests of core.energization.waveform on synthetic signals whose answers are known in closed
+form."""
 
 from __future__ import annotations
 
@@ -7,7 +8,7 @@ import math
 import numpy as np
 import pytest
 
-from core import waveform
+from core.energization import waveform
 from core.errors import ParameterError
 
 F_HZ = 60.0
