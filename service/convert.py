@@ -13,6 +13,12 @@ from typing import Literal
 import numpy as np
 
 from core.energization import inrush_study
+from core.energization.switching_event import (
+    RESIDUAL_DEFAULT_SOURCE,
+    SwitchingEvent,
+    residual_flux_pu_from_wb,
+    switching_event,
+)
 from core.errors import LimitError, ParameterError
 from core.protection import device_operation, fuse_breaker_curves
 from core.supply.dip_limits import DipLimit, iso_8528_5_class
@@ -47,12 +53,6 @@ from service.models.dip import (
     RegulatorIn,
 )
 from service.settings import Settings
-
-RESIDUAL_DEFAULT_SOURCE = (
-    "default: 0.8 pu on the first winding (upper end of the typical 0.2-0.8 pu range, from "
-    "memory), the other windings -0.4 pu each so that the three sum to zero"
-)
-
 
 # Provenance of the API's own defaults, recorded when the caller leaves a field out.
 DEFAULT_PROVENANCE = {
@@ -192,16 +192,15 @@ def _circuit(study: Study) -> EquivalentCircuit:
     )
 
 
-def study_inputs(
-    study: Study,
-) -> tuple[EquivalentCircuit, np.ndarray, np.ndarray, list[Assumption]]:
-    """Circuit, residual flux [pu], pole delays [s] and the assumptions, from a request."""
+def study_inputs(study: Study) -> tuple[EquivalentCircuit, SwitchingEvent, list[Assumption]]:
+    """Circuit, switching event (residual flux [pu], pole delays [s]) and the assumptions."""
     circuit = _circuit(study)
     m = circuit.phases
     sw = study.switching
     extra: list[Assumption] = []
+    res: np.ndarray | None
     if sw.residual_flux_wb is not None:
-        res = np.asarray(sw.residual_flux_wb, dtype=float) / circuit.nominal_flux_wb
+        res = residual_flux_pu_from_wb(sw.residual_flux_wb, circuit)
         extra.append(
             Assumption(
                 name="residual_flux_wb",
@@ -215,13 +214,14 @@ def study_inputs(
         res = np.asarray(sw.residual_flux_pu, dtype=float)
         res_source = "given"
     else:
-        res = np.array([0.8]) if m == 1 else np.array([0.8, -0.4, -0.4])
+        res = None  # the core's default
         res_source = RESIDUAL_DEFAULT_SOURCE
     delay = (
         np.asarray(sw.pole_delay_ms, dtype=float) * 1e-3
         if sw.pole_delay_ms is not None
         else np.zeros(m)
     )
+    event = switching_event(circuit, sw.closing_angle_deg, res, delay)
     assumptions = assumptions_out(circuit.assumptions)
     assumptions += extra
     assumptions.append(
@@ -237,7 +237,7 @@ def study_inputs(
     assumptions.append(
         Assumption(
             name="residual_flux_pu",
-            value=[float(x) for x in res],
+            value=[float(x) for x in event.residual_flux_pu],
             unit="pu of nominal peak flux",
             source=res_source,
         )
@@ -250,7 +250,7 @@ def study_inputs(
             source="given" if sw.pole_delay_ms else "default 0",
         )
     )
-    return circuit, res, delay, assumptions
+    return circuit, event, assumptions
 
 
 def check_work(

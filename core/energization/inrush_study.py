@@ -17,6 +17,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core.energization import closed_form, energize, energize_plan, peaks, waveform
+from core.energization.switching_event import SwitchingEvent
 from core.errors import ParameterError
 from core.transformer.circuit_model import EquivalentCircuit
 
@@ -156,22 +157,21 @@ def winding_angles(
     return out
 
 
-def _common_checks(
-    circuit: EquivalentCircuit, residual_flux_pu: ArrayLike, pole_delay_s: ArrayLike
+def _event_checks(
+    circuit: EquivalentCircuit, event: SwitchingEvent
 ) -> tuple[FloatArray, FloatArray, list[tuple[str, str]]]:
+    """The event's residual flux and pole delays (copies) and the warnings of circuit and event."""
     m = circuit.phases
-    res = np.broadcast_to(np.asarray(residual_flux_pu, dtype=float), (m,)).copy()
-    delay = np.broadcast_to(np.asarray(pole_delay_s, dtype=float), (m,)).copy()
-    warnings: list[tuple[str, str]] = list(circuit.warnings)
-    if np.any(np.abs(res) > 0.9):
-        warnings.append(
-            (
-                "residual_flux_high",
-                f"residual flux up to {np.abs(res).max():.2f} pu exceeds the usual worst case of "
-                "about 0.8-0.9 pu (from memory)",
-            )
+    if event.residual_flux_pu.shape != (m,) or event.pole_delay_s.shape != (m,):
+        raise ParameterError(
+            "event", f"{event.residual_flux_pu.size} windings", f"an event built for {m} phase(s)"
         )
-    return res, delay, warnings
+    if not event.plain:
+        raise ParameterError(
+            "event", "a pre-insertion resistor or ramp", "a plain closing (see core.mitigation)"
+        )
+    warnings: list[tuple[str, str]] = [*circuit.warnings, *event.warnings]
+    return event.residual_flux_pu.copy(), event.pole_delay_s.copy(), warnings
 
 
 _Simulated = tuple[tuple[LinePeak, ...], tuple[float, float, str]]
@@ -274,7 +274,7 @@ def _simulated_batch(
 
 
 def peak_studies(
-    cases: list[tuple[EquivalentCircuit, float, FloatArray, FloatArray]],
+    cases: list[tuple[EquivalentCircuit, SwitchingEvent]],
     *,
     method: str = "both",
     cycles: float = 2.0,
@@ -284,8 +284,9 @@ def peak_studies(
 
     Parameters
     ----------
-    cases : list of (circuit, closing angle [deg], residual flux [pu], pole delays [s])
-        The cases; they may differ in everything, including connection and frequency.
+    cases : list of (EquivalentCircuit, SwitchingEvent)
+        The cases, each event built for its circuit; they may differ in everything, including
+        connection and frequency [-].
     method : str
         ``"analytic"``, ``"simulated"`` or ``"both"`` for every case.
     cycles : float
@@ -309,28 +310,24 @@ def peak_studies(
         for idx, (c, *_rest) in enumerate(cases):
             groups.setdefault((c.phases, c.connection, c.frequency_hz), []).append(idx)
         for members in groups.values():
-            m = cases[members[0]][0].phases
-            res = np.stack([np.broadcast_to(np.asarray(cases[i][2], float), (m,)) for i in members])
-            dl = np.stack([np.broadcast_to(np.asarray(cases[i][3], float), (m,)) for i in members])
+            events = [_event_checks(cases[i][0], cases[i][1]) for i in members]
+            res = np.stack([e[0] for e in events])
+            dl = np.stack([e[1] for e in events])
             results = _simulated_batch(
                 [cases[i][0] for i in members],
-                np.array([cases[i][1] for i in members], dtype=float),
+                np.array([cases[i][1].closing_angle_deg for i in members], dtype=float),
                 res, dl, cycles, max_steps,
             )  # fmt: skip
             sims.update(zip(members, results, strict=True))
     return [
-        peak_study(
-            c, a, r, d, method=method, cycles=cycles, max_steps=max_steps, simulated=sims.get(i)
-        )
-        for i, (c, a, r, d) in enumerate(cases)
+        peak_study(c, e, method=method, cycles=cycles, max_steps=max_steps, simulated=sims.get(i))
+        for i, (c, e) in enumerate(cases)
     ]
 
 
 def peak_study(
     circuit: EquivalentCircuit,
-    closing_angle_deg: float,
-    residual_flux_pu: ArrayLike,
-    pole_delay_s: ArrayLike = 0.0,
+    event: SwitchingEvent,
     *,
     method: str = "both",
     cycles: float = 2.0,
@@ -343,12 +340,10 @@ def peak_study(
     ----------
     circuit : EquivalentCircuit
         Energisation circuit.
-    closing_angle_deg : float
-        Phase-A source voltage angle at t = 0 [deg].
-    residual_flux_pu : array_like
-        Residual flux per winding [pu of lambda_N].
-    pole_delay_s : array_like
-        Pole closing delays after t = 0 [s].
+    event : SwitchingEvent
+        Closing angle, residual flux per winding and pole instants, from
+        :func:`core.energization.switching_event.switching_event` (a plain closing: no resistor,
+        no ramp) [-].
     method : str
         ``"analytic"``, ``"simulated"`` or ``"both"``.
     cycles : float
@@ -382,9 +377,8 @@ def peak_study(
     """
     if method not in ("analytic", "simulated", "both"):
         raise ParameterError("method", method, "analytic, simulated or both")
-    if not math.isfinite(closing_angle_deg):
-        raise ParameterError("closing_angle_deg", closing_angle_deg, "a finite angle")
-    res, delay, warnings = _common_checks(circuit, residual_flux_pu, pole_delay_s)
+    closing_angle_deg = event.closing_angle_deg
+    res, delay, warnings = _event_checks(circuit, event)
     r, L, _ = _loop(circuit)
     b_s = circuit.knee_flux_wb / circuit.nominal_flux_wb
     names = winding_names(circuit)
@@ -529,9 +523,7 @@ class EnvelopeStudy:
 
 def envelope_study(
     circuit: EquivalentCircuit,
-    closing_angle_deg: float,
-    residual_flux_pu: ArrayLike,
-    pole_delay_s: ArrayLike = 0.0,
+    event: SwitchingEvent,
     *,
     duration_s: float,
     samples_per_cycle: int,
@@ -548,12 +540,10 @@ def envelope_study(
     ----------
     circuit : EquivalentCircuit
         Energisation circuit.
-    closing_angle_deg : float
-        Phase-A voltage angle at t = 0 [deg].
-    residual_flux_pu : array_like
-        Residual flux per winding [pu of lambda_N].
-    pole_delay_s : array_like
-        Pole closing delays [s].
+    event : SwitchingEvent
+        Closing angle, residual flux per winding and pole instants, from
+        :func:`core.energization.switching_event.switching_event` (a plain closing: no resistor,
+        no ramp) [-].
     duration_s : float
         Simulated time [s].
     samples_per_cycle : int
@@ -586,7 +576,8 @@ def envelope_study(
     :func:`core.energization.closed_form.line_first_peaks` on each cycle's decayed flux offsets
     (:func:`core.energization.closed_form.flux_offsets_holcomb`).
     """
-    res, delay, warnings = _common_checks(circuit, residual_flux_pu, pole_delay_s)
+    closing_angle_deg = event.closing_angle_deg
+    res, delay, warnings = _event_checks(circuit, event)
     if not (isinstance(harmonic_cycles, int) and harmonic_cycles >= 1):
         raise ParameterError("harmonic_cycles", harmonic_cycles, "an integer >= 1")
     if below_current_a is not None:

@@ -21,6 +21,7 @@ from typing import Protocol
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from core.energization.switching_event import residual_flux_warnings
 from core.errors import ParameterError
 from core.supply.dip_kernel import (
     AMP,
@@ -641,11 +642,5 @@ def check_inputs(
                 "source's: the unit is energised off its rated flux",
             )
         )
-    if np.any(np.abs(res) > 0.9):
-        warnings.append(
-            (
-                "residual_flux_high",
-                "residual flux above the usual worst case of about 0.8-0.9 pu (from memory)",
-            )
-        )
+    warnings += residual_flux_warnings(res)
     return res, warnings

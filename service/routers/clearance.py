@@ -7,12 +7,13 @@ from collections.abc import Mapping
 from typing import Annotated
 
 import numpy as np
-from fastapi import APIRouter, Body, Depends
+from fastapi import APIRouter, Body
 from fastapi.responses import Response
 
 from core import cost
 from core.protection import coordination, device_operation, protection_study
 from service import budget, compute, convert, figures
+from service.deps import SettingsDep
 from service.examples import CLEARANCE_EXAMPLES
 from service.models.clearance import (
     ClearanceRequest,
@@ -28,14 +29,13 @@ from service.models.clearance import (
 )
 from service.models.common import Assumption, Method
 from service.problems import PROBLEM_RESPONSES
-from service.settings import Settings, settings_dependency
+from service.settings import Settings
 
 router = APIRouter(
     prefix="/v1/clearance",
     tags=["clearance"],
     responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
 )
-SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 CLEARANCE_METHOD = (
     "inrush simulated as for /v1/inrush (worst closing angle unless given); relays integrated "
     "as 1/t(I) over the sliding one-cycle rms with the IEEE C37.112 reset (trip when the "
@@ -51,7 +51,7 @@ CLEARANCE_METHOD = (
 def _study(
     body: ClearanceRequest, settings: Settings
 ) -> tuple[protection_study.ClearanceStudy, list[Assumption]]:
-    circuit, res, delay, assumptions = convert.study_inputs(body)
+    circuit, event, assumptions = convert.study_inputs(body)
     t = body.transformer
     assert t is not None
     opt = body.options
@@ -66,7 +66,7 @@ def _study(
             duration_s=r(o, "options.duration_s", opt.duration_s),
             devices=int(r(o, "devices", len(body.devices))),
             windows=opt.coordination_window and relays > 0,
-            pole_delay_max_s=float(np.max(delay)),
+            pole_delay_max_s=float(np.max(event.pole_delay_s)),
         )
 
     knobs = [
@@ -79,8 +79,8 @@ def _study(
     study = protection_study.clearance_study(
         circuit,
         body.switching.closing_angle_deg if opt.closing == "given" else None,
-        res,
-        delay,
+        event.residual_flux_pu,
+        event.pole_delay_s,
         [convert.device_of(d, n) for n, d in enumerate(body.devices)],
         rating_va=t.rating_kva * 1e3,
         impedance_percent=t.impedance_percent,

@@ -12,7 +12,7 @@ from collections.abc import Mapping
 from typing import Annotated
 
 import numpy as np
-from fastapi import APIRouter, Body, Depends
+from fastapi import APIRouter, Body
 from fastapi.responses import Response
 
 from core import cost
@@ -23,6 +23,7 @@ from core.supply.sources import Generator
 from core.transformer import circuit_model
 from core.transformer.circuit_model import EquivalentCircuit
 from service import budget, compute, convert
+from service.deps import SettingsDep
 from service.examples import STATISTICS_EXAMPLES
 from service.models.common import Assumption, Method
 from service.models.statistics import (
@@ -36,10 +37,9 @@ from service.models.statistics import (
     StatisticsResponse,
 )
 from service.problems import PROBLEM_RESPONSES
-from service.settings import Settings, settings_dependency
+from service.settings import Settings
 
 router = APIRouter(prefix="/v1/inrush", tags=["inrush"], responses=PROBLEM_RESPONSES)
-SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 
 
 STATISTICS_METHOD = (
@@ -200,13 +200,13 @@ def check_limits(
 
 
 def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsResponse:
-    ideal, res, _delay, assumptions = convert.study_inputs(body)
+    ideal, event, assumptions = convert.study_inputs(body)
     circuit, gen = _supplied(body, ideal, assumptions)
     opt = body.options
     check_limits(body, circuit, gen, settings)
     spec: monte_carlo.ResidualSpec
     if isinstance(opt.residual, FixedResidualIn):
-        spec = monte_carlo.FixedResidual(tuple(float(x) for x in res))
+        spec = monte_carlo.FixedResidual(tuple(float(x) for x in event.residual_flux_pu))
     else:
         r = opt.residual
         spec = monte_carlo.UniformResidual(r.low_pu, r.high_pu, r.random_sign, r.zero_sum)

@@ -31,7 +31,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from core import cost
-from core.energization import energize, energize_plan, inrush_study, peaks
+from core.energization import energize, energize_plan, inrush_study, peaks, switching_event
 from core.mitigation import mitigation_options, mitigation_study
 from core.protection import coordination, device_operation, fuse_breaker_curves, protection_study
 from core.statistics import event_outcomes, monte_carlo
@@ -190,7 +190,8 @@ def test_peak_estimate_is_the_solver_steps(
     # of the search's three stages and the call at the angle found)
     circuit = _circuit(connection, phases, source)
     delay = np.array([0.0, pole_delay_s, 0.5 * pole_delay_s][:phases])
-    inrush_study.peak_study(circuit, 30.0, RESIDUAL[:phases], delay, method="simulated")
+    event = switching_event.switching_event(circuit, 30.0, RESIDUAL[:phases], delay)
+    inrush_study.peak_study(circuit, event, method="simulated")
     # ... and the exact reading of the event's and the worst angle's first peaks, stage by stage
     stages = len(peaks.refinement_stages(128))
     assert len(tally.sims) == 1 + len(energize_plan.search_offsets()) + 1 + 2 * stages
@@ -207,7 +208,9 @@ def test_peak_estimate_follows_a_step_raised_by_a_resistive_source(tally: Tally)
     # constant); the estimate must follow
     resistive = circuit_model.Source("impedance", resistance_ohm=0.04, reactance_ohm=0.001)
     circuit = _circuit("wye_grounded", 1, resistive)
-    inrush_study.peak_study(circuit, 0.0, 0.8, method="simulated")
+    inrush_study.peak_study(
+        circuit, switching_event.switching_event(circuit, 0.0, 0.8), method="simulated"
+    )
     assert min(tally.steps_per_cycle) > 128
     assert _part(cost.peak_work(circuit, True, 0.0), "first peak and worst closing angle") == sum(
         tally.sims
@@ -226,7 +229,10 @@ def test_envelope_estimate_is_the_solver_steps_and_samples(
     # exact: one simulation; the analysis reads every line-sample of the record once
     circuit = _circuit(connection, phases, source)
     study = inrush_study.envelope_study(
-        circuit, 0.0, RESIDUAL[:phases], duration_s=0.25, samples_per_cycle=samples_per_cycle
+        circuit,
+        switching_event.switching_event(circuit, 0.0, RESIDUAL[:phases]),
+        duration_s=0.25,
+        samples_per_cycle=samples_per_cycle,
     )
     work = cost.envelope_work(circuit, 0.25, samples_per_cycle)
     # the record, then the exact reading of every cycle's peak on every line, stage by stage
