@@ -15,7 +15,7 @@ where it deliberately bounds a random or searched quantity.
 
 Circuits: the 2.5 MVA, 480 V distribution unit of tests/core/conftest.py (typical nameplate
 values, common practice) in each connection, on an ideal source or a source impedance, and the
-"Northgate" 1250 kVA standby generator of tests/core/test_generator.py (X''_d, X'_d of the
+"Northgate" 1250 kVA standby generator of tests/core/supply/test_sources.py (X''_d, X'_d of the
 invented demo scenario in service/examples.py; X_d, T''_d, T'_d invented demo values).
 """
 

@@ -746,8 +746,8 @@ def _piecewise_single(
 # REL_TOL (0.5 %, as above: their currents' corners at the knee are read from 128 samples per
 # cycle) and INTEGRATOR_TOL for the share (2e-4, as above), which fails a ramp held constant
 # over each step (3.0e-3 measured). A bypass one step late moves these peaks by 1.7e-4 at most,
-# too little to see here; the closed-form RL transient in tests/core/test_energize.py pins the
-# bypass instant instead.
+# too little to see here; the closed-form RL transient in tests/core/energization/test_energize.py
+# pins the bypass instant instead.
 # The resistor is 0.3 of the saturated loop's reactance omega*(L_air + L_s) (a third of that for
 # a delta, whose windings see it three times over in their differential loops), which lowers the
 # first peak by a quarter to a third and the peaks to about rated current by the bypass at 4.3

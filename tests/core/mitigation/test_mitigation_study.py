@@ -55,7 +55,7 @@ def test_resistor_peak_reduction_agrees_with_the_closed_form_with_r(ratio: float
     # sqrt(2) V (2 + b_r - b_s) / |R + jX| of the saturated loop, R including the resistor.
     # The simulation also loses flux to R before the peak, by at most (1/L) * the integral of
     # R|i| over the half cycle, i.e. a factor >= 1 - pi*R/X (the bound of
-    # tests/core/test_statistics.py), and exceeds it by at most the knee current.
+    # tests/core/statistics/test_monte_carlo.py), and exceeds it by at most the knee current.
     c = circuit_model.equivalent_circuit(PHASE)
     r, L, b_s = _loop(c)
     x = 2 * math.pi * c.frequency_hz * L

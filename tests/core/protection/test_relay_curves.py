@@ -227,7 +227,7 @@ def test_invalid_inputs_name_the_parameter(call: object, parameter: str) -> None
 
 
 def test_core_modules_import_only_numpy_scipy_and_core() -> None:
-    root = Path(__file__).resolve().parents[2] / "core" / "protection"
+    root = Path(__file__).resolve().parents[3] / "core" / "protection"
     for name in ("relay_curves.py", "fuse_breaker_curves.py", "damage_curves.py"):
         tree = ast.parse((root / name).read_text(encoding="utf-8"))
         for node in ast.walk(tree):

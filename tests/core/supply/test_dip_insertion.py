@@ -6,7 +6,7 @@ behaviour the resistor must not change when it is off), closed forms for a linea
 by hand in the comments and integrated by scipy.integrate.quad, and physical limits. The
 comparison with scipy's Radau integrator is in tests/references/test_generator_references.py.
 
-Demo data as in tests/core/test_generator.py: the "Northgate" 1250 kVA 480 V standby generator
+Demo data as in tests/core/supply/test_sources.py: the "Northgate" 1250 kVA 480 V standby generator
 (X''_d 0.15, X'_d 0.25 pu from the demo scenario, service/examples.py; X_d 2.0 pu,
 T''_d 0.03 s, T'_d 0.8 s invented demo values) and the 2500 kVA unit's 480 V inner winding.
 """

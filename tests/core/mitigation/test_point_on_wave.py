@@ -54,8 +54,8 @@ def test_controlled_closing_magnetising_level_and_quarter_cycle(
         if wang == 0.0:
             assert out.worst_peak_a[k] < 2.0 * math.sqrt(2.0) * i0
             continue
-        # the closed form is exact at R = 0 (tests/core/test_energize.py) up to the knee
-        # current lambda_S/L_m; the resistance lowers the peak by at most
+        # the closed form is exact at R = 0 (tests/core/energization/test_energize.py) up to the
+        # knee current lambda_S/L_m; the resistance lowers the peak by at most
         # (1/L) * integral of R*|i| over the half cycle to it <= pi*(R/X)*I_pk
         knee = c.knee_flux_wb / c.magnetizing_inductance_h
         assert out.worst_peak_a[k] <= wang + knee
