@@ -287,7 +287,7 @@ def line_first_peaks(
     saturation_flux_pu : float
         Knee B_S/B_N [pu of nominal].
     delta : bool
-        Delta windings AB, BC, CA (line j = winding j - winding j-1); otherwise line = winding.
+        Delta windings AB, BC, CA (line j = winding j - winding j-1); otherwise line = winding [-].
 
     Returns
     -------
@@ -360,7 +360,7 @@ def worst_line_first_peak(
     saturation_flux_pu : float
         Knee B_S/B_N [pu of nominal].
     delta : bool
-        Delta windings (see :func:`line_first_peaks`).
+        Delta windings (see :func:`line_first_peaks`) [-].
 
     Returns
     -------

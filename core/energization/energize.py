@@ -247,7 +247,7 @@ def simulate(
     ----------
     circuits : EquivalentCircuit or sequence of them
         One circuit shared by every case, or one per case (all with the same number of phases,
-        connection and frequency).
+        connection and frequency) [-].
     closing_angle_deg : array_like, shape (n_cases,) or scalar
         Angle of the phase-A source voltage e_a = sqrt(2)*V*sin(omega*t + alpha) at t = 0, the
         closing command [deg].
@@ -480,7 +480,13 @@ def simulate(
 
 
 def refined_abs_peak(y: FloatArray) -> FloatArray:
-    """Largest |y| along the last axis with a parabola through the three samples around it."""
+    """Largest |y| along the last axis with a parabola through the three samples around it.
+
+    Parameters
+    ----------
+    y : ndarray, shape (..., n)
+        Samples; the largest |y| is refined along the last axis [their unit].
+    """
     a = np.abs(y)
     k = np.argmax(a, axis=-1)
     n = a.shape[-1]
@@ -521,7 +527,7 @@ def worst_closing_angle(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The circuit.
+        The circuit [-].
     residual_flux_pu : array_like
         Residual flux per winding [pu of lambda_N].
     pole_delay_s : array_like

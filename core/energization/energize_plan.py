@@ -125,8 +125,8 @@ def step_plan(
     samples_per_cycle : int
         Output samples per cycle [-].
     min_time_constant_s : float
-        Shortest time constant of the circuit, (L_air + L_s)/R [s]; the step is kept at or below
-        a quarter of it (accuracy and stability of the explicit integrator).
+        Shortest time constant of the circuit, (L_air + L_s)/R; the step is kept at or below a
+        quarter of it (accuracy and stability of the explicit integrator) [s].
 
     Returns
     -------
@@ -195,7 +195,7 @@ def saturated_time_constant(circuit: EquivalentCircuit, extra_resistance_ohm: fl
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The winding and its source.
+        The winding and its source [-].
     extra_resistance_ohm : float
         Resistance added in series with the winding [ohm].
 
@@ -228,12 +228,28 @@ def check_cases(
     mitigation: tuple[ArrayLike, ...],
     duration_s: float,
 ) -> Cases:
-    """Broadcast :func:`core.energization.energize.simulate`'s per-case inputs to n cases and check
-    them.
+    """Broadcast the per-case inputs of :func:`core.energization.energize.simulate`; check them.
 
     ``mitigation`` holds the values of MITIGATION_PARAMETERS in that order. Raises
     :class:`ParameterError` naming the parameter on an inconsistent shape or a value out of
     range (see :func:`core.energization.energize.simulate`).
+
+    Parameters
+    ----------
+    circuits : EquivalentCircuit or sequence of them
+        One shared circuit or one per case [-].
+    closing_angle_deg : array_like
+        Phase-A voltage angle at t = 0, per case or scalar [deg].
+    residual_flux_pu : array_like
+        Per case and winding, per winding or scalar [pu of lambda_N].
+    pole_delay_s : array_like
+        Per case and pole, per pole or scalar [s].
+    extra_resistance_ohm : array_like
+        Series resistance added to every winding, per case or scalar [ohm].
+    mitigation : tuple of array_like
+        Values of MITIGATION_PARAMETERS in that order, each per case or scalar [ohm, s, pu, s, s].
+    duration_s : float
+        Simulated time, the bound of the pole delays [s].
     """
     circ_list = [circuits] if isinstance(circuits, EquivalentCircuit) else list(circuits)
     if not circ_list:
@@ -329,6 +345,17 @@ def plan_steps(cases: Cases, topology: int, duration_s: float, samples_per_cycle
     per cycle, which is 1 whenever the step already meets it. m depends on the case alone, so a
     case gives the same result in any batch.
 
+    Parameters
+    ----------
+    cases : Cases
+        The checked cases of one batch [-].
+    topology : int
+        Kernel topology code (2: delta) [-].
+    duration_s : float
+        Simulated time [s].
+    samples_per_cycle : int
+        Output samples per cycle [-].
+
     Raises
     ------
     ParameterError
@@ -389,6 +416,15 @@ def on_step_grid(cases: Cases, topology: int, plan: Plan) -> Grid:
     (R_ins [ohm], g_0 [pu], slope of g per step [pu]), mit_i = (bypass step, end of hold, end of
     rise, sub-steps per step while the resistor is in); the instants used are returned in
     seconds.
+
+    Parameters
+    ----------
+    cases : Cases
+        The checked cases of one batch [-].
+    topology : int
+        Kernel topology code (2: delta) [-].
+    plan : Plan
+        The batch's step plan from :func:`plan_steps` [-].
     """
     n = len(cases.circuits)
     h = plan.step_s
@@ -443,6 +479,13 @@ def element_curves(
     and a fixed-step Runge-Kutta step across the jump loses its order (errors of several per cent in
     the decay for a weak source). Without it (for :mod:`core.energization.kernel_coupled`, which
     does its own loop-flux solve) the curve is against lambda itself.
+
+    Parameters
+    ----------
+    circuits : sequence of EquivalentCircuit
+        One per case [-].
+    loop_flux : bool
+        Piecewise-linear curves against the loop flux (independent kernel) rather than lambda [-].
     """
     n = len(circuits)
     width = max(

@@ -54,14 +54,26 @@ ANALYTIC_VALIDITY_R_OVER_X = 0.5
 
 
 def winding_names(circuit: EquivalentCircuit) -> tuple[str, ...]:
-    """Labels of the energised windings: A/B/C, or AB/BC/CA for delta, or A for one phase."""
+    """Labels of the energised windings: A/B/C, or AB/BC/CA for delta, or A for one phase.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit (its phases and connection) [-].
+    """
     if circuit.phases == 1:
         return ("A",)
     return ("AB", "BC", "CA") if circuit.connection == "delta" else ("A", "B", "C")
 
 
 def line_names(circuit: EquivalentCircuit) -> tuple[str, ...]:
-    """Labels of the line currents: A, or A/B/C."""
+    """Labels of the line currents: A, or A/B/C.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit (its phases and connection) [-].
+    """
     return ("A",) if circuit.phases == 1 else ("A", "B", "C")
 
 
@@ -131,7 +143,7 @@ def winding_angles(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The circuit (its phases and connection).
+        The circuit (its phases and connection) [-].
     closing_angle_deg : float
         Phase-A voltage angle at t = 0 [deg].
     pole_delay_s : ndarray, shape (n_phases,)
@@ -192,7 +204,7 @@ def worst_closing_angles(
     Parameters
     ----------
     circuits : list of EquivalentCircuit
-        One per case, sharing phases, connection and frequency.
+        One per case, sharing phases, connection and frequency [-].
     residual_flux_pu : ndarray, shape (n_cases, n_windings)
         Residual flux [pu of lambda_N].
     pole_delay_s : ndarray, shape (n_cases, n_phases)
@@ -203,10 +215,10 @@ def worst_closing_angles(
         Compute limit per vectorised simulation call [-].
     per_case : mapping of str to ndarray, shape (n_cases,), or None
         Further per-case keyword arguments of :func:`core.energization.energize.simulate` (a
-        pre-insertion resistor, a voltage ramp), repeated with each trial angle.
+        pre-insertion resistor, a voltage ramp), repeated with each trial angle [-].
     exact : bool
         Read the peaks at the angles found exactly (:func:`core.energization.peaks.first_peaks`;
-        only without ``per_case``); the search itself reads them from samples.
+        only without ``per_case``); the search itself reads them from samples [-].
 
     Returns
     -------
@@ -288,7 +300,7 @@ def peak_studies(
         The cases, each event built for its circuit; they may differ in everything, including
         connection and frequency [-].
     method : str
-        ``"analytic"``, ``"simulated"`` or ``"both"`` for every case.
+        ``"analytic"``, ``"simulated"`` or ``"both"`` for every case [-].
     cycles : float
         Window for the first peak [cycles].
     max_steps : int or None
@@ -339,19 +351,19 @@ def peak_study(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        Energisation circuit.
+        Energisation circuit [-].
     event : SwitchingEvent
         Closing angle, residual flux per winding and pole instants, from
         :func:`core.energization.switching_event.switching_event` (a plain closing: no resistor,
         no ramp) [-].
     method : str
-        ``"analytic"``, ``"simulated"`` or ``"both"``.
+        ``"analytic"``, ``"simulated"`` or ``"both"`` [-].
     cycles : float
         Window after t = 0 in which the simulated first peak is sought [cycles].
     max_steps : int or None
         Compute limit per simulation, see :func:`core.energization.energize.simulate` [-].
     simulated : tuple or None
-        The simulated part when :func:`peak_studies` has computed it for a whole batch.
+        The simulated part when :func:`peak_studies` has computed it for a whole batch [-].
 
     Returns
     -------
@@ -539,7 +551,7 @@ def envelope_study(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        Energisation circuit.
+        Energisation circuit [-].
     event : SwitchingEvent
         Closing angle, residual flux per winding and pole instants, from
         :func:`core.energization.switching_event.switching_event` (a plain closing: no resistor,

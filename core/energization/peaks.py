@@ -57,7 +57,7 @@ def flux_of_current(curve: MagnetizingCurve, current_a: FloatArray) -> FloatArra
     Parameters
     ----------
     curve : PiecewiseLinearCurve or SmoothKneeCurve
-        The winding's magnetising curve (odd, strictly increasing).
+        The winding's magnetising curve (odd, strictly increasing) [-].
     current_a : ndarray
         Current [A].
 
@@ -286,13 +286,13 @@ def first_peaks(
     Parameters
     ----------
     circuits : sequence of EquivalentCircuit
-        The circuit of each case, as given to :func:`core.energization.energize.simulate`.
+        The circuit of each case, as given to :func:`core.energization.energize.simulate` [-].
     closing_angle_deg : ndarray, shape (n_cases,)
         Phase-A voltage angle at t = 0 of each case [deg].
     residual_flux_pu : ndarray, shape (n_cases, n_windings)
         Residual flux of each winding [pu of lambda_N].
     sim : Simulation
-        The simulation of these cases (no pre-insertion resistor, no voltage ramp).
+        The simulation of these cases (no pre-insertion resistor, no voltage ramp) [-].
 
     Returns
     -------
@@ -334,7 +334,7 @@ def cycle_peaks(
     Parameters
     ----------
     circuits, closing_angle_deg, residual_flux_pu, sim
-        As for :func:`first_peaks`.
+        As for :func:`first_peaks`. [-] [-]
 
     Returns
     -------

@@ -416,22 +416,22 @@ def mitigation_study(
     Parameters
     ----------
     nameplate : Nameplate
-        The transformer.
+        The transformer [-].
     source : Source or None
         Supply at the energised terminals; None for an ideal source, or with ``supply`` (whose
-        subtransient impedance then is the source).
+        subtransient impedance then is the source) [-].
     residual_flux_pu : array_like
         Residual flux per winding [pu of lambda_N].
     pole_delay_s : array_like
         Pole closing instants of an uncontrolled closing [s].
     options : sequence of options or None
         The mitigations to weigh; None for
-        :func:`core.mitigation.mitigation_options.default_options`.
+        :func:`core.mitigation.mitigation_options.default_options` [-].
     supply : GeneratorSupply or None
         A generator: its X''_d and R_a are the source of the peak searches and every option's
-        dip is simulated and judged.
+        dip is simulated and judged [-].
     devices : DeviceCheck or None
-        Protective devices judged against every option's inrush.
+        Protective devices judged against every option's inrush [-].
     target_peak_a : float or None
         Largest acceptable design-basis first peak, > 0 [A].
     residual_sweep : sequence of float

@@ -94,7 +94,7 @@ def preset_flux(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The circuit (its phases, connection and frequency).
+        The circuit (its phases, connection and frequency) [-].
     max_flux_pu : float
         Largest flux the pre-magnetising circuit can leave, in (0, 1.2] [pu of lambda_N].
     closing_error_ms : float
@@ -366,7 +366,17 @@ def _resistor(opt: PreInsertionResistor, ctx: Context, warnings: list[tuple[str,
 
 
 def plan_for(opt: Option, ctx: Context, warnings: list[tuple[str, str]]) -> Plan:
-    """The events an option leaves possible, with its parameters and requirements."""
+    """The events an option leaves possible, with its parameters and requirements.
+
+    Parameters
+    ----------
+    opt : Option
+        The mitigation option [-].
+    ctx : Context
+        The case it changes: unit, supply, residual flux, pole timing [-].
+    warnings : list of (str, str)
+        Collects (code, message) warnings the option raises [-].
+    """
     npl, c = ctx.nameplate, ctx.circuit
     uncontrolled = "closing angle (uncontrolled breaker)"
     if isinstance(opt, ControlledClosing):

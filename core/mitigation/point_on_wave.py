@@ -164,7 +164,7 @@ def controlled_closing(
     ----------
     circuit : EquivalentCircuit
         The transformer and its source (single phase, grounded or ungrounded wye, or delta
-        with the simultaneous strategy).
+        with the simultaneous strategy) [-].
     residual_flux_pu : array_like, shape (n_windings,) or scalar
         Residual flux of each winding, in [-1, 1] [pu of lambda_N].
     errors_ms : array_like or None
@@ -174,7 +174,7 @@ def controlled_closing(
         ``"simultaneous"``: every pole at the optimal instant of the winding with the largest
         |residual|; ``"first_phase_then_quarter_cycle"``: that pole at its optimum, the others a
         quarter cycle later; ``"independent"``: each pole at its own winding's optimum (the
-        first opportunity within one cycle).
+        first opportunity within one cycle) [-].
     cycles : float
         Window searched for the first peak after the last pole closes, in (0, 60] [cycles].
     max_steps : int or None
@@ -276,13 +276,13 @@ def tolerance_window(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The transformer and its source, see :func:`controlled_closing`.
+        The transformer and its source, see :func:`controlled_closing` [-].
     residual_flux_pu : array_like
         Residual flux per winding, in [-1, 1] [pu of lambda_N].
     target_a : float
         Largest acceptable line peak, > 0 [A].
     strategy : str
-        Pole timing, see :func:`controlled_closing`.
+        Pole timing, see :func:`controlled_closing` [-].
     max_error_ms : float or None
         Searched range +-max_error_ms, in (0, 1 cycle]; None for a quarter cycle [ms].
     grid_points : int

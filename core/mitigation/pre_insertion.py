@@ -88,7 +88,7 @@ def smallest_resistance(
     ----------
     metric : callable
         Maps resistances, shape (k,) [ohm], to the metric for each, shape (k,) (a peak [A], a
-        dip [%]); expected to fall as the resistance grows.
+        dip [%]); expected to fall as the resistance grows [-].
     limit : float
         Largest acceptable metric [its unit].
     scale_ohm : float
@@ -200,7 +200,7 @@ def largest_insertion_energy_j(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The circuit.
+        The circuit [-].
     residual_flux_pu : array_like
         Residual flux per winding [pu of lambda_N].
     pole_delay_s : array_like

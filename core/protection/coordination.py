@@ -109,11 +109,11 @@ def curve_portions(
     Parameters
     ----------
     damage : core.protection.damage_curves.DamageCurve
-        The curve.
+        The curve [-].
     check_from_a, check_to_a : float
         The checked range [A].
     below_reason : str
-        Why currents below ``check_from_a`` are not checked.
+        Why currents below ``check_from_a`` are not checked [-].
 
     Returns
     -------
@@ -212,9 +212,9 @@ def protection_check(
     Parameters
     ----------
     device : Relay, Fuse or Breaker
-        The device; a fuse needs its total-clearing curve.
+        The device; a fuse needs its total-clearing curve [-].
     damage : core.protection.damage_curves.DamageCurve
-        Damage curve, in the amperes the device sees.
+        Damage curve, in the amperes the device sees [-].
     opening_time_s : float or None
         Breaker opening time added to a relay; None: :data:`DEFAULT_OPENING_TIME_S` [s].
     damage_current_factor : float or None
@@ -329,22 +329,22 @@ def evaluate(
     Parameters
     ----------
     inrush : InrushCurves
-        The inrush.
+        The inrush [-].
     devices : sequence of Relay, Fuse or Breaker
-        Candidates, with distinct names.
+        Candidates, with distinct names [-].
     damage : core.protection.damage_curves.DamageCurve or None
-        Damage curve in the devices' amperes; None skips the protection side.
+        Damage curve in the devices' amperes; None skips the protection side [-].
     opening_time_s, damage_current_factor : float or None
         As :func:`protection_check` [s], [-].
     inrush_points : sequence of (float, float)
-        (multiple of rated current [x rated], duration [s]) checked against each device's
-        minimum curve; :data:`INRUSH_POINTS` by default, skipped without a rated current.
+        (multiple of rated current, duration) checked against each device's minimum curve;
+        :data:`INRUSH_POINTS` by default, skipped without a rated current [x rated, s].
     check_from_current : float or None
-        Lowest current of the protection check [A]; None: :data:`DEFAULT_CHECK_FROM_X_RATED` ×
-        the damage curve's rated current when ``overload_by_secondary_device``, else the
-        curve's lowest current.
+        Lowest current of the protection check; None: :data:`DEFAULT_CHECK_FROM_X_RATED` × the
+        damage curve's rated current when ``overload_by_secondary_device``, else the curve's
+        lowest current [A].
     overload_by_secondary_device : bool
-        A secondary-side device carries the overload range (below the check's start).
+        A secondary-side device carries the overload range (below the check's start) [-].
 
     Returns
     -------
@@ -432,11 +432,11 @@ def check_start(
     Parameters
     ----------
     damage : core.protection.damage_curves.DamageCurve
-        The damage curve (its rated current and lowest current).
+        The damage curve (its rated current and lowest current) [-].
     given : float or None
-        The caller's start [A]; None for the default.
+        The caller's start; None for the default [A].
     secondary : bool
-        A secondary-side device carries the overload range.
+        A secondary-side device carries the overload range [-].
 
     Returns
     -------
@@ -491,11 +491,11 @@ def coordination_window(
     Parameters
     ----------
     relay : Relay
-        Relay; its ``time_dial`` is varied.
+        Relay; its ``time_dial`` is varied [-].
     inrush : InrushCurves
-        The inrush.
+        The inrush [-].
     damage : core.protection.damage_curves.DamageCurve
-        Damage curve in the relay's amperes.
+        Damage curve in the relay's amperes [-].
     opening_time_s, damage_current_factor : float or None
         As :func:`protection_check` [s], [-].
     setting_range : (float, float) or None

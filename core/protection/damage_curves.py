@@ -126,9 +126,9 @@ def through_fault_category(
     rating_kva : float
         Minimum nameplate (self-cooled) rating [kVA].
     phases : int
-        1 or 3.
+        1 or 3 [-].
     insulation : str
-        "liquid" (IEEE C57.109) or "dry" (IEEE C57.12.59, Categories I-III only).
+        "liquid" (IEEE C57.109) or "dry" (IEEE C57.12.59, Categories I-III only) [-].
 
     Returns
     -------
@@ -179,7 +179,7 @@ def thermal_time_pu(x: npt.ArrayLike, insulation: Insulation = "liquid") -> Floa
     x : array_like
         Current, > 0 [pu of rated current].
     insulation : str
-        "liquid" (the C57.109 table) or "dry" (t = 1250/x² throughout).
+        "liquid" (the C57.109 table) or "dry" (t = 1250/x² throughout) [-].
 
     Returns
     -------
@@ -327,7 +327,7 @@ def through_fault_damage_time(
     rating_kva : float
         Minimum nameplate rating [kVA].
     phases : int
-        1 or 3.
+        1 or 3 [-].
     rated_current : float
         Rated current of the winding ``current`` flows in [A].
     z_transformer_pu : float
@@ -336,9 +336,9 @@ def through_fault_damage_time(
         Source impedance; not used for Category I [pu of transformer base].
     frequent : bool
         True for the frequent-fault curve (Categories II and III; more than about 10 (II) or 5
-        (III) faults in the unit's life, from memory); Categories I and IV have one curve.
+        (III) faults in the unit's life, from memory); Categories I and IV have one curve [-].
     insulation : str
-        "liquid" (C57.109) or "dry" (C57.12.59).
+        "liquid" (C57.109) or "dry" (C57.12.59) [-].
 
     Returns
     -------
@@ -413,7 +413,7 @@ def through_fault_damage_curve(
     Parameters
     ----------
     rating_kva, phases, rated_current, z_transformer_pu, z_source_pu, frequent, insulation
-        As :func:`through_fault_damage_time` ([kVA], -, [A], [pu], [pu], -, -).
+        As :func:`through_fault_damage_time` ([kVA], -, [A], [pu], [pu], -, -). [-] [-] [-]
     points : int
         Number of log-spaced currents, 2-10 000; the vertical step adds two [-].
 

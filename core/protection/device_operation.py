@@ -248,7 +248,7 @@ def device_times(
     Parameters
     ----------
     device : Relay, Fuse or Breaker
-        The device.
+        The device [-].
     current_a : array_like
         rms current [A].
     opening_time_s : float or None
@@ -394,9 +394,9 @@ def relay_ride_through(relay: Relay, inrush: InrushCurves) -> RideThrough:
     Parameters
     ----------
     relay : Relay
-        Relay settings.
+        Relay settings [-].
     inrush : InrushCurves
-        From :func:`inrush_from_waveform` or :func:`inrush_from_table`.
+        From :func:`inrush_from_waveform` or :func:`inrush_from_table` [-].
 
     Returns
     -------
@@ -438,9 +438,9 @@ def fuse_ride_through(fuse: Fuse, inrush: InrushCurves) -> RideThrough:
     Parameters
     ----------
     fuse : Fuse
-        Fuse curves and derating.
+        Fuse curves and derating [-].
     inrush : InrushCurves
-        The inrush.
+        The inrush [-].
 
     Returns
     -------
@@ -473,9 +473,9 @@ def breaker_ride_through(breaker: Breaker, inrush: InrushCurves) -> RideThrough:
     Parameters
     ----------
     breaker : Breaker
-        Trip unit, what its instantaneous senses, and the peak factor.
+        Trip unit, what its instantaneous senses, and the peak factor [-].
     inrush : InrushCurves
-        The inrush.
+        The inrush [-].
 
     Returns
     -------

@@ -226,7 +226,7 @@ def lv_breaker_trip_band(current: npt.ArrayLike, breaker: LowVoltageBreaker) -> 
     current : array_like
         rms current [A].
     breaker : LowVoltageBreaker
-        Trip-unit settings.
+        Trip-unit settings [-].
 
     Returns
     -------

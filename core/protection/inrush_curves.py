@@ -119,7 +119,7 @@ def inrush_from_waveform(
     rated_current_a : float or None
         Rated rms line current, for the common-practice inrush points [A].
     lines : sequence of str or None
-        Line labels; A, B, C by default.
+        Line labels; A, B, C by default [-].
     points : int
         Log-spaced I_eq times from a half cycle to the last sample, 2-10 000 [-].
     i2t_half_cycles : int
@@ -212,10 +212,10 @@ def inrush_from_table(
     rated_current_a : float or None
         Rated rms line current, for the inrush points [A].
     lines : sequence of str or None
-        Line labels.
+        Line labels [-].
     peak_a, half_cycle_rms_a, window_i2t_a2s : array_like or None
-        Per-line largest |i| [A], half-cycle rms [A] and window I²t [A²s] if known; without
-        them the breaker instantaneous and fuse I²t checks are skipped with a warning.
+        Per-line largest |i|, half-cycle rms and window I²t if known; without them the breaker
+        instantaneous and fuse I²t checks are skipped with a warning [A], [A], [A²s].
 
     Returns
     -------

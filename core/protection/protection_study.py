@@ -72,7 +72,7 @@ def source_impedance_pu(circuit: EquivalentCircuit, rating_va: float) -> float:
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The energisation circuit (its source resistance and inductance, wye-equivalent).
+        The energisation circuit (its source resistance and inductance, wye-equivalent) [-].
     rating_va : float
         Transformer rating [VA].
 
@@ -95,7 +95,7 @@ def device_curves(
     Parameters
     ----------
     device : Relay, Fuse or Breaker
-        The device.
+        The device [-].
     grid : array_like
         Currents to tabulate at; the device's own points and pickups are added [A].
     opening_time_s : float or None
@@ -196,29 +196,29 @@ def clearance_study(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        Energisation circuit (nameplate mode).
+        Energisation circuit (nameplate mode) [-].
     closing_angle_deg : float or None
-        Phase-A voltage angle at t = 0 [deg]; None for the worst closing angle for the given
-        residual flux (found by :func:`core.energization.energize.worst_closing_angle`).
+        Phase-A voltage angle at t = 0; None for the worst closing angle for the given residual
+        flux (found by :func:`core.energization.energize.worst_closing_angle`) [deg].
     residual_flux_pu : array_like
         Residual flux per winding [pu of lambda_N].
     pole_delay_s : array_like
         Pole closing delays [s].
     devices : sequence of Relay, Fuse or Breaker
-        Candidates (distinct names), in amperes on the energised side.
+        Candidates (distinct names), in amperes on the energised side [-].
     rating_va : float
         Transformer rating, for the damage category [VA].
     impedance_percent : float
-        Transformer impedance [%], for the through-fault current.
+        Transformer impedance, for the through-fault current [%].
     duration_s : float
         Simulated inrush duration [s].
     frequent_faults : bool
-        Use the frequent-fault damage curve (IEEE C57.109 categories II-IV).
+        Use the frequent-fault damage curve (IEEE C57.109 categories II-IV) [-].
     insulation : str
-        ``"liquid"`` or ``"dry"``.
+        ``"liquid"`` or ``"dry"`` [-].
     opening_time_s : float or None
-        Breaker opening time added to relay curves [s]; None for the default of
-        :mod:`core.protection.device_operation`.
+        Breaker opening time added to relay curves; None for the default of
+        :mod:`core.protection.device_operation` [s].
     damage_current_factor : float or None
         Damage-curve current multiplier for the winding-to-line relation (e.g. 0.58 for a
         delta-wye unit and a secondary line-to-ground fault, common practice) [-].
@@ -226,9 +226,9 @@ def clearance_study(
         Lowest current of the protection check; None: the default of
         :func:`core.protection.coordination.evaluate` [A].
     overload_by_secondary_device : bool
-        A secondary-side device carries the overload range below the check's start.
+        A secondary-side device carries the overload range below the check's start [-].
     windows : bool
-        Search the coordination window of each inverse-time relay.
+        Search the coordination window of each inverse-time relay [-].
     samples_per_cycle : int
         Output samples per cycle of the simulation [-].
     max_steps : int or None

@@ -95,7 +95,7 @@ def ieee_c37_112_trip_time(
     multiple : array_like
         Current as a multiple of pickup, M = I/I_pickup [pu of pickup].
     curve : str
-        "moderately_inverse", "very_inverse" or "extremely_inverse".
+        "moderately_inverse", "very_inverse" or "extremely_inverse" [-].
     time_dial : float
         Time dial TD, a multiplier of the curve [-].
 
@@ -135,7 +135,7 @@ def ieee_c37_112_reset_time(
     multiple : array_like
         Current as a multiple of pickup, M = I/I_pickup [pu of pickup].
     curve : str
-        "moderately_inverse", "very_inverse" or "extremely_inverse".
+        "moderately_inverse", "very_inverse" or "extremely_inverse" [-].
     time_dial : float
         Time dial TD [-].
 
@@ -176,7 +176,7 @@ def iec_60255_151_trip_time(multiple: npt.ArrayLike, curve: IecCurve, tms: float
     multiple : array_like
         Current as a multiple of the setting, M = I/I_s [pu of setting].
     curve : str
-        "standard_inverse", "very_inverse", "extremely_inverse" or "long_time_inverse".
+        "standard_inverse", "very_inverse", "extremely_inverse" or "long_time_inverse" [-].
     tms : float
         Time multiplier setting TMS [-].
 
@@ -278,10 +278,10 @@ def cumulative_trip(
         rms current at each sample time [A].
     trip_time_fn : callable
         Maps current [A] to operating time [s], +inf where the device does not operate (e.g.
-        ``lambda i: ieee_c37_112_trip_time(i / pickup, "very_inverse", 2.0)``).
+        ``lambda i: ieee_c37_112_trip_time(i / pickup, "very_inverse", 2.0)``) [-].
     reset_time_fn : callable, optional
         Maps current [A] to reset time [s] where the device is not operating: +inf holds θ,
-        0 resets it at once. None (default) holds θ below pickup, which trips earliest.
+        0 resets it at once. None (default) holds θ below pickup, which trips earliest [-].
 
     Returns
     -------

@@ -105,11 +105,11 @@ def device_operation_odds(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The circuit the distribution was drawn for.
+        The circuit the distribution was drawn for [-].
     dist : PeakDistribution
-        The Monte Carlo sample; its first ``events`` events are judged.
+        The Monte Carlo sample; its first ``events`` events are judged [-].
     devices : sequence of Relay, Fuse or Breaker
-        On the energised side, distinct names.
+        On the energised side, distinct names [-].
     events : int
         Events judged, in [1, samples] [-].
     duration_s : float
@@ -191,19 +191,19 @@ def dip_exceedance_odds(
     Parameters
     ----------
     gen : Generator
-        The machine.
+        The machine [-].
     circuit : EquivalentCircuit
-        The transformer built with an ideal source (the machine replaces it).
+        The transformer built with an ideal source (the machine replaces it) [-].
     dist : PeakDistribution
-        The Monte Carlo sample; its first ``events`` events are simulated with the machine.
+        The Monte Carlo sample; its first ``events`` events are simulated with the machine [-].
     limit_percent : float
         Dip limit, in (0, 100] [% of the pre-event voltage].
     events : int
         Events judged, in [1, samples] [-].
     excitation : Excitation, "unknown" or "constant_field"
-        Regulator model.
+        Regulator model [-].
     bus_load : BusLoad or None
-        Load already on the bus.
+        Load already on the bus [-].
     duration_s : float
         Simulated time of each event, in [0.1, 30]: the dip falls in the first cycles, so a
         fraction of a second suffices (recovery is not judged here) [s].

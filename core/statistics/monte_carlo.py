@@ -379,7 +379,7 @@ def peak_distribution(
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The transformer and its source.
+        The transformer and its source [-].
     samples : int
         Number of energisations drawn, in [1, 1e7] [-].
     random_state : int or None
@@ -491,7 +491,7 @@ def exceedance_probability(
     threshold_a : float
         Threshold; a peak counts when strictly above it [A].
     method : str
-        ``"clopper_pearson"`` (exact, conservative) or ``"wilson"`` (score interval).
+        ``"clopper_pearson"`` (exact, conservative) or ``"wilson"`` (score interval) [-].
     confidence : float
         Two-sided confidence level, in (0, 1) [-].
 

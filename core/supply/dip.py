@@ -388,6 +388,11 @@ Measure = Literal["worst", "line", "phase"]
 def check_measure(value: str) -> None:
     """Validate a ``voltage_measure``: ``"worst"``, ``"line"`` or ``"phase"``.
 
+    Parameters
+    ----------
+    value : str
+        The voltage measure asked for [-].
+
     Raises
     ------
     ParameterError
@@ -446,18 +451,18 @@ def energize_from_source(
     Parameters
     ----------
     source : Generator or UtilitySource
-        The supply.
+        The supply [-].
     circuit : EquivalentCircuit
-        Three-phase transformer circuit built with an ideal source.
+        Three-phase transformer circuit built with an ideal source [-].
     closing_angle_deg : float
         Angle of the phase-A terminal voltage at t = 0, sqrt(2)*V*sin(omega*t + alpha) [deg].
     residual_flux_pu : array_like
         Residual flux per winding (a, b, c; ab, bc, ca for delta) [pu of lambda_N].
     excitation : Excitation, "unknown" or "constant_field"
         Regulator; "unknown" is :func:`core.supply.sources.unknown_excitation` (defaults set
-        for the machine, well damped). Ignored for a utility source.
+        for the machine, well damped). Ignored for a utility source [-].
     bus_load : BusLoad or None
-        Load already on the bus, constant impedance.
+        Load already on the bus, constant impedance [-].
     pre_event_voltage_pu : float
         Terminal voltage before closing [pu of the source's rated voltage].
     duration_s : float
@@ -469,11 +474,11 @@ def energize_from_source(
         Half-width of the recovery band; 3 % is a common practice default, set it to the
         steady-state tolerance that applies [% of the reference].
     recovery_reference : str
-        ``"pre_event"`` or ``"final"`` (mean of the last simulated cycle).
+        ``"pre_event"`` or ``"final"`` (mean of the last simulated cycle) [-].
     voltage_measure : str
         Voltages the headline dip and the recovery use: ``"worst"`` (the deeper of the phase
         and line figures, conservative), ``"line"`` (line-to-line: independent of the
-        zero-sequence simplification, what a regulator senses) or ``"phase"``.
+        zero-sequence simplification, what a regulator senses) or ``"phase"`` [-].
     waveform_points : int
         Return the waveforms decimated to about this many points (0: none) [-].
     insertion_resistance_ohm : float

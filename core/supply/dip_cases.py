@@ -137,15 +137,15 @@ def build_case(
     Parameters
     ----------
     src : SourceParameters
-        The source.
+        The source [-].
     circuit : EquivalentCircuit
-        Three-phase transformer circuit (its own source impedance is ignored).
+        Three-phase transformer circuit (its own source impedance is ignored) [-].
     closing_angle_deg : float
         Phase-A terminal voltage angle at t = 0 [deg].
     residual_flux_pu : ndarray, shape (3,)
         Residual flux per winding [pu of lambda_N].
     load_w_var : tuple of float or None
-        Bus load (P [W], Q [var]) at rated voltage, constant impedance.
+        Bus load (P, Q) at rated voltage, constant impedance; None for none [W, var].
     v0_pu : float
         Pre-event terminal voltage [pu].
     insertion_resistance_ohm : float
@@ -382,7 +382,7 @@ def run(
     Parameters
     ----------
     cases : sequence of Case
-        Same connection for all.
+        Same connection for all [-].
     frequency_hz : float
         [Hz].
     voltage_base_v : float
@@ -556,6 +556,13 @@ def check_insertion(resistance_ohm: float, time_s: float) -> tuple[float, float]
 
     The resistance must be finite and >= 0 (the largest a circuit allows is checked by
     :func:`run`, which knows the step); the time in [0, 600] s, the longest simulated duration.
+
+    Parameters
+    ----------
+    resistance_ohm : float
+        Pre-insertion resistor per pole, >= 0 [ohm].
+    time_s : float
+        Its time in circuit from closing, >= 0 [s].
     """
     try:
         r = float(resistance_ohm)
@@ -577,6 +584,13 @@ def check_poles(pole_delay_s: ArrayLike, duration_s: float) -> FloatArray:
 
     Returns them as an array of shape (3,); raises :class:`ParameterError` naming
     ``pole_delay_s``.
+
+    Parameters
+    ----------
+    pole_delay_s : array_like
+        A scalar or one closing instant per pole [s].
+    duration_s : float
+        Simulated time every pole must close within [s].
     """
     try:
         d = np.broadcast_to(np.asarray(pole_delay_s, dtype=float), (3,)).astype(float)
@@ -603,6 +617,21 @@ def check_inputs(
     the residual flux in [pu of lambda_N], the pre-event voltage in [pu], the duration in [s].
     Returns the residual flux per winding, shape (3,), and (code, message) warnings; raises
     :class:`ParameterError` naming the offending input.
+
+    Parameters
+    ----------
+    source : Generator or UtilitySource
+        The source; it needs line_voltage_v and frequency_hz [-].
+    circuit : EquivalentCircuit
+        Three-phase circuit built on an ideal source [-].
+    closing_angle_deg : float
+        Phase-A voltage angle at t = 0 [deg].
+    residual_flux_pu : array_like
+        A scalar or 3 values in [-5, 5] [pu of lambda_N].
+    pre_event_voltage_pu : float
+        Terminal voltage before closing, in [0.5, 1.5] [pu].
+    duration_s : float
+        Simulated time, in (0, 600] [s].
     """
     if not (hasattr(source, "line_voltage_v") and hasattr(source, "frequency_hz")):
         raise ParameterError("source", type(source).__name__, "a Generator or UtilitySource")

@@ -461,7 +461,7 @@ def pack_curve(circuit: EquivalentCircuit, lp: float) -> tuple[FloatArray, Float
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The transformer circuit whose curve is packed.
+        The transformer circuit whose curve is packed [-].
     lp : float
         Inductance in series with the winding in its loop, L_p [H].
 

@@ -100,7 +100,13 @@ class Verdict:
 
 
 def iso_8528_5_class(name: str) -> DipLimit:
-    """The ISO 8528-5 class limit named ``"G1"`` .. ``"G4"`` (values from memory)."""
+    """The ISO 8528-5 class limit named ``"G1"`` .. ``"G4"`` (values from memory).
+
+    Parameters
+    ----------
+    name : str
+        Performance class G1, G2 or G3 [-].
+    """
     for lim in ISO_8528_5_CLASSES:
         if lim.name == name:
             return lim
@@ -123,12 +129,13 @@ def verdicts(
     recovery_time_s : float
         Recovery time, nan when not recovered within the simulated time [s].
     limits : tuple of DipLimit
-        Default: the ISO 8528-5 classes (from memory).
+        Default: the ISO 8528-5 classes (from memory) [-].
     simulated_s : float
         Simulated time: an unrecovered voltage fails a recovery limit only if this covers it [s].
     recovery_reliable : bool
         False when the recovery time measures an oscillation of a poorly damped regulator
         (:attr:`core.supply.dip.DipStudy.recovery_reliable`): recovery limits are then not judged.
+        [-]
 
     Returns
     -------

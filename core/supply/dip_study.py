@@ -55,27 +55,27 @@ def dip_study(
     Parameters
     ----------
     source : Generator or UtilitySource
-        The supply.
+        The supply [-].
     circuit : EquivalentCircuit
-        Transformer circuit (ideal source; the source model replaces it).
+        Transformer circuit (ideal source; the source model replaces it) [-].
     closing_angle_deg : float
         Phase-A terminal-voltage angle at closing [deg].
     residual_flux_pu : array_like
         Residual flux per winding [pu of lambda_N].
     limits : tuple of DipLimit
-        Limits to judge against (ISO 8528-5 classes by default, from memory).
+        Limits to judge against (ISO 8528-5 classes by default, from memory) [-].
     size_for : DipLimit or None
-        Find the smallest generator meeting this limit (generator sources only).
+        Find the smallest generator meeting this limit (generator sources only) [-].
     excitation : Excitation, "unknown" or "constant_field"
-        Regulator model.
+        Regulator model [-].
     bus_load : BusLoad or None
-        Load already on the bus.
+        Load already on the bus [-].
     duration_s : float
         Simulated time [s].
     recovery_band_percent : float
         Recovery band around the pre-event voltage [%].
     voltage_measure : str
-        ``"worst"``, ``"line"`` or ``"phase"``: which rms voltage the dip is read from.
+        ``"worst"``, ``"line"`` or ``"phase"``: which rms voltage the dip is read from [-].
     waveform_points : int
         Return the terminal voltages and currents with at most this many points [-].
     insertion_resistance_ohm : float

@@ -6,7 +6,7 @@ voltage and frequency, changes only its rating, and simulates the energisation w
 model of :mod:`core.supply.dip` at each rating: :func:`dip_sweep` gives the dip at a list of ratings
 in one vectorised run, :func:`smallest_generator` the smallest rating whose dip is within a limit
 (an ISO 8528-5 class or the caller's own), with the recovery time judged at that rating. On the demo
-case (the 1250 kVA Northgate set energising the 2500 kVA unit, tests/core/test_generator.py) it
+case (the 1250 kVA Northgate set energising the 2500 kVA unit, tests/core/supply/test_sources.py) it
 finds 13,747 kVA for class G2 (20 %), dip 20.0 %, recovery 0.48 s (``dip_duration_s`` 0.5 s).
 
 Limits:
@@ -88,13 +88,13 @@ def dip_sweep(
     Parameters
     ----------
     generator : Generator
-        Per-unit data, voltage and frequency kept; the rating is replaced.
+        Per-unit data, voltage and frequency kept; the rating is replaced [-].
     circuit : EquivalentCircuit
-        As for :func:`core.supply.dip.energize_from_source`.
+        As for :func:`core.supply.dip.energize_from_source` [-].
     ratings_va : array_like, shape (n,)
         Generator ratings [VA].
     closing_angle_deg, residual_flux_pu, excitation, bus_load, pre_event_voltage_pu
-        As for :func:`core.supply.dip.energize_from_source`.
+        As for :func:`core.supply.dip.energize_from_source`. [-] [-]
     duration_s : float
         Simulated time; the lowest voltage normally falls within the first second [s].
     steps_per_cycle, voltage_measure, insertion_resistance_ohm, insertion_time_s, pole_delay_s
@@ -207,13 +207,13 @@ def smallest_generator(
     Parameters
     ----------
     generator : Generator
-        Machine data; its rating is only the starting point.
+        Machine data; its rating is only the starting point [-].
     circuit : EquivalentCircuit
-        Transformer circuit, as for :func:`core.supply.dip.energize_from_source`.
+        Transformer circuit, as for :func:`core.supply.dip.energize_from_source` [-].
     limit : DipLimit or str
-        A limit, or an ISO 8528-5 class name ``"G1"``-``"G3"`` (values from memory).
+        A limit, or an ISO 8528-5 class name ``"G1"``-``"G3"`` (values from memory) [-].
     closing_angle_deg, residual_flux_pu, excitation, bus_load
-        As for :func:`core.supply.dip.energize_from_source`.
+        As for :func:`core.supply.dip.energize_from_source`. [-] [-]
     bounds_va : tuple of float or None
         Search range; default 0.1-20 x the given rating [VA].
     dip_duration_s : float
@@ -221,9 +221,9 @@ def smallest_generator(
     rtol : float
         Relative tolerance on the rating [-].
     check_recovery : bool
-        Also simulate the found rating for the limit's recovery time plus 1 s and judge it.
+        Also simulate the found rating for the limit's recovery time plus 1 s and judge it [-].
     voltage_measure : str
-        As for :func:`core.supply.dip.energize_from_source`.
+        As for :func:`core.supply.dip.energize_from_source` [-].
     insertion_resistance_ohm, insertion_time_s : float
         Pre-insertion resistor, the same at every rating, and its insertion time, as for
         :func:`core.supply.dip.energize_from_source` [ohm], [s].

@@ -242,7 +242,7 @@ def regulator_gain_for_margin(
     Parameters
     ----------
     generator : Generator
-        The machine (its T'_do and T''_do).
+        The machine (its T'_do and T''_do) [-].
     time_constant_s : float
         Regulator time constant T_A, > 0 [s].
     sensing_time_constant_s : float
@@ -301,12 +301,12 @@ def regulator_damping_ratio(
     Parameters
     ----------
     generator : Generator
-        The machine.
+        The machine [-].
     excitation : Excitation
-        Its regulator.
+        Its regulator [-].
     bus_load : BusLoad or None
         Constant-impedance load left on the machine (the state after the inrush); None for
-        open circuit.
+        open circuit [-].
 
     Returns
     -------
@@ -368,7 +368,7 @@ def unknown_excitation(generator: Generator) -> Excitation:
     Parameters
     ----------
     generator : Generator
-        The machine (its X_d sets the rated-load field voltage; T'_do and T''_do the gain).
+        The machine (its X_d sets the rated-load field voltage; T'_do and T''_do the gain) [-].
 
     Returns
     -------
@@ -493,8 +493,8 @@ def first_dip_voltage_divider(
     Parameters
     ----------
     reactance_pu : array_like
-        Source reactance, X''_d for a generator [pu on source_rating_va]; for a utility
-        source 1 with the fault level as the rating.
+        Source reactance, X''_d for a generator; for a utility source 1 with the fault level as
+        the rating [pu on source_rating_va].
     source_rating_va : array_like
         Generator rating, or fault level [VA].
     load_va : array_like
@@ -536,9 +536,9 @@ def source_parameters(
     Parameters
     ----------
     source : Generator or UtilitySource
-        The supply.
+        The supply [-].
     excitation : Excitation, "unknown" or "constant_field"
-        Regulator of a generator; ignored for a utility source.
+        Regulator of a generator; ignored for a utility source [-].
     omega : float or None
         Angular frequency; the source's rated frequency when None [rad/s].
 
@@ -598,7 +598,7 @@ def subtransient_source(generator: Generator) -> CircuitSource:
     Parameters
     ----------
     generator : Generator
-        The machine.
+        The machine [-].
 
     Returns
     -------
@@ -628,8 +628,11 @@ def source_assumptions(
     Parameters
     ----------
     source : Generator or UtilitySource
+        The source whose parameters are listed [-].
     excitation : Excitation, "unknown" or "constant_field"
+        Its regulator, or the preset [-].
     bus_load : BusLoad or None
+        Load on the bus before the event [-].
     v0 : float
         Pre-event voltage [pu].
 

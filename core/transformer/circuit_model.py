@@ -321,11 +321,11 @@ def source_impedance(source: Source, line_voltage_v: float, phases: int) -> tupl
     Parameters
     ----------
     source : Source
-        Source description.
+        Source description [-].
     line_voltage_v : float
         Line-to-line voltage at the energised terminals [V].
     phases : int
-        1 or 3.
+        1 or 3 [-].
 
     Returns
     -------
@@ -362,9 +362,9 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
     Parameters
     ----------
     nameplate : Nameplate
-        Transformer data (see :class:`Nameplate`).
+        Transformer data (see :class:`Nameplate`) [-].
     source : Source or None
-        Supply at the energised terminals; ideal when None.
+        Supply at the energised terminals; ideal when None [-].
 
     Returns
     -------
@@ -574,7 +574,7 @@ def circuit_from_si(
     inductance_h : float
         Series inductance outside the magnetising branch (source) [H].
     curve : PiecewiseLinearCurve or SmoothKneeCurve
-        Magnetising curve of the winding.
+        Magnetising curve of the winding [-].
     rated_current_a : float or None
         Rated rms current, only to express results as multiples of rated [A].
 

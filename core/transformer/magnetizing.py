@@ -224,7 +224,7 @@ def smooth_knee(
     saturated_inductance_h : float
         Slope far above the knee, L_air [H].
     knee_width_wb : float
-        Rounding half-width [Wb-turn], > 0 and at most lambda_S.
+        Rounding half-width, > 0 and at most lambda_S [Wb-turn].
 
     Returns
     -------
@@ -260,7 +260,7 @@ def from_table(
     Parameters
     ----------
     flux_wb : array_like
-        Flux linkages, strictly increasing and > 0 [Wb-turn]; the origin is added.
+        Flux linkages, strictly increasing and > 0; the origin is added [Wb-turn].
     current_a : array_like
         Currents at those fluxes, strictly increasing and > 0 [A].
     final_inductance_h : float
@@ -329,7 +329,7 @@ def rms_current_sinusoidal_flux(curve: PiecewiseLinearCurve, peak_flux_wb: float
     Parameters
     ----------
     curve : PiecewiseLinearCurve
-        The magnetising curve.
+        The magnetising curve [-].
     peak_flux_wb : float
         Peak of the sinusoidal flux linkage, sqrt(2)*V/omega for an rms voltage V [Wb-turn].
 

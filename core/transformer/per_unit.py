@@ -35,9 +35,9 @@ def winding_voltage_v(line_voltage_v: float, phases: int, connection: str) -> fl
         Rated line-to-line rms voltage of the energised side; for a single-phase unit the
         winding voltage itself [V].
     phases : int
-        1 or 3.
+        1 or 3 [-].
     connection : str
-        ``"wye_grounded"``, ``"wye"`` or ``"delta"`` (ignored for one phase).
+        ``"wye_grounded"``, ``"wye"`` or ``"delta"`` (ignored for one phase) [-].
 
     Returns
     -------
@@ -50,22 +50,60 @@ def winding_voltage_v(line_voltage_v: float, phases: int, connection: str) -> fl
 
 
 def rated_winding_current_a(rating_va: float, phases: int, winding_v: float) -> float:
-    """Rated rms current of one winding, S/(m*V_w) [A] for rating [VA] and winding voltage [V]."""
+    """Rated rms current of one winding, S/(m*V_w) [A] for rating [VA] and winding voltage [V].
+
+    Parameters
+    ----------
+    rating_va : float
+        Rated power of the unit [VA].
+    phases : int
+        1 or 3 [-].
+    winding_v : float
+        Rated rms voltage across the winding [V].
+    """
     return rating_va / (phases * winding_v)
 
 
 def rated_line_current_a(rating_va: float, phases: int, line_voltage_v: float) -> float:
-    """Rated rms line current [A]: S/V for one phase, S/(sqrt(3)*V_LL) for three [VA, V]."""
+    """Rated rms line current [A]: S/V for one phase, S/(sqrt(3)*V_LL) for three [VA, V].
+
+    Parameters
+    ----------
+    rating_va : float
+        Rated power of the unit [VA].
+    phases : int
+        1 or 3 [-].
+    line_voltage_v : float
+        Rated line-to-line rms voltage; for one phase the winding voltage [V].
+    """
     if phases == 1:
         return rating_va / line_voltage_v
     return rating_va / (math.sqrt(3.0) * line_voltage_v)
 
 
 def base_impedance_ohm(rating_va: float, phases: int, winding_v: float) -> float:
-    """Base impedance of one winding, V_w^2/(S/m) [ohm] for rating [VA] and voltage [V]."""
+    """Base impedance of one winding, V_w^2/(S/m) [ohm] for rating [VA] and voltage [V].
+
+    Parameters
+    ----------
+    rating_va : float
+        Rated power of the unit [VA].
+    phases : int
+        1 or 3 [-].
+    winding_v : float
+        Rated rms voltage across the winding [V].
+    """
     return winding_v * winding_v / (rating_va / phases)
 
 
 def nominal_flux_linkage_wb(winding_v: float, frequency_hz: float) -> float:
-    """Crest of the steady-state flux linkage at rated voltage, sqrt(2)*V/omega [Wb-turn]."""
+    """Crest of the steady-state flux linkage at rated voltage, sqrt(2)*V/omega [Wb-turn].
+
+    Parameters
+    ----------
+    winding_v : float
+        Rated rms voltage across the winding [V].
+    frequency_hz : float
+        Power frequency [Hz].
+    """
     return math.sqrt(2.0) * winding_v / (2.0 * math.pi * frequency_hz)

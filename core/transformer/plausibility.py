@@ -141,7 +141,7 @@ def rating_voltage_warnings(
     rating_va : float
         Rated power [VA].
     phases : int
-        1 or 3.
+        1 or 3 [-].
     line_voltage_v : float
         Rated line-to-line voltage of the energised winding (the winding voltage for a
         single-phase unit) [V].

@@ -61,7 +61,7 @@ def next_standard_rating_kva(rating_kva: float, phases: int) -> float:
     rating_kva : float
         Present rating [kVA].
     phases : int
-        1 or 3.
+        1 or 3 [-].
 
     Returns
     -------
@@ -107,7 +107,7 @@ def retap(circuit: EquivalentCircuit, turns_ratio: float) -> EquivalentCircuit:
     Parameters
     ----------
     circuit : EquivalentCircuit
-        The unit at its present tap.
+        The unit at its present tap [-].
     turns_ratio : float
         k = N_new/N_present, in [0.8, 1.2]; 1.05 is a tap with 5 % more turns [-].
 
@@ -173,7 +173,13 @@ def _plain(nameplate: Nameplate) -> Nameplate:
 
 
 def variant_notes(nameplate: Nameplate) -> tuple[str, ...]:
-    """What a rating, material or winding variant drops from the nameplate, in words."""
+    """What a rating, material or winding variant drops from the nameplate, in words.
+
+    Parameters
+    ----------
+    nameplate : Nameplate
+        The unit whose defaults the variants keep [-].
+    """
     notes = []
     if nameplate.geometry is not None:
         notes.append(
@@ -200,13 +206,13 @@ def with_material(
     Parameters
     ----------
     nameplate : Nameplate
-        The present unit.
+        The present unit [-].
     source : Source or None
-        Supply at the energised terminals.
+        Supply at the energised terminals [-].
     material : str
-        ``"grain_oriented"``, ``"amorphous"`` or ``"custom"``.
+        ``"grain_oriented"``, ``"amorphous"`` or ``"custom"`` [-].
     nominal_flux_density_t, saturation_flux_density_t : float or None
-        B_N and B_S [T]; required for ``"custom"``, override the class values otherwise.
+        B_N and B_S; required for ``"custom"``, override the class values otherwise [T].
 
     Returns
     -------
@@ -238,9 +244,9 @@ def with_rating(nameplate: Nameplate, source: Source | None, rating_va: float) -
     Parameters
     ----------
     nameplate : Nameplate
-        The present unit.
+        The present unit [-].
     source : Source or None
-        Supply at the energised terminals (unchanged: the same bus).
+        Supply at the energised terminals (unchanged: the same bus) [-].
     rating_va : float
         Rating of the variant [VA].
 
@@ -271,15 +277,15 @@ def from_other_winding(
     Parameters
     ----------
     nameplate : Nameplate
-        The unit as energised now.
+        The unit as energised now [-].
     source : Source or None
-        Supply at the other winding's terminals.
+        Supply at the other winding's terminals [-].
     line_voltage_v : float
         Rated line-to-line voltage of the other winding [V].
     connection : str
-        Its connection (``"wye_grounded"``, ``"wye"`` or ``"delta"``).
+        Its connection (``"wye_grounded"``, ``"wye"`` or ``"delta"``) [-].
     position : str
-        Its position on the leg (``"inner"`` or ``"outer"``).
+        Its position on the leg (``"inner"`` or ``"outer"``) [-].
 
     Returns
     -------
