@@ -30,7 +30,7 @@ from core.mitigation.mitigation_study import (
     OptionResult,
     SweepPoint,
 )
-from core.mitigation.plans import WINDOW_CYCLES, Context, Plan, plan_for, preset_flux
+from core.mitigation.plans import UNCONTROLLED, WINDOW_CYCLES, Context, Plan, plan_for, preset_flux
 from core.mitigation.point_on_wave import (
     STRATEGIES,
     ToleranceWindow,
@@ -60,6 +60,7 @@ __all__ = [
     "RESIDUAL_SWEEP",
     "SCAN",
     "STRATEGIES",
+    "UNCONTROLLED",
     "WINDOW_CYCLES",
     "Context",
     "CoreMaterial",

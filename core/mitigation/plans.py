@@ -11,7 +11,9 @@ provenance) and what it needs in practice. A pre-insertion resistor not given is
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -365,6 +367,253 @@ def _resistor(opt: PreInsertionResistor, ctx: Context, warnings: list[tuple[str,
     return p
 
 
+#: What the worst case is taken over when the breaker closes at random.
+UNCONTROLLED = "closing angle (uncontrolled breaker)"
+
+
+def _demagnetize(opt: Demagnetize, ctx: Context, warnings: list[tuple[str, str]]) -> Plan:
+    """The residual flux reduced to a share of itself before closing."""
+    c = ctx.circuit
+    k = opt.residual_fraction
+    p = Plan(
+        "demagnetize",
+        f"demagnetised to {k:.0%} of the residual flux",
+        c,
+        ctx.residual * k,
+        ctx.delay,
+        dip_circuit=ctx.dip_circuit,
+        worst_over=UNCONTROLLED,
+    )
+    p.parameters.append(Assumption("residual_fraction", k, "-", "given or the default 0"))
+    p.requires.append(
+        "a demagnetising procedure before energising (e.g. a decreasing alternating or "
+        "reversing DC excitation), with no DC test or fault in between"
+    )
+    return p
+
+
+def _premagnetize(opt: PreMagnetize, ctx: Context, warnings: list[tuple[str, str]]) -> Plan:
+    """The core flux pre-set to match a fixed closing instant."""
+    c = ctx.circuit
+    alpha, flux = preset_flux(c, opt.max_flux_pu, opt.closing_error_ms, opt.closing_angle_deg)
+    e = opt.closing_error_ms
+    p = Plan(
+        "pre_magnetize",
+        f"pre-magnetised, closing at {alpha:.1f} deg +-{e:g} ms",
+        c,
+        flux,
+        np.zeros(c.phases),
+        fixed_angle_deg=alpha,
+        error_ms=e,
+        dip_circuit=ctx.dip_circuit,
+        worst_over=f"closing-time errors within +-{e:g} ms",
+    )
+    p.parameters += [
+        Assumption(
+            "preset_flux_pu",
+            tuple(float(x) for x in flux),
+            "pu of nominal flux",
+            "-cos of each winding's voltage angle at closing, within +-max_flux_pu",
+        ),
+        Assumption(
+            "max_flux_pu",
+            opt.max_flux_pu,
+            "pu of nominal flux",
+            "given or the default 0.8 (typical residual range, from memory)",
+        ),
+        _given(
+            "closing_angle_deg",
+            alpha,
+            "deg",
+            opt.closing_angle_deg is not None,
+            "chosen: least flux mismatch over the error band",
+        ),
+        Assumption("closing_error_ms", e, "ms", "given or the default +-1 ms"),
+    ]
+    p.requires += [
+        "a pre-magnetising circuit that sets the core flux before closing",
+        f"all poles closed together at phase-A angle {alpha:.1f} deg, repeatable to "
+        f"+-{e:g} ms (a controlled-switching controller)",
+    ]
+    return p
+
+
+def _ramp(opt: Ramp, ctx: Context, warnings: list[tuple[str, str]]) -> Plan:
+    """The supply voltage ramped up with the unit connected."""
+    c = ctx.circuit
+    p = Plan(
+        "ramp",
+        f"ramped from {opt.start_pu:g} pu over {opt.hold_s + opt.rise_s:g} s",
+        c,
+        ctx.residual,
+        ctx.delay,
+        extras={
+            "voltage_start_pu": opt.start_pu,
+            "voltage_hold_s": opt.hold_s,
+            "voltage_rise_s": opt.rise_s,
+        },
+        dip_note="dip not defined: the supply's own voltage is ramped (loads on the "
+        "same bus see the ramp)",
+        worst_over=UNCONTROLLED,
+    )
+    p.parameters += [
+        Assumption("start_pu", opt.start_pu, "pu of rated voltage", "given or the default 0"),
+        Assumption("hold_s", opt.hold_s, "s", "given or the default 0"),
+        Assumption("rise_s", opt.rise_s, "s", "given or the default 0.5 s (modelling choice)"),
+    ]
+    p.requires.append(
+        "a supply whose voltage can be raised with the unit connected: a generator's soft "
+        "start (excitation ramp) or a reduced-voltage source with a switch-over"
+    )
+    if opt.rise_s == 0.0 and opt.hold_s > 0.0:
+        p.notes.append("the step to rated voltage is itself an energisation (simulated)")
+    return p
+
+
+def _retap(opt: Retap, ctx: Context, warnings: list[tuple[str, str]]) -> Plan:
+    """The energised winding's turns changed by a tap."""
+    c = ctx.circuit
+    k = 1.0 + opt.turns_percent / 100.0
+    p = Plan(
+        "tap",
+        f"tap with {opt.turns_percent:+g} % turns on the energised winding",
+        variants.retap(c, k),
+        ctx.residual * k,
+        ctx.delay,
+        dip_circuit=variants.retap(ctx.dip_circuit, k) if ctx.dip_circuit else None,
+        worst_over=UNCONTROLLED,
+    )
+    p.parameters += [
+        Assumption(
+            "turns_percent",
+            opt.turns_percent,
+            "%",
+            "given or the default +5 % (common practice: +-2 x 2.5 % off-circuit taps)",
+        ),
+        Assumption(
+            "output_voltage_change_percent",
+            100.0 * (1.0 / k - 1.0),
+            "%",
+            "the other winding's voltage at the same applied voltage",
+        ),
+    ]
+    p.requires.append(
+        "an off-circuit tap on the energised winding (taps usually sit on the high-voltage "
+        "winding; a tap on the open winding does not change the inrush), and a secondary "
+        "voltage that tolerates the change"
+    )
+    p.notes.append("residual flux density kept: in per unit of nominal flux it scales with k")
+    return p
+
+
+def _material(opt: CoreMaterial, ctx: Context, warnings: list[tuple[str, str]]) -> Plan:
+    """The same unit with another core material."""
+    npl = ctx.nameplate
+    other = "amorphous" if npl.material == "grain_oriented" else "grain_oriented"
+    mat = opt.material or other
+    args = (mat, opt.nominal_flux_density_t, opt.saturation_flux_density_t)
+    vc = variants.with_material(npl, ctx.source, *args)
+    p = Plan(
+        "core_material",
+        f"{mat.replace('_', '-')} core",
+        vc,
+        ctx.residual,
+        ctx.delay,
+        dip_circuit=variants.with_material(npl, None, *args) if ctx.dip_circuit else None,
+        worst_over=UNCONTROLLED,
+    )
+    p.parameters += [
+        _given("material", mat, "-", opt.material is not None, "default: the other class"),
+        *[a for a in vc.assumptions if a.name.endswith("flux_density_t")],
+    ]
+    p.requires.append("a new or rebuilt core (a design choice, not a retrofit)")
+    p.notes += ["residual flux kept in per unit", *variants.variant_notes(npl)]
+    return p
+
+
+def _rating(opt: Rating, ctx: Context, warnings: list[tuple[str, str]]) -> Plan:
+    """A larger unit of the next standard rating."""
+    npl = ctx.nameplate
+    rating = opt.rating_va or 1e3 * variants.next_standard_rating_kva(
+        npl.rating_va / 1e3, npl.phases
+    )
+    p = Plan(
+        "rating",
+        f"{rating / 1e3:g} kVA unit, same per-unit data",
+        variants.with_rating(npl, ctx.source, rating),
+        ctx.residual,
+        ctx.delay,
+        dip_circuit=variants.with_rating(npl, None, rating) if ctx.dip_circuit else None,
+        rating_va=rating,
+        worst_over=UNCONTROLLED,
+    )
+    p.parameters.append(
+        _given(
+            "rating_kva",
+            rating / 1e3,
+            "kVA",
+            opt.rating_va is not None,
+            "default: the next standard rating up (IEEE C57.12.00 list, from memory)",
+        )
+    )
+    p.requires.append("a rating that still carries the load (not checked here)")
+    p.notes += [
+        "peak x rated is of the present unit's rated current (the same duty)",
+        *variants.variant_notes(npl),
+    ]
+    return p
+
+
+def _other_winding(opt: OtherWinding, ctx: Context, warnings: list[tuple[str, str]]) -> Plan:
+    """The unit energised from its other winding."""
+    npl = ctx.nameplate
+    pos = opt.position or ("outer" if npl.position == "inner" else "inner")
+    vc = variants.from_other_winding(npl, opt.source, opt.line_voltage_v, opt.connection, pos)
+    p = Plan(
+        "other_winding",
+        f"energised from the {opt.line_voltage_v / 1e3:g} kV {pos} winding",
+        vc,
+        ctx.residual,
+        ctx.delay[: vc.phases],
+        dip_note="dip not evaluated: the supply is on the presently energised side",
+        devices_apply=False,
+        x_rated_base_a=vc.rated_line_current_a,
+        worst_over=UNCONTROLLED,
+    )
+    p.parameters += [
+        Assumption("line_voltage_v", opt.line_voltage_v, "V", "given"),
+        Assumption("connection", opt.connection, "-", "given"),
+        _given("position", pos, "-", opt.position is not None, "default: the other position"),
+        Assumption(
+            "source",
+            opt.source.kind if opt.source else "ideal",
+            "-",
+            "given" if opt.source else "default: ideal source",
+        ),
+    ]
+    p.requires.append("a supply on the other winding's side able to carry its inrush")
+    p.notes += [
+        "devices not evaluated: they sit on the presently energised side",
+        "peak x rated is of the other winding's rated current",
+        *variants.variant_notes(npl),
+    ]
+    return p
+
+
+# Each option kind's plan builder: plan_for looks the option's class up here.
+_BUILDERS: dict[type, Callable[[Any, Context, list[tuple[str, str]]], Plan]] = {
+    ControlledClosing: lambda opt, ctx, _warnings: _controlled(opt, ctx),
+    PreInsertionResistor: _resistor,
+    Demagnetize: _demagnetize,
+    PreMagnetize: _premagnetize,
+    Ramp: _ramp,
+    Retap: _retap,
+    CoreMaterial: _material,
+    Rating: _rating,
+    OtherWinding: _other_winding,
+}
+
+
 def plan_for(opt: Option, ctx: Context, warnings: list[tuple[str, str]]) -> Plan:
     """The events an option leaves possible, with its parameters and requirements.
 
@@ -377,211 +626,7 @@ def plan_for(opt: Option, ctx: Context, warnings: list[tuple[str, str]]) -> Plan
     warnings : list of (str, str)
         Collects (code, message) warnings the option raises [-].
     """
-    npl, c = ctx.nameplate, ctx.circuit
-    uncontrolled = "closing angle (uncontrolled breaker)"
-    if isinstance(opt, ControlledClosing):
-        return _controlled(opt, ctx)
-    if isinstance(opt, PreInsertionResistor):
-        return _resistor(opt, ctx, warnings)
-    if isinstance(opt, Demagnetize):
-        k = opt.residual_fraction
-        p = Plan(
-            "demagnetize",
-            f"demagnetised to {k:.0%} of the residual flux",
-            c,
-            ctx.residual * k,
-            ctx.delay,
-            dip_circuit=ctx.dip_circuit,
-            worst_over=uncontrolled,
-        )
-        p.parameters.append(Assumption("residual_fraction", k, "-", "given or the default 0"))
-        p.requires.append(
-            "a demagnetising procedure before energising (e.g. a decreasing alternating or "
-            "reversing DC excitation), with no DC test or fault in between"
-        )
-        return p
-    if isinstance(opt, PreMagnetize):
-        alpha, flux = preset_flux(c, opt.max_flux_pu, opt.closing_error_ms, opt.closing_angle_deg)
-        e = opt.closing_error_ms
-        p = Plan(
-            "pre_magnetize",
-            f"pre-magnetised, closing at {alpha:.1f} deg +-{e:g} ms",
-            c,
-            flux,
-            np.zeros(c.phases),
-            fixed_angle_deg=alpha,
-            error_ms=e,
-            dip_circuit=ctx.dip_circuit,
-            worst_over=f"closing-time errors within +-{e:g} ms",
-        )
-        p.parameters += [
-            Assumption(
-                "preset_flux_pu",
-                tuple(float(x) for x in flux),
-                "pu of nominal flux",
-                "-cos of each winding's voltage angle at closing, within +-max_flux_pu",
-            ),
-            Assumption(
-                "max_flux_pu",
-                opt.max_flux_pu,
-                "pu of nominal flux",
-                "given or the default 0.8 (typical residual range, from memory)",
-            ),
-            _given(
-                "closing_angle_deg",
-                alpha,
-                "deg",
-                opt.closing_angle_deg is not None,
-                "chosen: least flux mismatch over the error band",
-            ),
-            Assumption("closing_error_ms", e, "ms", "given or the default +-1 ms"),
-        ]
-        p.requires += [
-            "a pre-magnetising circuit that sets the core flux before closing",
-            f"all poles closed together at phase-A angle {alpha:.1f} deg, repeatable to "
-            f"+-{e:g} ms (a controlled-switching controller)",
-        ]
-        return p
-    if isinstance(opt, Ramp):
-        p = Plan(
-            "ramp",
-            f"ramped from {opt.start_pu:g} pu over {opt.hold_s + opt.rise_s:g} s",
-            c,
-            ctx.residual,
-            ctx.delay,
-            extras={
-                "voltage_start_pu": opt.start_pu,
-                "voltage_hold_s": opt.hold_s,
-                "voltage_rise_s": opt.rise_s,
-            },
-            dip_note="dip not defined: the supply's own voltage is ramped (loads on the "
-            "same bus see the ramp)",
-            worst_over=uncontrolled,
-        )
-        p.parameters += [
-            Assumption("start_pu", opt.start_pu, "pu of rated voltage", "given or the default 0"),
-            Assumption("hold_s", opt.hold_s, "s", "given or the default 0"),
-            Assumption("rise_s", opt.rise_s, "s", "given or the default 0.5 s (modelling choice)"),
-        ]
-        p.requires.append(
-            "a supply whose voltage can be raised with the unit connected: a generator's soft "
-            "start (excitation ramp) or a reduced-voltage source with a switch-over"
-        )
-        if opt.rise_s == 0.0 and opt.hold_s > 0.0:
-            p.notes.append("the step to rated voltage is itself an energisation (simulated)")
-        return p
-    if isinstance(opt, Retap):
-        k = 1.0 + opt.turns_percent / 100.0
-        p = Plan(
-            "tap",
-            f"tap with {opt.turns_percent:+g} % turns on the energised winding",
-            variants.retap(c, k),
-            ctx.residual * k,
-            ctx.delay,
-            dip_circuit=variants.retap(ctx.dip_circuit, k) if ctx.dip_circuit else None,
-            worst_over=uncontrolled,
-        )
-        p.parameters += [
-            Assumption(
-                "turns_percent",
-                opt.turns_percent,
-                "%",
-                "given or the default +5 % (common practice: +-2 x 2.5 % off-circuit taps)",
-            ),
-            Assumption(
-                "output_voltage_change_percent",
-                100.0 * (1.0 / k - 1.0),
-                "%",
-                "the other winding's voltage at the same applied voltage",
-            ),
-        ]
-        p.requires.append(
-            "an off-circuit tap on the energised winding (taps usually sit on the high-voltage "
-            "winding; a tap on the open winding does not change the inrush), and a secondary "
-            "voltage that tolerates the change"
-        )
-        p.notes.append("residual flux density kept: in per unit of nominal flux it scales with k")
-        return p
-    if isinstance(opt, CoreMaterial):
-        other = "amorphous" if npl.material == "grain_oriented" else "grain_oriented"
-        mat = opt.material or other
-        args = (mat, opt.nominal_flux_density_t, opt.saturation_flux_density_t)
-        vc = variants.with_material(npl, ctx.source, *args)
-        p = Plan(
-            "core_material",
-            f"{mat.replace('_', '-')} core",
-            vc,
-            ctx.residual,
-            ctx.delay,
-            dip_circuit=variants.with_material(npl, None, *args) if ctx.dip_circuit else None,
-            worst_over=uncontrolled,
-        )
-        p.parameters += [
-            _given("material", mat, "-", opt.material is not None, "default: the other class"),
-            *[a for a in vc.assumptions if a.name.endswith("flux_density_t")],
-        ]
-        p.requires.append("a new or rebuilt core (a design choice, not a retrofit)")
-        p.notes += ["residual flux kept in per unit", *variants.variant_notes(npl)]
-        return p
-    if isinstance(opt, Rating):
-        rating = opt.rating_va or 1e3 * variants.next_standard_rating_kva(
-            npl.rating_va / 1e3, npl.phases
-        )
-        p = Plan(
-            "rating",
-            f"{rating / 1e3:g} kVA unit, same per-unit data",
-            variants.with_rating(npl, ctx.source, rating),
-            ctx.residual,
-            ctx.delay,
-            dip_circuit=variants.with_rating(npl, None, rating) if ctx.dip_circuit else None,
-            rating_va=rating,
-            worst_over=uncontrolled,
-        )
-        p.parameters.append(
-            _given(
-                "rating_kva",
-                rating / 1e3,
-                "kVA",
-                opt.rating_va is not None,
-                "default: the next standard rating up (IEEE C57.12.00 list, from memory)",
-            )
-        )
-        p.requires.append("a rating that still carries the load (not checked here)")
-        p.notes += [
-            "peak x rated is of the present unit's rated current (the same duty)",
-            *variants.variant_notes(npl),
-        ]
-        return p
-    if isinstance(opt, OtherWinding):
-        pos = opt.position or ("outer" if npl.position == "inner" else "inner")
-        vc = variants.from_other_winding(npl, opt.source, opt.line_voltage_v, opt.connection, pos)
-        p = Plan(
-            "other_winding",
-            f"energised from the {opt.line_voltage_v / 1e3:g} kV {pos} winding",
-            vc,
-            ctx.residual,
-            ctx.delay[: vc.phases],
-            dip_note="dip not evaluated: the supply is on the presently energised side",
-            devices_apply=False,
-            x_rated_base_a=vc.rated_line_current_a,
-            worst_over=uncontrolled,
-        )
-        p.parameters += [
-            Assumption("line_voltage_v", opt.line_voltage_v, "V", "given"),
-            Assumption("connection", opt.connection, "-", "given"),
-            _given("position", pos, "-", opt.position is not None, "default: the other position"),
-            Assumption(
-                "source",
-                opt.source.kind if opt.source else "ideal",
-                "-",
-                "given" if opt.source else "default: ideal source",
-            ),
-        ]
-        p.requires.append("a supply on the other winding's side able to carry its inrush")
-        p.notes += [
-            "devices not evaluated: they sit on the presently energised side",
-            "peak x rated is of the other winding's rated current",
-            *variants.variant_notes(npl),
-        ]
-        return p
-    raise ParameterError("option", type(opt).__name__, "one of " + ", ".join(KINDS))
+    build = _BUILDERS.get(type(opt))
+    if build is None:
+        raise ParameterError("option", type(opt).__name__, "one of " + ", ".join(KINDS))
+    return build(opt, ctx, warnings)

@@ -19,10 +19,10 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from core import checks
 from core.energization import closed_form, energize
 from core.energization.inrush_study import winding_angles
 from core.errors import ParameterError
-from core.statistics.monte_carlo import check_float, check_int
 from core.transformer.circuit_model import EquivalentCircuit
 
 FloatArray = NDArray[np.float64]
@@ -207,7 +207,7 @@ def controlled_closing(
     switching," IEEE Trans. Power Delivery 16(2), 2001, parts I and II (from memory).
     """
     res = _residual_vector(circuit, residual_flux_pu)
-    window = check_float("cycles", cycles, 0.0, 60.0)
+    window = checks.in_range("cycles", cycles, 0.0, 60.0, open_low=False)
     if window <= 0.0:
         raise ParameterError("cycles", cycles, "a number in (0, 60]")
     f = circuit.frequency_hz
@@ -311,21 +311,21 @@ def tolerance_window(
     smaller of the two limits. An excursion narrower than the grid step can be missed.
     """
     res = _residual_vector(circuit, residual_flux_pu)
-    target = check_float("target_a", target_a, 0.0, math.inf)
+    target = checks.in_range("target_a", target_a, 0.0, math.inf, open_low=False)
     if target <= 0.0:
         raise ParameterError("target_a", target_a, "a number > 0")
     cycle_ms = 1e3 / circuit.frequency_hz
     span = (
         0.25 * cycle_ms
         if max_error_ms is None
-        else check_float("max_error_ms", max_error_ms, 0.0, cycle_ms)
+        else checks.in_range("max_error_ms", max_error_ms, 0.0, cycle_ms, open_low=False)
     )
     if span <= 0.0:
         raise ParameterError("max_error_ms", max_error_ms, f"a number in (0, {cycle_ms:.4g}]")
-    points = check_int("grid_points", grid_points, 11, 100_001)
+    points = checks.integer("grid_points", grid_points, 11, 100_001)
     if points % 2 == 0:
         raise ParameterError("grid_points", grid_points, "an odd integer")
-    tol = check_float("resolution_ms", resolution_ms, 1e-6, 1.0)
+    tol = checks.in_range("resolution_ms", resolution_ms, 1e-6, 1.0, open_low=False)
     grid: FloatArray = np.linspace(-span, span, points)
     worst = _worst_peak(circuit, res, grid, strategy, cycles, max_steps)
     mid = points // 2

@@ -18,10 +18,10 @@ from dataclasses import dataclass, replace
 import numpy as np
 import numpy.typing as npt
 
+from core import checks
 from core.errors import ParameterError
 from core.protection.damage_curves import DamageCurve
 from core.protection.device_operation import (
-    _RMS,
     DEFAULT_MELT_CURRENT_FACTOR,
     DEFAULT_OPENING_TIME_S,
     DEFAULT_PEAK_FACTOR,
@@ -30,6 +30,7 @@ from core.protection.device_operation import (
     MELT_SOURCE,
     OPENING_SOURCE,
     PEAK_SOURCE,
+    RELAY_RMS_WORDS,
     RESET_SOURCE,
     SENSING_SOURCE,
     TIME_DIAL_RANGE,
@@ -39,12 +40,12 @@ from core.protection.device_operation import (
     Relay,
     RideThrough,
     Status,
-    _kind,
-    _ride_through,
+    device_kind,
     device_times,
     relay_ride_through,
+    ride_through,
 )
-from core.protection.inrush_curves import InrushCurves, _arr, _count, _num, _pos
+from core.protection.inrush_curves import InrushCurves
 from core.transformer.circuit_model import Assumption
 
 FloatArray = npt.NDArray[np.float64]
@@ -67,7 +68,10 @@ def _point_checks(
 ) -> tuple[PointCheck, ...]:
     out = []
     for m, t in points:
-        m_ok, t_ok = _pos(m, "inrush_points.multiple"), _pos(t, "inrush_points.time")
+        m_ok, t_ok = (
+            checks.positive("inrush_points.multiple", m),
+            checks.positive("inrush_points.time", t),
+        )
         td = float(device_times(device, m_ok * i_r).minimum_time)
         out.append(PointCheck(m_ok, m_ok * i_r, t_ok, td, td / t_ok, td / t_ok > 1.0))
     return tuple(out)
@@ -178,13 +182,13 @@ class Protection:
 
 def _factor(value: float | None) -> float:
     f = 1.0 if value is None else value
-    return _num(f, "damage_current_factor", "in (0, 1]", lambda x: 0.0 < x <= 1.0)
+    return checks.number("damage_current_factor", f, "in (0, 1]", lambda x: 0.0 < x <= 1.0)
 
 
 def _range(current: FloatArray, fault: float, start: float | None) -> tuple[float, float]:
     """Checked range: from ``start`` (or the curve's start) to the fault current (or its end)."""
     top = float(current[-1]) if not math.isfinite(fault) else min(float(current[-1]), fault)
-    low = float(current[0]) if start is None else _pos(start, "check_from_current")
+    low = float(current[0]) if start is None else checks.positive("check_from_current", start)
     return min(max(low, float(current[0])), top), top
 
 
@@ -251,11 +255,11 @@ def protection_check(
     if isinstance(device, Fuse) and device.total_clearing is None:
         raise ParameterError("total_clearing", None, "a total-clearing curve")
     f = _factor(damage_current_factor)
-    ci = _arr(damage.current, "damage.current", (1,), 1e-300) * f
-    ti = _arr(damage.time, "damage.time", (1,), 1e-300)
+    ci = checks.finite_array("damage.current", damage.current, (1,), 1e-300) * f
+    ti = checks.finite_array("damage.time", damage.time, (1,), 1e-300)
     if ci.size < 2 or ti.shape != ci.shape or np.any(np.diff(ci) < 0.0):
         raise ParameterError("damage", ci.size, "a curve of increasing currents, one time each")
-    n = _count(points, "points", 2, 10_000)
+    n = checks.integer("points", points, 2, 10_000)
     low, top = _range(ci, damage.fault_current * f, check_from_current)
     inside = ci[(ci >= low) & (ci <= top)]
     grid = np.union1d(np.geomspace(low, top, n), np.concatenate(([low, top], inside)))
@@ -268,7 +272,7 @@ def protection_check(
     clearing = {"relay": "relay curve + opening time", "fuse": "total clearing"}
     return Protection(
         device.name,
-        clearing.get(_kind(device), "maximum band"),
+        clearing.get(device_kind(device), "maximum band"),
         status,
         status == "protects",
         float(ratio[k]),
@@ -401,9 +405,11 @@ def evaluate(
                 k, dk = d.peak_factor, DEFAULT_PEAK_FACTOR
                 notes.append(_note(f"{d.name}.peak_factor", k, dk, "-", PEAK_SOURCE))
         else:
-            notes.append(Assumption(f"{d.name}.measured_current", _RMS, "-", "common practice"))
+            notes.append(
+                Assumption(f"{d.name}.measured_current", RELAY_RMS_WORDS, "-", "common practice")
+            )
             notes.append(Assumption(f"{d.name}.reset", d.reset, "-", RESET_SOURCE))
-        rt = _ride_through(d, inrush)
+        rt = ride_through(d, inrush)
         warnings += [(c, f"{d.name}: {m}") for c, m in rt.warnings]
         prot = None
         if damage is not None and isinstance(d, Fuse) and d.total_clearing is None:
@@ -415,7 +421,7 @@ def evaluate(
         pts_out = () if i_r is None else _point_checks(d, i_r, inrush_points)
         ok = not rt.trips and prot is not None and prot.protects
         margin = None if prot is None else min(rt.margin_ratio, prot.margin_ratio)
-        out.append(DeviceEvaluation(d.name, _kind(d), rt, prot, pts_out, ok, margin))
+        out.append(DeviceEvaluation(d.name, device_kind(d), rt, prot, pts_out, ok, margin))
     ranked = sorted(
         (e for e in out if e.suitable), key=lambda e: (-(e.margin_ratio or 0), e.device)
     )
@@ -454,7 +460,7 @@ def check_start(
     Common practice; NEC 450.3 (from memory) for primary fuse ratings.
     """
     if given is not None:
-        return _pos(given, "check_from_current"), "given"
+        return checks.positive("check_from_current", given), "given"
     if not isinstance(secondary, bool):
         raise ParameterError("overload_by_secondary_device", secondary, "True or False")
     if secondary:
@@ -527,10 +533,10 @@ def coordination_window(
     curve; from memory).
     """
     lo, hi = TIME_DIAL_RANGE[relay.standard] if setting_range is None else setting_range
-    lo, hi = _pos(lo, "setting_range.low"), _pos(hi, "setting_range.high")
+    lo, hi = checks.positive("setting_range.low", lo), checks.positive("setting_range.high", hi)
     if hi <= lo:
         raise ParameterError("setting_range", (lo, hi), "low < high")
-    tol = _num(rtol, "rtol", "in [1e-9, 0.1]", lambda x: 1e-9 <= x <= 0.1)
+    tol = checks.number("rtol", rtol, "in [1e-9, 0.1]", lambda x: 1e-9 <= x <= 0.1)
     start = check_from_current
 
     def rides(td: float) -> bool:

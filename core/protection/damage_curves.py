@@ -39,6 +39,7 @@ from typing import Literal
 import numpy as np
 import numpy.typing as npt
 
+from core import checks
 from core.errors import ParameterError
 
 FloatArray = npt.NDArray[np.float64]
@@ -105,17 +106,6 @@ DRY_MAXIMUM_CURRENT_PU = 25.0
 DRY_MAXIMUM_DURATION_S = 100.0
 
 
-def _positive(value: object, name: str, upper: float = np.inf) -> float:
-    allowed = "a finite number > 0" + ("" if np.isinf(upper) else f" and < {upper:g}")
-    try:
-        out = float(value)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        raise ParameterError(name, value, allowed) from None
-    if not (np.isfinite(out) and 0.0 < out < upper):
-        raise ParameterError(name, value, allowed)
-    return out
-
-
 def through_fault_category(
     rating_kva: float, phases: int, insulation: Insulation = "liquid"
 ) -> Category:
@@ -156,7 +146,7 @@ def through_fault_category(
         raise ParameterError("phases", phases, "1 or 3")
     if insulation not in ("liquid", "dry"):
         raise ParameterError("insulation", insulation, "'liquid' or 'dry'")
-    s = _positive(rating_kva, "rating_kva")
+    s = checks.positive("rating_kva", rating_kva)
     lowest, top_i, top_ii, top_iii = CATEGORY_LIMITS_KVA[phases]
     if s < lowest:
         raise ParameterError("rating_kva", rating_kva, f">= {lowest:g} kVA for {phases} phase(s)")
@@ -241,7 +231,7 @@ def short_circuit_current_pu(z_transformer_pu: float, z_source_pu: float = 0.0) 
     ----------
     IEEE Std C57.109-1993 clause 4 (from memory).
     """
-    z_t = _positive(z_transformer_pu, "z_transformer_pu", upper=1.0)
+    z_t = checks.positive("z_transformer_pu", z_transformer_pu, upper=1.0)
     try:
         z_s = float(z_source_pu)
     except (TypeError, ValueError):
@@ -369,7 +359,7 @@ def through_fault_damage_time(
     memory); IEEE Std C57.12.59-2015 clause 4; IEEE Std C37.91-2008 Annex A (frequent faults).
     """
     lim = _limits(rating_kva, phases, z_transformer_pu, z_source_pu, frequent, insulation)
-    i_r = _positive(rated_current, "rated_current")
+    i_r = checks.positive("rated_current", rated_current)
     try:
         i = np.array(current, dtype=np.float64)
     except (TypeError, ValueError):
@@ -446,7 +436,7 @@ def through_fault_damage_curve(
     ):
         raise ParameterError("points", points, "an integer from 2 to 10000")
     lim = _limits(rating_kva, phases, z_transformer_pu, z_source_pu, frequent, insulation)
-    i_r = _positive(rated_current, "rated_current")
+    i_r = checks.positive("rated_current", rated_current)
     x = np.geomspace(lim.x_min, lim.x_max, int(points))
     if insulation == "liquid":
         x = np.union1d(x, [p[0] for p in THERMAL_TABLE if lim.x_min < p[0] < lim.x_max])

@@ -35,19 +35,17 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, replace
-from typing import Literal, cast
+from typing import Any, Literal, cast
 
 import numpy as np
 import numpy.typing as npt
 
+from core import checks
 from core.errors import ParameterError
 from core.protection import fuse_breaker_curves, relay_curves
 from core.protection.inrush_curves import (
     Extreme,
     InrushCurves,
-    _arr,
-    _num,
-    _pos,
     inrush_from_table,
     inrush_from_waveform,
 )
@@ -55,6 +53,7 @@ from core.protection.inrush_curves import (
 # The inrush curves are re-exported: callers may take everything device-side from here.
 __all__ = [
     "INRUSH_POINTS",
+    "RELAY_RMS_WORDS",
     "Breaker",
     "Device",
     "Extreme",
@@ -63,11 +62,13 @@ __all__ = [
     "Relay",
     "RideThrough",
     "breaker_ride_through",
+    "device_kind",
     "device_times",
     "fuse_ride_through",
     "inrush_from_table",
     "inrush_from_waveform",
     "relay_ride_through",
+    "ride_through",
 ]
 
 FloatArray = npt.NDArray[np.float64]
@@ -123,7 +124,8 @@ TIME_DIAL_RANGE = {"ieee_c37_112": (0.5, 15.0), "iec_60255_151": (0.05, 1.5)}
 
 RESET_SOURCE = "setting; default 'curve': C37.112 disk reset on IEEE curves, θ held on IEC ones"
 _EQ = "equivalent rms I_eq(t) = sqrt((1/t)·∫i² dt)"
-_RMS = "sliding one-cycle true rms, integrated as ∫dt/t(I)"
+#: What a relay compares, in the words of the answers.
+RELAY_RMS_WORDS = "sliding one-cycle true rms, integrated as ∫dt/t(I)"
 
 
 @dataclass(frozen=True)
@@ -153,10 +155,10 @@ class Relay:
             raise ParameterError("standard", self.standard, "ieee_c37_112 or iec_60255_151")
         if self.curve not in tables[self.standard]:
             raise ParameterError("curve", self.curve, ", ".join(tables[self.standard]))
-        _pos(self.pickup_a, "pickup_a")
-        _pos(self.time_dial, "time_dial")
+        checks.positive("pickup_a", self.pickup_a)
+        checks.positive("time_dial", self.time_dial)
         if self.instantaneous_pickup_a is not None:
-            _pos(self.instantaneous_pickup_a, "instantaneous_pickup_a")
+            checks.positive("instantaneous_pickup_a", self.instantaneous_pickup_a)
         if self.reset not in ("curve", "hold", "instantaneous"):
             raise ParameterError("reset", self.reset, "curve, hold or instantaneous")
 
@@ -180,9 +182,9 @@ class Fuse:
     def __post_init__(self) -> None:
         for name in ("melt_current_factor", "melt_time_factor"):
             if getattr(self, name) is not None:
-                _num(getattr(self, name), name, "in (0, 1]", lambda x: 0.0 < x <= 1.0)
+                checks.number(name, getattr(self, name), "in (0, 1]", lambda x: 0.0 < x <= 1.0)
         if self.minimum_melting_i2t_a2s is not None:
-            _pos(self.minimum_melting_i2t_a2s, "minimum_melting_i2t_a2s")
+            checks.positive("minimum_melting_i2t_a2s", self.minimum_melting_i2t_a2s)
 
 
 @dataclass(frozen=True)
@@ -201,7 +203,7 @@ class Breaker:
 
     def __post_init__(self) -> None:
         if self.peak_factor is not None:
-            _num(self.peak_factor, "peak_factor", "in [1, 3]", lambda x: 1.0 <= x <= 3.0)
+            checks.number("peak_factor", self.peak_factor, "in [1, 3]", lambda x: 1.0 <= x <= 3.0)
         if self.sensing is not None and self.sensing not in SENSED_WORDS:
             raise ParameterError("sensing", self.sensing, ", ".join(SENSED_WORDS))
 
@@ -209,8 +211,28 @@ class Breaker:
 Device = Relay | Fuse | Breaker
 
 
-def _kind(device: Device) -> str:
-    return type(device).__name__.lower()  # "relay", "fuse" or "breaker"
+def device_kind(device: Device) -> str:
+    """The device's kind as the answers name it.
+
+    Parameters
+    ----------
+    device : Relay, Fuse or Breaker
+        The device [-].
+
+    Returns
+    -------
+    str
+        ``"relay"``, ``"fuse"`` or ``"breaker"``.
+
+    Notes
+    -----
+    The class name in lower case.
+
+    References
+    ----------
+    This project's naming.
+    """
+    return type(device).__name__.lower()
 
 
 def _relay_fns(relay: Relay, time_dial: float) -> tuple[TimeFn, TimeFn | None]:
@@ -271,9 +293,9 @@ def device_times(
     IEEE Std C37.112, IEC 60255-151, via :mod:`core.protection.relay_curves`; common practice for
     the rest (:mod:`core.protection.fuse_breaker_curves`).
     """
-    i = _arr(current_a, "current_a", (0, 1, 2), 0.0)
+    i = checks.finite_array("current_a", current_a, (0, 1, 2), 0.0)
     t_open = DEFAULT_OPENING_TIME_S if opening_time_s is None else opening_time_s
-    t_open = _num(t_open, "opening_time_s", "a finite number >= 0", lambda x: x >= 0.0)
+    t_open = checks.number("opening_time_s", t_open, "a finite number >= 0", lambda x: x >= 0.0)
     if isinstance(device, Relay):
         low = _relay_fns(device, device.time_dial)[0](i)
         if device.instantaneous_pickup_a is not None:
@@ -374,7 +396,7 @@ def _result(
     ratio = [None if c is None else c.ratio for c in lows]
     return RideThrough(
         device.name,
-        _kind(device),
+        device_kind(device),
         worst.what,
         worst.ratio <= 1.0,
         trip if math.isfinite(trip) else None,  # None: no trip, or its time is unknown
@@ -423,7 +445,7 @@ def relay_ride_through(relay: Relay, inrush: InrushCurves) -> RideThrough:
         res = relay_curves.cumulative_trip(t, row, trip_fn, reset_fn)
         k = int(np.argmax(res.theta))
         ratio = math.inf if res.theta[k] <= 0.0 else 1.0 / float(res.theta[k])
-        timed.append(_Check(ratio, float(t[k]), j, res.trip_time, _RMS, k == t.size - 1))
+        timed.append(_Check(ratio, float(t[k]), j, res.trip_time, RELAY_RMS_WORDS, k == t.size - 1))
     if relay.instantaneous_pickup_a is None:
         return _result(relay, inrush, timed)
     p = relay.instantaneous_pickup_a
@@ -533,9 +555,36 @@ def breaker_ride_through(breaker: Breaker, inrush: InrushCurves) -> RideThrough:
     return replace(_result(breaker, inrush, timed, inst), sensed=sensed)
 
 
-def _ride_through(device: Device, inrush: InrushCurves) -> RideThrough:
-    if isinstance(device, Relay):
-        return relay_ride_through(device, inrush)
-    if isinstance(device, Fuse):
-        return fuse_ride_through(device, inrush)
-    return breaker_ride_through(device, inrush)
+#: Each device class's judge: :func:`ride_through` looks the device's class up here.
+_JUDGES: dict[type, Callable[[Any, InrushCurves], RideThrough]] = {
+    Relay: relay_ride_through,
+    Fuse: fuse_ride_through,
+    Breaker: breaker_ride_through,
+}
+
+
+def ride_through(device: Device, inrush: InrushCurves) -> RideThrough:
+    """Whether a relay, fuse or breaker operates on the inrush, and its margin.
+
+    Parameters
+    ----------
+    device : Relay, Fuse or Breaker
+        The device [-].
+    inrush : InrushCurves
+        The inrush as devices see it [-].
+
+    Returns
+    -------
+    RideThrough
+        The judgement of the device's own kind (:func:`relay_ride_through`,
+        :func:`fuse_ride_through` or :func:`breaker_ride_through`).
+
+    Notes
+    -----
+    Dispatch on the device's class; the rule of each margin is in the module docstring.
+
+    References
+    ----------
+    As for the three functions it dispatches to.
+    """
+    return _JUDGES[type(device)](device, inrush)

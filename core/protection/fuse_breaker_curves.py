@@ -27,7 +27,7 @@ FloatArray = npt.NDArray[np.float64]
 
 
 def _fraction(value: object, name: str) -> float:
-    return checks.scalar(value, name, "a fraction 0 <= x < 1", lambda x: 0.0 <= x < 1.0)
+    return checks.number(name, value, "a fraction 0 <= x < 1", lambda x: 0.0 <= x < 1.0)
 
 
 @dataclass(frozen=True, eq=False)
@@ -98,7 +98,7 @@ class TabulatedCurve:
         ----------
         Common practice (log-log reading of a published TCC).
         """
-        i = checks.array(current, "current")
+        i = checks.array("current", current)
         li, lt = np.log(self.current), np.log(self.time)
         out = np.full(i.shape, np.inf)
         on = i >= self.current[0]
@@ -136,7 +136,7 @@ class TabulatedCurve:
         ----------
         Common practice.
         """
-        t = checks.array(time, "time")
+        t = checks.array("time", time)
         n = self.time.size
         j = np.searchsorted(-self.time, -t, side="left")  # first j with time[j] <= t
         out = np.full(t.shape, np.inf)
@@ -196,18 +196,18 @@ class LowVoltageBreaker:
     instantaneous_clearing_time: float = 0.05
 
     def __post_init__(self) -> None:
-        checks.positive(self.long_time_pickup, "long_time_pickup")
-        checks.positive(self.long_time_delay, "long_time_delay")
+        checks.positive("long_time_pickup", self.long_time_pickup)
+        checks.positive("long_time_delay", self.long_time_delay)
         if self.short_time_pickup is not None:
-            checks.positive(self.short_time_pickup, "short_time_pickup")
-            checks.nonnegative(self.short_time_delay, "short_time_delay")
+            checks.positive("short_time_pickup", self.short_time_pickup)
+            checks.nonnegative("short_time_delay", self.short_time_delay)
         if self.short_time_i2t_reference is not None:
-            checks.positive(self.short_time_i2t_reference, "short_time_i2t_reference")
+            checks.positive("short_time_i2t_reference", self.short_time_i2t_reference)
         if self.instantaneous_pickup is not None:
-            checks.positive(self.instantaneous_pickup, "instantaneous_pickup")
+            checks.positive("instantaneous_pickup", self.instantaneous_pickup)
         for name in ("pickup_tolerance", "time_tolerance", "instantaneous_tolerance"):
             _fraction(getattr(self, name), name)
-        checks.nonnegative(self.instantaneous_clearing_time, "instantaneous_clearing_time")
+        checks.nonnegative("instantaneous_clearing_time", self.instantaneous_clearing_time)
 
 
 @dataclass(frozen=True)
@@ -252,7 +252,7 @@ def lv_breaker_trip_band(current: npt.ArrayLike, breaker: LowVoltageBreaker) -> 
     the tolerances). IEEE Std 242-2001 describes these trip-unit elements (from memory; chapter
     not at hand).
     """
-    i = checks.array(current, "current")
+    i = checks.array("current", current)
     b = breaker
     p, tau = b.pickup_tolerance, b.time_tolerance
     lo = np.full(i.shape, np.inf)
@@ -307,10 +307,10 @@ def i2t(current_samples: npt.ArrayLike, dt: float) -> FloatArray:
     ----------
     IEC 60269-1:2006, definition of the Joule integral I²t (from memory; clause not at hand).
     """
-    i = checks.array(current_samples, "current_samples", nonnegative=False)
+    i = checks.array("current_samples", current_samples, nonnegative=False)
     if i.ndim != 1 or i.size < 2:
         raise ParameterError("current_samples", i.shape, "a 1-D array of at least 2 samples")
-    step = checks.positive(dt, "dt")
+    step = checks.positive("dt", dt)
     with np.errstate(over="ignore"):
         return np.asarray(cumulative_trapezoid(i * i, dx=step, initial=0.0), dtype=np.float64)
 
@@ -359,7 +359,7 @@ def melting_i2t_check(
     ----------
     IEC 60269-1:2006, pre-arcing I²t (from memory; clause not at hand); common practice.
     """
-    melt = checks.positive(minimum_melting_i2t, "minimum_melting_i2t")
+    melt = checks.positive("minimum_melting_i2t", minimum_melting_i2t)
     cum = i2t(current_samples, dt)
     total = float(cum[-1])
     k = int(np.argmax(cum >= melt))

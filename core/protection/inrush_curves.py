@@ -7,49 +7,19 @@ I_eq(t) table (:func:`inrush_from_table`), and then compared with every device b
 
 from __future__ import annotations
 
-import math
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
 
+from core import checks
 from core.energization import waveform
 from core.errors import ParameterError
 
 FloatArray = npt.NDArray[np.float64]
 
 __all__ = ["Extreme", "InrushCurves", "inrush_from_table", "inrush_from_waveform"]
-
-
-def _num(value: object, name: str, allowed: str, ok: Callable[[float], bool]) -> float:
-    try:
-        out = float(value)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        out = math.nan
-    if not (math.isfinite(out) and ok(out)):
-        raise ParameterError(name, value, allowed)
-    return out
-
-
-def _pos(value: object, name: str) -> float:
-    return _num(value, name, "a finite number > 0", lambda x: x > 0.0)
-
-
-def _count(value: object, name: str, low: int, high: int) -> int:
-    if isinstance(value, bool) or not isinstance(value, int) or not low <= value <= high:
-        raise ParameterError(name, value, f"an integer from {low} to {high}")
-    return value
-
-
-def _arr(value: object, name: str, ndim: tuple[int, ...], low: float = -math.inf) -> FloatArray:
-    try:
-        a = np.array(value, dtype=np.float64)
-    except (TypeError, ValueError):
-        raise ParameterError(name, value, "finite numbers") from None
-    if a.ndim not in ndim or a.size == 0 or not np.all(np.isfinite(a)) or np.any(a < low):
-        raise ParameterError(name, a.shape, f"finite numbers >= {low:g}, {ndim} dimension(s)")
-    return a
 
 
 # ------------------------------------------------------------------------------------- inrush
@@ -87,7 +57,7 @@ def _lines(lines: Sequence[str] | None, n: int) -> tuple[str, ...]:
 
 
 def _rated(value: float | None) -> float | None:
-    return None if value is None else _pos(value, "rated_current_a")
+    return None if value is None else checks.positive("rated_current_a", value)
 
 
 def _window(t: FloatArray, energy: FloatArray, width: float) -> FloatArray:
@@ -147,12 +117,12 @@ def inrush_from_waveform(
     I_eq and sub-cycle I²t against device curves: common practice; Joule
     integral: IEC 60269-1:2006 (from memory).
     """
-    t = _arr(time_s, "time_s", (1,))
-    i = _arr(current_a, "current_a", (1, 2))
+    t = checks.finite_array("time_s", time_s, (1,))
+    i = checks.finite_array("current_a", current_a, (1, 2))
     i = i.reshape(1, -1) if i.ndim == 1 else i
-    f = _num(frequency_hz, "frequency_hz", "in [1, 1000] Hz", lambda x: 1.0 <= x <= 1000.0)
-    n_pts = _count(points, "points", 2, 10_000)
-    n_half = _count(i2t_half_cycles, "i2t_half_cycles", 1, 20)
+    f = checks.number("frequency_hz", frequency_hz, "in [1, 1000] Hz", lambda x: 1.0 <= x <= 1000.0)
+    n_pts = checks.integer("points", points, 2, 10_000)
+    n_half = checks.integer("i2t_half_cycles", i2t_half_cycles, 1, 20)
     if t.size < 3 or i.shape[1] != t.size:
         raise ParameterError("current_a", i.shape, f"(n_lines, {t.size}), at least 3 samples")
     dt = float(t[1] - t[0])
@@ -237,8 +207,8 @@ def inrush_from_table(
     ----------
     Common practice.
     """
-    t = _arr(time_s, "time_s", (1,))
-    eq = _arr(eq_current_a, "eq_current_a", (1, 2), 0.0)
+    t = checks.finite_array("time_s", time_s, (1,))
+    eq = checks.finite_array("eq_current_a", eq_current_a, (1, 2), 0.0)
     eq = eq.reshape(1, -1) if eq.ndim == 1 else eq
     if t.size < 2 or t[0] <= 0.0 or np.any(np.diff(t) <= 0.0):
         raise ParameterError("time_s", t.tolist(), "at least 2 strictly increasing times > 0")
@@ -253,7 +223,9 @@ def inrush_from_table(
     def given(value: npt.ArrayLike | None, name: str) -> Extreme | None:
         if value is None:
             return None
-        return Extreme(np.broadcast_to(_arr(value, name, (0, 1), 0.0), (n,)), np.full(n, np.nan))
+        return Extreme(
+            np.broadcast_to(checks.finite_array(name, value, (0, 1), 0.0), (n,)), np.full(n, np.nan)
+        )
 
     return InrushCurves(
         lines=_lines(lines, n),

@@ -120,8 +120,8 @@ def ieee_c37_112_trip_time(
     """
     _choice(curve, "curve", IEEE_C37_112)
     c = IEEE_C37_112[curve]
-    td = checks.positive(time_dial, "time_dial")
-    m = checks.array(multiple, "multiple")
+    td = checks.positive("time_dial", time_dial)
+    m = checks.array("multiple", multiple)
     return _inverse(m, td, c.a, c.p, c.b)
 
 
@@ -160,8 +160,8 @@ def ieee_c37_112_reset_time(
     """
     _choice(curve, "curve", IEEE_C37_112)
     c = IEEE_C37_112[curve]
-    td = checks.positive(time_dial, "time_dial")
-    m = checks.array(multiple, "multiple")
+    td = checks.positive("time_dial", time_dial)
+    m = checks.array("multiple", multiple)
     out = np.full(m.shape, np.inf)
     on = m < 1.0
     out[on] = td * c.tr / (1.0 - m[on] ** 2)
@@ -201,8 +201,8 @@ def iec_60255_151_trip_time(multiple: npt.ArrayLike, curve: IecCurve, tms: float
     """
     _choice(curve, "curve", IEC_60255_151)
     c = IEC_60255_151[curve]
-    multiplier = checks.positive(tms, "tms")
-    m = checks.array(multiple, "multiple")
+    multiplier = checks.positive("tms", tms)
+    m = checks.array("multiple", multiple)
     return _inverse(m, multiplier, c.k, c.alpha, 0.0)
 
 
@@ -236,9 +236,9 @@ def definite_time_trip_time(current: npt.ArrayLike, pickup: float, delay: float)
     ----------
     IEC 60255-151:2009, definite-time characteristic (clause from memory); common practice.
     """
-    i = checks.array(current, "current")
-    p = checks.positive(pickup, "pickup")
-    d = checks.nonnegative(delay, "delay")
+    i = checks.array("current", current)
+    p = checks.positive("pickup", pickup)
+    d = checks.nonnegative("delay", delay)
     return np.where(i > p, d, np.inf)
 
 
@@ -308,8 +308,8 @@ def cumulative_trip(
     IEEE Std C37.112-1996 (and -2018), clause 4, the integral form ∫dt/t(I) = 1 and the
     induction-disk reset (clause number from memory).
     """
-    t = checks.array(times, "times", nonnegative=False)
-    i = checks.array(current_rms, "current_rms")
+    t = checks.array("times", times, nonnegative=False)
+    i = checks.array("current_rms", current_rms)
     if t.ndim != 1 or t.size < 2 or np.any(np.diff(t) <= 0.0):
         raise ParameterError("times", t.shape, "1-D, at least 2 samples, strictly increasing")
     if i.shape != t.shape:

@@ -24,6 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from core import checks
 from core.energization import energize
 from core.energization.inrush_study import line_names
 from core.protection import coordination, device_operation
@@ -86,7 +87,7 @@ class DipOdds:
 
 
 def _events(dist: monte_carlo.PeakDistribution, n: int) -> int:
-    return monte_carlo.check_int("events", n, 1, min(_MAX_EVENTS, dist.peaks_a.shape[0]))
+    return checks.integer("events", n, 1, min(_MAX_EVENTS, dist.peaks_a.shape[0]))
 
 
 def device_operation_odds(
@@ -135,8 +136,8 @@ def device_operation_odds(
     :attr:`core.protection.device_operation.RideThrough.trips`.
     """
     n = _events(dist, events)
-    span = monte_carlo.check_float("duration_s", duration_s, 0.1, 10.0)
-    size = monte_carlo.check_int("batch", batch, 1, 10_000)
+    span = checks.in_range("duration_s", duration_s, 0.1, 10.0, open_low=False)
+    size = checks.integer("batch", batch, 1, 10_000)
     names = line_names(circuit)
     trips = np.zeros((len(devices), n))
     margins = np.full((len(devices), n), math.inf)
@@ -216,8 +217,8 @@ def dip_exceedance_odds(
     DipOdds
     """
     n = _events(dist, events)
-    limit = monte_carlo.check_float("limit_percent", limit_percent, 0.0, 100.0)
-    span = monte_carlo.check_float("duration_s", duration_s, 0.1, 30.0)
+    limit = checks.in_range("limit_percent", limit_percent, 0.0, 100.0, open_low=False)
+    span = checks.in_range("duration_s", duration_s, 0.1, 30.0, open_low=False)
     dips = np.empty(n)
     approximations: tuple[str, ...] = ()
     for k in range(n):

@@ -23,6 +23,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy import stats
 
+from core import checks
 from core.energization import energize
 from core.energization.inrush_study import line_names
 from core.errors import ParameterError
@@ -40,8 +41,6 @@ __all__ = [
     "PeakDistribution",
     "Percentiles",
     "UniformResidual",
-    "check_float",
-    "check_int",
     "exceedance_probability",
     "order_statistic_interval",
     "peak_distribution",
@@ -222,17 +221,6 @@ class Exceedance:
     confidence_level: float
 
 
-def check_int(name: str, value: object, low: int, high: int) -> int:
-    """``value`` as an int in [low, high], else a ParameterError naming ``name``."""
-    if (
-        isinstance(value, bool)
-        or not isinstance(value, int | np.integer)
-        or not low <= value <= high
-    ):
-        raise ParameterError(name, value, f"an integer in [{low}, {high}]")
-    return int(value)
-
-
 def pole_scatter_sigma_ms(phases: int, pole_scatter_ms: float | None) -> float:
     """Standard deviation of each pole's closing instant that :func:`peak_distribution` draws.
 
@@ -259,18 +247,7 @@ def pole_scatter_sigma_ms(phases: int, pole_scatter_ms: float | None) -> float:
     """
     if pole_scatter_ms is None:
         return 0.0 if phases == 1 else DEFAULT_THREE_PHASE_POLE_SCATTER_MS
-    return check_float("pole_scatter_ms", pole_scatter_ms, 0.0, 20.0)
-
-
-def check_float(name: str, value: object, low: float, high: float) -> float:
-    """``value`` as a finite float in [low, high], else a ParameterError naming ``name``."""
-    try:
-        x = float(value)  # type: ignore[arg-type]
-    except (TypeError, ValueError) as exc:
-        raise ParameterError(name, value, f"a number in [{low:g}, {high:g}]") from exc
-    if not (math.isfinite(x) and low <= x <= high):
-        raise ParameterError(name, value, f"a number in [{low:g}, {high:g}]")
-    return x
+    return checks.in_range("pole_scatter_ms", pole_scatter_ms, 0.0, 20.0, open_low=False)
 
 
 def order_statistic_interval(
@@ -332,8 +309,10 @@ def _sample_residual(
         return np.broadcast_to(values, (samples, windings)).copy()
     if not isinstance(spec, UniformResidual):
         raise ParameterError("residual", type(spec).__name__, "FixedResidual or UniformResidual")
-    low = check_float("residual.low_pu", spec.low_pu, 0.0 if spec.random_sign else -5.0, 5.0)
-    high = check_float("residual.high_pu", spec.high_pu, low, 5.0)
+    low = checks.in_range(
+        "residual.low_pu", spec.low_pu, 0.0 if spec.random_sign else -5.0, 5.0, open_low=False
+    )
+    high = checks.in_range("residual.high_pu", spec.high_pu, low, 5.0, open_low=False)
     if spec.zero_sum and windings != 3:
         raise ParameterError("residual.zero_sum", spec.zero_sum, "False for a single phase")
     out: FloatArray = rng.uniform(low, high, size=(samples, windings))
@@ -426,13 +405,13 @@ def peak_distribution(
     Percentile intervals: see :func:`order_statistic_interval`. Monte Carlo treatment of the
     random closing instant: common practice in statistical switching studies.
     """
-    n = check_int("samples", samples, 1, _MAX_SAMPLES)
-    size = check_int("batch", batch, 1, 1_000_000)
-    window = check_float("cycles", cycles, 0.0, 60.0)
+    n = checks.integer("samples", samples, 1, _MAX_SAMPLES)
+    size = checks.integer("batch", batch, 1, 1_000_000)
+    window = checks.in_range("cycles", cycles, 0.0, 60.0, open_low=False)
     if window <= 0.0:
         raise ParameterError("cycles", cycles, "a number in (0, 60]")
     if random_state is not None:
-        check_int("random_state", random_state, 0, 2**63 - 1)
+        checks.integer("random_state", random_state, 0, 2**63 - 1)
     m = circuit.phases
     sigma_ms = pole_scatter_sigma_ms(m, pole_scatter_ms)
     spec: ResidualSpec = UniformResidual() if residual is None else residual
@@ -523,10 +502,10 @@ def exceedance_probability(
         raise ParameterError("peaks", x.shape, "a non-empty one-dimensional sample")
     if not np.all(np.isfinite(x)):
         raise ParameterError("peaks", "non-finite", "finite values")
-    threshold = check_float("threshold_a", threshold_a, -math.inf, math.inf)
+    threshold = checks.in_range("threshold_a", threshold_a, -math.inf, math.inf, open_low=False)
     if method not in ("clopper_pearson", "wilson"):
         raise ParameterError("method", method, "'clopper_pearson' or 'wilson'")
-    level = check_float("confidence", confidence, 0.0, 1.0)
+    level = checks.in_range("confidence", confidence, 0.0, 1.0, open_low=False)
     if not 0.0 < level < 1.0:
         raise ParameterError("confidence", confidence, "a number in (0, 1)")
     n = int(x.size)

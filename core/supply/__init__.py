@@ -22,7 +22,6 @@ from core.supply.dip_cases import (
     check_inputs,
     check_insertion,
     check_poles,
-    check_range,
     cycle_steps,
     run,
 )
@@ -82,7 +81,6 @@ __all__ = [
     "check_insertion",
     "check_measure",
     "check_poles",
-    "check_range",
     "cycle_steps",
     "dip_sweep",
     "energize_from_source",

@@ -96,6 +96,7 @@ from typing import Literal
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from core import checks
 from core.errors import ParameterError
 from core.supply import dip_cases
 from core.supply.sources import (
@@ -349,7 +350,7 @@ def voltage_swings(voltage_pu: ArrayLike, frequency_hz: float, floor_pu: float) 
     v = np.asarray(voltage_pu, dtype=float).ravel()
     if v.size == 0 or not np.all(np.isfinite(v)):
         raise ParameterError("voltage_pu", "non-finite or empty", "finite values")
-    f = dip_cases.check_range("frequency_hz", frequency_hz, 0.0, 1e4)
+    f = checks.in_range("frequency_hz", frequency_hz, 0.0, 1e4)
     floor = float(floor_pu)
     if not (math.isfinite(floor) and floor >= 0.0):
         raise ParameterError("floor_pu", floor_pu, ">= 0")
@@ -527,7 +528,7 @@ def energize_from_source(
         source, circuit, closing_angle_deg, residual_flux_pu, pre_event_voltage_pu, duration_s
     )
     warnings = [*circuit.warnings, *warnings]
-    dip_cases.check_range("recovery_band_percent", recovery_band_percent, 0.0, 50.0)
+    checks.in_range("recovery_band_percent", recovery_band_percent, 0.0, 50.0)
     if recovery_reference not in ("pre_event", "final"):
         raise ParameterError("recovery_reference", recovery_reference, "pre_event or final")
     if not (isinstance(waveform_points, int) and 0 <= waveform_points <= 10_000_000):

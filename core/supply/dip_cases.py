@@ -21,6 +21,7 @@ from typing import Protocol
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from core import checks
 from core.energization.switching_event import residual_flux_warnings
 from core.errors import ParameterError
 from core.supply.dip_kernel import (
@@ -84,7 +85,6 @@ __all__ = [
     "check_inputs",
     "check_insertion",
     "check_poles",
-    "check_range",
     "cycle_steps",
     "run",
 ]
@@ -541,16 +541,6 @@ def run(
     )
 
 
-def check_range(
-    name: str, value: float, low: float, high: float, *, open_low: bool = True
-) -> float:
-    """``value`` as a float if finite and in (low, high] ([low, high] with open_low=False)."""
-    v = float(value)
-    if not (math.isfinite(v) and (v > low if open_low else v >= low) and v <= high):
-        raise ParameterError(name, value, f"in {'(' if open_low else '['}{low:g}, {high:g}]")
-    return v
-
-
 def check_insertion(resistance_ohm: float, time_s: float) -> tuple[float, float]:
     """Validate a pre-insertion resistor [ohm] and its insertion time [s]; return both as floats.
 
@@ -652,8 +642,8 @@ def check_inputs(
         )
     if not math.isfinite(closing_angle_deg):
         raise ParameterError("closing_angle_deg", closing_angle_deg, "a finite angle")
-    check_range("pre_event_voltage_pu", pre_event_voltage_pu, 0.5, 1.5, open_low=False)
-    check_range("duration_s", duration_s, 0.0, 600.0)
+    checks.in_range("pre_event_voltage_pu", pre_event_voltage_pu, 0.5, 1.5, open_low=False)
+    checks.in_range("duration_s", duration_s, 0.0, 600.0)
     res = np.asarray(residual_flux_pu, dtype=float)
     try:
         res = np.broadcast_to(res, (3,)).astype(float)

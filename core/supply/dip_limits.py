@@ -22,6 +22,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from core import checks
 from core.errors import ParameterError
 
 __all__ = [
@@ -31,13 +32,6 @@ __all__ = [
     "iso_8528_5_class",
     "verdicts",
 ]
-
-
-def _finite(name: str, value: float, low: float, high: float) -> float:
-    v = float(value)
-    if not (math.isfinite(v) and low < v <= high):
-        raise ParameterError(name, value, f"in ({low:g}, {high:g}]")
-    return v
 
 
 @dataclass(frozen=True)
@@ -63,9 +57,9 @@ class DipLimit:
 
     def __post_init__(self) -> None:
         if self.max_dip_percent is not None:
-            _finite("limit.max_dip_percent", self.max_dip_percent, 0.0, 100.0)
+            checks.in_range("limit.max_dip_percent", self.max_dip_percent, 0.0, 100.0)
         if self.max_recovery_s is not None:
-            _finite("limit.max_recovery_s", self.max_recovery_s, 0.0, 600.0)
+            checks.in_range("limit.max_recovery_s", self.max_recovery_s, 0.0, 600.0)
 
 
 _ISO = (

@@ -50,6 +50,7 @@ import numpy as np
 import scipy.optimize
 from numpy.typing import ArrayLike, NDArray
 
+from core import checks
 from core.errors import ParameterError
 from core.supply import dip, dip_cases
 from core.supply.dip_limits import DipLimit, iso_8528_5_class
@@ -256,9 +257,9 @@ def smallest_generator(
         if bounds_va is not None
         else (0.1 * generator.rating_va, 20.0 * generator.rating_va)
     )
-    dip_cases.check_range("bounds_va", lo, 0.0, 1e10)
-    dip_cases.check_range("bounds_va", hi, lo, 1e10)
-    dip_cases.check_range("rtol", rtol, 0.0, 0.1)
+    checks.in_range("bounds_va", lo, 0.0, 1e10)
+    checks.in_range("bounds_va", hi, lo, 1e10)
+    checks.in_range("rtol", rtol, 0.0, 0.1)
     dip_cases.check_insertion(insertion_resistance_ohm, insertion_time_s)
     dip_cases.check_poles(pole_delay_s, dip_duration_s)
     target = lim.max_dip_percent

@@ -31,6 +31,7 @@ import numpy as np
 import scipy.optimize
 from numpy.typing import ArrayLike, NDArray
 
+from core import checks
 from core.errors import ParameterError
 from core.supply.dip_cases import SourceParameters
 from core.transformer.circuit_model import Assumption
@@ -88,14 +89,6 @@ RATED_POWER_FACTOR = 0.8
 UNKNOWN_SENSING_S = 0.02
 
 
-def _finite(name: str, value: float, low: float, high: float, *, open_low: bool = True) -> float:
-    v = float(value)
-    ok = math.isfinite(v) and (v > low if open_low else v >= low) and v <= high
-    if not ok:
-        raise ParameterError(name, value, f"in {'(' if open_low else '['}{low:g}, {high:g}]")
-    return v
-
-
 @dataclass(frozen=True)
 class Generator:
     """Synchronous generator data, reactances in per unit on the machine rating.
@@ -141,28 +134,30 @@ class Generator:
     provenance: Mapping[str, str] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        _finite("rating_va", self.rating_va, 0.0, 1e10)
-        _finite("line_voltage_v", self.line_voltage_v, 0.0, 2e6)
-        _finite("frequency_hz", self.frequency_hz, 1.0, 1000.0)
-        x2 = _finite("x_d2_pu", self.x_d2_pu, 0.0, 10.0)
-        x1 = _finite("x_d1_pu", self.x_d1_pu, 0.0, 10.0)
-        xd = _finite("x_d_pu", self.x_d_pu, 0.0, 10.0)
+        checks.in_range("rating_va", self.rating_va, 0.0, 1e10)
+        checks.in_range("line_voltage_v", self.line_voltage_v, 0.0, 2e6)
+        checks.in_range("frequency_hz", self.frequency_hz, 1.0, 1000.0)
+        x2 = checks.in_range("x_d2_pu", self.x_d2_pu, 0.0, 10.0)
+        x1 = checks.in_range("x_d1_pu", self.x_d1_pu, 0.0, 10.0)
+        xd = checks.in_range("x_d_pu", self.x_d_pu, 0.0, 10.0)
         if not x2 < x1:
             raise ParameterError("x_d2_pu", x2, f"below X'_d = {x1:g} pu")
         if not x1 < xd:
             raise ParameterError("x_d1_pu", x1, f"below X_d = {xd:g} pu")
-        t2 = _finite("t_d2_s", self.t_d2_s, 0.0, 1e4)
+        t2 = checks.in_range("t_d2_s", self.t_d2_s, 0.0, 1e4)
         if (self.t_d1_s is None) == (self.t_d1o_s is None):
             raise ParameterError("t_d1_s", self.t_d1_s, "exactly one of t_d1_s and t_d1o_s")
         if self.t_d1_s is not None:
-            t1 = _finite("t_d1_s", self.t_d1_s, 0.0, 1e4)
+            t1 = checks.in_range("t_d1_s", self.t_d1_s, 0.0, 1e4)
         else:
-            t1 = _finite("t_d1o_s", float(self.t_d1o_s or 0.0), 0.0, 1e5) * x1 / xd
+            t1 = checks.in_range("t_d1o_s", float(self.t_d1o_s or 0.0), 0.0, 1e5) * x1 / xd
         if not t2 < t1:
             raise ParameterError("t_d2_s", t2, f"below T'_d = {t1:g} s")
         if not t2 * x1 / x2 < t1 * xd / x1:
             raise ParameterError("t_d2_s", t2, "T''_do = T''_d*X'_d/X''_d below T'_do")
-        _finite("armature_resistance_pu", self.armature_resistance_pu, 0.0, 1.0, open_low=False)
+        checks.in_range(
+            "armature_resistance_pu", self.armature_resistance_pu, 0.0, 1.0, open_low=False
+        )
 
     @property
     def t_d1_short_s(self) -> float:
@@ -216,13 +211,13 @@ class Excitation:
     provenance: Mapping[str, str] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        _finite("excitation.gain_pu", self.gain_pu, 0.0, 1e5)
-        _finite("excitation.time_constant_s", self.time_constant_s, 0.0, 100.0)
-        ceiling = _finite("excitation.ceiling_pu", self.ceiling_pu, 0.0, 100.0)
-        floor = _finite("excitation.floor_pu", self.floor_pu, -100.0, 100.0, open_low=False)
+        checks.in_range("excitation.gain_pu", self.gain_pu, 0.0, 1e5)
+        checks.in_range("excitation.time_constant_s", self.time_constant_s, 0.0, 100.0)
+        ceiling = checks.in_range("excitation.ceiling_pu", self.ceiling_pu, 0.0, 100.0)
+        floor = checks.in_range("excitation.floor_pu", self.floor_pu, -100.0, 100.0, open_low=False)
         if not floor < ceiling:
             raise ParameterError("excitation.floor_pu", floor, f"below the ceiling {ceiling:g}")
-        _finite(
+        checks.in_range(
             "excitation.sensing_time_constant_s",
             self.sensing_time_constant_s,
             0.0,
@@ -272,11 +267,11 @@ def regulator_gain_for_margin(
     effective field time constant; open circuit, the state the voltage returns to after an
     inrush, is the least damped (Kundur 1994, ch. 8, from memory).
     """
-    ta = _finite("excitation.time_constant_s", time_constant_s, 0.0, 100.0)
-    tr = _finite(
+    ta = checks.in_range("excitation.time_constant_s", time_constant_s, 0.0, 100.0)
+    tr = checks.in_range(
         "excitation.sensing_time_constant_s", sensing_time_constant_s, 0.0, 10.0, open_low=False
     )
-    pm = _finite("phase_margin_deg", phase_margin_deg, 0.0, 90.0)
+    pm = checks.in_range("phase_margin_deg", phase_margin_deg, 0.0, 90.0)
     if pm >= 90.0:
         raise ParameterError("phase_margin_deg", phase_margin_deg, "in (0, 90)")
     lags = (generator.t_d1o_open_s, generator.t_d2o_open_s, ta, tr)
@@ -441,8 +436,10 @@ class BusLoad:
     reactive_power_var: float = 0.0
 
     def __post_init__(self) -> None:
-        p = _finite("bus_load.active_power_w", self.active_power_w, 0.0, 1e10, open_low=False)
-        q = _finite(
+        p = checks.in_range(
+            "bus_load.active_power_w", self.active_power_w, 0.0, 1e10, open_low=False
+        )
+        q = checks.in_range(
             "bus_load.reactive_power_var", self.reactive_power_var, 0.0, 1e10, open_low=False
         )
         if p + q <= 0.0:
@@ -475,10 +472,10 @@ class UtilitySource:
     provenance: Mapping[str, str] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        _finite("fault_level_va", self.fault_level_va, 0.0, 1e13)
-        _finite("x_over_r", self.x_over_r, 0.0, 1e4)
-        _finite("line_voltage_v", self.line_voltage_v, 0.0, 2e6)
-        _finite("frequency_hz", self.frequency_hz, 1.0, 1000.0)
+        checks.in_range("fault_level_va", self.fault_level_va, 0.0, 1e13)
+        checks.in_range("x_over_r", self.x_over_r, 0.0, 1e4)
+        checks.in_range("line_voltage_v", self.line_voltage_v, 0.0, 2e6)
+        checks.in_range("frequency_hz", self.frequency_hz, 1.0, 1000.0)
 
 
 Source = Generator | UtilitySource

@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.constants import mu_0
 
+from core import checks
 from core.errors import ParameterError
 from core.transformer import magnetizing, per_unit, plausibility
 from core.transformer.magnetizing import MagnetizingCurve
@@ -247,14 +248,6 @@ class EquivalentCircuit:
     warnings: tuple[tuple[str, str], ...] = ()
 
 
-def _check(name: str, value: float, low: float, high: float, *, low_open: bool = True) -> float:
-    ok = math.isfinite(value) and (value > low if low_open else value >= low) and value <= high
-    if not ok:
-        bracket = "(" if low_open else "["
-        raise ParameterError(name, value, f"in {bracket}{low:g}, {high:g}]")
-    return float(value)
-
-
 def _calibrated_unsaturated_inductance(
     l_m: float, lam_n: float, lam_s: float, l_air: float, width: float
 ) -> float:
@@ -309,9 +302,9 @@ def air_core_inductance_solenoid(turns: float, mean_diameter_m: float, height_m:
     ----------
     Long-solenoid inductance, e.g. F. W. Grover, "Inductance Calculations", 1946 (from memory).
     """
-    n = _check("turns", turns, 0.0, 1e6)
-    d = _check("mean_diameter_m", mean_diameter_m, 0.0, 100.0)
-    h = _check("height_m", height_m, 0.0, 100.0)
+    n = checks.in_range("turns", turns, 0.0, 1e6)
+    d = checks.in_range("mean_diameter_m", mean_diameter_m, 0.0, 100.0)
+    h = checks.in_range("height_m", height_m, 0.0, 100.0)
     return float(mu_0 * n * n * math.pi * d * d / 4.0 / h)
 
 
@@ -340,17 +333,17 @@ def source_impedance(source: Source, line_voltage_v: float, phases: int) -> tupl
     if source.kind == "ideal":
         return 0.0, 0.0
     if source.kind == "fault_level":
-        s = _check("source.fault_va", float(source.fault_va or 0.0), 0.0, 1e15)
-        xr = _check("source.x_over_r", float(source.x_over_r or 0.0), 0.0, 1e4)
+        s = checks.in_range("source.fault_va", float(source.fault_va or 0.0), 0.0, 1e15)
+        xr = checks.in_range("source.x_over_r", float(source.x_over_r or 0.0), 0.0, 1e4)
         z = line_voltage_v * line_voltage_v / s
         r = z / math.sqrt(1.0 + xr * xr)
         return r, r * xr
     if source.kind == "impedance":
-        r = _check(
-            "source.resistance_ohm", float(source.resistance_ohm or 0.0), 0.0, 1e6, low_open=False
+        r = checks.in_range(
+            "source.resistance_ohm", float(source.resistance_ohm or 0.0), 0.0, 1e6, open_low=False
         )
-        x = _check(
-            "source.reactance_ohm", float(source.reactance_ohm or 0.0), 0.0, 1e6, low_open=False
+        x = checks.in_range(
+            "source.reactance_ohm", float(source.reactance_ohm or 0.0), 0.0, 1e6, open_low=False
         )
         return r, x
     raise ParameterError("source.kind", source.kind, "ideal, fault_level or impedance")
@@ -399,20 +392,20 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
             prov = npl.provenance.get(name, "given")
         assumptions.append(Assumption(name, value, unit, prov))
 
-    s_va = _check("rating_va", npl.rating_va, 0.0, 1e10)
+    s_va = checks.in_range("rating_va", npl.rating_va, 0.0, 1e10)
     if npl.phases not in (1, 3):
         raise ParameterError("phases", npl.phases, "1 or 3")
-    f = _check("frequency_hz", npl.frequency_hz, 1.0, 1000.0)
-    v_ll = _check("line_voltage_v", npl.line_voltage_v, 0.0, 2e6)
+    f = checks.in_range("frequency_hz", npl.frequency_hz, 1.0, 1000.0)
+    v_ll = checks.in_range("line_voltage_v", npl.line_voltage_v, 0.0, 2e6)
     if npl.connection not in CONNECTIONS:
         raise ParameterError("connection", npl.connection, "one of " + ", ".join(CONNECTIONS))
     if npl.position not in POSITIONS:
         raise ParameterError("position", npl.position, "inner or outer")
     if npl.curve not in CURVES:
         raise ParameterError("curve", npl.curve, "two_slope or smooth")
-    z_pct = _check("impedance_percent", npl.impedance_percent, 0.0, 100.0)
-    xr = _check("x_over_r", npl.x_over_r, 0.0, 1e4)
-    i0_pct = _check("no_load_current_percent", npl.no_load_current_percent, 0.0, 50.0)
+    z_pct = checks.in_range("impedance_percent", npl.impedance_percent, 0.0, 100.0)
+    xr = checks.in_range("x_over_r", npl.x_over_r, 0.0, 1e4)
+    i0_pct = checks.in_range("no_load_current_percent", npl.no_load_current_percent, 0.0, 50.0)
     connection = npl.connection if npl.phases == 3 else "single_phase"
     note("rating_va", s_va, "VA", "given")
     note("phases", float(npl.phases), "-", "given")
@@ -442,8 +435,8 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
         prov_s = "given" if npl.saturation_flux_density_t else mat.source
     else:
         raise ParameterError("material", npl.material, "grain_oriented, amorphous or custom")
-    b_n = _check("nominal_flux_density_t", b_n, 0.0, 3.0)
-    b_s = _check("saturation_flux_density_t", b_s, 0.0, 3.0)
+    b_n = checks.in_range("nominal_flux_density_t", b_n, 0.0, 3.0)
+    b_s = checks.in_range("saturation_flux_density_t", b_s, 0.0, 3.0)
     if b_s <= b_n:
         raise ParameterError(
             "saturation_flux_density_t", b_s, f"above the nominal flux density {b_n:g} T"
@@ -507,7 +500,7 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
             curve = magnetizing.two_slope(l_m, lam_s, l_air)
             note("magnetizing_curve", "two_slope", "-", npl.provenance.get("curve", "given"))
         else:
-            width = _check("knee_width_pu", npl.knee_width_pu, 0.0, b_s / b_n)
+            width = checks.in_range("knee_width_pu", npl.knee_width_pu, 0.0, b_s / b_n)
             l_m = _calibrated_unsaturated_inductance(l_m, lam_n, lam_s, l_air, width * lam_n)
             curve = magnetizing.smooth_knee(l_m, lam_s, l_air, width * lam_n)
             note("magnetizing_curve", "smooth", "-", npl.provenance.get("curve", "given"))
@@ -588,13 +581,13 @@ def circuit_from_si(
     ParameterError
         On values out of range.
     """
-    v = _check("voltage_rms_v", voltage_rms_v, 0.0, 2e6)
-    f = _check("frequency_hz", frequency_hz, 1.0, 1000.0)
-    r = _check("resistance_ohm", resistance_ohm, 0.0, 1e9, low_open=False)
-    ls = _check("inductance_h", inductance_h, 0.0, 1e6, low_open=False)
+    v = checks.in_range("voltage_rms_v", voltage_rms_v, 0.0, 2e6)
+    f = checks.in_range("frequency_hz", frequency_hz, 1.0, 1000.0)
+    r = checks.in_range("resistance_ohm", resistance_ohm, 0.0, 1e9, open_low=False)
+    ls = checks.in_range("inductance_h", inductance_h, 0.0, 1e6, open_low=False)
     i_r = math.nan
     if rated_current_a is not None:
-        i_r = _check("rated_current_a", rated_current_a, 0.0, 1e9)
+        i_r = checks.in_range("rated_current_a", rated_current_a, 0.0, 1e9)
     if isinstance(curve, magnetizing.PiecewiseLinearCurve):
         l_air = curve.final_inductance_h
         l_m = curve.unsaturated_inductance_h

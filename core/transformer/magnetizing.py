@@ -26,6 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from core import checks
 from core.errors import ParameterError
 
 FloatArray = NDArray[np.float64]
@@ -39,12 +40,6 @@ __all__ = [
     "smooth_knee",
     "two_slope",
 ]
-
-
-def _positive(name: str, value: float) -> float:
-    if not (math.isfinite(value) and value > 0.0):
-        raise ParameterError(name, value, "a finite number > 0")
-    return float(value)
 
 
 @dataclass(frozen=True)
@@ -197,9 +192,9 @@ def two_slope(
     Y. Wang, S. G. Abdulsalam, W. Xu, "Analytical formula to estimate the maximum inrush
     current," IEEE Trans. Power Delivery 23(2), 2008 (two-slope core model; from memory).
     """
-    lm = _positive("unsaturated_inductance_h", unsaturated_inductance_h)
-    ls = _positive("knee_flux_wb", knee_flux_wb)
-    la = _positive("saturated_inductance_h", saturated_inductance_h)
+    lm = checks.positive("unsaturated_inductance_h", unsaturated_inductance_h)
+    ls = checks.positive("knee_flux_wb", knee_flux_wb)
+    la = checks.positive("saturated_inductance_h", saturated_inductance_h)
     if la >= lm:
         raise ParameterError(
             "saturated_inductance_h", la, f"smaller than the unsaturated inductance {lm:g} H"
@@ -239,10 +234,10 @@ def smooth_knee(
     ----------
     Modelling choice of this project; the asymptotes are those of :func:`two_slope`.
     """
-    lm = _positive("unsaturated_inductance_h", unsaturated_inductance_h)
-    ls = _positive("knee_flux_wb", knee_flux_wb)
-    la = _positive("saturated_inductance_h", saturated_inductance_h)
-    e = _positive("knee_width_wb", knee_width_wb)
+    lm = checks.positive("unsaturated_inductance_h", unsaturated_inductance_h)
+    ls = checks.positive("knee_flux_wb", knee_flux_wb)
+    la = checks.positive("saturated_inductance_h", saturated_inductance_h)
+    e = checks.positive("knee_width_wb", knee_width_wb)
     if la >= lm:
         raise ParameterError(
             "saturated_inductance_h", la, f"smaller than the unsaturated inductance {lm:g} H"
@@ -287,7 +282,7 @@ def from_table(
             raise ParameterError(name, arr.tolist(), "finite values > 0")
         if np.any(np.diff(arr) <= 0.0):
             raise ParameterError(name, arr.tolist(), "strictly increasing values")
-    la = _positive("final_inductance_h", final_inductance_h)
+    la = checks.positive("final_inductance_h", final_inductance_h)
     lam = np.concatenate(([0.0], lam))
     cur = np.concatenate(([0.0], cur))
     inductances = np.diff(lam) / np.diff(cur)
@@ -343,7 +338,7 @@ def rms_current_sinusoidal_flux(curve: PiecewiseLinearCurve, peak_flux_wb: float
     I^2 = (2/pi) * integral_0^{pi/2} i(lambda_pk sin(theta))^2 d(theta), evaluated exactly
     segment by segment (i is affine in sin(theta) on each segment).
     """
-    peak = _positive("peak_flux_wb", peak_flux_wb)
+    peak = checks.positive("peak_flux_wb", peak_flux_wb)
     lam = curve.flux_wb
     cur = curve.current_a
     n_inside = int(np.searchsorted(lam, peak, side="left"))
@@ -411,8 +406,8 @@ def from_open_circuit_rms(
             raise ParameterError(name, arr.tolist(), "finite values > 0")
         if np.any(np.diff(arr) <= 0.0):
             raise ParameterError(name, arr.tolist(), "strictly increasing values")
-    f = _positive("frequency_hz", frequency_hz)
-    la = _positive("final_inductance_h", final_inductance_h)
+    f = checks.positive("frequency_hz", frequency_hz)
+    la = checks.positive("final_inductance_h", final_inductance_h)
     omega = 2.0 * math.pi * f
     lam = np.concatenate(([0.0], math.sqrt(2.0) * v / omega))
     cur = np.zeros_like(lam)

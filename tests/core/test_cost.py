@@ -97,7 +97,7 @@ def tally(monkeypatch: pytest.MonkeyPatch) -> Tally:
     simulate, run = energize.simulate, dip_cases.run
     from_waveform = device_operation.inrush_from_waveform
     judge, judge_relay = (
-        vars(coordination)["_ride_through"],
+        vars(coordination)["ride_through"],
         vars(coordination)["relay_ride_through"],
     )
     record: dict[int, int] = {}  # id of an InrushCurves -> line-samples of its waveform
@@ -133,7 +133,7 @@ def tally(monkeypatch: pytest.MonkeyPatch) -> Tally:
     monkeypatch.setattr(energize, "simulate", counted_simulate)
     monkeypatch.setattr(dip_cases, "run", counted_run)
     monkeypatch.setattr(device_operation, "inrush_from_waveform", counted_waveform)
-    monkeypatch.setattr(coordination, "_ride_through", counted_judge)
+    monkeypatch.setattr(coordination, "ride_through", counted_judge)
     monkeypatch.setattr(coordination, "relay_ride_through", counted_window)
     return t
 

@@ -62,9 +62,10 @@ def test_every_package_has_a_rank() -> None:
 def _violations(path: Path, text: str) -> list[str]:
     own = _unit(path)
     bad = []
-    for line, unit, _names in _core_imports(ast.parse(text)):
+    for line, unit, names in _core_imports(ast.parse(text)):
         if unit != own and RANK.get(unit, 99) >= RANK[own]:
             bad.append(f"{path.name}:{line} ({own}) imports {unit}")
+        bad += [f"{path.name}:{line} imports private {n} from {unit}" for n in names if n[0] == "_"]
     return bad
 
 
@@ -76,7 +77,9 @@ def test_imports_run_one_way(path: Path) -> None:
 
 
 def test_the_checker_sees_a_wrong_way_import() -> None:
-    # the check itself must be able to fail: the transformer reaching up into energization
+    # the check itself must be able to fail: the transformer reaching up into energization, and
+    # a private helper taken from another module
     path = CORE / "transformer" / "circuit_model.py"
     assert len(_violations(path, "from core.energization import energize\n")) == 1
+    assert len(_violations(path, "from core.transformer.magnetizing import _hidden\n")) == 1
     assert not _violations(path, "from core.transformer import magnetizing\n")
