@@ -10,6 +10,7 @@ from core.supply.dip import (
     Swings,
     check_measure,
     energize_from_source,
+    run_on_sources,
     voltage_swings,
 )
 from core.supply.dip_cases import (
@@ -89,6 +90,7 @@ __all__ = [
     "regulator_damping_ratio",
     "regulator_gain_for_margin",
     "run",
+    "run_on_sources",
     "smallest_generator",
     "source_assumptions",
     "source_parameters",

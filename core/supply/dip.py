@@ -90,6 +90,7 @@ ISO 8528-5 (generating-set performance classes G1-G4) -- limits from memory, see
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Literal
 
@@ -428,6 +429,94 @@ def _pole_approximations(
     return out
 
 
+def run_on_sources(
+    sources: Sequence[Source],
+    circuit: EquivalentCircuit,
+    closing_angle_deg: float,
+    residual_flux_pu: FloatArray,
+    *,
+    excitation: ExcitationSpec,
+    bus_load: BusLoad | None,
+    pre_event_voltage_pu: float,
+    duration_s: float,
+    steps_per_cycle: int,
+    waveform_points: int,
+    insertion: tuple[float, float],
+    pole_delay_s: FloatArray,
+) -> tuple[list[dip_cases.SourceParameters], dip_cases.Raw]:
+    """One dip case per source, the same energisation of each, integrated in one kernel call.
+
+    The shared first half of :func:`energize_from_source` (one source) and
+    :func:`core.supply.generator_sizing.dip_sweep` (one machine at many ratings); the inputs
+    are checked by their callers.
+
+    Parameters
+    ----------
+    sources : sequence of Generator or UtilitySource
+        The sources, all at the circuit's frequency and the same line voltage [-].
+    circuit : EquivalentCircuit
+        Three-phase circuit on an ideal source [-].
+    closing_angle_deg : float
+        Phase-A voltage angle at t = 0 [deg].
+    residual_flux_pu : ndarray, shape (3,)
+        Residual flux per winding [pu of lambda_N].
+    excitation : Excitation, "unknown" or "constant_field"
+        The regulator of every machine [-].
+    bus_load : BusLoad or None
+        Load on the bus, constant impedance [-].
+    pre_event_voltage_pu : float
+        Terminal voltage before closing [pu].
+    duration_s : float
+        Simulated time [s].
+    steps_per_cycle : int
+        Steps per cycle, at least 128 [-].
+    waveform_points : int
+        Waveform samples kept, 0 for none [-].
+    insertion : tuple of float
+        Pre-insertion resistor and its time in circuit from closing [ohm, s].
+    pole_delay_s : ndarray, shape (3,)
+        Closing instant of each pole [s].
+
+    Returns
+    -------
+    tuple
+        (the sources reduced to numbers, one per source; the kernel's output) [-].
+
+    Notes
+    -----
+    Each case: :func:`core.supply.dip_cases.build_case` from
+    :func:`core.supply.sources.source_parameters` at omega = 2*pi*f; all run by
+    :func:`core.supply.dip_cases.run` with the phase voltage V_LL/sqrt(3) of the first source.
+
+    References
+    ----------
+    The models of :mod:`core.supply.sources` and :mod:`core.supply.dip_cases`.
+    """
+    f = circuit.frequency_hz
+    r_ins, t_ins = insertion
+    load = None if bus_load is None else (bus_load.active_power_w, bus_load.reactive_power_var)
+    params = [source_parameters(s, excitation, 2.0 * math.pi * f) for s in sources]
+    cases = [
+        dip_cases.build_case(
+            p, circuit, closing_angle_deg, residual_flux_pu, load, pre_event_voltage_pu,
+            insertion_resistance_ohm=r_ins,
+        )
+        for p in params
+    ]  # fmt: skip
+    v_ph = sources[0].line_voltage_v / math.sqrt(3.0)
+    raw = dip_cases.run(
+        cases,
+        f,
+        v_ph,
+        duration_s,
+        steps_per_cycle,
+        waveform_points,
+        insertion_time_s=t_ins,
+        pole_delay_s=pole_delay_s,
+    )
+    return params, raw
+
+
 def energize_from_source(
     source: Source,
     circuit: EquivalentCircuit,
@@ -539,19 +628,18 @@ def energize_from_source(
     v0 = float(pre_event_voltage_pu)
     f = circuit.frequency_hz
     v_ph = source.line_voltage_v / math.sqrt(3.0)
-    src = source_parameters(source, excitation, 2.0 * math.pi * f)
-    load = None if bus_load is None else (bus_load.active_power_w, bus_load.reactive_power_var)
-    case = dip_cases.build_case(
-        src, circuit, closing_angle_deg, res, load, v0, insertion_resistance_ohm=r_ins
-    )
-    raw = dip_cases.run(
-        [case],
-        f,
-        v_ph,
-        duration_s,
-        steps_per_cycle,
-        waveform_points,
-        insertion_time_s=t_ins,
+    (src,), raw = run_on_sources(
+        [source],
+        circuit,
+        closing_angle_deg,
+        res,
+        excitation=excitation,
+        bus_load=bus_load,
+        pre_event_voltage_pu=v0,
+        duration_s=duration_s,
+        steps_per_cycle=steps_per_cycle,
+        waveform_points=waveform_points,
+        insertion=(r_ins, t_ins),
         pole_delay_s=poles,
     )
     ideal = dip_cases.SourceParameters(source.line_voltage_v, 0.0, 0.0, src.base_va)

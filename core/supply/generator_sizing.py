@@ -58,7 +58,6 @@ from core.supply.sources import (
     BusLoad,
     ExcitationSpec,
     Generator,
-    source_parameters,
 )
 from core.transformer.circuit_model import EquivalentCircuit
 
@@ -120,25 +119,21 @@ def dip_sweep(
     r_ins, t_ins = dip_cases.check_insertion(insertion_resistance_ohm, insertion_time_s)
     poles = dip_cases.check_poles(pole_delay_s, duration_s)
     v0 = float(pre_event_voltage_pu)
-    f = circuit.frequency_hz
-    load = None if bus_load is None else (bus_load.active_power_w, bus_load.reactive_power_var)
-    cases = [
-        dip_cases.build_case(
-            source_parameters(g, excitation, 2.0 * math.pi * f),
-            circuit,
-            closing_angle_deg,
-            res,
-            load,
-            v0,
-            insertion_resistance_ohm=r_ins,
-        )
-        for g in gens
-    ]
-    v_ph = generator.line_voltage_v / math.sqrt(3.0)
-    raw = dip_cases.run(
-        cases, f, v_ph, duration_s, steps_per_cycle, 0, insertion_time_s=t_ins, pole_delay_s=poles
-    )
     dip.check_measure(voltage_measure)
+    _, raw = dip.run_on_sources(
+        gens,
+        circuit,
+        closing_angle_deg,
+        res,
+        excitation=excitation,
+        bus_load=bus_load,
+        pre_event_voltage_pu=v0,
+        duration_s=duration_s,
+        steps_per_cycle=steps_per_cycle,
+        waveform_points=0,
+        insertion=(r_ins, t_ins),
+        pole_delay_s=poles,
+    )
     ph = raw.v_rms_pu.min(axis=(1, 2))
     ln = raw.v_line_rms_pu.min(axis=(1, 2))
     low = {"worst": np.minimum(ph, ln), "line": ln, "phase": ph}[voltage_measure]
