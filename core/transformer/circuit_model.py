@@ -349,6 +349,34 @@ def source_impedance(source: Source, line_voltage_v: float, phases: int) -> tupl
     raise ParameterError("source.kind", source.kind, "ideal, fault_level or impedance")
 
 
+def _flux_densities(npl: Nameplate) -> tuple[float, float, str, str]:
+    """B_N, B_S [T] of the nameplate's core material and where each comes from."""
+    if npl.material == "custom":
+        if npl.nominal_flux_density_t is None or npl.saturation_flux_density_t is None:
+            raise ParameterError(
+                "material",
+                "custom",
+                "custom needs nominal_flux_density_t and saturation_flux_density_t",
+            )
+        b_n, b_s = npl.nominal_flux_density_t, npl.saturation_flux_density_t
+        prov_n = prov_s = "given"
+    elif npl.material in MATERIALS:
+        mat = MATERIALS[npl.material]
+        b_n = npl.nominal_flux_density_t or mat.nominal_flux_density_t
+        b_s = npl.saturation_flux_density_t or mat.saturation_flux_density_t
+        prov_n = "given" if npl.nominal_flux_density_t else mat.source
+        prov_s = "given" if npl.saturation_flux_density_t else mat.source
+    else:
+        raise ParameterError("material", npl.material, "grain_oriented, amorphous or custom")
+    b_n = checks.in_range("nominal_flux_density_t", b_n, 0.0, 3.0)
+    b_s = checks.in_range("saturation_flux_density_t", b_s, 0.0, 3.0)
+    if b_s <= b_n:
+        raise ParameterError(
+            "saturation_flux_density_t", b_s, f"above the nominal flux density {b_n:g} T"
+        )
+    return b_n, b_s, prov_n, prov_s
+
+
 def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> EquivalentCircuit:
     """Build the energisation circuit of one winding from nameplate data.
 
@@ -417,30 +445,7 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
     note("x_over_r", xr, "-", "given")
     note("no_load_current_percent", i0_pct, "%", "given")
 
-    # Core material
-    if npl.material == "custom":
-        if npl.nominal_flux_density_t is None or npl.saturation_flux_density_t is None:
-            raise ParameterError(
-                "material",
-                "custom",
-                "custom needs nominal_flux_density_t and saturation_flux_density_t",
-            )
-        b_n, b_s = npl.nominal_flux_density_t, npl.saturation_flux_density_t
-        prov_n = prov_s = "given"
-    elif npl.material in MATERIALS:
-        mat = MATERIALS[npl.material]
-        b_n = npl.nominal_flux_density_t or mat.nominal_flux_density_t
-        b_s = npl.saturation_flux_density_t or mat.saturation_flux_density_t
-        prov_n = "given" if npl.nominal_flux_density_t else mat.source
-        prov_s = "given" if npl.saturation_flux_density_t else mat.source
-    else:
-        raise ParameterError("material", npl.material, "grain_oriented, amorphous or custom")
-    b_n = checks.in_range("nominal_flux_density_t", b_n, 0.0, 3.0)
-    b_s = checks.in_range("saturation_flux_density_t", b_s, 0.0, 3.0)
-    if b_s <= b_n:
-        raise ParameterError(
-            "saturation_flux_density_t", b_s, f"above the nominal flux density {b_n:g} T"
-        )
+    b_n, b_s, prov_n, prov_s = _flux_densities(npl)
     note("material", npl.material, "-", "given")  # provenance applies
     note("nominal_flux_density_t", b_n, "T", prov_n)
     note("saturation_flux_density_t", b_s, "T", prov_s)
