@@ -1,16 +1,15 @@
 """Work estimates: how much an operation will compute, known before it computes anything.
 
 Each function counts the integration steps an operation will take from the same step plan the
-solvers use (:func:`core.energization.energize_plan.step_plan`,
-:func:`core.energization.energize_plan. saturated_time_constant`,
-:func:`core.energization.energize_plan.search_offsets`,
-:func:`core.supply.dip_cases. cycle_steps`), so the estimate cannot drift from the solver, and adds
-the judging that follows each simulation. The unit of work is one *winding-step*: one Runge-Kutta
-step of one winding of one case in :mod:`core.energization.energize` (cases x windings x steps, the
-unit ``max_steps`` counts). The other kinds of work are weighed in it with the factors below,
-measured on the reference machine by ``tests/benchmarks/bench_heaviest.py`` (ratios of CPU times in
-one run; they are this project's measurements, not published values). The caller compares
-:attr:`Work.steps` with its budget; :attr:`Work.parts` says where the work goes.
+solvers use (:func:`core.energize_plan.step_plan`, :func:`core.energize_plan.
+saturated_time_constant`, :func:`core.energize_plan.search_offsets`, :func:`core.dip_solver.
+cycle_steps`), so the estimate cannot drift from the solver, and adds the judging that follows
+each simulation. The unit of work is one *winding-step*: one Runge-Kutta step of one winding of
+one case in :mod:`core.energize` (cases x windings x steps, the unit ``max_steps`` counts). The
+other kinds of work are weighed in it with the factors below, measured on the reference machine
+by ``tests/benchmarks/bench_heaviest.py`` (ratios of CPU times in one run; they are this
+project's measurements, not published values). The caller compares :attr:`Work.steps` with its
+budget; :attr:`Work.parts` says where the work goes.
 """
 
 from __future__ import annotations
@@ -19,8 +18,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 from core.energization import energize_plan, peaks
-from core.supply import dip_cases
-from core.transformer.circuit_model import EquivalentCircuit
+from core.supply import dip_cases as dip_solver
+from core.transformer import EquivalentCircuit
 
 __all__ = [
     "DEVICE_SAMPLE_WEIGHT",
@@ -39,8 +38,8 @@ __all__ = [
 ]
 
 # One step of the generator-dip kernel (three transformer loops, the machine's flux and
-# regulator states, per case) in winding-steps of core.energization.energize: measured ratio (see
-# module docstring).
+# regulator states, per case) in winding-steps of core.energize: measured ratio (see module
+# docstring).
 DIP_STEP_WEIGHT = 40.0
 # Judging one device against one line's recorded sample (I_eq(t), the relay integral and the
 # reset, the instantaneous check) in winding-steps: measured ratio.
@@ -50,14 +49,12 @@ DEVICE_SAMPLE_WEIGHT = 0.05
 # 1000 circuit-mode cases took 15 s of CPU against 4.9 s for its steps alone (about 10 ms a
 # case at the 0.1 us a step of the module docstring).
 PEAK_CASE_WEIGHT = 100_000.0
-# Dip evaluations of the generator sizing (core.supply.generator_sizing.smallest_generator): the two
-# ends of the range, Brent's method on log(rating) to a relative 1e-3 over a factor of 200
-# (bisection alone needs 13; Brent's superlinear steps need fewer on this smooth, monotonic dip),
-# two steps to the passing side of the root: a typical count, not a bound (the deadline is the
-# backstop).
+# Dip evaluations of the generator sizing (core.dip_sizing.smallest_generator): the two ends of
+# the range, Brent's method on log(rating) to a relative 1e-3 over a factor of 200 (bisection
+# alone needs 13; Brent's superlinear steps need fewer on this smooth, monotonic dip), two steps
+# to the passing side of the root: a typical count, not a bound (the deadline is the backstop).
 SIZING_EVALUATIONS = 2 + 12 + 2
-# Simulated time of each sizing evaluation [s] (core.supply.generator_sizing.smallest_generator's
-# default).
+# Simulated time of each sizing evaluation [s] (core.dip_sizing.smallest_generator's default).
 SIZING_DURATION_S = 2.0
 # The pole scatter's largest spread over a sample, counted in standard deviations: the range of
 # three normal draws exceeds 10 sigma with a probability below 1e-6 per event (normal tail at
@@ -91,8 +88,7 @@ def search_cases() -> int:
     Returns
     -------
     int
-        Sum of the trials of every stage of :func:`core.energization.energize_plan.search_offsets`,
-        plus one [-].
+        Sum of the trials of every stage of :func:`core.energize_plan.search_offsets`, plus one [-].
 
     Notes
     -----
@@ -101,7 +97,7 @@ def search_cases() -> int:
 
     References
     ----------
-    Counts the search of :func:`core.energization.inrush_study.worst_closing_angles` (this project).
+    Counts the search of :func:`core.inrush.worst_closing_angles` (this project).
     """
     return sum(o.size for o in energize_plan.search_offsets()) + 1
 
@@ -112,8 +108,7 @@ def simulation_steps(
     duration_s: float,
     samples_per_cycle: int = 128,
 ) -> float:
-    """Winding-steps of one :func:`core.energization.energize.simulate` call without a pre-insertion
-    resistor.
+    """Winding-steps of one :func:`core.energize.simulate` call without a pre-insertion resistor.
 
     Parameters
     ----------
@@ -133,10 +128,9 @@ def simulation_steps(
 
     Notes
     -----
-    steps = :func:`core.energization.energize_plan.step_plan` (f, T, samples per cycle, tau) with
-    tau the saturated loop's time constant
-    (:func:`core.energization.energize_plan.saturated_time_constant`): the count
-    :func:`core.energization.energize.simulate` compares with ``max_steps``.
+    steps = :func:`core.energize_plan.step_plan` (f, T, samples per cycle, tau) with tau the
+    saturated loop's time constant (:func:`core.energize_plan.saturated_time_constant`): the
+    count :func:`core.energize.simulate` compares with ``max_steps``.
 
     References
     ----------
@@ -150,7 +144,7 @@ def simulation_steps(
 
 
 def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) -> float:
-    """Winding-steps of one generator-dip run (:func:`core.supply.dip.energize_from_source`).
+    """Winding-steps of one generator-dip run (:func:`core.dip.energize_from_source`).
 
     Parameters
     ----------
@@ -168,7 +162,7 @@ def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) ->
 
     Notes
     -----
-    Steps = :func:`core.supply.dip_cases.cycle_steps` at the solver's floor of 128 steps per cycle;
+    Steps = :func:`core.dip_solver.cycle_steps` at the solver's floor of 128 steps per cycle;
     a machine and transformer loop faster than that needs more, which this estimate does not
     see (the deadline is the backstop).
 
@@ -176,8 +170,8 @@ def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) ->
     ----------
     The dip solver's own step plan (this project).
     """
-    main = dip_cases.cycle_steps(frequency_hz, duration_s, dip_cases.MIN_STEPS_PER_CYCLE)
-    first = dip_cases.MIN_STEPS_PER_CYCLE
+    main = dip_solver.cycle_steps(frequency_hz, duration_s, dip_solver.MIN_STEPS_PER_CYCLE)
+    first = dip_solver.MIN_STEPS_PER_CYCLE
     return DIP_STEP_WEIGHT * float(cases) * (main + first)
 
 
@@ -191,8 +185,7 @@ def _judging(circuit: EquivalentCircuit, devices: int, duration_s: float, events
 
 
 def _exact_reading(circuit: EquivalentCircuit, windows: float, samples_per_cycle: int) -> float:
-    """Winding-steps of reading ``windows`` peaks exactly (:mod:`core.energization.peaks`), every
-    stage."""
+    """Winding-steps of reading ``windows`` peaks exactly (:mod:`core.peaks`), every stage."""
     f = circuit.frequency_hz
     return sum(
         simulation_steps(circuit, windows, 2.0 / (f * coarse), fine)
@@ -209,7 +202,7 @@ def _search(circuit: EquivalentCircuit, pole_delay_max_s: float, cycles: float =
 def peak_work(
     circuit: EquivalentCircuit, simulated: bool, pole_delay_max_s: float, cycles: float = 2.0
 ) -> Work:
-    """Work of :func:`core.energization.inrush_study.peak_study`.
+    """Work of :func:`core.inrush.peak_study`.
 
     Parameters
     ----------
@@ -233,7 +226,7 @@ def peak_work(
 
     References
     ----------
-    Counts :func:`core.energization.inrush_study.peak_study` (this project).
+    Counts :func:`core.inrush.peak_study` (this project).
     """
     if not simulated:
         return _work(())
@@ -250,8 +243,7 @@ def peak_work(
 
 
 def envelope_work(circuit: EquivalentCircuit, duration_s: float, samples_per_cycle: int) -> Work:
-    """Work of :func:`core.energization.inrush_study.envelope_study`: one simulation of
-    ``duration_s`` [s].
+    """Work of :func:`core.inrush.envelope_study`: one simulation of ``duration_s`` [s].
 
     Parameters
     ----------
@@ -273,7 +265,7 @@ def envelope_work(circuit: EquivalentCircuit, duration_s: float, samples_per_cyc
 
     References
     ----------
-    Counts :func:`core.energization.inrush_study.envelope_study` (this project).
+    Counts :func:`core.inrush.envelope_study` (this project).
     """
     sim = simulation_steps(circuit, 1, duration_s, samples_per_cycle)
     analysis = _line_samples(circuit, duration_s, samples_per_cycle)
@@ -328,8 +320,8 @@ def statistics_work(
 
     References
     ----------
-    Counts :func:`core.statistics.monte_carlo.peak_distribution` and
-    :mod:`core.statistics.event_outcomes` (this project).
+    Counts :func:`core.statistics.peak_distribution` and :mod:`core.event_checks` (this
+    project).
     """
     f = circuit.frequency_hz
     spread = SCATTER_SIGMAS * pole_scatter_ms * 1e-3 if circuit.phases > 1 else 0.0
@@ -352,7 +344,7 @@ def clearance_work(
     windows: bool,
     pole_delay_max_s: float = 0.0,
 ) -> Work:
-    """Work of :func:`core.protection.protection_study.clearance_study` (and of its figure).
+    """Work of :func:`core.clearance.clearance_study` (and of its figure).
 
     Parameters
     ----------
@@ -381,7 +373,7 @@ def clearance_work(
 
     References
     ----------
-    Counts :func:`core.protection.protection_study.clearance_study` (this project).
+    Counts :func:`core.clearance.clearance_study` (this project).
     """
     parts = []
     if worst_angle:
@@ -392,8 +384,8 @@ def clearance_work(
     return _work(parts)
 
 
-# Judgements of one relay in its time-dial window search (core.protection.coordination): an upper
-# bound on the bisections of the two ends, this project's count.
+# Judgements of one relay in its time-dial window search (core.coordination): an upper bound
+# on the bisections of the two ends, this project's count.
 WINDOW_TRIALS = 40
 
 
@@ -404,7 +396,7 @@ def dip_study_work(
     sizing: bool,
     recovery_limit_s: float | None,
 ) -> Work:
-    """Work of :func:`core.supply.dip_study.dip_study`.
+    """Work of :func:`core.dip_study.dip_study`.
 
     Parameters
     ----------
@@ -428,8 +420,8 @@ def dip_study_work(
 
     References
     ----------
-    Counts :func:`core.supply.dip_study.dip_study` and
-    :func:`core.supply.generator_sizing.smallest_generator` (this project).
+    Counts :func:`core.dip_study.dip_study` and :func:`core.dip_sizing.smallest_generator`
+    (this project).
     """
     parts = [("dip event", dip_run_steps(frequency_hz, duration_s))]
     if sizing:
@@ -443,13 +435,11 @@ def dip_study_work(
 
 
 # Worst-closing-angle searches one mitigation option may run: the resistor's sizing searches one
-# per trial resistance (core.mitigation.pre_insertion.smallest_resistance, a bracketing search), the
-# controlled closing's tolerance window a bisection; an upper bound per option, this project's
-# count.
+# per trial resistance (core.resistor.smallest_resistance, a bracketing search), the controlled
+# closing's tolerance window a bisection; an upper bound per option, this project's count.
 OPTION_SEARCHES = 6
-# Sub-steps a pre-insertion resistor may add while it is in
-# (core.energization.energize_plan.plan_steps): counted as this many times the steps of its
-# searches, a measured allowance.
+# Sub-steps a pre-insertion resistor may add while it is in (core.energize_plan.plan_steps):
+# counted as this many times the steps of its searches, a measured allowance.
 RESISTOR_SUBSTEPS = 4.0
 
 
@@ -463,7 +453,7 @@ def mitigation_work(
     dip_duration_s: float | None,
     pole_delay_max_s: float = 0.0,
 ) -> Work:
-    """Work of :func:`core.mitigation.mitigation_study.mitigation_study`, an upper estimate.
+    """Work of :func:`core.mitigation.mitigation_study`, an upper estimate.
 
     Parameters
     ----------
@@ -497,7 +487,7 @@ def mitigation_work(
 
     References
     ----------
-    Counts :mod:`core.mitigation.mitigation_study` and :mod:`core.mitigation.plans` (this project).
+    Counts :mod:`core.mitigation` and :mod:`core.mitigation_plans` (this project).
     """
     f = circuit.frequency_hz
     plans = options + 1
