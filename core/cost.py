@@ -17,7 +17,8 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from core import dip_solver, energize_plan, peaks
+from core.energization import energize_plan, peaks
+from core.supply import dip_cases as dip_solver
 from core.transformer import EquivalentCircuit
 
 __all__ = [

@@ -12,17 +12,25 @@ from typing import Literal
 
 import numpy as np
 
-from core import fuse_breaker_curves, inrush, magnetizing, plausibility, ridethrough, transformer
-from core.dip_limits import DipLimit, iso_8528_5_class
+from core.energization import inrush_study
+from core.energization.switching_event import (
+    RESIDUAL_DEFAULT_SOURCE,
+    SwitchingEvent,
+    residual_flux_pu_from_wb,
+    switching_event,
+)
 from core.errors import LimitError, ParameterError
-from core.generator import (
+from core.protection import device_operation, fuse_breaker_curves
+from core.supply.dip_limits import DipLimit, iso_8528_5_class
+from core.supply.sources import (
     BusLoad,
     Excitation,
     ExcitationSpec,
     Generator,
     UtilitySource,
 )
-from core.transformer import EquivalentCircuit
+from core.transformer import circuit_model, magnetizing, plausibility
+from core.transformer.circuit_model import EquivalentCircuit
 from service.models.clearance import BreakerIn, CurvePoint, FuseIn, RelayIn
 from service.models.common import (
     Assumption,
@@ -45,12 +53,6 @@ from service.models.dip import (
     RegulatorIn,
 )
 from service.settings import Settings
-
-RESIDUAL_DEFAULT_SOURCE = (
-    "default: 0.8 pu on the first winding (upper end of the typical 0.2-0.8 pu range, from "
-    "memory), the other windings -0.4 pu each so that the three sum to zero"
-)
-
 
 # Provenance of the API's own defaults, recorded when the caller leaves a field out.
 DEFAULT_PROVENANCE = {
@@ -82,11 +84,11 @@ def _provenance(t: TransformerNameplate) -> dict[str, str]:
     return {n: DEFAULT_PROVENANCE[n] for n in unset}
 
 
-def nameplate_of(t: TransformerNameplate) -> transformer.Nameplate:
+def nameplate_of(t: TransformerNameplate) -> circuit_model.Nameplate:
     """The core nameplate of a request's transformer, SI units, with the defaults' provenance."""
     c = t.core
     oc = c.open_circuit_test or []
-    return transformer.Nameplate(
+    return circuit_model.Nameplate(
         rating_va=t.rating_kva * 1e3,
         phases=t.phases,
         frequency_hz=t.frequency_hz,
@@ -100,7 +102,7 @@ def nameplate_of(t: TransformerNameplate) -> transformer.Nameplate:
         nominal_flux_density_t=c.nominal_flux_density_t,
         saturation_flux_density_t=c.saturation_flux_density_t,
         geometry=(
-            transformer.WindingGeometry(
+            circuit_model.WindingGeometry(
                 t.winding_geometry.turns,
                 t.winding_geometry.mean_diameter_m,
                 t.winding_geometry.height_m,
@@ -116,16 +118,16 @@ def nameplate_of(t: TransformerNameplate) -> transformer.Nameplate:
     )
 
 
-def source_of(src: SourceIn | None) -> transformer.Source | None:
+def source_of(src: SourceIn | None) -> circuit_model.Source | None:
     """The core source of a request's ``source`` (None when absent: ideal by default)."""
     if isinstance(src, FaultLevelSource):
-        return transformer.Source("fault_level", src.fault_mva * 1e6, src.x_over_r)
+        return circuit_model.Source("fault_level", src.fault_mva * 1e6, src.x_over_r)
     if isinstance(src, ImpedanceSource):
-        return transformer.Source(
+        return circuit_model.Source(
             "impedance", resistance_ohm=src.resistance_ohm, reactance_ohm=src.reactance_ohm
         )
     if src is not None:
-        return transformer.Source("ideal")
+        return circuit_model.Source("ideal")
     return None
 
 
@@ -158,7 +160,7 @@ def _source_error(exc: ParameterError, t: TransformerNameplate, src: SourceIn) -
 def _circuit(study: Study) -> EquivalentCircuit:
     if study.transformer is not None:
         try:
-            return transformer.equivalent_circuit(
+            return circuit_model.equivalent_circuit(
                 nameplate_of(study.transformer), source_of(study.source)
             )
         except ParameterError as exc:
@@ -180,7 +182,7 @@ def _circuit(study: Study) -> EquivalentCircuit:
     else:
         assert isinstance(m, TableCurve)
         curve = magnetizing.from_table(m.flux_wb, m.current_a, m.final_inductance_h)
-    return transformer.circuit_from_si(
+    return circuit_model.circuit_from_si(
         ci.voltage_rms_v,
         ci.frequency_hz,
         ci.resistance_ohm,
@@ -190,16 +192,15 @@ def _circuit(study: Study) -> EquivalentCircuit:
     )
 
 
-def study_inputs(
-    study: Study,
-) -> tuple[EquivalentCircuit, np.ndarray, np.ndarray, list[Assumption]]:
-    """Circuit, residual flux [pu], pole delays [s] and the assumptions, from a request."""
+def study_inputs(study: Study) -> tuple[EquivalentCircuit, SwitchingEvent, list[Assumption]]:
+    """Circuit, switching event (residual flux [pu], pole delays [s]) and the assumptions."""
     circuit = _circuit(study)
     m = circuit.phases
     sw = study.switching
     extra: list[Assumption] = []
+    res: np.ndarray | None
     if sw.residual_flux_wb is not None:
-        res = np.asarray(sw.residual_flux_wb, dtype=float) / circuit.nominal_flux_wb
+        res = residual_flux_pu_from_wb(sw.residual_flux_wb, circuit)
         extra.append(
             Assumption(
                 name="residual_flux_wb",
@@ -213,13 +214,14 @@ def study_inputs(
         res = np.asarray(sw.residual_flux_pu, dtype=float)
         res_source = "given"
     else:
-        res = np.array([0.8]) if m == 1 else np.array([0.8, -0.4, -0.4])
+        res = None  # the core's default
         res_source = RESIDUAL_DEFAULT_SOURCE
     delay = (
         np.asarray(sw.pole_delay_ms, dtype=float) * 1e-3
         if sw.pole_delay_ms is not None
         else np.zeros(m)
     )
+    event = switching_event(circuit, sw.closing_angle_deg, res, delay)
     assumptions = assumptions_out(circuit.assumptions)
     assumptions += extra
     assumptions.append(
@@ -235,7 +237,7 @@ def study_inputs(
     assumptions.append(
         Assumption(
             name="residual_flux_pu",
-            value=[float(x) for x in res],
+            value=[float(x) for x in event.residual_flux_pu],
             unit="pu of nominal peak flux",
             source=res_source,
         )
@@ -248,7 +250,7 @@ def study_inputs(
             source="given" if sw.pole_delay_ms else "default 0",
         )
     )
-    return circuit, res, delay, assumptions
+    return circuit, event, assumptions
 
 
 def check_work(
@@ -293,13 +295,13 @@ def warnings_out(items: Sequence[tuple[str, str]]) -> list[WarningItem]:
 def method_out(analytic: bool, simulated: bool, approximations: Sequence[str]) -> Method:
     """The method block of a response."""
     return Method(
-        analytic=inrush.ANALYTIC_METHOD if analytic else None,
-        simulated=inrush.SIMULATED_METHOD if simulated else None,
+        analytic=inrush_study.ANALYTIC_METHOD if analytic else None,
+        simulated=inrush_study.SIMULATED_METHOD if simulated else None,
         approximations=list(approximations),
     )
 
 
-def assumptions_out(items: Sequence[transformer.Assumption]) -> list[Assumption]:
+def assumptions_out(items: Sequence[circuit_model.Assumption]) -> list[Assumption]:
     """Core assumptions to response items."""
     return [
         Assumption(
@@ -401,23 +403,23 @@ def _table(points: list[CurvePoint], path: str, device: str) -> fuse_breaker_cur
         ) from None
 
 
-def device_of(d: RelayIn | FuseIn | BreakerIn, index: int = 0) -> ridethrough.Device:
+def device_of(d: RelayIn | FuseIn | BreakerIn, index: int = 0) -> device_operation.Device:
     """The core protective device of a request's device (``index``: its place in ``devices``)."""
     if isinstance(d, RelayIn):
-        return ridethrough.Relay(
+        return device_operation.Relay(
             d.name, d.standard, d.curve, d.pickup_a, d.time_dial, d.instantaneous_pickup_a,
             d.reset,
         )  # fmt: skip
     if isinstance(d, FuseIn):
         tc = d.total_clearing
-        return ridethrough.Fuse(
+        return device_operation.Fuse(
             d.name,
             _table(d.minimum_melt, f"devices.{index}.minimum_melt", d.name),
             _table(tc, f"devices.{index}.total_clearing", d.name) if tc else None,
             d.minimum_melting_i2t_a2s,
             d.melt_current_factor,
         )
-    return ridethrough.Breaker(
+    return device_operation.Breaker(
         d.name,
         fuse_breaker_curves.LowVoltageBreaker(
             long_time_pickup=d.long_time_pickup_a,

@@ -1,11 +1,12 @@
 """SVG figures: the time-current characteristic (TCC) plot and the inrush waveform.
 
 Plain arrays in, SVG text out; nothing here computes physics (the caller takes the curves from
-:mod:`core.ridethrough`, :mod:`core.damage` and :mod:`core.waveform`). Rendering uses
-matplotlib's object-oriented :class:`~matplotlib.figure.Figure` with the SVG canvas (no pyplot,
-so no global backend or figure registry) and is byte-for-byte deterministic: a fixed
-``svg.hashsalt`` for element ids, text kept as text (``svg.fonttype = 'none'``), no date in the
-metadata; rc settings are applied in a context, so global state is left as found.
+:mod:`core.protection.device_operation`, :mod:`core.protection.damage_curves` and
+:mod:`core.energization.waveform`). Rendering uses matplotlib's object-oriented
+:class:`~matplotlib.figure.Figure` with the SVG canvas (no pyplot, so no global backend or figure
+registry) and is byte-for-byte deterministic: a fixed ``svg.hashsalt`` for element ids, text kept as
+text (``svg.fonttype = 'none'``), no date in the metadata; rc settings are applied in a context, so
+global state is left as found.
 """
 
 from __future__ import annotations
@@ -330,8 +331,8 @@ def waveform_svg(
     envelope_time_s : array_like, shape (n_cycles,), optional
         Time at which each cycle's peak is drawn (e.g. the cycle's start or its peak) [s].
     envelope_a : array_like, shape (n_lines, n_cycles), optional
-        Per-cycle peak |i|, e.g. :func:`core.waveform.cycle_peaks`; drawn dashed on the side
-        where the line's current mostly lies (the sign of its mean), so the envelope meets the
+        Per-cycle peak |i|, e.g. :func:`core.energization.waveform.cycle_peaks`; drawn dashed on the
+        side where the line's current mostly lies (the sign of its mean), so the envelope meets the
         lobes it describes [A].
 
     Returns

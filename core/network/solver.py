@@ -95,10 +95,10 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core.errors import LimitError, ParameterError
-from core.magnetizing import PiecewiseLinearCurve, SmoothKneeCurve
 from core.network import kernel
 from core.transformer import EquivalentCircuit, source_impedance
 from core.transformer import Source as _NameplateSource
+from core.transformer.magnetizing import PiecewiseLinearCurve, SmoothKneeCurve
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]

@@ -7,11 +7,13 @@ from collections.abc import Mapping
 from typing import Annotated
 
 import numpy as np
-from fastapi import APIRouter, Body, Depends
+from fastapi import APIRouter, Body
 from fastapi.responses import Response
 
-from core import clearance, coordination, cost, ridethrough
+from core import cost
+from core.protection import coordination, device_operation, protection_study
 from service import budget, compute, convert, figures
+from service.deps import SettingsDep
 from service.examples import CLEARANCE_EXAMPLES
 from service.models.clearance import (
     ClearanceRequest,
@@ -27,14 +29,13 @@ from service.models.clearance import (
 )
 from service.models.common import Assumption, Method
 from service.problems import PROBLEM_RESPONSES
-from service.settings import Settings, settings_dependency
+from service.settings import Settings
 
 router = APIRouter(
     prefix="/v1/clearance",
     tags=["clearance"],
     responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
 )
-SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 CLEARANCE_METHOD = (
     "inrush simulated as for /v1/inrush (worst closing angle unless given); relays integrated "
     "as 1/t(I) over the sliding one-cycle rms with the IEEE C37.112 reset (trip when the "
@@ -49,8 +50,8 @@ CLEARANCE_METHOD = (
 
 def _study(
     body: ClearanceRequest, settings: Settings, figure: bool = False
-) -> tuple[clearance.ClearanceStudy, list[Assumption]]:
-    circuit, res, delay, assumptions = convert.study_inputs(body)
+) -> tuple[protection_study.ClearanceStudy, list[Assumption]]:
+    circuit, event, assumptions = convert.study_inputs(body)
     t = body.transformer
     assert t is not None
     opt = body.options
@@ -65,7 +66,7 @@ def _study(
             duration_s=r(o, "options.duration_s", opt.duration_s),
             devices=int(r(o, "devices", len(body.devices))),
             windows=opt.coordination_window and relays > 0,
-            pole_delay_max_s=float(np.max(delay)),
+            pole_delay_max_s=float(np.max(event.pole_delay_s)),
             figure=figure,
         )
 
@@ -76,11 +77,11 @@ def _study(
     if opt.coordination_window and relays:
         knobs.append(budget.Knob("options.coordination_window", choice="false"))
     budget.enforce(estimate, knobs, settings.max_request_steps)
-    study = clearance.clearance_study(
+    study = protection_study.clearance_study(
         circuit,
         body.switching.closing_angle_deg if opt.closing == "given" else None,
-        res,
-        delay,
+        event.residual_flux_pu,
+        event.pole_delay_s,
         [convert.device_of(d, n) for n, d in enumerate(body.devices)],
         rating_va=t.rating_kva * 1e3,
         impedance_percent=t.impedance_percent,
@@ -116,7 +117,9 @@ def _instantaneous(ev: coordination.DeviceEvaluation) -> InstantaneousCheckOut |
     )
 
 
-def _response(study: clearance.ClearanceStudy, assumptions: list[Assumption]) -> ClearanceResponse:
+def _response(
+    study: protection_study.ClearanceStudy, assumptions: list[Assumption]
+) -> ClearanceResponse:
     windows = {w.device: w for w in study.windows}
     m = convert.maybe
     devices = []
@@ -278,7 +281,7 @@ def _figure(body: ClearanceRequest, settings: Settings) -> str:
                 )
             )
     i_r = study.rated_current_a
-    pts = ridethrough.INRUSH_POINTS
+    pts = device_operation.INRUSH_POINTS
     dmg = study.damage
     title = (
         f"{t.rating_kva:g} kVA, {v_kv:g} kV "

@@ -6,11 +6,13 @@ import math
 from collections.abc import Mapping
 from typing import Annotated
 
-from fastapi import APIRouter, Body, Depends
+from fastapi import APIRouter, Body
 from fastapi.responses import Response
 
-from core import cost, dip_limits, dip_study, generator
+from core import cost
+from core.supply import dip_limits, dip_study, sources
 from service import budget, compute, convert, figures
+from service.deps import SettingsDep
 from service.examples import DIP_EXAMPLES
 from service.models.common import Assumption, Method
 from service.models.dip import (
@@ -22,14 +24,13 @@ from service.models.dip import (
     VerdictOut,
 )
 from service.problems import PROBLEM_RESPONSES
-from service.settings import Settings, settings_dependency
+from service.settings import Settings
 
 router = APIRouter(
     prefix="/v1/generator-dip",
     tags=["generator-dip"],
     responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
 )
-SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 DIP_METHOD = (
     "three-phase EMF behind the subtransient reactance, its amplitude following the d-axis "
     "flux-decay equations (T''do, T'do) driven by the instantaneous Park d-axis current, with a "
@@ -46,18 +47,16 @@ NO_FREQUENCY = (
 
 def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assumption]]:
     # the supply model replaces the source: the circuit is built on an ideal source
-    circuit, res, _delay, assumptions = convert.study_inputs(
-        body.model_copy(update={"source": None})
-    )
+    circuit, event, assumptions = convert.study_inputs(body.model_copy(update={"source": None}))
     t = body.transformer
     assert t is not None
     v_ll = t.energized_winding.voltage_kv * 1e3
     sup = body.supply
-    source: generator.Source
+    source: sources.Source
     if isinstance(sup, GeneratorIn):
         source = convert.generator_of(sup, v_ll, t.frequency_hz)
     elif sup is not None:
-        source = generator.UtilitySource(sup.fault_mva * 1e6, sup.x_over_r, v_ll, t.frequency_hz)
+        source = sources.UtilitySource(sup.fault_mva * 1e6, sup.x_over_r, v_ll, t.frequency_hz)
     else:
         source = convert.utility_of(body.source, v_ll, t.frequency_hz)
     excitation = convert.excitation_of(body.excitation)
@@ -79,7 +78,7 @@ def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assump
         source,
         circuit,
         body.switching.closing_angle_deg,
-        res,
+        event.residual_flux_pu,
         limits=limits,
         size_for=size_for,
         excitation=excitation,

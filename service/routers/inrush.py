@@ -12,13 +12,15 @@ from collections.abc import Mapping
 from typing import Annotated, Any
 
 import numpy as np
-from fastapi import APIRouter, Body, Depends
+from fastapi import APIRouter, Body
 from fastapi.responses import Response
 from pydantic import BaseModel, ValidationError
 
-from core import cost, inrush
+from core import cost
+from core.energization import inrush_study
 from core.errors import CoreError, LimitError
 from service import budget, compute, convert
+from service.deps import SettingsDep
 from service.examples import (
     ENVELOPE_EXAMPLES,
     PEAK_BATCH_EXAMPLES,
@@ -41,10 +43,9 @@ from service.models.inrush import (
     WorstCase,
 )
 from service.problems import PROBLEM_RESPONSES, batch_problem
-from service.settings import Settings, settings_dependency
+from service.settings import Settings
 
 router = APIRouter(prefix="/v1/inrush", tags=["inrush"], responses=PROBLEM_RESPONSES)
-SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 
 
 def _json(model: BaseModel) -> Response:
@@ -73,24 +74,22 @@ async def peak(
 
 
 def _peak(body: PeakRequest, settings: Settings) -> PeakResponse:
-    circuit, res, delay, assumptions = convert.study_inputs(body)
+    circuit, event, assumptions = convert.study_inputs(body)
     if body.method != "analytic":
-        work = cost.peak_work(circuit, True, float(np.max(delay)))
+        work = cost.peak_work(circuit, True, float(np.max(event.pole_delay_s)))
         budget.enforce(
             lambda _o: work, [budget.Knob("method", choice="analytic")], settings.max_request_steps
         )
-    study = inrush.peak_study(
+    study = inrush_study.peak_study(
         circuit,
-        body.switching.closing_angle_deg,
-        res,
-        delay,
+        event,
         method=body.method,
         max_steps=settings.max_total_steps,
     )
     return _peak_response(study, assumptions)
 
 
-def _peak_response(study: inrush.PeakStudy, assumptions: list[Assumption]) -> PeakResponse:
+def _peak_response(study: inrush_study.PeakStudy, assumptions: list[Assumption]) -> PeakResponse:
     rated = study.rated_current_a
     sim_by_line = {p.line: p.first_peak_a for p in study.simulated or ()}
     analytic = (
@@ -199,7 +198,7 @@ def _envelope(
     body: EnvelopeRequest, settings: Settings, ieq_times_s: tuple[float, ...] | None = None
 ) -> EnvelopeResponse:
     """The envelope response; ``ieq_times_s`` replaces the I_eq table's times (for the sheet)."""
-    circuit, res, delay, assumptions = convert.study_inputs(body)
+    circuit, event, assumptions = convert.study_inputs(body)
     opt = body.options
     convert.check_work(
         settings, circuit.phases, circuit.frequency_hz, opt.duration_s, opt.samples_per_cycle
@@ -208,7 +207,8 @@ def _envelope(
     def estimate(o: Mapping[str, float]) -> cost.Work:
         return cost.envelope_work(
             circuit,
-            budget.replaced(o, "options.duration_s", opt.duration_s) + float(np.max(delay)),
+            budget.replaced(o, "options.duration_s", opt.duration_s)
+            + float(np.max(event.pole_delay_s)),
             int(budget.replaced(o, "options.samples_per_cycle", opt.samples_per_cycle)),
         )
 
@@ -221,11 +221,9 @@ def _envelope(
         settings.max_request_steps,
     )
     points = min(opt.waveform_points, settings.max_waveform_points)
-    study = inrush.envelope_study(
+    study = inrush_study.envelope_study(
         circuit,
-        body.switching.closing_angle_deg,
-        res,
-        delay,
+        event,
         duration_s=opt.duration_s,
         samples_per_cycle=opt.samples_per_cycle,
         below_x_rated=opt.below_x_rated,
@@ -313,18 +311,18 @@ def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse
     for idx, raw in enumerate(body.cases):
         try:
             req = PeakRequest.model_validate(raw)
-            circuit, res, delay, assumptions = convert.study_inputs(req)
+            circuit, event, assumptions = convert.study_inputs(req)
         except ValidationError as exc:
             items[idx] = BatchItem(index=idx, status=422, problem=batch_problem(idx, exc, raw))
             continue
         except CoreError as exc:
             items[idx] = BatchItem(index=idx, status=422, problem=batch_problem(idx, exc))
             continue
-        case = (circuit, req.switching.closing_angle_deg, res, delay)
+        case = (circuit, event)
         valid.setdefault(req.method, []).append((idx, case, assumptions))
     # the work of every valid case, before any of them is simulated
     per_case = sorted(
-        (idx, cost.peak_work(c[0], method != "analytic", float(np.max(c[3]))).steps)
+        (idx, cost.peak_work(c[0], method != "analytic", float(np.max(c[1].pole_delay_s))).steps)
         for method, group in valid.items()
         for idx, c, _ in group
     )
@@ -340,9 +338,9 @@ def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse
         settings.max_request_steps,
     )
     for method, group in valid.items():
-        studies: list[inrush.PeakStudy | None]
+        studies: list[inrush_study.PeakStudy | None]
         try:
-            studies = inrush.peak_studies(  # type: ignore[assignment]
+            studies = inrush_study.peak_studies(  # type: ignore[assignment]
                 [c for _, c, _ in group], method=method, max_steps=settings.max_total_steps
             )
         except CoreError:  # one case breaks the vectorised call: answer each on its own
@@ -351,7 +349,9 @@ def _peak_batch(body: PeakBatchRequest, settings: Settings) -> PeakBatchResponse
                 compute.checkpoint()
                 try:
                     studies.append(
-                        inrush.peak_study(*case, method=method, max_steps=settings.max_total_steps)
+                        inrush_study.peak_study(
+                            *case, method=method, max_steps=settings.max_total_steps
+                        )
                     )
                 except CoreError as exc:
                     items[idx] = BatchItem(index=idx, status=422, problem=batch_problem(idx, exc))

@@ -7,11 +7,13 @@ from collections.abc import Mapping
 from typing import Annotated
 
 import numpy as np
-from fastapi import APIRouter, Body, Depends
+from fastapi import APIRouter, Body
 from fastapi.responses import Response
 
-from core import cost, mitigation, mitigation_options
+from core import cost
+from core.mitigation import mitigation_options, mitigation_study
 from service import budget, compute, convert
+from service.deps import SettingsDep
 from service.examples import MITIGATION_EXAMPLES
 from service.models.common import Assumption, Method
 from service.models.mitigation import (
@@ -33,14 +35,13 @@ from service.models.mitigation import (
     TapIn,
 )
 from service.problems import PROBLEM_RESPONSES
-from service.settings import Settings, settings_dependency
+from service.settings import Settings
 
 router = APIRouter(
     prefix="/v1/mitigation",
     tags=["mitigation"],
     responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
 )
-SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 MITIGATION_METHOD = (
     "each option applied to the same case and simulated as in /v1/inrush/peak: the design-basis "
     "first peak is the worst over the closing angle (uncontrolled closing, 0.025 degree search) "
@@ -86,7 +87,9 @@ def _option(o: OptionIn) -> mitigation_options.Option:
     raise TypeError(type(o).__name__)  # pragma: no cover - the union is exhaustive
 
 
-def _out(r: mitigation.OptionResult, rank: int | None, base: float, limit: str | None) -> OptionOut:
+def _out(
+    r: mitigation_study.OptionResult, rank: int | None, base: float, limit: str | None
+) -> OptionOut:
     m = convert.maybe
     devices = None
     if r.devices is not None:
@@ -136,7 +139,7 @@ def _out(r: mitigation.OptionResult, rank: int | None, base: float, limit: str |
 
 
 def _mitigation(body: MitigationRequest, settings: Settings) -> MitigationResponse:
-    circuit, res, delay, assumptions = convert.study_inputs(body)
+    circuit, event, assumptions = convert.study_inputs(body)
     t = body.transformer
     if t is None:  # pragma: no cover - the request model requires it
         raise ValueError("transformer")
@@ -172,11 +175,11 @@ def _mitigation(body: MitigationRequest, settings: Settings) -> MitigationRespon
         return cost.mitigation_work(
             circuit,
             options=int(r(o, "options", n_opt)),
-            sweep=len(mitigation.RESIDUAL_SWEEP),
+            sweep=len(mitigation_study.RESIDUAL_SWEEP),
             devices=int(r(o, "devices", n_dev)),
             device_duration_s=r(o, "device_options.duration_s", body.device_options.duration_s),
             dip_duration_s=r(o, "dip_duration_s", body.dip_duration_s) if supply else None,
-            pole_delay_max_s=float(np.max(delay)),
+            pole_delay_max_s=float(np.max(event.pole_delay_s)),
         )
 
     knobs = [budget.Knob("options", n_opt, 1, integer=True)]
@@ -191,11 +194,11 @@ def _mitigation(body: MitigationRequest, settings: Settings) -> MitigationRespon
         if body.target_peak_x_rated is not None
         else None
     )
-    study = mitigation.mitigation_study(
+    study = mitigation_study.mitigation_study(
         npl,
         convert.source_of(body.source),
-        res,
-        delay,
+        event.residual_flux_pu,
+        event.pole_delay_s,
         [_option(o) for o in body.options] if body.options is not None else None,
         supply=supply,
         devices=check,

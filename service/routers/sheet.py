@@ -14,16 +14,17 @@ import io
 import math
 from typing import Annotated, Any, Literal
 
-from fastapi import APIRouter, Depends, Query, Request
+from fastapi import APIRouter, Query, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import Response
 from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError
 
 from service import compute
+from service.deps import SettingsDep
 from service.models.inrush import EnvelopeRequest, PeakRequest
 from service.problems import PROBLEM_RESPONSES
 from service.routers.inrush import _envelope, _peak
-from service.settings import Settings, default_limit, settings_dependency
+from service.settings import Settings, default_limit
 from service.version import API_VERSION
 
 router = APIRouter(
@@ -31,7 +32,6 @@ router = APIRouter(
     tags=["spreadsheet"],
     responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
 )
-SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 
 
 def _integer_text(value: Any) -> Any:

@@ -19,27 +19,27 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Annotated, Any, Literal
 
-from fastapi import APIRouter, Depends, Query, Request
+from fastapi import APIRouter, Query, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import Response
 from pydantic import BaseModel, Field, ValidationError
 
 from core.errors import LimitError, ParameterError
 from service import compute
+from service.deps import SettingsDep
 from service.models.clearance import ClearanceRequest, RelayCurve
 from service.models.dip import GeneratorDipRequest
 from service.problems import PROBLEM_RESPONSES
 from service.routers import clearance as clearance_router
 from service.routers import dip as dip_router
 from service.routers.sheet import SheetCase, _cached, _number
-from service.settings import Settings, default_limit, settings_dependency
+from service.settings import Settings, default_limit
 
 router = APIRouter(
     prefix="/v1/sheet",
     tags=["spreadsheet"],
     responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
 )
-SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 
 _NUMBER = r"[0-9]{1,7}(\.[0-9]{1,6})?"
 _POINTS = rf"^{_NUMBER}:{_NUMBER}(,{_NUMBER}:{_NUMBER}){{1,15}}$"

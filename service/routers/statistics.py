@@ -1,8 +1,9 @@
 """``/v1/inrush/statistics``: the first peak as a statistic, and how often devices or the dip fail.
 
-Monte Carlo over the closing instant, pole scatter and residual flux (:mod:`core.statistics`);
-devices and a generator's dip judged on the first events of the sample (:mod:`core.event_checks`).
-The simulations run in the thread pool, never on the event loop.
+Monte Carlo over the closing instant, pole scatter and residual flux
+(:mod:`core.statistics.monte_carlo`); devices and a generator's dip judged on the first events of
+the sample (:mod:`core.statistics.event_outcomes`). The simulations run in the thread pool, never on
+the event loop.
 """
 
 from __future__ import annotations
@@ -11,14 +12,18 @@ from collections.abc import Mapping
 from typing import Annotated
 
 import numpy as np
-from fastapi import APIRouter, Body, Depends
+from fastapi import APIRouter, Body
 from fastapi.responses import Response
 
-from core import cost, event_checks, generator, statistics, transformer
+from core import cost
 from core.errors import LimitError
-from core.generator import Generator
-from core.transformer import EquivalentCircuit
+from core.statistics import event_outcomes, monte_carlo
+from core.supply import sources
+from core.supply.sources import Generator
+from core.transformer import circuit_model
+from core.transformer.circuit_model import EquivalentCircuit
 from service import budget, compute, convert
+from service.deps import SettingsDep
 from service.examples import STATISTICS_EXAMPLES
 from service.models.common import Assumption, Method
 from service.models.statistics import (
@@ -32,10 +37,9 @@ from service.models.statistics import (
     StatisticsResponse,
 )
 from service.problems import PROBLEM_RESPONSES
-from service.settings import Settings, settings_dependency
+from service.settings import Settings
 
 router = APIRouter(prefix="/v1/inrush", tags=["inrush"], responses=PROBLEM_RESPONSES)
-SettingsDep = Annotated[Settings, Depends(settings_dependency)]
 
 
 STATISTICS_METHOD = (
@@ -57,7 +61,7 @@ def _supplied(
         return circuit, None
     npl = convert.nameplate_of(body.transformer)
     gen = convert.generator_of(body.supply, npl.line_voltage_v, npl.frequency_hz)
-    fed = transformer.equivalent_circuit(npl, generator.subtransient_source(gen))
+    fed = circuit_model.equivalent_circuit(npl, sources.subtransient_source(gen))
     swap = {"source", "source_resistance_ohm", "source_inductance_h"}
     note = "the generator's X''d and R_a as a fixed impedance (generator.subtransient_source)"
     assumptions[:] = [a for a in assumptions if a.name not in swap] + [
@@ -73,7 +77,7 @@ def _odds(
     ideal: EquivalentCircuit,
     circuit: EquivalentCircuit,
     gen: Generator | None,
-    dist: statistics.PeakDistribution,
+    dist: monte_carlo.PeakDistribution,
     settings: Settings,
     assumptions: list[Assumption],
 ) -> tuple[list[DeviceOddsOut] | None, DipOddsOut | None, list[str]]:
@@ -92,7 +96,7 @@ def _odds(
     )
     devices = None
     if body.devices is not None:
-        odds = event_checks.device_operation_odds(
+        odds = event_outcomes.device_operation_odds(
             circuit,
             dist,
             [convert.device_of(d, n) for n, d in enumerate(body.devices)],
@@ -118,7 +122,7 @@ def _odds(
     if gen is not None:
         lim = convert.dip_limit_of(body.dip_limit)
         name, limit = lim.name, float(lim.max_dip_percent or 100.0)
-        d = event_checks.dip_exceedance_odds(
+        d = event_outcomes.dip_exceedance_odds(
             gen,
             ideal,
             dist,
@@ -162,7 +166,7 @@ def check_limits(
             settings.max_event_checks,
             knobs=(("options.check_events", f"<= {settings.max_event_checks // judged_by}"),),
         )
-    scatter = statistics.pole_scatter_sigma_ms(circuit.phases, opt.pole_scatter_ms)
+    scatter = monte_carlo.pole_scatter_sigma_ms(circuit.phases, opt.pole_scatter_ms)
 
     def estimate(o: Mapping[str, float]) -> cost.Work:
         r = budget.replaced
@@ -196,17 +200,17 @@ def check_limits(
 
 
 def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsResponse:
-    ideal, res, _delay, assumptions = convert.study_inputs(body)
+    ideal, event, assumptions = convert.study_inputs(body)
     circuit, gen = _supplied(body, ideal, assumptions)
     opt = body.options
     check_limits(body, circuit, gen, settings)
-    spec: statistics.ResidualSpec
+    spec: monte_carlo.ResidualSpec
     if isinstance(opt.residual, FixedResidualIn):
-        spec = statistics.FixedResidual(tuple(float(x) for x in res))
+        spec = monte_carlo.FixedResidual(tuple(float(x) for x in event.residual_flux_pu))
     else:
         r = opt.residual
-        spec = statistics.UniformResidual(r.low_pu, r.high_pu, r.random_sign, r.zero_sum)
-    dist = statistics.peak_distribution(
+        spec = monte_carlo.UniformResidual(r.low_pu, r.high_pu, r.random_sign, r.zero_sum)
+    dist = monte_carlo.peak_distribution(
         circuit,
         samples=opt.samples,
         random_state=opt.random_state,
@@ -218,7 +222,7 @@ def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsRespon
     rated = circuit.rated_line_current_a
     m = convert.maybe
 
-    def pct(name: str, p: statistics.Percentiles) -> PercentilesOut:
+    def pct(name: str, p: monte_carlo.Percentiles) -> PercentilesOut:
         lo, hi = p.p99_interval_a
         return PercentilesOut(
             line=name,
@@ -233,7 +237,7 @@ def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsRespon
 
     exceed = None
     if opt.threshold_a is not None:
-        ex = statistics.exceedance_probability(dist.peaks_a.max(axis=1), opt.threshold_a)
+        ex = monte_carlo.exceedance_probability(dist.peaks_a.max(axis=1), opt.threshold_a)
         exceed = ExceedanceOut(
             threshold_a=opt.threshold_a,
             probability=ex.probability,

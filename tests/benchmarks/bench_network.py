@@ -21,7 +21,8 @@ from collections.abc import Callable
 
 import numpy as np
 
-from core import energize, transformer
+from core import transformer
+from core.energization import energize
 from core.network import BusLoad, Source, Unit, simulate_network
 
 F = 50.0

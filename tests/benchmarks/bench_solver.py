@@ -21,21 +21,22 @@ import time
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from core import energize, transformer, waveform
+from core.energization import energize, waveform
+from core.transformer import circuit_model
 
 
-def _circuit() -> transformer.EquivalentCircuit:
+def _circuit() -> circuit_model.EquivalentCircuit:
     # one low-voltage winding of the demo 2500 kVA unit, single phase, ideal source: scipy's
     # LSODA (1.17) was seen to stall at the knee when a source inductance makes the right-hand
     # side jump there, so the baseline uses L_s = 0 where it runs cleanly
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         rating_va=2.5e6 / 3, phases=1, frequency_hz=60.0, line_voltage_v=277.0,
         position="inner", impedance_percent=5.75, x_over_r=7.0, no_load_current_percent=0.8,
     )  # fmt: skip
-    return transformer.equivalent_circuit(npl)
+    return circuit_model.equivalent_circuit(npl)
 
 
-def _lsoda_peaks(c: transformer.EquivalentCircuit, alpha_deg: float, res: float) -> np.ndarray:
+def _lsoda_peaks(c: circuit_model.EquivalentCircuit, alpha_deg: float, res: float) -> np.ndarray:
     cv = c.curve
     assert isinstance(cv, __import__("core").magnetizing.PiecewiseLinearCurve)
     lm = cv.unsaturated_inductance_h
@@ -65,7 +66,7 @@ def _lsoda_peaks(c: transformer.EquivalentCircuit, alpha_deg: float, res: float)
     return np.abs(cur[:-1]).reshape(10, spc).max(axis=1)
 
 
-def _lsoda_time(c: transformer.EquivalentCircuit, alpha_deg: float, res: float) -> float:
+def _lsoda_time(c: circuit_model.EquivalentCircuit, alpha_deg: float, res: float) -> float:
     cv = c.curve
     lm = cv.unsaturated_inductance_h
     ls_ = float(cv.flux_wb[1])  # type: ignore[union-attr]
@@ -93,17 +94,17 @@ def _lsoda_time(c: transformer.EquivalentCircuit, alpha_deg: float, res: float) 
     return time.perf_counter() - t0
 
 
-def _backfeed() -> transformer.EquivalentCircuit:
+def _backfeed() -> circuit_model.EquivalentCircuit:
     # the demo 2500 kVA unit energised from its 480 V grounded-wye (inner) winding by the
     # 1250 kVA standby generator, X''d 0.15 pu: 0.00138 + j0.02765 ohm (service/examples.py,
     # BACKFEED_UNIT and GENERATOR_SUBTRANSIENT)
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         rating_va=2.5e6, phases=3, frequency_hz=60.0, line_voltage_v=480.0,
         connection="wye_grounded", position="inner", impedance_percent=5.75, x_over_r=7.0,
         no_load_current_percent=0.8,
     )  # fmt: skip
-    source = transformer.Source("impedance", resistance_ohm=0.00138, reactance_ohm=0.02765)
-    return transformer.equivalent_circuit(npl, source)
+    source = circuit_model.Source("impedance", resistance_ohm=0.00138, reactance_ohm=0.02765)
+    return circuit_model.equivalent_circuit(npl, source)
 
 
 def _resistor_scan() -> tuple[float, float, int, int]:

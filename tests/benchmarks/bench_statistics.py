@@ -17,32 +17,34 @@ import time
 import numpy as np
 from fastapi.testclient import TestClient
 
-from core import energize, statistics, transformer
+from core.energization import energize
+from core.statistics import monte_carlo
+from core.transformer import circuit_model
 from service.app import create_app
 from service.examples import STATISTICS_REQUESTS
 from service.settings import get_settings
 
 CASES = {
     "back-feed, 480 V grounded wye, X''d source": (
-        transformer.Nameplate(
+        circuit_model.Nameplate(
             rating_va=2.5e6, phases=3, frequency_hz=60.0, line_voltage_v=480.0,
             connection="wye_grounded", position="inner", impedance_percent=5.75, x_over_r=7.0,
             no_load_current_percent=0.8,
         ),
-        transformer.Source("impedance", resistance_ohm=0.00138, reactance_ohm=0.02765),
+        circuit_model.Source("impedance", resistance_ohm=0.00138, reactance_ohm=0.02765),
     ),
     "main unit, 13.8 kV delta, 250 MVA source": (
-        transformer.Nameplate(
+        circuit_model.Nameplate(
             rating_va=2.5e6, phases=3, frequency_hz=60.0, line_voltage_v=13.8e3,
             connection="delta", position="outer", impedance_percent=5.75, x_over_r=7.0,
             no_load_current_percent=0.8,
         ),
-        transformer.Source("fault_level", 250e6, 12.0),
+        circuit_model.Source("fault_level", 250e6, 12.0),
     ),
 }  # fmt: skip
 
 
-def _loop(c: transformer.EquivalentCircuit, dist: statistics.PeakDistribution, n: int) -> float:
+def _loop(c: circuit_model.EquivalentCircuit, dist: monte_carlo.PeakDistribution, n: int) -> float:
     """Seconds per sample of the same events simulated one call each (the single-case path)."""
     duration = 2.0 / c.frequency_hz + float(dist.pole_delay_s.max())
     t0 = time.perf_counter()
@@ -63,10 +65,10 @@ def main() -> None:
     limit = get_settings().max_total_steps
     print(f"service compute limit: {limit:,} integration steps per solver call")
     for name, (npl, src) in CASES.items():
-        c = transformer.equivalent_circuit(npl, src)
-        statistics.peak_distribution(c, samples=300, random_state=0, max_steps=limit)  # compile
+        c = circuit_model.equivalent_circuit(npl, src)
+        monte_carlo.peak_distribution(c, samples=300, random_state=0, max_steps=limit)  # compile
         t0 = time.perf_counter()
-        dist = statistics.peak_distribution(
+        dist = monte_carlo.peak_distribution(
             c, samples=args.samples, random_state=1, max_steps=limit
         )
         vec = (time.perf_counter() - t0) / args.samples

@@ -10,10 +10,10 @@ from typing import Any
 import numpy as np
 import pytest
 
-from core import transformer
+from core.transformer import circuit_model
 
 # 2.5 MVA, 480 V, 60 Hz distribution unit (typical nameplate values, common practice)
-THREE_PHASE = transformer.Nameplate(
+THREE_PHASE = circuit_model.Nameplate(
     rating_va=2.5e6,
     phases=3,
     frequency_hz=60,
@@ -25,7 +25,7 @@ THREE_PHASE = transformer.Nameplate(
     no_load_current_percent=0.8,
 )
 # one phase of the same unit
-SINGLE_PHASE = transformer.Nameplate(
+SINGLE_PHASE = circuit_model.Nameplate(
     rating_va=2.5e6 / 3,
     phases=1,
     frequency_hz=60,
@@ -38,13 +38,13 @@ SINGLE_PHASE = transformer.Nameplate(
 
 
 @pytest.fixture(scope="module")
-def three_phase() -> transformer.EquivalentCircuit:
-    return transformer.equivalent_circuit(THREE_PHASE)
+def three_phase() -> circuit_model.EquivalentCircuit:
+    return circuit_model.equivalent_circuit(THREE_PHASE)
 
 
 @pytest.fixture(scope="module")
-def single_phase() -> transformer.EquivalentCircuit:
-    return transformer.equivalent_circuit(SINGLE_PHASE)
+def single_phase() -> circuit_model.EquivalentCircuit:
+    return circuit_model.equivalent_circuit(SINGLE_PHASE)
 
 
 def _identical(a: Any, b: Any, path: str = "") -> None:

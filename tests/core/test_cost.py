@@ -1,20 +1,21 @@
 """Tests of core.cost: each work estimate against the steps the solvers actually take.
 
 Reference: the solvers themselves, instrumented, never core.cost. Every call of
-:func:`core.energize.simulate` is counted from what it returns: cases x windings (the shape of
-``winding_current_a``) x steps, the steps read off the returned record, (samples - 1) x
+:func:`core.energization.energize.simulate` is counted from what it returns: cases x windings (the
+shape of ``winding_current_a``) x steps, the steps read off the returned record, (samples - 1) x
 (steps per cycle / samples per cycle), the internal steps between two output samples, plus the
 sub-steps a pre-insertion resistor adds until its returned bypass instant. Every
-call of :func:`core.dip_solver.run` is counted as cases x cycles (the shape of its per-cycle
-arrays) x its ``steps_per_cycle``. Every device judgement (:func:`core.coordination.evaluate`'s
-and the time-dial window's) is counted as the lines x samples of the record it judges (the
-waveform handed to :func:`core.ridethrough.inrush_from_waveform`). The estimate has to agree
-with these counts: exactly where it reads the same step plan the solver runs, and within the
-stated allowance where it deliberately bounds a random or searched quantity.
+call of :func:`core.supply.dip_cases.run` is counted as cases x cycles (the shape of its per-cycle
+arrays) x its ``steps_per_cycle``. Every device judgement
+(:func:`core.protection.coordination.evaluate`'s and the time-dial window's) is counted as the lines
+x samples of the record it judges (the waveform handed to
+:func:`core.protection.device_operation.inrush_from_waveform`). The estimate has to agree with these
+counts: exactly where it reads the same step plan the solver runs, and within the stated allowance
+where it deliberately bounds a random or searched quantity.
 
 Circuits: the 2.5 MVA, 480 V distribution unit of tests/core/conftest.py (typical nameplate
 values, common practice) in each connection, on an ideal source or a source impedance, and the
-"Northgate" 1250 kVA standby generator of tests/core/test_generator.py (X''_d, X'_d of the
+"Northgate" 1250 kVA standby generator of tests/core/supply/test_sources.py (X''_d, X'_d of the
 invented demo scenario in service/examples.py; X_d, T''_d, T'_d invented demo values).
 """
 
@@ -29,45 +30,32 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core import (
-    clearance,
-    coordination,
-    cost,
-    dip_limits,
-    dip_solver,
-    dip_study,
-    energize,
-    energize_plan,
-    event_checks,
-    fuse_breaker_curves,
-    generator,
-    inrush,
-    mitigation,
-    mitigation_options,
-    peaks,
-    ridethrough,
-    statistics,
-    transformer,
-)
+from core import cost
+from core.energization import energize, energize_plan, inrush_study, peaks, switching_event
+from core.mitigation import mitigation_options, mitigation_study
+from core.protection import coordination, device_operation, fuse_breaker_curves, protection_study
+from core.statistics import event_outcomes, monte_carlo
+from core.supply import dip_cases, dip_limits, dip_study, sources
+from core.transformer import circuit_model
 
 F_HZ = 60.0
 # the 2.5 MVA, 480 V distribution unit (typical nameplate values, common practice)
-UNIT = transformer.Nameplate(
+UNIT = circuit_model.Nameplate(
     rating_va=2.5e6, phases=3, frequency_hz=F_HZ, line_voltage_v=480.0, position="inner",
     impedance_percent=5.75, x_over_r=7.0, no_load_current_percent=0.8,
 )  # fmt: skip
 RESIDUAL = (0.8, -0.4, -0.4)
 # source impedance of a 25 MVA fault level at X/R 15 (typical of a utility supply at this
 # voltage, common practice): makes delta and floating-wye windings couple through it
-WEAK = transformer.Source("fault_level", fault_va=25e6, x_over_r=15.0)
-NORTHGATE = generator.Generator(1.25e6, 480.0, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
+WEAK = circuit_model.Source("fault_level", fault_va=25e6, x_over_r=15.0)
+NORTHGATE = sources.Generator(1.25e6, 480.0, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
 # invented demo devices for the 480 V unit (rated current 3007 A): a very inverse relay, a
 # deliberately sensitive extremely inverse one (its lowest time dial trips on the inrush, so
 # its time-dial window is searched by bisection) and a low-voltage breaker with an
 # instantaneous element
-RELAY = ridethrough.Relay("51", "ieee_c37_112", "very_inverse", 4000.0, 2.0, 40000.0)
-SENSITIVE = ridethrough.Relay("51S", "ieee_c37_112", "extremely_inverse", 1000.0, 2.0)
-BREAKER = ridethrough.Breaker(
+RELAY = device_operation.Relay("51", "ieee_c37_112", "very_inverse", 4000.0, 2.0, 40000.0)
+SENSITIVE = device_operation.Relay("51S", "ieee_c37_112", "extremely_inverse", 1000.0, 2.0)
+BREAKER = device_operation.Breaker(
     "main", fuse_breaker_curves.LowVoltageBreaker(4000.0, 10.0, instantaneous_pickup=40000.0)
 )
 
@@ -106,10 +94,10 @@ def _kernel_steps(sim: energize.Simulation) -> int:
 @pytest.fixture
 def tally(monkeypatch: pytest.MonkeyPatch) -> Tally:
     t = Tally()
-    simulate, run = energize.simulate, dip_solver.run
-    from_waveform = ridethrough.inrush_from_waveform
+    simulate, run = energize.simulate, dip_cases.run
+    from_waveform = device_operation.inrush_from_waveform
     judge, judge_relay = (
-        vars(coordination)["_ride_through"],
+        vars(coordination)["ride_through"],
         vars(coordination)["relay_ride_through"],
     )
     record: dict[int, int] = {}  # id of an InrushCurves -> line-samples of its waveform
@@ -120,7 +108,7 @@ def tally(monkeypatch: pytest.MonkeyPatch) -> Tally:
         t.steps_per_cycle.add(out.steps_per_cycle)
         return out
 
-    def counted_run(*a: Any, **k: Any) -> dip_solver.Raw:
+    def counted_run(*a: Any, **k: Any) -> dip_cases.Raw:
         raw = run(*a, **k)
         cases, _, cycles = raw.v_rms_pu.shape
         assert np.all(raw.insertion_substeps == 1)
@@ -143,16 +131,16 @@ def tally(monkeypatch: pytest.MonkeyPatch) -> Tally:
         return judge_relay(relay, inrush_seen)
 
     monkeypatch.setattr(energize, "simulate", counted_simulate)
-    monkeypatch.setattr(dip_solver, "run", counted_run)
-    monkeypatch.setattr(ridethrough, "inrush_from_waveform", counted_waveform)
-    monkeypatch.setattr(coordination, "_ride_through", counted_judge)
+    monkeypatch.setattr(dip_cases, "run", counted_run)
+    monkeypatch.setattr(device_operation, "inrush_from_waveform", counted_waveform)
+    monkeypatch.setattr(coordination, "ride_through", counted_judge)
     monkeypatch.setattr(coordination, "relay_ride_through", counted_window)
     return t
 
 
 def _circuit(
-    connection: str, phases: int = 3, source: transformer.Source | None = None
-) -> transformer.EquivalentCircuit:
+    connection: str, phases: int = 3, source: circuit_model.Source | None = None
+) -> circuit_model.EquivalentCircuit:
     plate = UNIT
     if phases == 1:
         plate = dataclasses.replace(
@@ -160,14 +148,16 @@ def _circuit(
             line_voltage_v=plate.line_voltage_v / math.sqrt(3),
         )  # fmt: skip
     plate = dataclasses.replace(plate, connection=connection)
-    return transformer.equivalent_circuit(plate, source)
+    return circuit_model.equivalent_circuit(plate, source)
 
 
 def _part(work: cost.Work, name: str) -> float:
     return dict(work.parts)[name]
 
 
-def _monte_carlo(circuit: transformer.EquivalentCircuit, samples: int, scatter_ms: float) -> float:
+def _monte_carlo(
+    circuit: circuit_model.EquivalentCircuit, samples: int, scatter_ms: float
+) -> float:
     """The estimate of a statistics request without event checks."""
     return cost.statistics_work(
         circuit, samples=samples, pole_scatter_ms=scatter_ms, events=0, devices=0,
@@ -193,14 +183,15 @@ def test_peak_estimate_is_the_solver_steps(
     tally: Tally,
     connection: str,
     phases: int,
-    source: transformer.Source | None,
+    source: circuit_model.Source | None,
     pole_delay_s: float,
 ) -> None:
     # exact: the estimate reads the step plan the solver runs (the event, the 187 trial angles
     # of the search's three stages and the call at the angle found)
     circuit = _circuit(connection, phases, source)
     delay = np.array([0.0, pole_delay_s, 0.5 * pole_delay_s][:phases])
-    inrush.peak_study(circuit, 30.0, RESIDUAL[:phases], delay, method="simulated")
+    event = switching_event.switching_event(circuit, 30.0, RESIDUAL[:phases], delay)
+    inrush_study.peak_study(circuit, event, method="simulated")
     # ... and the exact reading of the event's and the worst angle's first peaks, stage by stage
     stages = len(peaks.refinement_stages(128))
     assert len(tally.sims) == 1 + len(energize_plan.search_offsets()) + 1 + 2 * stages
@@ -215,9 +206,11 @@ def test_peak_estimate_follows_a_step_raised_by_a_resistive_source(tally: Tally)
     # a source resistance of 40 mohm makes the saturated loop's time constant about 0.4 ms, so
     # the solver takes more than its floor of 128 steps per cycle (four steps per time
     # constant); the estimate must follow
-    resistive = transformer.Source("impedance", resistance_ohm=0.04, reactance_ohm=0.001)
+    resistive = circuit_model.Source("impedance", resistance_ohm=0.04, reactance_ohm=0.001)
     circuit = _circuit("wye_grounded", 1, resistive)
-    inrush.peak_study(circuit, 0.0, 0.8, method="simulated")
+    inrush_study.peak_study(
+        circuit, switching_event.switching_event(circuit, 0.0, 0.8), method="simulated"
+    )
     assert min(tally.steps_per_cycle) > 128
     assert _part(cost.peak_work(circuit, True, 0.0), "first peak and worst closing angle") == sum(
         tally.sims
@@ -230,13 +223,16 @@ def test_envelope_estimate_is_the_solver_steps_and_samples(
     tally: Tally,
     connection: str,
     phases: int,
-    source: transformer.Source | None,
+    source: circuit_model.Source | None,
     samples_per_cycle: int,
 ) -> None:
     # exact: one simulation; the analysis reads every line-sample of the record once
     circuit = _circuit(connection, phases, source)
-    study = inrush.envelope_study(
-        circuit, 0.0, RESIDUAL[:phases], duration_s=0.25, samples_per_cycle=samples_per_cycle
+    study = inrush_study.envelope_study(
+        circuit,
+        switching_event.switching_event(circuit, 0.0, RESIDUAL[:phases]),
+        duration_s=0.25,
+        samples_per_cycle=samples_per_cycle,
     )
     work = cost.envelope_work(circuit, 0.25, samples_per_cycle)
     # the record, then the exact reading of every cycle's peak on every line, stage by stage
@@ -252,7 +248,7 @@ def test_envelope_estimate_is_the_solver_steps_and_samples(
 def test_statistics_single_phase_estimate_is_the_solver_steps(tally: Tally) -> None:
     # exact: one winding has no pole scatter, so every record is the two-cycle window
     circuit = _circuit("wye_grounded", 1)
-    statistics.peak_distribution(circuit, samples=3000, random_state=3, batch=1000)
+    monte_carlo.peak_distribution(circuit, samples=3000, random_state=3, batch=1000)
     assert len(tally.sims) == 3
     assert _monte_carlo(circuit, 3000, 0.0) == sum(tally.sims)
 
@@ -268,7 +264,7 @@ def test_statistics_three_phase_estimate_bounds_the_scattered_records(
     # cycles, plus one sample of rounding per case
     circuit = _circuit("wye_grounded")
     n = 2000
-    dist = statistics.peak_distribution(circuit, samples=n, pole_scatter_ms=scatter_ms,
+    dist = monte_carlo.peak_distribution(circuit, samples=n, pole_scatter_ms=scatter_ms,
                                         random_state=11)  # fmt: skip
     estimate = _monte_carlo(circuit, n, scatter_ms)
     taken = sum(tally.sims)
@@ -284,21 +280,21 @@ def test_statistics_estimate_with_event_checks_counts_each_part(tally: Tally) ->
     # the Monte Carlo, the events simulated again for the devices, each device judged on each
     # event's record, and each event's dip with the machine: each part at least what the
     # solvers did, the scattered records within the 10-sigma allowance as above, the dip exact
-    src = transformer.Source("impedance", resistance_ohm=0.00138, reactance_ohm=0.02765)
+    src = circuit_model.Source("impedance", resistance_ohm=0.00138, reactance_ohm=0.02765)
     fed = _circuit("wye_grounded", 3, src)  # the unit on the machine's X''_d
     ideal = _circuit("wye_grounded")
     n, events, span, dip_span, scatter = 400, 30, 0.3, 0.2, 1.0
-    dist = statistics.peak_distribution(fed, samples=n, pole_scatter_ms=scatter, random_state=5)
+    dist = monte_carlo.peak_distribution(fed, samples=n, pole_scatter_ms=scatter, random_state=5)
     mc = sum(tally.sims)
     tally.clear()
-    event_checks.device_operation_odds(fed, dist, [RELAY, BREAKER], events=events,
+    event_outcomes.device_operation_odds(fed, dist, [RELAY, BREAKER], events=events,
                                        duration_s=span, batch=10)  # fmt: skip
     simulated, judged = sum(tally.sims), sum(tally.judged)
     assert len(tally.judged) == 2 * events
     tally.clear()
-    event_checks.dip_exceedance_odds(NORTHGATE, ideal, dist, 20.0, events=events,
+    event_outcomes.dip_exceedance_odds(NORTHGATE, ideal, dist, 20.0, events=events,
                                      duration_s=dip_span)  # fmt: skip
-    assert tally.dip_steps_per_cycle == {dip_solver.MIN_STEPS_PER_CYCLE}
+    assert tally.dip_steps_per_cycle == {dip_cases.MIN_STEPS_PER_CYCLE}
     work = cost.statistics_work(
         fed, samples=n, pole_scatter_ms=scatter, events=events, devices=2,
         device_duration_s=span, dip_duration_s=dip_span,
@@ -323,7 +319,7 @@ def test_dip_estimate_is_the_solver_steps(tally: Tally, duration_s: float) -> No
     # exact: whole cycles of the event at the solver's 128 steps per cycle (these circuits do
     # not raise it) and the one-cycle run on an ideal source
     dip_study.dip_study(NORTHGATE, _circuit("wye_grounded"), 0.0, RESIDUAL, duration_s=duration_s)
-    assert tally.dip_steps_per_cycle == {dip_solver.MIN_STEPS_PER_CYCLE}
+    assert tally.dip_steps_per_cycle == {dip_cases.MIN_STEPS_PER_CYCLE}
     assert len(tally.dips) == 2
     work = cost.dip_study_work(F_HZ, duration_s, sizing=False, recovery_limit_s=None)
     steps = (work.steps - cost.DIP_RUN_WEIGHT) / cost.DIP_STEP_WEIGHT
@@ -356,8 +352,8 @@ def test_clearance_estimate_counts_the_search_record_and_judging(
     # judged again at each trial time dial, on the one-cycle rms already computed (cheaper than
     # a first judgement: the estimate charges WINDOW_JUDGEMENTS more per device, measured)
     circuit = _circuit("wye_grounded")
-    devices: list[ridethrough.Device] = [RELAY, SENSITIVE, BREAKER]
-    clearance.clearance_study(
+    devices: list[device_operation.Device] = [RELAY, SENSITIVE, BREAKER]
+    protection_study.clearance_study(
         circuit, closing, RESIDUAL, 0.0, devices, rating_va=2.5e6, impedance_percent=5.75,
         duration_s=1.0, windows=windows,
     )  # fmt: skip
@@ -392,13 +388,15 @@ def test_mitigation_estimate_bounds_the_solver_steps(tally: Tally, target: float
     circuit = _circuit("wye_grounded")
     target_a = None
     if target is not None:
-        base = mitigation.mitigation_study(UNIT, None, RESIDUAL, options=[], residual_sweep=())
+        base = mitigation_study.mitigation_study(
+            UNIT, None, RESIDUAL, options=[], residual_sweep=()
+        )
         target_a = target * base.baseline.peak_a
         tally.clear()
-    mitigation.mitigation_study(UNIT, None, RESIDUAL, target_peak_a=target_a)
+    mitigation_study.mitigation_study(UNIT, None, RESIDUAL, target_peak_a=target_a)
     work = cost.mitigation_work(
         circuit, options=len(mitigation_options.default_options()),
-        sweep=len(mitigation.RESIDUAL_SWEEP), devices=0, device_duration_s=0.1,
+        sweep=len(mitigation_study.RESIDUAL_SWEEP), devices=0, device_duration_s=0.1,
         dip_duration_s=None,
     )  # fmt: skip
     taken = sum(tally.sims)
@@ -408,7 +406,7 @@ def test_mitigation_estimate_bounds_the_solver_steps(tally: Tally, target: float
 # ------------------------------------------------------------------ properties
 
 
-def _unit() -> transformer.EquivalentCircuit:
+def _unit() -> circuit_model.EquivalentCircuit:
     return _circuit("wye_grounded")
 
 

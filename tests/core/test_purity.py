@@ -10,12 +10,21 @@ import pytest
 
 CORE = Path(__file__).resolve().parents[2] / "core"
 FORBIDDEN = {"fastapi", "pydantic", "pydantic_settings", "starlette", "service", "logging"}
-MODULES = sorted(CORE.glob("*.py"))
+MODULES = sorted(CORE.rglob("*.py"))
+
+
+def _rel(path: Path) -> str:
+    return path.relative_to(CORE).as_posix()
 
 
 def test_core_modules_are_found() -> None:
-    names = {p.name for p in MODULES}
-    assert {"energize.py", "magnetizing.py", "transformer.py", "waveform.py"} <= names
+    names = {_rel(p) for p in MODULES}
+    assert {
+        "energization/energize.py",
+        "transformer/magnetizing.py",
+        "transformer/circuit_model.py",
+        "energization/waveform.py",
+    } <= names
 
 
 def _imported_roots(tree: ast.AST) -> set[str]:
@@ -29,7 +38,7 @@ def _imported_roots(tree: ast.AST) -> set[str]:
     return roots
 
 
-@pytest.mark.parametrize("path", MODULES, ids=lambda p: p.name)
+@pytest.mark.parametrize("path", MODULES, ids=_rel)
 def test_core_module_imports_nothing_forbidden(path: Path) -> None:
     tree = ast.parse(path.read_text(encoding="utf-8"), filename=str(path))
     bad = _imported_roots(tree) & FORBIDDEN
@@ -42,7 +51,7 @@ def test_core_module_imports_nothing_forbidden(path: Path) -> None:
                 pytest.fail(f"{path.name}:{node.lineno} imports dynamically")
 
 
-@pytest.mark.parametrize("path", MODULES, ids=lambda p: p.name)
+@pytest.mark.parametrize("path", MODULES, ids=_rel)
 def test_core_module_does_not_print(path: Path) -> None:
     tree = ast.parse(path.read_text(encoding="utf-8"), filename=str(path))
     for node in ast.walk(tree):
@@ -54,7 +63,7 @@ def test_core_module_does_not_print(path: Path) -> None:
                 pytest.fail(f"{path.name}:{node.lineno} calls .print")
 
 
-@pytest.mark.parametrize("path", MODULES, ids=lambda p: p.name)
+@pytest.mark.parametrize("path", MODULES, ids=_rel)
 def test_core_module_validates_without_assert(path: Path) -> None:
     tree = ast.parse(path.read_text(encoding="utf-8"), filename=str(path))
     asserts = [n.lineno for n in ast.walk(tree) if isinstance(n, ast.Assert)]

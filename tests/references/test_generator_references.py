@@ -1,4 +1,4 @@
-"""The coupled generator-transformer solver (core.dip) against scipy's Radau integrator.
+"""The coupled generator-transformer solver (core.supply.dip) against scipy's Radau integrator.
 
 The reference is an independent computation: the right-hand side is written here from the
 circuit and machine equations in a different set of states (winding flux lambda and load current
@@ -46,7 +46,8 @@ import pytest
 from numpy.typing import NDArray
 from scipy.integrate import solve_ivp
 
-from core import dip, generator, magnetizing, transformer
+from core.supply import dip, sources
+from core.transformer import circuit_model, magnetizing
 
 Array = NDArray[np.float64]
 
@@ -63,10 +64,10 @@ SHIFT = -2.0 * math.pi * np.arange(3) / 3.0
 
 
 @pytest.fixture(scope="module")
-def northgate_case() -> tuple[generator.Generator, transformer.EquivalentCircuit]:
-    gen = generator.Generator(1.25e6, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
-    circ = transformer.equivalent_circuit(
-        transformer.Nameplate(
+def northgate_case() -> tuple[sources.Generator, circuit_model.EquivalentCircuit]:
+    gen = sources.Generator(1.25e6, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
+    circ = circuit_model.equivalent_circuit(
+        circuit_model.Nameplate(
             rating_va=2.5e6,
             phases=3,
             frequency_hz=60,
@@ -111,14 +112,14 @@ class _Machine(NamedTuple):
     v_ref: float
 
 
-def _excitation(gen: generator.Generator) -> generator.Excitation:
+def _excitation(gen: sources.Generator) -> sources.Excitation:
     # a given regulator with a high gain (K_A 50, T_A 0.5 s, T_R 0.02 s, the default's
     # ceiling), so that the field reaches its ceiling within the simulated cycles and the
     # comparison covers the clamp
-    return dataclasses.replace(generator.unknown_excitation(gen), gain_pu=50.0, provenance={})
+    return dataclasses.replace(sources.unknown_excitation(gen), gain_pu=50.0, provenance={})
 
 
-def _machine(gen: generator.Generator, circ: transformer.EquivalentCircuit) -> _Machine:
+def _machine(gen: sources.Generator, circ: circuit_model.EquivalentCircuit) -> _Machine:
     curve = circ.curve
     assert isinstance(curve, magnetizing.PiecewiseLinearCurve)
     lam_s = float(curve.flux_wb[1])
@@ -179,7 +180,7 @@ def _machine(gen: generator.Generator, circ: transformer.EquivalentCircuit) -> _
 
 
 def _reference(
-    gen: generator.Generator, circ: transformer.EquivalentCircuit
+    gen: sources.Generator, circ: circuit_model.EquivalentCircuit
 ) -> tuple[Array, Array, Array]:
     m = _machine(gen, circ)
 
@@ -249,13 +250,13 @@ def _reference(
 
 @pytest.fixture(scope="module")
 def reference(
-    northgate_case: tuple[generator.Generator, transformer.EquivalentCircuit],
+    northgate_case: tuple[sources.Generator, circuit_model.EquivalentCircuit],
 ) -> tuple[Array, Array, Array]:
     return _reference(*northgate_case)
 
 
 def _core(
-    case: tuple[generator.Generator, transformer.EquivalentCircuit], steps: int
+    case: tuple[sources.Generator, circuit_model.EquivalentCircuit], steps: int
 ) -> dip.DipStudy:
     gen, circ = case
     return dip.energize_from_source(
@@ -264,14 +265,14 @@ def _core(
         0.0,
         RESIDUAL,
         excitation=_excitation(gen),
-        bus_load=generator.BusLoad(LOAD_W, LOAD_VAR),
+        bus_load=sources.BusLoad(LOAD_W, LOAD_VAR),
         duration_s=N_CYCLES * T,
         steps_per_cycle=steps,
     )
 
 
 def test_coupled_solver_matches_radau(
-    northgate_case: tuple[generator.Generator, transformer.EquivalentCircuit],
+    northgate_case: tuple[sources.Generator, circuit_model.EquivalentCircuit],
     reference: tuple[Array, Array, Array],
 ) -> None:
     # Like for like: the reference voltage sampled at the core's 128 points per cycle. What is
@@ -292,7 +293,7 @@ def test_coupled_solver_matches_radau(
 
 @pytest.mark.parametrize(("steps", "bound_pu"), [(128, 7.5e-3), (512, 2.5e-3)])
 def test_rms_sampling_error_at_the_sharp_knee(
-    northgate_case: tuple[generator.Generator, transformer.EquivalentCircuit],
+    northgate_case: tuple[sources.Generator, circuit_model.EquivalentCircuit],
     reference: tuple[Array, Array, Array],
     steps: int,
     bound_pu: float,
@@ -321,9 +322,9 @@ def test_rms_sampling_error_at_the_sharp_knee(
 T_BYPASS = 1.5 * T  # 192 steps at 128 per cycle: on the core's step grid, nothing to round
 
 
-def _unit(connection: str) -> transformer.EquivalentCircuit:
-    return transformer.equivalent_circuit(
-        transformer.Nameplate(
+def _unit(connection: str) -> circuit_model.EquivalentCircuit:
+    return circuit_model.equivalent_circuit(
+        circuit_model.Nameplate(
             rating_va=2.5e6,
             phases=3,
             frequency_hz=60,
@@ -338,8 +339,8 @@ def _unit(connection: str) -> transformer.EquivalentCircuit:
 
 
 def _reference_inserted(
-    gen: generator.Generator,
-    circ: transformer.EquivalentCircuit,
+    gen: sources.Generator,
+    circ: circuit_model.EquivalentCircuit,
     r_ins: float,
     steps: int,
     energised_s: Array | None = None,
@@ -461,7 +462,7 @@ def test_pre_insertion_resistor_matches_radau(connection: str, r_ins: float, ste
     # wye 0.02 ohm 4.6e-6, 2.4e-5, 1.5e-5; wye 1 ohm 3.4e-6, 3.7e-5, 7.6e-6;
     # delta 0.02 ohm 4.0e-6, 1.2e-5, 1.8e-6; delta 1 ohm 2.3e-6, 4.1e-5, 3.5e-6.
     # Tolerances 1e-4, as for the case without the resistor.
-    gen = generator.Generator(1.25e6, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
+    gen = sources.Generator(1.25e6, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
     circ = _unit(connection)
     ref_v, ref_peaks, ref_energy = _reference_inserted(gen, circ, r_ins, steps)
     study = dip.energize_from_source(
@@ -470,7 +471,7 @@ def test_pre_insertion_resistor_matches_radau(connection: str, r_ins: float, ste
         0.0,
         RESIDUAL,
         excitation=_excitation(gen),
-        bus_load=generator.BusLoad(LOAD_W, LOAD_VAR),
+        bus_load=sources.BusLoad(LOAD_W, LOAD_VAR),
         duration_s=N_CYCLES * T,
         steps_per_cycle=steps,
         insertion_resistance_ohm=r_ins,
@@ -509,7 +510,7 @@ def test_staggered_poles_match_radau(connection: str) -> None:
     # first peak]): wye 2.4e-6, 1.8e-5, 7.9e-7; delta 1.3e-5, 1.8e-5, 2.9e-6. Tolerances 1e-4,
     # as for simultaneous closing.
     steps = 128
-    gen = generator.Generator(1.25e6, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
+    gen = sources.Generator(1.25e6, V_LL, F_HZ, 0.15, 0.25, 2.0, 0.03, t_d1_s=0.8)
     circ = _unit(connection)
     h = T / steps
     used = np.round(POLES_S / h) * h
@@ -523,7 +524,7 @@ def test_staggered_poles_match_radau(connection: str) -> None:
             0.0,
             RESIDUAL,
             excitation=_excitation(gen),
-            bus_load=generator.BusLoad(LOAD_W, LOAD_VAR),
+            bus_load=sources.BusLoad(LOAD_W, LOAD_VAR),
             duration_s=N_CYCLES * T,
             steps_per_cycle=steps,
             pole_delay_s=poles,

@@ -23,8 +23,8 @@ import pytest
 from numpy.typing import NDArray
 
 from core import transformer
-from core.magnetizing import PiecewiseLinearCurve
 from core.network import Breaker, BusLoad, NetworkResult, Source, Unit, simulate_network
+from core.transformer.magnetizing import PiecewiseLinearCurve
 
 Array = NDArray[np.float64]
 F = 50.0

@@ -1,4 +1,5 @@
-"""The time-domain solver (core.energize.simulate) against scipy's general-purpose integrators.
+"""The time-domain solver (core.energization.energize.simulate) against scipy's general-purpose
+integrators.
 
 Every reference here is an independent computation: the right-hand sides are written in this file
 from the circuit equations (not imported from core), the magnetising curves are re-implemented
@@ -17,7 +18,7 @@ evaluated on 4096 points per cycle and the largest |i| of each half-open cycle [
 taken (the grid underestimates a smooth peak by at most ~(2*pi/4096)^2/2 ~ 1e-6 of it; a peak at
 a corner, which the coupled connections' currents have where a winding crosses the knee, by up
 to 4.7e-5 of the first peak, measured against 65536 points per cycle: negligible here); on the
-core side core.waveform.cycle_peaks of the simulated line current.
+core side core.energization.waveform.cycle_peaks of the simulated line current.
 
 Tolerance: 0.5 % of the *first* peak for every one of the ten peaks. Late peaks of a strongly
 damped case are small, so for them this is a looser relative bound; that is deliberate — the
@@ -54,7 +55,8 @@ import pytest
 from numpy.typing import NDArray
 from scipy.integrate import solve_ivp
 
-from core import energize, magnetizing, transformer, waveform
+from core.energization import energize, waveform
+from core.transformer import circuit_model, magnetizing
 
 Array = NDArray[np.float64]
 
@@ -97,7 +99,8 @@ class _TwoSlope:
 
 @dataclass(frozen=True)
 class _Smooth:
-    """The hyperbola-rounded knee, from its defining formula (core.magnetizing docstring)."""
+    """The hyperbola-rounded knee, from its defining formula (core.transformer.magnetizing
+    docstring)."""
 
     lm: float
     lam_s: float
@@ -234,7 +237,7 @@ SINGLE_PHASE_CASES = [
 ]
 
 
-def _single_phase_setup(case: _Case) -> tuple[transformer.EquivalentCircuit, Curve]:
+def _single_phase_setup(case: _Case) -> tuple[circuit_model.EquivalentCircuit, Curve]:
     ls = case.ls_over_lair * L_AIR
     r = case.r_over_x * OMEGA * (L_AIR + ls)
     lam_s = B_S * LAMBDA_N
@@ -256,7 +259,7 @@ def _single_phase_setup(case: _Case) -> tuple[transformer.EquivalentCircuit, Cur
             cur.append(cur[-1] + (b - a) / (k * L_AIR))
         core_curve = magnetizing.from_table(flux, cur[1:], L_AIR)
         ref = _Table(flux, tuple(cur[1:]), L_AIR)
-    return transformer.circuit_from_si(V_RMS, F_HZ, r, ls, core_curve), ref
+    return circuit_model.circuit_from_si(V_RMS, F_HZ, r, ls, core_curve), ref
 
 
 @pytest.mark.parametrize("case", SINGLE_PHASE_CASES, ids=lambda c: c.name)
@@ -290,12 +293,12 @@ def test_single_phase_peaks_match_solve_ivp(case: _Case) -> None:
 _PHASE_SHIFT = np.radians([0.0, -120.0, 120.0])  # ABC sequence: B lags A, C leads A
 
 
-def _three_phase_emf(circuit: transformer.EquivalentCircuit, alpha_deg: float, t: float) -> Array:
+def _three_phase_emf(circuit: circuit_model.EquivalentCircuit, alpha_deg: float, t: float) -> Array:
     vpk = math.sqrt(2.0) * circuit.line_voltage_v / math.sqrt(3.0)
     return vpk * np.sin(OMEGA * t + math.radians(alpha_deg) + _PHASE_SHIFT)
 
 
-def _curve_of(circuit: transformer.EquivalentCircuit) -> _TwoSlope:
+def _curve_of(circuit: circuit_model.EquivalentCircuit) -> _TwoSlope:
     return _TwoSlope(
         circuit.magnetizing_inductance_h, circuit.knee_flux_wb, circuit.air_core_inductance_h
     )
@@ -307,10 +310,10 @@ def test_grounded_wye_backfed_from_generator_matches_solve_ivp() -> None:
     # machine base (X/R 20 assumed for the machine), with pole scatter.
     z_gen = 480.0**2 / 1.25e6
     xr_gen = 20.0
-    source = transformer.Source(
+    source = circuit_model.Source(
         "impedance", resistance_ohm=0.15 * z_gen / xr_gen, reactance_ohm=0.15 * z_gen
     )
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         2500e3,
         3,
         F_HZ,
@@ -319,7 +322,7 @@ def test_grounded_wye_backfed_from_generator_matches_solve_ivp() -> None:
         position="inner",
         no_load_current_percent=0.8,
     )
-    circuit = transformer.equivalent_circuit(npl, source)
+    circuit = circuit_model.equivalent_circuit(npl, source)
     residual = np.array([0.7, -0.2, -0.5])
     alpha = 15.0
     sim = energize.simulate(
@@ -354,18 +357,18 @@ def test_grounded_wye_backfed_from_generator_matches_solve_ivp() -> None:
 def test_delta_with_source_impedance_matches_solve_ivp() -> None:
     # The demo unit energised normally: 13.8 kV delta winding (outer) from the 250 MVA, X/R 12
     # utility feeder.
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         2500e3, 3, F_HZ, 13.8e3, connection="delta", position="outer", no_load_current_percent=0.8
     )
-    circuit = transformer.equivalent_circuit(
-        npl, transformer.Source("fault_level", fault_va=250e6, x_over_r=12.0)
+    circuit = circuit_model.equivalent_circuit(
+        npl, circuit_model.Source("fault_level", fault_va=250e6, x_over_r=12.0)
     )
     residual = np.array([0.8, -0.4, -0.4])  # windings ab, bc, ca
     alpha = 0.0
     sim = energize.simulate(circuit, alpha, residual, duration_s=N_CYCLES * PERIOD_S)
     got = waveform.cycle_peaks(sim.line_current_a, SPC)[0]
 
-    # Coupled equations from the physics, written independently of core.energize:
+    # Coupled equations from the physics, written independently of core.energization.energize:
     #   line currents         i = N c,  i_a = c_ab - c_ca, i_b = c_bc - c_ab, i_c = c_ca - c_bc
     #   terminal voltages     u_x = e_x - R_s i_x - L_s di_x/dt
     #   winding voltages      u_a - u_b = R_w c_ab + d(lambda_ab)/dt  (K u, K the incidence)
@@ -404,7 +407,7 @@ _K_MAT = np.array([[1.0, -1.0, 0.0], [0.0, 1.0, -1.0], [-1.0, 0.0, 1.0]])  # win
 
 
 def _coupled_rhs(
-    circuit: transformer.EquivalentCircuit,
+    circuit: circuit_model.EquivalentCircuit,
     f: Curve,
     alpha: float,
     on: NDArray[np.bool_],
@@ -448,7 +451,7 @@ def _coupled_rhs(
 
 
 def _coupled_reference(
-    circuit: transformer.EquivalentCircuit,
+    circuit: circuit_model.EquivalentCircuit,
     residual: Array,
     alpha: float,
     pole_closing_s: Array | None = None,
@@ -458,8 +461,8 @@ def _coupled_reference(
     """Per-cycle line-current peaks of a delta or floating-neutral wye.
 
     Returns (peaks on the 4096-per-cycle grid, peaks of the same solution sampled at the core's
-    128 output instants per cycle and reduced by core.waveform.cycle_peaks). The second isolates
-    the integrator: both sides then read a peak from the same samples the same way.
+    128 output instants per cycle and reduced by core.energization.waveform.cycle_peaks). The second
+    isolates the integrator: both sides then read a peak from the same samples the same way.
 
     Each interval between pole closings is integrated with the windings energised in it, from the
     fluxes left by the previous one. Delta: Radau at rtol 1e-9 on the three fluxes. Floating
@@ -577,16 +580,16 @@ def test_coupled_connections_on_a_sharp_knee(connection: str, fault_va: float | 
     # The demo unit's 13.8 kV winding on a two-slope curve (a sharp knee), through a utility
     # feeder (X/R 12) from stiff (250 MVA) to weak (20 MVA): the coupled kernel integrates the
     # loop flux (delta) or the phase-difference state (floating neutral), both continuous at the
-    # knee (module docstring of core.energize). Remaining error against the 4096-per-cycle
-    # reference: the peak read from 128 samples per cycle, largest for the floating neutral,
-    # whose current has a corner at every knee crossing.
-    npl = transformer.Nameplate(
+    # knee (module docstring of core.energization.energize). Remaining error against the
+    # 4096-per-cycle reference: the peak read from 128 samples per cycle, largest for the floating
+    # neutral, whose current has a corner at every knee crossing.
+    npl = circuit_model.Nameplate(
         2500e3, 3, F_HZ, 13.8e3, connection=connection, no_load_current_percent=0.8
     )
     source = None
     if fault_va is not None:
-        source = transformer.Source("fault_level", fault_va=fault_va, x_over_r=12.0)
-    circuit = transformer.equivalent_circuit(npl, source)
+        source = circuit_model.Source("fault_level", fault_va=fault_va, x_over_r=12.0)
+    circuit = circuit_model.equivalent_circuit(npl, source)
     residual = np.array([0.8, -0.4, -0.4])
     sim = energize.simulate(circuit, 0.0, residual, duration_s=N_CYCLES * PERIOD_S)
     got = waveform.cycle_peaks(sim.line_current_a, SPC)[0]
@@ -608,11 +611,11 @@ def test_coupled_connections_with_pole_scatter(connection: str) -> None:
     # previous one, at the pole instants the core actually used (rounded to its step).
     # Measured: 4.9e-4 (delta) and 2.3e-3 (wye) of the first peak, the integrator's share 3.8e-5
     # and 4.6e-6.
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         2500e3, 3, F_HZ, 13.8e3, connection=connection, no_load_current_percent=0.8
     )
-    circuit = transformer.equivalent_circuit(
-        npl, transformer.Source("fault_level", fault_va=20e6, x_over_r=12.0)
+    circuit = circuit_model.equivalent_circuit(
+        npl, circuit_model.Source("fault_level", fault_va=20e6, x_over_r=12.0)
     )
     residual = np.array([0.8, -0.4, -0.4])
     alpha = 285.0  # near the worst angle for both connections with these pole instants
@@ -641,11 +644,11 @@ def test_coupled_connections_on_a_non_convex_table(connection: str) -> None:
     # 6.3e-6 (delta) and 7.7e-6 (wye). Read from 128 samples per cycle, the peaks of the
     # delta's sharp-cornered currents on this curve are off by 3.8e-3 (wye 7.4e-6).
     angle = 225.0
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         2500e3, 3, F_HZ, 480.0, connection=connection, position="inner", no_load_current_percent=0.8
     )
-    base = transformer.equivalent_circuit(
-        npl, transformer.Source("fault_level", fault_va=250e6, x_over_r=12.0)
+    base = circuit_model.equivalent_circuit(
+        npl, circuit_model.Source("fault_level", fault_va=250e6, x_over_r=12.0)
     )
     lam_n, l_air = base.nominal_flux_wb, base.air_core_inductance_h
     flux = np.array([0.9, 1.0, 1.25, 1.5]) * lam_n
@@ -743,8 +746,8 @@ def _piecewise_single(
 # REL_TOL (0.5 %, as above: their currents' corners at the knee are read from 128 samples per
 # cycle) and INTEGRATOR_TOL for the share (2e-4, as above), which fails a ramp held constant
 # over each step (3.0e-3 measured). A bypass one step late moves these peaks by 1.7e-4 at most,
-# too little to see here; the closed-form RL transient in tests/core/test_energize.py pins the
-# bypass instant instead.
+# too little to see here; the closed-form RL transient in tests/core/energization/test_energize.py
+# pins the bypass instant instead.
 # The resistor is 0.3 of the saturated loop's reactance omega*(L_air + L_s) (a third of that for
 # a delta, whose windings see it three times over in their differential loops), which lowers the
 # first peak by a quarter to a third and the peaks to about rated current by the bypass at 4.3
@@ -822,14 +825,14 @@ def test_grounded_wye_with_a_resistor_matches_solve_ivp() -> None:
     # The generator-backfed grounded wye above, with its pole scatter, through a pre-insertion
     # resistor bypassed at 4.3 cycles: each phase is its own loop, the resistor in series with it.
     z_gen = 480.0**2 / 1.25e6
-    source = transformer.Source(
+    source = circuit_model.Source(
         "impedance", resistance_ohm=0.15 * z_gen / 20.0, reactance_ohm=0.15 * z_gen
     )
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         2500e3, 3, F_HZ, 480.0, connection="wye_grounded", position="inner",
         no_load_current_percent=0.8,
     )  # fmt: skip
-    circuit = transformer.equivalent_circuit(npl, source)
+    circuit = circuit_model.equivalent_circuit(npl, source)
     residual = np.array([0.7, -0.2, -0.5])
     alpha = 15.0
     r = circuit.winding_resistance_ohm + circuit.source_resistance_ohm
@@ -884,13 +887,13 @@ def test_coupled_connections_with_mitigation_match_solve_ivp(
     # with a pre-insertion resistor bypassed at 4.3 cycles or the ramp (0.3 pu held for a cycle,
     # then a three-cycle rise); the reference splits its intervals at the bypass and the ramp's
     # corners (at the instants the core used).
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         2500e3, 3, F_HZ, 13.8e3, connection=connection, no_load_current_percent=0.8
     )
     source = None
     if fault_va is not None:
-        source = transformer.Source("fault_level", fault_va=fault_va, x_over_r=12.0)
-    circuit = transformer.equivalent_circuit(npl, source)
+        source = circuit_model.Source("fault_level", fault_va=fault_va, x_over_r=12.0)
+    circuit = circuit_model.equivalent_circuit(npl, source)
     residual = np.array([0.8, -0.4, -0.4])
     x_loop = OMEGA * (circuit.air_core_inductance_h + circuit.source_inductance_h)
     r_ins = R_INS_OF_LOOP_X * x_loop / (3.0 if connection == "delta" else 1.0)
@@ -941,33 +944,35 @@ LARGE_R_SHARE_TOL = 5e-4
 LARGE_R_PEAK_TOL = 1e-2
 
 
-def _large_resistor_circuit(connection: str) -> tuple[transformer.EquivalentCircuit, float, Array]:
+def _large_resistor_circuit(
+    connection: str,
+) -> tuple[circuit_model.EquivalentCircuit, float, Array]:
     """(circuit, closing angle [deg], pole closing instants [s]) of each connection tested."""
     if connection == "single_phase":  # the weak-source case (L_s = 3.5 L_air, R/X 0.15)
         case = SINGLE_PHASE_CASES[4]
         return _single_phase_setup(case)[0], case.angle_deg, np.zeros(1)
     if connection == "wye_grounded":  # the generator back-feed, with its pole scatter
         z_gen = 480.0**2 / 1.25e6
-        source = transformer.Source(
+        source = circuit_model.Source(
             "impedance", resistance_ohm=0.15 * z_gen / 20.0, reactance_ohm=0.15 * z_gen
         )
-        npl = transformer.Nameplate(
+        npl = circuit_model.Nameplate(
             2500e3, 3, F_HZ, 480.0, connection="wye_grounded", position="inner",
             no_load_current_percent=0.8,
         )  # fmt: skip
-        circuit = transformer.equivalent_circuit(npl, source)
+        circuit = circuit_model.equivalent_circuit(npl, source)
         return circuit, 15.0, np.array([0.0, 1.3e-3, 2.9e-3])
     # the 13.8 kV winding: delta through a 50 MVA feeder, floating wye on 250 MVA
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         2500e3, 3, F_HZ, 13.8e3, connection=connection, no_load_current_percent=0.8
     )
     fault_va = 50e6 if connection == "delta" else 250e6
-    source = transformer.Source("fault_level", fault_va=fault_va, x_over_r=12.0)
-    return transformer.equivalent_circuit(npl, source), 0.0, np.zeros(3)
+    source = circuit_model.Source("fault_level", fault_va=fault_va, x_over_r=12.0)
+    return circuit_model.equivalent_circuit(npl, source), 0.0, np.zeros(3)
 
 
 def _independent_reference(
-    circuit: transformer.EquivalentCircuit,
+    circuit: circuit_model.EquivalentCircuit,
     f: Curve,
     alpha: float,
     residual: Array,

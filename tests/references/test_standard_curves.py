@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from core import damage, relay_curves
+from core.protection import damage_curves, relay_curves
 
 # --------------------------------------------------------------------------------------------
 # IEEE Std C37.112-1996 (and -2018), Table 1: t = TD·(A/(M^p − 1) + B); t_r = TD·tr/(1 − M²).
@@ -108,7 +108,7 @@ C57_12_00_CATEGORY_BOUNDARIES = [
 
 @pytest.mark.parametrize(("phases", "kva", "expected"), C57_12_00_CATEGORY_BOUNDARIES)
 def test_c57_12_00_category_boundaries(phases: int, kva: float, expected: str) -> None:
-    assert damage.through_fault_category(kva, phases) == expected
+    assert damage_curves.through_fault_category(kva, phases) == expected
 
 
 # IEEE Std C57.109-1993 through-fault duration table for liquid-immersed units (values from
@@ -121,7 +121,7 @@ C57_109_TABLE = [(25.0, 2.0), (11.3, 10.0), (6.3, 30.0), (4.75, 60.0), (3.0, 300
 def test_c57_109_thermal_table_points(x: float, seconds: float) -> None:
     # A Category I unit with Z = 4 % reaches 1/0.04 = 25 pu, so its curve spans the whole table
     i_r = 100.0
-    t = damage.through_fault_damage_time(x * i_r, 300.0, 3, i_r, 0.04)
+    t = damage_curves.through_fault_damage_time(x * i_r, 300.0, 3, i_r, 0.04)
     assert float(t) == pytest.approx(seconds, rel=1e-12)
 
 
@@ -130,7 +130,7 @@ def test_c57_109_thermal_end_is_not_1250_over_i_squared() -> None:
     # and, for a low-impedance Category I unit (Z = 2.5 %, I_sc = 40 pu), 1250/30² = 1.3889 s at
     # 30 pu; at 2 pu the table's 1800 s, not 1250/4 = 312.5 s
     i_r = 100.0
-    t = damage.through_fault_damage_time(np.array([30.0, 2.0]) * i_r, 300.0, 3, i_r, 0.025)
+    t = damage_curves.through_fault_damage_time(np.array([30.0, 2.0]) * i_r, 300.0, 3, i_r, 0.025)
     np.testing.assert_allclose(t, [1250.0 / 900.0, 1800.0], rtol=1e-12)
     assert float(t[1]) > 5.0 * 1250.0 / 4.0
 
@@ -147,9 +147,9 @@ def test_c57_109_category_ii_uses_the_transformer_impedance_alone() -> None:
     assert i_sc == pytest.approx(17.3913, abs=5e-5)
     assert k == pytest.approx(604.915, abs=5e-3)
     args = (2500.0, 3, i_r, 0.0575, 0.01)
-    t = damage.through_fault_damage_time(np.array([14.0, 12.0]) * i_r, *args, frequent=True)
+    t = damage_curves.through_fault_damage_time(np.array([14.0, 12.0]) * i_r, *args, frequent=True)
     np.testing.assert_allclose(t, [3.0863, 8.853], atol=5e-4)
-    curve = damage.through_fault_damage_curve(*args, frequent=True)
+    curve = damage_curves.through_fault_damage_curve(*args, frequent=True)
     assert curve.short_circuit_current == pytest.approx(i_sc * i_r, rel=1e-12)
     assert curve.mechanical_from_current == pytest.approx(0.7 * i_sc * i_r, rel=1e-12)
     # what the source lets flow, 1/(Z_T + Z_S) = 14.815 pu, bounds the protection check
@@ -166,8 +166,8 @@ def test_c57_109_category_iii_uses_transformer_plus_source() -> None:
     assert i_sc == pytest.approx(14.8148, abs=5e-5)
     assert k == pytest.approx(438.957, abs=5e-4)
     args = (10_000.0, 3, i_r, 0.0575, 0.01)
-    t = damage.through_fault_damage_time(12.0 * i_r, *args, frequent=True)
+    t = damage_curves.through_fault_damage_time(12.0 * i_r, *args, frequent=True)
     assert float(t) == pytest.approx(k / 144.0, rel=1e-12)
     assert float(t) == pytest.approx(3.0483, abs=5e-5)
-    t_inf = damage.through_fault_damage_time(12.0 * i_r, *args)
+    t_inf = damage_curves.through_fault_damage_time(12.0 * i_r, *args)
     assert float(t_inf) == pytest.approx(8.853, abs=5e-4)

@@ -10,7 +10,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from core import energize, transformer, waveform
+from core.energization import energize, waveform
+from core.transformer import circuit_model
 
 F_HZ = 60.0
 # residual flux aligned with the worst phase, 80 % of nominal in the worst winding (the upper
@@ -18,8 +19,8 @@ F_HZ = 60.0
 RESIDUAL = (0.8, -0.4, -0.4)
 
 
-def _worst_multiple(npl: transformer.Nameplate) -> float:
-    circuit = transformer.equivalent_circuit(npl)
+def _worst_multiple(npl: circuit_model.Nameplate) -> float:
+    circuit = circuit_model.equivalent_circuit(npl)
     worst = energize.worst_closing_angle(circuit, RESIDUAL)
     return worst.peak_a / circuit.rated_line_current_a
 
@@ -33,10 +34,10 @@ def test_energising_the_inner_winding_gives_two_to_three_times_the_peak() -> Non
     # memory) together with the different connections of the two sides; the band 1.5-3.5
     # checks the end-to-end result, including the delta/wye line currents.
     outer = _worst_multiple(
-        transformer.Nameplate(2500e3, 3, F_HZ, 13.8e3, connection="delta", position="outer")
+        circuit_model.Nameplate(2500e3, 3, F_HZ, 13.8e3, connection="delta", position="outer")
     )
     inner = _worst_multiple(
-        transformer.Nameplate(2500e3, 3, F_HZ, 480.0, connection="wye_grounded", position="inner")
+        circuit_model.Nameplate(2500e3, 3, F_HZ, 480.0, connection="wye_grounded", position="inner")
     )
     ratio = inner / outer
     assert 1.5 <= ratio <= 3.5, f"inner/outer first-peak ratio {ratio:.2f}"
@@ -53,7 +54,7 @@ def test_worst_first_peak_of_distribution_transformers(
     # Common practice: a distribution transformer's worst-case first inrush peak is several
     # times to about 30 x its rated (rms) current; asserted as 5-35 x for 500 kVA - 2.5 MVA
     # units with the default data, normal and back-fed.
-    npl = transformer.Nameplate(
+    npl = circuit_model.Nameplate(
         rating_kva * 1e3, 3, F_HZ, voltage, connection=connection, position=position
     )
     multiple = _worst_multiple(npl)
@@ -64,8 +65,8 @@ def test_small_dry_type_unit_decays_below_twice_rated_within_a_second() -> None:
     # Common practice: the inrush of a small unit (here the demo's 112.5 kVA 480 V delta
     # lighting transformer, default data) dies away within about a second: every per-cycle peak
     # below 2 x rated current by 1 s.
-    npl = transformer.Nameplate(112.5e3, 3, F_HZ, 480.0, connection="delta", position="outer")
-    circuit = transformer.equivalent_circuit(npl)
+    npl = circuit_model.Nameplate(112.5e3, 3, F_HZ, 480.0, connection="delta", position="outer")
+    circuit = circuit_model.equivalent_circuit(npl)
     worst = energize.worst_closing_angle(circuit, RESIDUAL)
     sim = energize.simulate(
         circuit, worst.closing_angle_deg, RESIDUAL, duration_s=1.5, samples_per_cycle=32

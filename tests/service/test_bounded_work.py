@@ -12,9 +12,9 @@ from typing import Any
 import pytest
 from fastapi.testclient import TestClient
 
-from core import statistics
 from core.cost import Work
 from core.errors import LimitError
+from core.statistics import monte_carlo
 from service import budget, compute
 from service.app import create_app
 from service.settings import get_settings
@@ -44,13 +44,13 @@ def test_statistics_over_event_limit_is_refused_before_the_monte_carlo(
     monkeypatch: pytest.MonkeyPatch,
 ) -> None:
     calls: list[int] = []
-    real = statistics.peak_distribution
+    real = monte_carlo.peak_distribution
 
     def spy(*a: Any, **k: Any) -> Any:
         calls.append(1)
         return real(*a, **k)
 
-    monkeypatch.setattr(statistics, "peak_distribution", spy)
+    monkeypatch.setattr(monte_carlo, "peak_distribution", spy)
     body = _req("inrush_statistics.northgate_backfeed_generator")
     body["options"]["check_events"] = 2000
     body["options"]["samples"] = 20000

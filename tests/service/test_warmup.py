@@ -31,7 +31,7 @@ import core
 from service import examples as ex, warmup
 from service.app import create_app
 
-mods = [importlib.import_module(f"core.{m.name}") for m in pkgutil.iter_modules(core.__path__)]
+mods = [importlib.import_module(m.name) for m in pkgutil.walk_packages(core.__path__, "core.")]
 
 def snapshot():
     out = {}
@@ -78,10 +78,10 @@ def test_no_kernel_compiles_after_warmup() -> None:
     got = json.loads(out.stdout.strip().splitlines()[-1])
     assert set(got["status"].values()) == {200}, got["status"]
     kernels = [
-        "core.energize_independent.integrate",
-        "core.energize_independent.integrate_parallel",
-        "core.energize_coupled.integrate",
-        "core.dip_kernel.integrate",
+        "core.energization.kernel_independent.integrate",
+        "core.energization.kernel_independent.integrate_parallel",
+        "core.energization.kernel_coupled.integrate",
+        "core.supply.dip_kernel.integrate",
     ]
     for name in kernels:  # the warm-up reached every top-level kernel
         assert got["before"][name][0], name

@@ -14,7 +14,8 @@ import numpy as np
 import pytest
 from numpy.typing import NDArray
 
-from core import energize, transformer
+from core import transformer
+from core.energization import energize
 from core.errors import LimitError, ParameterError
 from core.network import Breaker, BusLoad, Source, Unit, simulate_network
 
