@@ -512,16 +512,16 @@ def simulate_network(
     Parameters
     ----------
     source : Source
-        The source and its EMF ramp.
+        The source and its EMF ramp [-].
     units : sequence of Unit
-        The transformers on the bus, each behind its breaker (at least one).
+        The transformers on the bus, each behind its breaker (at least one) [-].
     closing_angle_deg : array_like, shape (n_cases,) or scalar
         Angle of the phase-A EMF e_a = sqrt(2)*V/sqrt(3)*sin(omega*t + alpha) at t = 0 [deg].
     duration_s : float
         Simulated time from t = 0 [s].
     load : BusLoad or None
         Constant-impedance load at the bus, in service throughout (at its steady state at
-        t = 0); None for none.
+        t = 0); None for none [-].
     samples_per_cycle : int
         Output samples per cycle, in [4, 100000] [-].
     max_steps : int or None
