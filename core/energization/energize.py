@@ -355,25 +355,13 @@ def simulate(
     plan = energize_plan.plan_steps(cases, topo, duration_s, samples_per_cycle)
     spc, decimate, n_steps, h = plan.steps_per_cycle, plan.decimate, plan.n_steps, plan.step_s
     grid = energize_plan.on_step_grid(cases, topo, plan)
-    close_step, mit_f, mit_i = grid.close_step, grid.mit_f, grid.mit_i
+    mit_i = grid.mit_i
     # every step of the record, a step split while the resistor is in counting its sub-steps
     work = n * m * n_steps + m * int(np.sum((mit_i[:, 3] - 1) * np.minimum(mit_i[:, 0], n_steps)))
     if max_steps is not None and work > max_steps:
         raise LimitError("integration steps (cases x windings x steps)", work, max_steps)
 
-    alpha_rad = np.deg2rad(alpha)
-    if m == 1:
-        vpk = np.array([math.sqrt(2.0) * c.winding_voltage_v for c in circ_list])[:, None]
-        phase = alpha_rad[:, None]
-    else:
-        vpk = np.repeat(
-            np.array([math.sqrt(2.0) * c.line_voltage_v / math.sqrt(3.0) for c in circ_list])[
-                :, None
-            ],
-            3,
-            axis=1,
-        )
-        phase = alpha_rad[:, None] + _PHASE_SHIFT[None, :]
+    vpk, phase = _source_emf(circ_list, alpha, m)
     r_w = np.array([c.winding_resistance_ohm for c in circ_list]) + extra
     r_s = np.array([c.source_resistance_ohm for c in circ_list])
     l_s = np.array([c.source_inductance_h for c in circ_list])
@@ -385,54 +373,9 @@ def simulate(
         topo == 2 and not np.any(l_s) and not np.any(r_s) and not grid.any_inserted
     )
     if independent:
-        if topo == 2:  # delta on an ideal source: each winding sees a line-to-line voltage
-            vpk = vpk * math.sqrt(3.0)
-            phase = phase + math.pi / 6.0
-        kind_e, par_e, flux_e, cur_e, npts_e = energize_plan.element_curves(circ_list)
-        # piecewise-linear curves: integrate the loop flux psi = lambda + L_s*i (see
-        # energize_plan.element_curves), so the kernel sees no source inductance and starts
-        # from psi_0
-        pwl = np.array([isinstance(c.curve, PiecewiseLinearCurve) for c in circ_list])
-        l_el = np.where(pwl, 0.0, l_s)
-        state0 = lam0.copy()
-        for idx, c in enumerate(circ_list):
-            if pwl[idx] and l_s[idx] > 0.0:
-                state0[idx] = lam0[idx] + l_s[idx] * c.curve.current(lam0[idx])
-        rep = lambda a: np.ascontiguousarray(np.repeat(a, m, axis=0))  # noqa: E731
-        kernel = (
-            kernel_independent.integrate_parallel
-            if n * m >= PARALLEL_MIN_ELEMENTS
-            else kernel_independent.integrate
-        )
-        kernel(
-            n_steps, decimate, h, omega,
-            np.ascontiguousarray(vpk, dtype=float).ravel(),
-            np.ascontiguousarray(phase, dtype=float).ravel(),
-            np.ascontiguousarray(r_el).ravel(), np.repeat(l_el, m),
-            np.ascontiguousarray(close_step).ravel(), np.ascontiguousarray(state0).ravel(),
-            rep(kind_e), rep(par_e), rep(flux_e), rep(cur_e), rep(npts_e),
-            rep(mit_f), rep(mit_i),
-            out.reshape(n * m, n_samples),
-        )  # fmt: skip
+        _run_independent(circ_list, topo, plan, grid, omega, vpk, phase, r_el, l_s, lam0, out)
     else:
-        kind_c, par_c, flux_c, cur_c, npts_c = energize_plan.element_curves(
-            circ_list, loop_flux=False
-        )
-        tol = NEWTON_TOLERANCE_PU * np.array([c.nominal_flux_wb for c in circ_list])
-        failed = kernel_coupled.integrate(
-            topo, n_steps, decimate, h, omega,
-            np.ascontiguousarray(vpk, dtype=float), np.ascontiguousarray(phase, dtype=float),
-            np.ascontiguousarray(r_el), r_s, l_s, np.ascontiguousarray(close_step),
-            np.ascontiguousarray(lam0), tol, kind_c, par_c, flux_c, cur_c, npts_c,
-            mit_f, mit_i, out,
-        )  # fmt: skip
-        if failed:
-            raise ParameterError(
-                "circuit",
-                f"{failed} flux solves without convergence",
-                f"a circuit on which Newton's method converges in {NEWTON_MAX_ITERATIONS} "
-                "iterations",
-            )
+        _run_coupled(circ_list, topo, plan, grid, omega, vpk, phase, r_el, r_s, l_s, lam0, out)
     if not np.all(np.isfinite(out)):
         raise ParameterError(
             "circuit", "non-finite current", "a circuit whose simulated current stays finite"
@@ -452,7 +395,128 @@ def simulate(
         insertion_time_s=grid.insertion_time_s,
         insertion_substeps=mit_i[:, 3].copy(),
         voltage_ramp_s=grid.voltage_ramp_s,
-        approximations=APPROXIMATIONS[first.connection]
+        approximations=_approximations(first.connection, delay, plan, grid, step_ms),
+    )
+
+
+def _source_emf(
+    circ_list: Sequence[EquivalentCircuit], alpha: FloatArray, m: int
+) -> tuple[FloatArray, FloatArray]:
+    """Peak EMF of each winding's circuit [V] and its phase at t = 0 [rad], shape (cases, m).
+
+    Single phase: the winding voltage at the closing angle alpha; three phase: the phase
+    voltage V_LL/sqrt(3) at alpha, alpha - 120 deg, alpha + 120 deg (Notes of :func:`simulate`).
+    """
+    alpha_rad = np.deg2rad(alpha)
+    if m == 1:
+        vpk = np.array([math.sqrt(2.0) * c.winding_voltage_v for c in circ_list])[:, None]
+        phase = alpha_rad[:, None]
+    else:
+        vpk = np.repeat(
+            np.array([math.sqrt(2.0) * c.line_voltage_v / math.sqrt(3.0) for c in circ_list])[
+                :, None
+            ],
+            3,
+            axis=1,
+        )
+        phase = alpha_rad[:, None] + _PHASE_SHIFT[None, :]
+    return vpk, phase
+
+
+def _run_independent(
+    circ_list: Sequence[EquivalentCircuit],
+    topo: int,
+    plan: energize_plan.Plan,
+    grid: energize_plan.Grid,
+    omega: float,
+    vpk: FloatArray,
+    phase: FloatArray,
+    r_el: FloatArray,
+    l_s: FloatArray,
+    lam0: FloatArray,
+    out: FloatArray,
+) -> None:
+    """Integrate windings that are independent circuits into ``out`` [A] (kernel_independent)."""
+    n, m = lam0.shape
+    n_steps, decimate, h = plan.n_steps, plan.decimate, plan.step_s
+    n_samples = out.shape[2]
+    close_step, mit_f, mit_i = grid.close_step, grid.mit_f, grid.mit_i
+    if topo == 2:  # delta on an ideal source: each winding sees a line-to-line voltage
+        vpk = vpk * math.sqrt(3.0)
+        phase = phase + math.pi / 6.0
+    kind_e, par_e, flux_e, cur_e, npts_e = energize_plan.element_curves(circ_list)
+    # piecewise-linear curves: integrate the loop flux psi = lambda + L_s*i (see
+    # energize_plan.element_curves), so the kernel sees no source inductance and starts
+    # from psi_0
+    pwl = np.array([isinstance(c.curve, PiecewiseLinearCurve) for c in circ_list])
+    l_el = np.where(pwl, 0.0, l_s)
+    state0 = lam0.copy()
+    for idx, c in enumerate(circ_list):
+        if pwl[idx] and l_s[idx] > 0.0:
+            state0[idx] = lam0[idx] + l_s[idx] * c.curve.current(lam0[idx])
+    rep = lambda a: np.ascontiguousarray(np.repeat(a, m, axis=0))  # noqa: E731
+    kernel = (
+        kernel_independent.integrate_parallel
+        if n * m >= PARALLEL_MIN_ELEMENTS
+        else kernel_independent.integrate
+    )
+    kernel(
+        n_steps, decimate, h, omega,
+        np.ascontiguousarray(vpk, dtype=float).ravel(),
+        np.ascontiguousarray(phase, dtype=float).ravel(),
+        np.ascontiguousarray(r_el).ravel(), np.repeat(l_el, m),
+        np.ascontiguousarray(close_step).ravel(), np.ascontiguousarray(state0).ravel(),
+        rep(kind_e), rep(par_e), rep(flux_e), rep(cur_e), rep(npts_e),
+        rep(mit_f), rep(mit_i),
+        out.reshape(n * m, n_samples),
+    )  # fmt: skip
+
+
+def _run_coupled(
+    circ_list: Sequence[EquivalentCircuit],
+    topo: int,
+    plan: energize_plan.Plan,
+    grid: energize_plan.Grid,
+    omega: float,
+    vpk: FloatArray,
+    phase: FloatArray,
+    r_el: FloatArray,
+    r_s: FloatArray,
+    l_s: FloatArray,
+    lam0: FloatArray,
+    out: FloatArray,
+) -> None:
+    """Integrate windings coupled through the source (floating wye, delta) into ``out`` [A]."""
+    n_steps, decimate, h = plan.n_steps, plan.decimate, plan.step_s
+    close_step, mit_f, mit_i = grid.close_step, grid.mit_f, grid.mit_i
+    kind_c, par_c, flux_c, cur_c, npts_c = energize_plan.element_curves(circ_list, loop_flux=False)
+    tol = NEWTON_TOLERANCE_PU * np.array([c.nominal_flux_wb for c in circ_list])
+    failed = kernel_coupled.integrate(
+        topo, n_steps, decimate, h, omega,
+        np.ascontiguousarray(vpk, dtype=float), np.ascontiguousarray(phase, dtype=float),
+        np.ascontiguousarray(r_el), r_s, l_s, np.ascontiguousarray(close_step),
+        np.ascontiguousarray(lam0), tol, kind_c, par_c, flux_c, cur_c, npts_c,
+        mit_f, mit_i, out,
+    )  # fmt: skip
+    if failed:
+        raise ParameterError(
+            "circuit",
+            f"{failed} flux solves without convergence",
+            f"a circuit on which Newton's method converges in {NEWTON_MAX_ITERATIONS} iterations",
+        )
+
+
+def _approximations(
+    connection: str,
+    delay: FloatArray,
+    plan: energize_plan.Plan,
+    grid: energize_plan.Grid,
+    step_ms: str,
+) -> tuple[str, ...]:
+    """The approximations a simulation reports: its connection's, and those of the pole
+    instants, the resistor and the ramp when present (rounded to the step ``step_ms``)."""
+    return (
+        APPROXIMATIONS[connection]
         + (
             (f"pole closing instants rounded to the internal step of {step_ms}",)
             if np.any(delay > 0.0)
@@ -475,7 +539,7 @@ def simulate(
             )
             if grid.any_ramp
             else ()
-        ),
+        )
     )
 
 
