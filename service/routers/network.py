@@ -21,7 +21,6 @@ from core.transformer import circuit_model
 from service import budget, compute, convert
 from service.deps import SettingsDep
 from service.examples import NETWORK_EXAMPLES
-from service.models.clearance import PointOut, RideThroughOut
 from service.models.common import Assumption, FaultLevelSource, ImpedanceSource, Method
 from service.models.network import (
     RECOVERY_PERCENT,
@@ -37,6 +36,7 @@ from service.models.network import (
     UnitOut,
 )
 from service.problems import PROBLEM_RESPONSES
+from service.routers import clearance
 from service.settings import Settings
 
 router = APIRouter(
@@ -367,38 +367,13 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
         )
         assumptions += convert.assumptions_out(ev.assumptions)
         warns += list(ev.warnings)
-        m = convert.maybe
         for e in ev.devices:
-            rt = e.ride_through
             devices.append(
                 FeederDeviceOut(
                     name=e.device,
                     kind=e.kind,
-                    ride_through=RideThroughOut(
-                        trips=rt.trips,
-                        trip_time_s=rt.trip_time_s,
-                        margin_ratio=m(rt.margin_ratio),
-                        margin_time_s=rt.margin_time_s,
-                        line=rt.line,
-                        compared_current=rt.compared_current,
-                        time_margin_ratio=m(rt.time_margin_ratio),
-                        instantaneous_margin_ratio=(
-                            m(rt.instantaneous_margin_ratio)
-                            if rt.instantaneous_margin_ratio is not None
-                            else None
-                        ),
-                    ),
-                    common_practice_points=[
-                        PointOut(
-                            multiple_x_rated=p.multiple_x_rated,
-                            current_a=p.current_a,
-                            time_s=p.time_s,
-                            device_time_s=m(p.device_time_s),
-                            ratio=m(p.ratio),
-                            above=p.above,
-                        )
-                        for p in e.points
-                    ],
+                    ride_through=clearance.ride_through_out(e),
+                    common_practice_points=clearance.points_out(e),
                 )
             )
     for uo in out_units:
