@@ -17,7 +17,7 @@ from core.errors import ParameterError
 from core.network import Breaker, BusLoad, NetworkResult, Source, Unit, simulate_network
 from core.protection import coordination, device_operation
 from core.protection.inrush_curves import inrush_from_waveform
-from core.transformer import circuit_model
+from core.transformer import circuit_model, plausibility
 from service import budget, compute, convert
 from service.deps import SettingsDep
 from service.examples import NETWORK_EXAMPLES
@@ -143,6 +143,12 @@ def _units(
             )
             continue
         delay = np.asarray(u.pole_closing_ms or [0.0, 0.0, 0.0], dtype=float) * 1e-3
+        if float(delay.max()) > body.options.duration_s:
+            raise ParameterError(
+                f"units.{k}.pole_closing_ms",
+                u.pole_closing_ms,
+                f"at most options.duration_s = {body.options.duration_s * 1e3:g} ms",
+            )
         res = None if u.residual_flux_pu is None else np.asarray(u.residual_flux_pu, dtype=float)
         event = switching_event(circuit, body.closing_angle_deg, res, delay)
         out.append(
@@ -169,6 +175,38 @@ def _units(
             )
         )
     return out, rated, notes, warns
+
+
+def _check_source(body: NetworkRequest, source: Source) -> None:
+    """Refuse a source that cannot carry the units' summed rating at any voltage (the bound
+    the other operations apply to one unit: :data:`plausibility.SOURCE_STRENGTH_FACTOR`)."""
+    src = body.source
+    if not isinstance(src, FaultLevelSource | ImpedanceSource):
+        return
+    v = body.bus_voltage_kv * 1e3
+    w = 2.0 * math.pi * body.frequency_hz
+    s_sc = plausibility.short_circuit_power_va(v, source.resistance_ohm, source.inductance_h * w)
+    total_va = sum(u.transformer.rating_kva for u in body.units) * 1e3
+    need = plausibility.SOURCE_STRENGTH_FACTOR * total_va
+    if s_sc >= need * (1.0 - 1e-9):
+        return
+    why = (
+        f"at least {plausibility.SOURCE_STRENGTH_FACTOR:g} x the units' summed rating of "
+        f"{total_va / 1e6:.6g} MVA: a weaker source cannot carry their rated load at any "
+        "voltage (it delivers at most half its short-circuit power into a load)"
+    )
+    if isinstance(src, FaultLevelSource):
+        raise ParameterError(
+            "source.fault_mva", src.fault_mva, f"{need / 1e6:.6g} MVA or more, {why}"
+        )
+    z_max = v * v / need
+    name = "reactance_ohm" if src.reactance_ohm >= src.resistance_ohm else "resistance_ohm"
+    raise ParameterError(
+        f"source.{name}",
+        getattr(src, name),
+        f"a source impedance sqrt(resistance_ohm^2 + reactance_ohm^2) of at most {z_max:.6g} "
+        f"ohm, {why}",
+    )
 
 
 def _load(body: NetworkRequest) -> BusLoad | None:
@@ -297,8 +335,13 @@ def _estimate(
 def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
     f = body.frequency_hz
     duration = body.options.duration_s
-    convert.check_work(settings, 3 * (len(body.units) + 1), f, duration, 128)
+    if duration * f < 2.0:
+        raise ParameterError(
+            "options.duration_s", duration, f"at least two cycles, {2.0 / f:.4g} s at {f:g} Hz"
+        )
+    convert.check_work(settings, 3 * (len(body.units) + 1), f, duration, SAMPLES_PER_CYCLE)
     source, assumptions = _source(body)
+    _check_source(body, source)
     units, rated, notes, warns = _units(body)
     assumptions += notes
     load = _load(body)
@@ -308,15 +351,26 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
     ]
     if body.devices:
         knobs.append(budget.Knob("devices", len(body.devices), 0, integer=True))
-    budget.enforce(_estimate(source, units, load, body), knobs, settings.max_request_steps)
-    res = simulate_network(
-        source,
-        units,
-        closing_angle_deg=body.closing_angle_deg,
-        duration_s=duration,
-        load=load,
-        max_steps=settings.max_total_steps // 3,  # unit-steps: three windings each
-    )
+    try:
+        budget.enforce(_estimate(source, units, load, body), knobs, settings.max_request_steps)
+        res = simulate_network(
+            source,
+            units,
+            closing_angle_deg=body.closing_angle_deg,
+            duration_s=duration,
+            load=load,
+            max_steps=settings.max_total_steps // 3,  # unit-steps: three windings each
+        )
+    except ParameterError as exc:
+        if exc.parameter != "resistance_ohm":
+            raise
+        raise ParameterError(
+            "source",
+            f"R = {source.resistance_ohm:.6g} ohm, X = "
+            f"{source.inductance_h * 2.0 * math.pi * f:.6g} ohm",
+            f"a source whose saturated loops keep {exc.allowed} (the step would be too short): "
+            "a larger X/R or a smaller resistance",
+        ) from None
     spc = SAMPLES_PER_CYCLE
     energized = [k for k, u in enumerate(body.units) if u.state == "energized"]
     last_pole = float(res.closing_time_s[0, energized].max())

@@ -174,3 +174,20 @@ def test_over_budget_names_the_knobs(monkeypatch: pytest.MonkeyPatch) -> None:
         # the duration named fits
         body["options"]["duration_s"] = float(knobs["options.duration_s"].split()[1])
         assert c.post(URL, json=body).status_code == 200
+
+
+def test_source_and_timing_errors_name_fields(client: TestClient) -> None:
+    body = copy.deepcopy(NETWORK_REQUESTS["northgate_ring_reclose"])
+    body["source"] = {"kind": "fault_level", "fault_mva": 1.0, "x_over_r": 5}
+    doc = _problem(client.post(URL, json=body))
+    # 2 x the summed 3250 kVA: the bound the single-unit operations apply to one unit
+    assert doc["errors"][0]["field"] == "source.fault_mva"
+    assert "6.5 MVA" in doc["errors"][0]["allowed"]
+    body["source"] = {"kind": "impedance", "resistance_ohm": 40.0, "reactance_ohm": 0.0}
+    doc = _problem(client.post(URL, json=body))
+    assert doc["errors"][0]["field"] == "source.resistance_ohm"
+    body = copy.deepcopy(NETWORK_REQUESTS["northgate_ring_reclose"])
+    body["units"][2]["pole_closing_ms"] = [0.0, 0.0, 999.0]
+    body["options"]["duration_s"] = 0.5
+    doc = _problem(client.post(URL, json=body))
+    assert doc["errors"][0]["field"] == "units.2.pole_closing_ms"
