@@ -40,8 +40,10 @@ def test_one_unit_matches_the_single_unit_peak(client: TestClient) -> None:
 
     The solvers agree to ~1e-11 on the waveform; the readings differ: /v1/inrush/peak reads the
     first peak exactly (re-simulating around it on a finer step), this operation by the parabola
-    through the largest of 128 samples a cycle, which is within 1e-3 of an inrush peak (the
-    parabola's error on a peak a few samples wide)."""
+    through the largest of 128 samples a cycle and its neighbours. Measured 1.5e-7 apart at 30
+    degrees (1.5e-8 at 0, 1.2e-9 at 75); 1e-5 allows for the parabola's error on a narrower
+    peak without hiding a solver difference (a different source or residual flux moves the
+    peak by percent)."""
     t = _pad(1500)
     res = [0.8, -0.4, -0.4]
     peak = client.post(
@@ -65,7 +67,7 @@ def test_one_unit_matches_the_single_unit_peak(client: TestClient) -> None:
     ).json()
     want = max(p["first_peak_a"] for p in peak["simulated"])
     got = net["units"][0]["current"]["first_peak_a"]
-    assert got == pytest.approx(want, rel=1e-3)
+    assert got == pytest.approx(want, rel=1e-5)
     assert net["source"]["first_peak_a"] == pytest.approx(got, rel=1e-9)
 
 
