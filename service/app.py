@@ -17,7 +17,16 @@ from fastapi.staticfiles import StaticFiles
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
 from service import auth, compute, observability, problems, warmup
-from service.routers import clearance, dip, inrush, mitigation, sheet, sheet_verdicts, statistics
+from service.routers import (
+    clearance,
+    dip,
+    inrush,
+    mitigation,
+    network,
+    sheet,
+    sheet_verdicts,
+    statistics,
+)
 from service.settings import KeySourceError, get_settings
 from service.version import API_VERSION, PACKAGE_VERSION
 
@@ -233,6 +242,7 @@ def create_app() -> FastAPI:
     app.include_router(clearance.router)
     app.include_router(dip.router)
     app.include_router(mitigation.router)
+    app.include_router(network.router)
     app.include_router(sheet.router)
     app.include_router(sheet_verdicts.router)
 

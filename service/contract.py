@@ -18,6 +18,7 @@ from service.examples import (
     DIP_REQUESTS,
     ENVELOPE_REQUESTS,
     MITIGATION_REQUESTS,
+    NETWORK_REQUESTS,
     PEAK_BATCH_REQUESTS,
     PEAK_REQUESTS,
     SHEET_REQUESTS,
@@ -46,6 +47,7 @@ def example_pairs() -> dict[str, dict[str, Any]]:
         ("generator_dip", "/v1/generator-dip", DIP_REQUESTS),
         ("inrush_statistics", "/v1/inrush/statistics", STATISTICS_REQUESTS),
         ("mitigation", "/v1/mitigation", MITIGATION_REQUESTS),
+        ("network_energization", "/v1/network-energization", NETWORK_REQUESTS),
     ):
         for name, body in requests.items():
             resp = client.post(path, json=body)

@@ -370,3 +370,78 @@ MITIGATION_EXAMPLES = {
         "value": MITIGATION_REQUESTS["northgate_main_unit"],
     },
 }
+
+
+# The plant's 13.8 kV ring (invented): three pad-mount units with grounded-wye primaries, fed
+# from the same 250 MVA utility bus, and the ring's own feeder relay (invented settings).
+def _pad_mount(kva: float, x_over_r: float) -> dict[str, Any]:
+    return {
+        "rating_kva": kva,
+        "phases": 3,
+        "frequency_hz": 60,
+        "energized_winding": {
+            "voltage_kv": 13.8,
+            "connection": "wye_grounded",
+            "position": "outer",
+        },
+        "impedance_percent": 5.75,
+        "x_over_r": x_over_r,
+        "no_load_current_percent": 1.0,
+        "core": {"material": "grain_oriented"},
+    }
+
+
+# The ring's far end, fed through the tie cable (invented demo value): a weak, resistive supply,
+# where the sympathetic interaction shows.
+RING_FAR_END: dict[str, Any] = {"kind": "fault_level", "fault_mva": 40, "x_over_r": 3}
+RING_RELAY: dict[str, Any] = {
+    "kind": "relay",
+    "name": "51 ring",
+    "standard": "ieee_c37_112",
+    "curve": "very_inverse",
+    "pickup_a": 300,
+    "time_dial": 2.0,
+    "instantaneous_pickup_a": 2000,
+}
+NETWORK_REQUESTS: dict[str, dict[str, Any]] = {
+    "northgate_ring_reclose": {
+        "bus_voltage_kv": 13.8,
+        "frequency_hz": 60,
+        "source": UTILITY,
+        "closing_angle_deg": 0.0,
+        "units": [
+            {"name": "pad 1 (1500 kVA)", "transformer": _pad_mount(1500, 6)},
+            {"name": "pad 2 (1000 kVA)", "transformer": _pad_mount(1000, 5)},
+            {"name": "pad 3 (750 kVA)", "transformer": _pad_mount(750, 4)},
+        ],
+        "devices": [RING_RELAY],
+        "options": {"duration_s": 1.0},
+    },
+    "northgate_ring_sympathetic": {
+        "bus_voltage_kv": 13.8,
+        "frequency_hz": 60,
+        "source": RING_FAR_END,
+        "closing_angle_deg": 0.0,
+        "units": [
+            {"name": "pad 1 (1500 kVA)", "transformer": _pad_mount(1500, 6)},
+            {
+                "name": "pad 2 (1000 kVA)",
+                "transformer": _pad_mount(1000, 5),
+                "state": "in_service",
+            },
+        ],
+        "options": {"duration_s": 2.0},
+    },
+}
+NETWORK_EXAMPLES = {
+    "northgate_ring_reclose": {
+        "summary": "Demo: three pad-mount units on the 13.8 kV ring picked up together after "
+        "a reclose",
+        "value": NETWORK_REQUESTS["northgate_ring_reclose"],
+    },
+    "northgate_ring_sympathetic": {
+        "summary": "Demo: the 1500 kVA unit energised beside the 1000 kVA unit in service, at "
+        "the ring's far end",
+        "value": NETWORK_REQUESTS["northgate_ring_sympathetic"],
+    },
+}

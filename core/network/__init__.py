@@ -11,6 +11,7 @@ from core.network.solver import (
     Source,
     Unit,
     simulate_network,
+    step_plan,
 )
 
-__all__ = ["Breaker", "BusLoad", "NetworkResult", "Source", "Unit", "simulate_network"]
+__all__ = ["Breaker", "BusLoad", "NetworkResult", "Source", "Unit", "simulate_network", "step_plan"]

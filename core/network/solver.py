@@ -113,6 +113,7 @@ __all__ = [
     "Source",
     "Unit",
     "simulate_network",
+    "step_plan",
 ]
 
 # Step bounds per cycle, the rule of core.energize (this project's choice): the floor keeps
@@ -497,6 +498,76 @@ def _check_unit(k: int, unit: Unit, source: Source) -> str:
     return conn
 
 
+def step_plan(
+    source: Source,
+    units: Sequence[Unit],
+    duration_s: float,
+    load: BusLoad | None = None,
+    samples_per_cycle: int = 128,
+) -> tuple[int, int, int]:
+    """The internal step of :func:`simulate_network`: decimation, steps per cycle, step count.
+
+    Parameters
+    ----------
+    source : Source
+        The source [-].
+    units : sequence of Unit
+        The transformers on the bus [-].
+    duration_s : float
+        Simulated time from t = 0 [s].
+    load : BusLoad or None
+        The bus load, None for none [-].
+    samples_per_cycle : int
+        Output samples per cycle [-].
+
+    Returns
+    -------
+    tuple of int
+        (internal steps per output sample, internal steps per cycle, internal steps) [-].
+
+    Raises
+    ------
+    ParameterError
+        When the fastest saturated loop would need more than MAX_STEPS_PER_CYCLE steps a cycle.
+
+    Notes
+    -----
+    spc = samples_per_cycle*ceil(need/samples_per_cycle), need = max(128, 4/(f*tau_min)),
+    tau_min the shortest of (L_air + L_s)/(R_w + 2*R_s + k*R_ins) over the units (k = 3 for a
+    delta, 1 otherwise) and (L_L + L_s)/(R_L + R_s) for the load; steps =
+    round(duration*f*samples_per_cycle)*decimation (at least one sample). The same rule as
+    :mod:`core.energization.energize_plan`, over every loop of the network; the work estimate
+    (:mod:`core.cost`) counts with it.
+
+    References
+    ----------
+    This project's step rule (RK4 error small on the smooth stretches, four steps per saturated
+    time constant).
+    """
+    f = float(source.frequency_hz)
+    r_s, l_s = float(source.resistance_ohm), float(source.inductance_h)
+    taus = [math.inf]
+    for u in units:
+        c = u.circuit
+        conn = u.connection or c.connection
+        k_line = 3.0 if conn == "delta" else 1.0
+        r = c.winding_resistance_ohm + 2.0 * r_s + k_line * u.breaker.insertion_resistance_ohm
+        taus.append((c.air_core_inductance_h + l_s) / max(r, 1e-300))
+    if load is not None:
+        taus.append((load.inductance_h + l_s) / max(load.resistance_ohm + r_s, 1e-300))
+    need = max(float(MIN_STEPS_PER_CYCLE), 4.0 / (f * min(taus)))
+    if need > MAX_STEPS_PER_CYCLE:
+        raise ParameterError(
+            "resistance_ohm",
+            min(taus),
+            f"a saturated-loop time constant of at least {4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s",
+        )
+    decimate = max(1, math.ceil(need / samples_per_cycle))
+    spc = samples_per_cycle * decimate
+    n_steps = max(decimate, round(duration_s * f * samples_per_cycle) * decimate)
+    return decimate, spc, n_steps
+
+
 def simulate_network(
     source: Source,
     units: Sequence[Unit],
@@ -604,25 +675,7 @@ def simulate_network(
         if np.any(np.abs(residual[:, k]) > 5.0):
             raise ParameterError(name, float(np.abs(residual[:, k]).max()), "in [-5, 5]")
 
-    # step plan: the rule of core.energize, over every loop of the network
-    taus = [math.inf]
-    for u, conn in zip(units, connections, strict=True):
-        c = u.circuit
-        k_line = 3.0 if conn == "delta" else 1.0
-        r = c.winding_resistance_ohm + 2.0 * r_s + k_line * u.breaker.insertion_resistance_ohm
-        taus.append((c.air_core_inductance_h + l_s) / max(r, 1e-300))
-    if load is not None:
-        taus.append((l_l + l_s) / max(r_l + r_s, 1e-300))
-    need = max(float(MIN_STEPS_PER_CYCLE), 4.0 / (f * min(taus)))
-    if need > MAX_STEPS_PER_CYCLE:
-        raise ParameterError(
-            "resistance_ohm",
-            min(taus),
-            f"a saturated-loop time constant of at least {4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s",
-        )
-    decimate = max(1, math.ceil(need / samples_per_cycle))
-    spc = samples_per_cycle * decimate
-    n_steps = max(decimate, round(duration_s * f * samples_per_cycle) * decimate)
+    decimate, spc, n_steps = step_plan(source, units, duration_s, load, samples_per_cycle)
     h = 1.0 / (f * spc)
     work = n * n_units * n_steps
     if max_steps is not None and work > max_steps:

@@ -117,6 +117,41 @@ def _instantaneous(ev: coordination.DeviceEvaluation) -> InstantaneousCheckOut |
     )
 
 
+def ride_through_out(ev: coordination.DeviceEvaluation) -> RideThroughOut:
+    """The ride-through verdict of one device as the response gives it."""
+    rt = ev.ride_through
+    m = convert.maybe
+    return RideThroughOut(
+        trips=rt.trips,
+        trip_time_s=rt.trip_time_s,
+        margin_ratio=m(rt.margin_ratio),
+        margin_time_s=rt.margin_time_s,
+        line=rt.line,
+        compared_current=rt.compared_current,
+        time_margin_ratio=m(rt.time_margin_ratio),
+        instantaneous_margin_ratio=(
+            m(rt.instantaneous_margin_ratio) if rt.instantaneous_margin_ratio is not None else None
+        ),
+        instantaneous_check=_instantaneous(ev),
+    )
+
+
+def points_out(ev: coordination.DeviceEvaluation) -> list[PointOut]:
+    """The common-practice inrush points against one device, as the response gives them."""
+    m = convert.maybe
+    return [
+        PointOut(
+            multiple_x_rated=p.multiple_x_rated,
+            current_a=p.current_a,
+            time_s=p.time_s,
+            device_time_s=m(p.device_time_s),
+            ratio=m(p.ratio),
+            above=p.above,
+        )
+        for p in ev.points
+    ]
+
+
 def _response(
     study: protection_study.ClearanceStudy, assumptions: list[Assumption]
 ) -> ClearanceResponse:
@@ -124,7 +159,6 @@ def _response(
     m = convert.maybe
     devices = []
     for ev in study.evaluation.devices:
-        rt = ev.ride_through
         pr = ev.protection
         w = windows.get(ev.device)
         devices.append(
@@ -133,21 +167,7 @@ def _response(
                 kind=ev.kind,
                 suitable=ev.suitable,
                 margin_ratio=m(ev.margin_ratio) if ev.margin_ratio is not None else None,
-                ride_through=RideThroughOut(
-                    trips=rt.trips,
-                    trip_time_s=rt.trip_time_s,
-                    margin_ratio=m(rt.margin_ratio),
-                    margin_time_s=rt.margin_time_s,
-                    line=rt.line,
-                    compared_current=rt.compared_current,
-                    time_margin_ratio=m(rt.time_margin_ratio),
-                    instantaneous_margin_ratio=(
-                        m(rt.instantaneous_margin_ratio)
-                        if rt.instantaneous_margin_ratio is not None
-                        else None
-                    ),
-                    instantaneous_check=_instantaneous(ev),
-                ),
+                ride_through=ride_through_out(ev),
                 protection=ProtectionOut(
                     status=pr.status,
                     clearing_curve=pr.clearing_curve,
@@ -160,17 +180,7 @@ def _response(
                 )
                 if pr is not None
                 else None,
-                common_practice_points=[
-                    PointOut(
-                        multiple_x_rated=p.multiple_x_rated,
-                        current_a=p.current_a,
-                        time_s=p.time_s,
-                        device_time_s=m(p.device_time_s),
-                        ratio=m(p.ratio),
-                        above=p.above,
-                    )
-                    for p in ev.points
-                ],
+                common_practice_points=points_out(ev),
                 coordination_window=WindowOut(
                     setting_range=list(w.setting_range),
                     lowest_riding_through=w.lowest_riding_through,

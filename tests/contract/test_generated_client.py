@@ -43,6 +43,7 @@ from service.examples import (
     DIP_REQUESTS,
     ENVELOPE_REQUESTS,
     MITIGATION_REQUESTS,
+    NETWORK_REQUESTS,
     PEAK_BATCH_REQUESTS,
     PEAK_REQUESTS,
     SHEET_REQUESTS,
@@ -186,8 +187,14 @@ def _every_operation(client: Any) -> None:
         )  # fmt: skip
     for name, body in MITIGATION_REQUESTS.items():
         _json_op(client, "mitigation.mitigation", "MitigationRequest", body, f"mitigation.{name}")
+    for name, body in NETWORK_REQUESTS.items():
+        net = _json_op(
+            client, "network.network_energization", "NetworkRequest", body,
+            f"network_energization.{name}",
+        )  # fmt: skip
+        assert net.source.first_peak_a > 0
     called |= {"inrush_peak", "inrush_envelope", "clearance", "generator_dip"}
-    called |= {"inrush_statistics", "mitigation"}
+    called |= {"inrush_statistics", "mitigation", "network_energization"}
 
     # the figures: generated, left unparsed (image/svg+xml); the bytes are the SVG
     for api, model, body in (

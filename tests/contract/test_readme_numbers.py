@@ -83,3 +83,40 @@ def test_clearance_table() -> None:
     low, high = window["lowest_riding_through"], window["highest_protecting"]
     assert f"time dial window {low:.1f} – {high:.1f}" in README
     assert f"{body['damage']['fault_current_a']:.0f} A;" in README
+
+
+def test_network_numbers() -> None:
+    body = _response("network_energization.northgate_ring_reclose")
+    src = body["source"]
+    assert (
+        f"{src['first_peak_a']:.0f} A = {src['first_peak_x_rated']:.1f} × the summed rated "
+        f"current ({body['energized_rated_current_a']:.1f} A)"
+    ) in README
+    peaks = " / ".join(f"{u['current']['first_peak_a']:.0f}" for u in body["units"])
+    assert f"| first peaks of the units | {peaks} A |" in README
+    rule = body["rule_of_thumb"][0]
+    assert (rule["multiple_x_rated"], rule["time_s"]) == (12.0, 0.1)
+    assert f"| {rule['simulated_equivalent_rms_a']:.0f} A |" in README
+    assert (
+        f"{rule['current_a']:.0f} A (the simulation is {rule['simulated_over_rule']:.2f}" in README
+    )
+    assert f"{body['bus_voltage']['min_percent']:.1f} % of nominal" in README
+    assert (
+        f"rides through, margin {body['devices'][0]['ride_through']['margin_ratio']:.2f}" in README
+    )
+    body = _response("network_energization.northgate_ring_sympathetic")
+    e, s = body["units"][0], body["units"][1]["sympathetic"]
+    c = e["current"]
+    assert f"{c['first_peak_a']:.0f} A = {c['first_peak_x_rated']:.2f} × rated" in README
+    assert (
+        f"{s['peak_a']:.1f} A = {s['peak_x_rated']:.2f} × its rated, in cycle {s['peak_cycle']}"
+    ) in README
+    assert (
+        f"from {s['above_from_s']:.3f} s to {s['above_until_s']:.3f} s "
+        f"({s['duration_above_s']:.2f} s)"
+    ) in README
+    bus = body["bus_voltage"]
+    assert (
+        f"{bus['min_percent']:.1f} % in cycle {bus['min_cycle']}; from cycle "
+        f"{bus['recovered_cycle']}"
+    ) in README

@@ -22,6 +22,7 @@ JSON_POSTS = [
     "/v1/generator-dip",
     "/v1/generator-dip/figure",
     "/v1/mitigation",
+    "/v1/network-energization",
 ]
 
 

@@ -1,0 +1,501 @@
+"""``/v1/network-energization``: several units on one bus, energised together or beside others."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from typing import Annotated
+
+import numpy as np
+from fastapi import APIRouter, Body
+from fastapi.responses import Response
+
+from core import cost
+from core.energization import waveform
+from core.energization.switching_event import RESIDUAL_DEFAULT_SOURCE, switching_event
+from core.errors import ParameterError
+from core.network import Breaker, BusLoad, NetworkResult, Source, Unit, simulate_network
+from core.protection import coordination, device_operation
+from core.protection.inrush_curves import inrush_from_waveform
+from core.transformer import circuit_model, plausibility
+from service import budget, compute, convert
+from service.deps import SettingsDep
+from service.examples import NETWORK_EXAMPLES
+from service.models.common import Assumption, FaultLevelSource, ImpedanceSource, Method
+from service.models.network import (
+    RECOVERY_PERCENT,
+    SYMPATHETIC_FRACTION,
+    VOLTAGE_TOLERANCE,
+    BusVoltageOut,
+    CurrentOut,
+    FeederDeviceOut,
+    NetworkRequest,
+    NetworkResponse,
+    RuleOfThumbOut,
+    SympatheticOut,
+    UnitOut,
+)
+from service.problems import PROBLEM_RESPONSES
+from service.routers import clearance
+from service.settings import Settings
+
+router = APIRouter(
+    prefix="/v1/network-energization",
+    tags=["network"],
+    responses={**PROBLEM_RESPONSES, **compute.BUSY_RESPONSES},
+)
+NETWORK_METHOD = (
+    "three-phase network in the time domain (core.network): ideal source EMFs behind the "
+    "source's R-L, a constant-impedance bus load, each unit's energised winding (its "
+    "magnetising curve and winding resistance from the nameplate, as for /v1/inrush) behind its "
+    "own breaker; units in service start in their phasor steady state; classical Runge-Kutta "
+    "at a fixed step; feeder devices judged against the source current as in /v1/clearance"
+)
+LINES = ("A", "B", "C")
+FIRST_PEAK_CYCLES = 2.0
+SAMPLES_PER_CYCLE = 128
+EMF_CONVENTION = (
+    "e_k = sqrt(2)*V_bus/sqrt(3)*sin(omega*t + closing_angle + theta_k), theta = 0, -120, "
+    "+120 deg; ideal EMFs behind the source impedance, zero-sequence impedance equal to the "
+    "positive-sequence one"
+)
+
+
+def _source(body: NetworkRequest) -> tuple[Source, list[Assumption]]:
+    v = body.bus_voltage_kv * 1e3
+    f = body.frequency_hz
+    src = body.source
+    if isinstance(src, FaultLevelSource):
+        s = Source.from_fault_level(v, f, src.fault_mva * 1e6, src.x_over_r)
+        how = "from source.fault_mva and source.x_over_r: Z = V^2/S, R = Z/sqrt(1 + (X/R)^2)"
+    elif isinstance(src, ImpedanceSource):
+        s = Source(v, f, src.resistance_ohm, src.reactance_ohm / (2.0 * math.pi * f))
+        how = "given (source.reactance_ohm / omega)"
+    else:
+        s = Source(v, f)
+        how = "given: ideal" if src is not None else "default: ideal source"
+    return s, [
+        Assumption(name="source_emf", value=EMF_CONVENTION, unit="-", source="model convention"),
+        Assumption(name="source.resistance_ohm", value=s.resistance_ohm, unit="ohm", source=how),
+        Assumption(name="source.inductance_h", value=s.inductance_h, unit="H", source=how),
+    ]
+
+
+def _units(
+    body: NetworkRequest,
+) -> tuple[list[Unit], list[float], list[Assumption], list[tuple[str, str]]]:
+    """The core units, their rated currents, the assumptions and the circuits' warnings."""
+    out: list[Unit] = []
+    rated: list[float] = []
+    notes: list[Assumption] = []
+    warns: list[tuple[str, str]] = []
+    v_bus = body.bus_voltage_kv
+    for k, u in enumerate(body.units):
+        t = u.transformer
+        where = f"units.{k}.transformer"
+        if t.phases != 3:
+            raise ParameterError(f"{where}.phases", t.phases, "3: the bus is three-phase")
+        if abs(t.frequency_hz - body.frequency_hz) > 1e-9 * body.frequency_hz:
+            raise ParameterError(
+                f"{where}.frequency_hz", t.frequency_hz, f"{body.frequency_hz:g} Hz, the bus's"
+            )
+        v = t.energized_winding.voltage_kv
+        if abs(v - v_bus) > VOLTAGE_TOLERANCE * v_bus:
+            raise ParameterError(
+                f"{where}.energized_winding.voltage_kv",
+                v,
+                f"within {VOLTAGE_TOLERANCE:.0%} of bus_voltage_kv = {v_bus:g} kV "
+                f"([{v_bus * (1 - VOLTAGE_TOLERANCE):g}, {v_bus * (1 + VOLTAGE_TOLERANCE):g}] "
+                "kV, the usual off-load tap range, common practice)",
+            )
+        circuit = circuit_model.equivalent_circuit(convert.nameplate_of(t), None)
+        notes += [
+            Assumption(name=f"{u.name}.{a.name}", value=a.value, unit=a.unit, source=a.source)
+            for a in convert.assumptions_out(circuit.assumptions)
+        ]
+        notes.append(
+            Assumption(
+                name=f"{u.name}.nominal_flux_wb",
+                value=circuit.nominal_flux_wb,
+                unit="Wb-turn",
+                source="peak flux linkage of a winding at rated voltage",
+            )
+        )
+        notes.append(
+            Assumption(
+                name=f"{u.name}.knee_flux_wb",
+                value=circuit.knee_flux_wb,
+                unit="Wb-turn",
+                source="knee of the magnetising curve (B_S/B_N x nominal)",
+            )
+        )
+        warns += [(c, f"{u.name}: {m}") for c, m in circuit.warnings]
+        rated.append(circuit.rated_line_current_a)
+        if u.state == "in_service":
+            out.append(Unit(circuit, in_service=True))
+            notes.append(
+                Assumption(
+                    name=f"{u.name}.residual_flux_pu",
+                    value="steady state",
+                    unit="-",
+                    source="in service: starts in its steady state, residual flux not used",
+                )
+            )
+            continue
+        delay = np.asarray(u.pole_closing_ms or [0.0, 0.0, 0.0], dtype=float) * 1e-3
+        if float(delay.max()) > body.options.duration_s:
+            raise ParameterError(
+                f"units.{k}.pole_closing_ms",
+                u.pole_closing_ms,
+                f"at most options.duration_s = {body.options.duration_s * 1e3:g} ms",
+            )
+        res = None if u.residual_flux_pu is None else np.asarray(u.residual_flux_pu, dtype=float)
+        event = switching_event(circuit, body.closing_angle_deg, res, delay)
+        out.append(
+            Unit(
+                circuit,
+                breaker=Breaker(closing_time_s=np.asarray(event.pole_delay_s, dtype=float)),
+                residual_flux_pu=np.asarray(event.residual_flux_pu, dtype=float),
+            )
+        )
+        notes.append(
+            Assumption(
+                name=f"{u.name}.residual_flux_pu",
+                value=[float(x) for x in event.residual_flux_pu],
+                unit="pu of nominal peak flux",
+                source="given" if res is not None else RESIDUAL_DEFAULT_SOURCE,
+            )
+        )
+        notes.append(
+            Assumption(
+                name=f"{u.name}.pole_closing_ms",
+                value=[float(x) * 1e3 for x in delay],
+                unit="ms",
+                source="given" if u.pole_closing_ms is not None else "default 0",
+            )
+        )
+    return out, rated, notes, warns
+
+
+def _check_source(body: NetworkRequest, source: Source) -> None:
+    """Refuse a source that cannot carry the units' summed rating at any voltage (the bound
+    the other operations apply to one unit: :data:`plausibility.SOURCE_STRENGTH_FACTOR`)."""
+    src = body.source
+    if not isinstance(src, FaultLevelSource | ImpedanceSource):
+        return
+    v = body.bus_voltage_kv * 1e3
+    w = 2.0 * math.pi * body.frequency_hz
+    s_sc = plausibility.short_circuit_power_va(v, source.resistance_ohm, source.inductance_h * w)
+    total_va = sum(u.transformer.rating_kva for u in body.units) * 1e3
+    need = plausibility.SOURCE_STRENGTH_FACTOR * total_va
+    if s_sc >= need * (1.0 - 1e-9):
+        return
+    why = (
+        f"at least {plausibility.SOURCE_STRENGTH_FACTOR:g} x the units' summed rating of "
+        f"{total_va / 1e6:.6g} MVA: a weaker source cannot carry their rated load at any "
+        "voltage (it delivers at most half its short-circuit power into a load)"
+    )
+    if isinstance(src, FaultLevelSource):
+        raise ParameterError(
+            "source.fault_mva", src.fault_mva, f"{need / 1e6:.6g} MVA or more, {why}"
+        )
+    z_max = v * v / need
+    name = "reactance_ohm" if src.reactance_ohm >= src.resistance_ohm else "resistance_ohm"
+    raise ParameterError(
+        f"source.{name}",
+        getattr(src, name),
+        f"a source impedance sqrt(resistance_ohm^2 + reactance_ohm^2) of at most {z_max:.6g} "
+        f"ohm, {why}",
+    )
+
+
+def _load(body: NetworkRequest) -> BusLoad | None:
+    ld = body.bus_load
+    if ld is None:
+        return None
+    return BusLoad.from_power(
+        body.bus_voltage_kv * 1e3, body.frequency_hz, ld.active_kw * 1e3, ld.reactive_kvar * 1e3
+    )
+
+
+def _refined_peak(a: np.ndarray, j: int) -> float:
+    """|i| at sample j refined by the parabola through it and its neighbours (as
+    :func:`core.energization.waveform.cycle_peaks` reads a peak)."""
+    if 0 < j < a.size - 1:
+        y0, y1, y2 = float(a[j - 1]), float(a[j]), float(a[j + 1])
+        den = y0 - 2.0 * y1 + y2
+        if den < 0.0:
+            return y1 - 0.125 * (y2 - y0) ** 2 / den
+    return float(a[j])
+
+
+def _current(
+    time: np.ndarray,
+    i: np.ndarray,
+    spc: int,
+    rated: float | None,
+    first_end_s: float,
+    harmonic_cycles: int,
+) -> CurrentOut:
+    """Readings of three line currents i, shape (3, n)."""
+    dt = float(time[1] - time[0])
+    window = int(np.searchsorted(time, first_end_s + 1e-12 * first_end_s, side="right"))
+    seg = np.abs(i[:, :window])
+    line = int(np.argmax(seg.max(axis=1)))
+    first = _refined_peak(np.abs(i[line]), int(np.argmax(seg[line])))
+    cyc = waveform.cycle_peaks(i, spc)
+    n_cyc = cyc.shape[1]
+    body = i[:, : n_cyc * spc].reshape(3, n_cyc, spc)
+    means = body.mean(axis=2)
+    times = [t for t in waveform.STANDARD_TIMES_S if t <= time[-1] * (1 + 1e-12)]
+    worst = int(np.argmax(cyc.max(axis=1)))
+    ieq = waveform.equivalent_rms(i[worst], dt, times) if times else np.zeros(0)
+    h2 = waveform.harmonic_ratio(i, spc, 2)
+    h2_min = np.min(np.where(np.isnan(h2), np.inf, h2), axis=0)
+    h2_min = np.where(np.isfinite(h2_min), h2_min, np.nan)
+    head = h2_min[:harmonic_cycles]
+    head = head[np.isfinite(head)]
+    return CurrentOut(
+        first_peak_a=first,
+        first_peak_x_rated=first / rated if rated else None,
+        first_peak_line=LINES[line],
+        cycle_peaks_a=convert.floats(cyc.max(axis=0)),
+        cycle_mean_a={LINES[k]: convert.floats(means[k]) for k in range(3)},
+        equivalent_rms_a=convert.floats(ieq),
+        second_harmonic_ratio=[convert.maybe(x) for x in h2_min],
+        min_second_harmonic_ratio=float(head.min()) if head.size else None,
+    )
+
+
+def _sympathetic(cyc: np.ndarray, rated: float, f: float, duration: float) -> SympatheticOut:
+    """cyc: per-cycle peaks per line, shape (3, n_cycles)."""
+    per = cyc.max(axis=0)
+    k = int(np.argmax(per))
+    line = int(np.argmax(cyc[:, k]))
+    peak = float(per[k])
+    above = np.nonzero(per >= SYMPATHETIC_FRACTION * peak)[0]
+    start = float(above[0]) / f
+    until = min(float(above[-1] + 1) / f, duration)
+    if above[-1] == per.size - 1:
+        until = duration
+    return SympatheticOut(
+        peak_a=peak,
+        peak_x_rated=peak / rated,
+        peak_cycle=k,
+        line=LINES[line],
+        fraction_of_peak=SYMPATHETIC_FRACTION,
+        above_from_s=start,
+        above_until_s=until,
+        duration_above_s=until - start,
+        steady_peak_a=float(per[0]),
+    )
+
+
+def _bus(res: NetworkResult, v_nom: float, spc: int, f: float) -> BusVoltageOut:
+    v = res.bus_voltage_v[0]
+    n_cyc = (v.shape[1] - 1) // spc
+    rms = np.sqrt(np.mean(v[:, : n_cyc * spc].reshape(3, n_cyc, spc) ** 2, axis=2))
+    pct = 100.0 * rms.min(axis=0) / v_nom
+    k = int(np.argmin(pct))
+    below = np.nonzero(pct < RECOVERY_PERCENT)[0]
+    if below.size == 0:
+        rec: int | None = 0
+    elif below[-1] + 1 < n_cyc:
+        rec = int(below[-1] + 1)
+    else:
+        rec = None
+    return BusVoltageOut(
+        nominal_phase_voltage_v=v_nom,
+        cycle_rms_percent=convert.floats(pct),
+        min_percent=float(pct[k]),
+        min_cycle=k,
+        recovery_percent=RECOVERY_PERCENT,
+        recovered_cycle=rec,
+        recovered_s=rec / f if rec is not None else None,
+    )
+
+
+def _estimate(
+    source: Source, units: list[Unit], load: BusLoad | None, body: NetworkRequest
+) -> budget.Estimate:
+    def estimate(o: Mapping[str, float]) -> cost.Work:
+        r = budget.replaced
+        n = int(r(o, "units", len(units)))
+        return cost.network_work(
+            source,
+            units[:n],
+            r(o, "options.duration_s", body.options.duration_s),
+            load,
+            devices=int(r(o, "devices", len(body.devices))),
+        )
+
+    return estimate
+
+
+def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
+    f = body.frequency_hz
+    duration = body.options.duration_s
+    if duration * f < 2.0:
+        raise ParameterError(
+            "options.duration_s", duration, f"at least two cycles, {2.0 / f:.4g} s at {f:g} Hz"
+        )
+    convert.check_work(settings, 3 * (len(body.units) + 1), f, duration, SAMPLES_PER_CYCLE)
+    source, assumptions = _source(body)
+    _check_source(body, source)
+    units, rated, notes, warns = _units(body)
+    assumptions += notes
+    load = _load(body)
+    knobs = [
+        budget.Knob("options.duration_s", duration, 0.05),
+        budget.Knob("units", len(units), 1, integer=True),
+    ]
+    if body.devices:
+        knobs.append(budget.Knob("devices", len(body.devices), 0, integer=True))
+    try:
+        budget.enforce(_estimate(source, units, load, body), knobs, settings.max_request_steps)
+        res = simulate_network(
+            source,
+            units,
+            closing_angle_deg=body.closing_angle_deg,
+            duration_s=duration,
+            load=load,
+            max_steps=settings.max_total_steps // 3,  # unit-steps: three windings each
+        )
+    except ParameterError as exc:
+        if exc.parameter != "resistance_ohm":
+            raise
+        raise ParameterError(
+            "source",
+            f"R = {source.resistance_ohm:.6g} ohm, X = "
+            f"{source.inductance_h * 2.0 * math.pi * f:.6g} ohm",
+            f"a source whose saturated loops keep {exc.allowed} (the step would be too short): "
+            "a larger X/R or a smaller resistance",
+        ) from None
+    spc = SAMPLES_PER_CYCLE
+    energized = [k for k, u in enumerate(body.units) if u.state == "energized"]
+    last_pole = float(res.closing_time_s[0, energized].max())
+    first_end = last_pole + FIRST_PEAK_CYCLES / f
+    hc = body.options.harmonic_cycles
+    i_rated_sum = float(sum(rated[k] for k in energized))
+    out_units = []
+    for k, u in enumerate(body.units):
+        line = res.line_current_a[0, k]
+        sym = None
+        if u.state == "in_service":
+            sym = _sympathetic(waveform.cycle_peaks(line, spc), rated[k], f, float(res.time_s[-1]))
+        out_units.append(
+            UnitOut(
+                name=u.name,
+                state=u.state,
+                rated_current_a=rated[k],
+                current=_current(res.time_s, line, spc, rated[k], first_end, hc),
+                sympathetic=sym,
+            )
+        )
+    src_i = res.source_current_a[0]
+    src_out = _current(res.time_s, src_i, spc, i_rated_sum, first_end, hc)
+    curves = inrush_from_waveform(res.time_s, src_i, f, rated_current_a=i_rated_sum, lines=LINES)
+    rule = []
+    worst = int(np.argmax(np.abs(src_i).max(axis=1)))
+    dt = float(res.time_s[1] - res.time_s[0])
+    for mult, t_pt in device_operation.INRUSH_POINTS:
+        sim = (
+            float(waveform.equivalent_rms(src_i[worst], dt, [t_pt])[0])
+            if t_pt <= res.time_s[-1]
+            else None
+        )
+        cur = mult * i_rated_sum
+        rule.append(
+            RuleOfThumbOut(
+                multiple_x_rated=mult,
+                time_s=t_pt,
+                current_a=cur,
+                simulated_equivalent_rms_a=sim,
+                simulated_over_rule=sim / cur if sim is not None else None,
+            )
+        )
+    devices = []
+    if body.devices:
+        ev = coordination.evaluate(
+            curves, [convert.device_of(d, n) for n, d in enumerate(body.devices)], None
+        )
+        assumptions += convert.assumptions_out(ev.assumptions)
+        warns += list(ev.warnings)
+        for e in ev.devices:
+            devices.append(
+                FeederDeviceOut(
+                    name=e.device,
+                    kind=e.kind,
+                    ride_through=clearance.ride_through_out(e),
+                    common_practice_points=clearance.points_out(e),
+                )
+            )
+    for uo in out_units:
+        s = uo.sympathetic
+        if s is not None and s.above_until_s >= duration:
+            warns.append(
+                (
+                    "sympathetic_not_decayed",
+                    f"{uo.name}: the sympathetic current is still above "
+                    f"{SYMPATHETIC_FRACTION:.0%} of its peak at the record's end; lengthen "
+                    "options.duration_s",
+                )
+            )
+    bus = _bus(res, body.bus_voltage_kv * 1e3 / math.sqrt(3.0), spc, f)
+    if load is not None:
+        assumptions.append(
+            Assumption(
+                name="bus_load",
+                value=[load.resistance_ohm, load.inductance_h],
+                unit="ohm, H per phase (series R-L, wye-grounded)",
+                source="from bus_load: the impedance drawing active_kw, reactive_kvar at "
+                "bus_voltage_kv",
+            )
+        )
+    assumptions.append(
+        Assumption(
+            name="sympathetic_fraction",
+            value=SYMPATHETIC_FRACTION,
+            unit="-",
+            source="modelling choice: sympathetic current timed while above half its peak",
+        )
+    )
+    return NetworkResponse(
+        frequency_hz=f,
+        closing_angle_deg=body.closing_angle_deg,
+        duration_s=float(res.time_s[-1]),
+        steps_per_cycle=res.steps_per_cycle,
+        energized_rated_current_a=i_rated_sum,
+        equivalent_rms_times_s=[t for t in waveform.STANDARD_TIMES_S if t <= res.time_s[-1]],
+        source=src_out,
+        units=out_units,
+        bus_voltage=bus,
+        rule_of_thumb=rule,
+        devices=devices,
+        assumptions=assumptions,
+        warnings=convert.warnings_out(warns),
+        method=Method(simulated=NETWORK_METHOD, approximations=list(res.approximations)),
+    )
+
+
+@router.post(
+    "",
+    response_model=NetworkResponse,
+    operation_id="network_energization",
+    summary="Several units on one bus: energised together, or beside units in service",
+    response_description="Per unit and at the source: first peak, per-cycle peaks, I_eq(t), "
+    "second harmonic; sympathetic current of units in service; bus voltage dip; feeder devices "
+    "against the summed inrush; the rule of thumb beside it",
+)
+async def network_energization(
+    body: Annotated[NetworkRequest, Body(openapi_examples=NETWORK_EXAMPLES)],
+    settings: SettingsDep,
+) -> Response:
+    """Simulate transformers on one bus in the time domain (at most 64 units): those being
+    energised and those in service, the current out of the source, the bus voltage."""
+
+    def run() -> NetworkResponse:
+        return _study(body, settings)
+
+    out = await compute.run_heavy(settings, run)
+    return Response(out.model_dump_json(), media_type="application/json")

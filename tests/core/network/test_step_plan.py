@@ -1,0 +1,71 @@
+"""core.network.step_plan and core.cost.network_work against the steps the solver takes.
+
+Reference: the solver's returned record, never the plan itself: internal steps =
+(samples - 1) x (steps per cycle / samples per cycle), read off what
+:func:`core.network.simulate_network` returns. Circuits: 11 kV distribution units with the
+nameplate defaults of core.transformer (common practice), a 30 MVA source, X/R 8.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from core import cost, transformer
+from core.network import Breaker, BusLoad, Source, Unit, simulate_network, step_plan
+
+F = 50.0
+V_LL = 11_000.0
+
+
+def _unit(connection: str, rating_va: float, **unit: object) -> Unit:
+    npl = transformer.Nameplate(
+        rating_va=rating_va, phases=3, frequency_hz=F, line_voltage_v=V_LL, connection=connection
+    )
+    return Unit(transformer.equivalent_circuit(npl, None), **unit)  # type: ignore[arg-type]
+
+
+SOURCE = Source.from_fault_level(V_LL, F, 30e6, 8.0)
+CASES = {
+    "one wye": ([_unit("wye_grounded", 1e6)], None),
+    "delta beside wye in service, load": (
+        [_unit("delta", 2e6), _unit("wye", 5e5, in_service=True)],
+        BusLoad.from_power(V_LL, F, 1e6, 5e5),
+    ),
+    "resistor": (
+        [_unit("wye_grounded", 1e6, breaker=Breaker(0.0, 0.05, 0.02)), _unit("delta", 1e6)],
+        None,
+    ),
+}
+
+
+@pytest.mark.parametrize("name", sorted(CASES))
+@pytest.mark.parametrize("samples_per_cycle", [32, 128])
+def test_plan_and_work_count_the_solvers_steps(name: str, samples_per_cycle: int) -> None:
+    units, load = CASES[name]
+    res = simulate_network(
+        SOURCE,
+        units,
+        closing_angle_deg=[0.0],
+        duration_s=0.1,
+        load=load,
+        samples_per_cycle=samples_per_cycle,
+    )
+    steps = (res.time_s.size - 1) * (res.steps_per_cycle // samples_per_cycle)
+    decimate, spc, n_steps = step_plan(SOURCE, units, 0.1, load, samples_per_cycle)
+    assert (spc, n_steps, decimate) == (
+        res.steps_per_cycle,
+        steps,
+        res.steps_per_cycle // samples_per_cycle,
+    )
+    work = cost.network_work(SOURCE, units, 0.1, load, samples_per_cycle=samples_per_cycle)
+    parts = dict(work.parts)
+    assert parts["network simulation"] == pytest.approx(
+        cost.NETWORK_STEP_WEIGHT * len(units) * 3 * steps
+    )
+    samples = 3 * res.time_s.size * (len(units) + 1)
+    assert parts["currents read"] == pytest.approx(cost.ENVELOPE_SAMPLE_WEIGHT * samples)
+    assert "devices judged" not in parts
+    with_devices = cost.network_work(SOURCE, units, 0.1, load, devices=2)
+    assert with_devices.steps > cost.network_work(SOURCE, units, 0.1, load).steps
+    assert np.isfinite(work.steps)
