@@ -386,7 +386,7 @@ def _verdict(
         eff_pp = np.broadcast_to(np.nanmax(eff_pp, axis=0), eff_pp.shape).copy()
         eff_ratio = np.broadcast_to(np.nanmax(eff_ratio, axis=0), eff_ratio.shape).copy()
     blocked = picked & (eff_pp >= 0.0)
-    ratio = np.where(picked, np.fmax(thr_ratio, eff_ratio), thr_ratio)
+    ratio = np.fmax(thr_ratio, eff_ratio)  # operating needs both: pick-up and no blocking
     over = np.zeros(i1.shape, dtype=bool)
     if dev.unrestrained_pu is not None:
         over = i1 > dev.unrestrained_pu

@@ -188,3 +188,32 @@ def test_non_whole_samples_per_cycle_rejected() -> None:
     t = np.arange(300) / (F * 100.5)
     with pytest.raises(ParameterError, match="time_s"):
         d.differential_response(d.Differential("87T"), t, np.zeros((3, 300)), F, 1.0)
+
+
+def test_margin_ratio_agrees_with_the_verdict() -> None:
+    # Operating needs pick-up and no blocking: the ratio max(I_thr/I_op, ratio/level) falls
+    # below 1 exactly where it operates (own phase: 9/15 in A; any phase: 30/15 blocks).
+    t, i = _grain_oriented_case()
+    dev = d.Differential("87T", vector_group="YNyn0", base_current_a=1.0)
+    by = {v.logic: v for v in d.differential_response(dev, t, i, F, 1.0).by_logic}
+    assert by["own_phase"].margin_ratio < 1.0 < by["any_phase"].margin_ratio
+    # whole-cycle windows give 9/15 in A; the first, part-empty windows (the closing inside the
+    # window) may give less: the minimum is at most 9/15
+    assert by["own_phase"].margin_ratio <= 9.0 / 15.0 + 1e-12
+
+
+def test_ride_through_dispatches_a_differential_on_the_samples() -> None:
+    from core.protection import device_operation as do
+
+    t, i = _grain_oriented_case()
+    dev = d.Differential("87T", vector_group="YNyn0", base_current_a=1.0)
+    rt = do.ride_through(dev, do.inrush_from_waveform(t, i, F))
+    assert rt.kind == "differential"
+    assert rt.trips
+    assert rt.differential is not None
+    assert rt.line == "A"
+    table = do.inrush_from_table([0.1, 1.0], [[10.0, 5.0]] * 3)
+    with pytest.raises(ParameterError, match="inrush"):
+        do.ride_through(dev, table)
+    with pytest.raises(ParameterError, match="device"):
+        do.device_times(dev, 10.0)
