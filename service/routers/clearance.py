@@ -47,7 +47,10 @@ CLEARANCE_METHOD = (
     "against what its trip unit senses (default the first peak against sqrt(2) x the rms "
     "setting's lower edge; or the largest sliding half- or one-cycle rms against it); "
     "protection against the IEEE C57.109 through-fault curve (thermal table, mechanical "
-    "I^2 t = K) from the check's start to the largest through-fault current the source allows"
+    "I^2 t = K) from the check's start to the largest through-fault current the source allows; "
+    "a transformer differential on the energised side's line currents (far side unloaded) "
+    "after vector-group compensation, one-cycle discrete Fourier estimates sliding by one "
+    "sample, dual-slope percentage characteristic and harmonic blocking"
 )
 
 
