@@ -31,7 +31,7 @@ from core.supply.sources import (
 )
 from core.transformer import circuit_model, magnetizing, plausibility
 from core.transformer.circuit_model import EquivalentCircuit
-from service.models.clearance import BreakerIn, CurvePoint, FuseIn, RelayIn
+from service.models.clearance import BreakerIn, CurvePoint, DifferentialIn, FuseIn, RelayIn
 from service.models.common import (
     Assumption,
     FaultLevelSource,
@@ -403,8 +403,20 @@ def _table(points: list[CurvePoint], path: str, device: str) -> fuse_breaker_cur
         ) from None
 
 
-def device_of(d: RelayIn | FuseIn | BreakerIn, index: int = 0) -> device_operation.Device:
+def device_of(
+    d: RelayIn | FuseIn | BreakerIn | DifferentialIn, index: int = 0
+) -> device_operation.Device:
     """The core protective device of a request's device (``index``: its place in ``devices``)."""
+    if isinstance(d, DifferentialIn):
+        base = None
+        if d.ct_primary_a is not None and d.tap_a is not None:
+            base = d.tap_a * d.ct_primary_a / d.ct_secondary_a
+        return device_operation.Differential(
+            d.name, d.vector_group, d.energized_side, d.reference_side, base,
+            d.minimum_operate_pu, d.slope_1_percent, d.slope_2_percent, d.slope_1_from_pu,
+            d.breakpoint_pu, d.second_harmonic_percent, d.fifth_harmonic_percent,
+            d.harmonic_logic, d.restraint, d.unrestrained_pu,
+        )  # fmt: skip
     if isinstance(d, RelayIn):
         return device_operation.Relay(
             d.name, d.standard, d.curve, d.pickup_a, d.time_dial, d.instantaneous_pickup_a,

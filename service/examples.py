@@ -208,6 +208,20 @@ LIGHTING_FUSE: dict[str, Any] = {
         {"current_a": 4000, "time_s": 0.025},
     ],
 }  # fmt: skip
+# The main unit's own differential relay (invented settings): 13.8 kV delta - 480Y/277 V is
+# Dyn1, energised from the 13.8 kV side; CTs 150/5, tap 3.5 A (1 pu = 105 A primary); slopes,
+# minimum operate and 15 % second-harmonic blocking at their common-practice defaults.
+MAIN_DIFFERENTIAL: dict[str, Any] = {
+    "kind": "differential",
+    "name": "87T main unit",
+    "vector_group": "Dyn1",
+    "energized_side": "high",
+    "ct_primary_a": 150,
+    "ct_secondary_a": 5,
+    "tap_a": 3.5,
+    "second_harmonic_percent": 15,
+    "harmonic_logic": "own_phase",
+}
 CLEARANCE_REQUESTS: dict[str, dict[str, Any]] = {
     "northgate_main_unit": {
         "transformer": MAIN_UNIT,
@@ -221,6 +235,12 @@ CLEARANCE_REQUESTS: dict[str, dict[str, Any]] = {
         "devices": [LIGHTING_FUSE],
         "options": {"closing": "worst", "duration_s": 1.0, "insulation": "dry"},
     },
+    "northgate_main_unit_differential": {
+        "transformer": MAIN_UNIT,
+        "source": UTILITY,
+        "devices": [MAIN_DIFFERENTIAL],
+        "options": {"closing": "worst", "duration_s": 1.0},
+    },
 }
 CLEARANCE_EXAMPLES = {
     "northgate_main_unit": {
@@ -230,6 +250,11 @@ CLEARANCE_EXAMPLES = {
     "northgate_lighting": {
         "summary": "Demo: the dry-type lighting transformer's fuse (invented curve)",
         "value": CLEARANCE_REQUESTS["northgate_lighting"],
+    },
+    "northgate_main_unit_differential": {
+        "summary": "Demo: the main unit's own differential relay through its energisation "
+        "(invented settings): per-cycle harmonic ratios and the verdict under each logic",
+        "value": CLEARANCE_REQUESTS["northgate_main_unit_differential"],
     },
 }
 

@@ -20,6 +20,7 @@ import numpy.typing as npt
 
 from core import checks
 from core.errors import ParameterError
+from core.protection import differential
 from core.protection.damage_curves import DamageCurve
 from core.protection.device_operation import (
     DEFAULT_MELT_CURRENT_FACTOR,
@@ -36,6 +37,7 @@ from core.protection.device_operation import (
     TIME_DIAL_RANGE,
     Breaker,
     Device,
+    Differential,
     Fuse,
     Relay,
     RideThrough,
@@ -296,7 +298,9 @@ class DeviceEvaluation:
     ride_through: RideThrough
     protection: Protection | None
     points: tuple[PointCheck, ...]  #: empty when no rated current is known
-    suitable: bool  #: rides through and protects
+    #: rides through and protects; a differential: rides through (its protection of internal
+    #: faults is not judged here, and it is left out of the ranking)
+    suitable: bool
     margin_ratio: float | None  #: min of the two margins when both are known [-]
 
 
@@ -404,12 +408,21 @@ def evaluate(
             if sense == "peak":
                 k, dk = d.peak_factor, DEFAULT_PEAK_FACTOR
                 notes.append(_note(f"{d.name}.peak_factor", k, dk, "-", PEAK_SOURCE))
+        elif isinstance(d, Differential):
+            src = differential.DEFAULTS_SOURCE
+            notes.append(Assumption(f"{d.name}.filter", differential.FILTER_WORDS, "-", src))
+            words = differential.RESTRAINT_WORDS[d.restraint]
+            notes.append(Assumption(f"{d.name}.restraint", words, "-", "setting"))
         else:
             notes.append(
                 Assumption(f"{d.name}.measured_current", RELAY_RMS_WORDS, "-", "common practice")
             )
             notes.append(Assumption(f"{d.name}.reset", d.reset, "-", RESET_SOURCE))
         rt = ride_through(d, inrush)
+        if isinstance(d, Differential):  # no time-current curve: ride-through is its verdict
+            rides = not rt.trips
+            out.append(DeviceEvaluation(d.name, "differential", rt, None, (), rides, None))
+            continue
         warnings += [(c, f"{d.name}: {m}") for c, m in rt.warnings]
         prot = None
         if damage is not None and isinstance(d, Fuse) and d.total_clearing is None:
@@ -423,7 +436,8 @@ def evaluate(
         margin = None if prot is None else min(rt.margin_ratio, prot.margin_ratio)
         out.append(DeviceEvaluation(d.name, device_kind(d), rt, prot, pts_out, ok, margin))
     ranked = sorted(
-        (e for e in out if e.suitable), key=lambda e: (-(e.margin_ratio or 0), e.device)
+        (e for e in out if e.suitable and e.kind != "differential"),
+        key=lambda e: (-(e.margin_ratio or 0), e.device),
     )
     return Evaluation(
         tuple(out), tuple(e.device for e in ranked), tuple(notes), tuple(warnings), portions

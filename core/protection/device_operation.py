@@ -42,7 +42,8 @@ import numpy.typing as npt
 
 from core import checks
 from core.errors import ParameterError
-from core.protection import fuse_breaker_curves, relay_curves
+from core.protection import differential, fuse_breaker_curves, relay_curves
+from core.protection.differential import Differential
 from core.protection.inrush_curves import (
     Extreme,
     InrushCurves,
@@ -56,6 +57,7 @@ __all__ = [
     "RELAY_RMS_WORDS",
     "Breaker",
     "Device",
+    "Differential",
     "Extreme",
     "Fuse",
     "InrushCurves",
@@ -64,6 +66,7 @@ __all__ = [
     "breaker_ride_through",
     "device_kind",
     "device_times",
+    "differential_ride_through",
     "fuse_ride_through",
     "inrush_from_table",
     "inrush_from_waveform",
@@ -208,7 +211,9 @@ class Breaker:
             raise ParameterError("sensing", self.sensing, ", ".join(SENSED_WORDS))
 
 
-Device = Relay | Fuse | Breaker
+Device = Relay | Fuse | Breaker | Differential
+#: Devices with a time-current curve (a differential has none: it is judged on the waveform).
+CURVED = (Relay, Fuse, Breaker)
 
 
 def device_kind(device: Device) -> str:
@@ -216,13 +221,13 @@ def device_kind(device: Device) -> str:
 
     Parameters
     ----------
-    device : Relay, Fuse or Breaker
+    device : Relay, Fuse, Breaker or Differential
         The device [-].
 
     Returns
     -------
     str
-        ``"relay"``, ``"fuse"`` or ``"breaker"``.
+        ``"relay"``, ``"fuse"``, ``"breaker"`` or ``"differential"``.
 
     Notes
     -----
@@ -286,13 +291,15 @@ def device_times(
     Raises
     ------
     ParameterError
-        On negative or non-finite currents or opening time.
+        On negative or non-finite currents or opening time, or a differential (no curve).
 
     References
     ----------
     IEEE Std C37.112, IEC 60255-151, via :mod:`core.protection.relay_curves`; common practice for
     the rest (:mod:`core.protection.fuse_breaker_curves`).
     """
+    if isinstance(device, Differential):
+        raise ParameterError("device", device.name, "a device with a time-current curve")
     i = checks.finite_array("current_a", current_a, (0, 1, 2), 0.0)
     t_open = DEFAULT_OPENING_TIME_S if opening_time_s is None else opening_time_s
     t_open = checks.number("opening_time_s", t_open, "a finite number >= 0", lambda x: x >= 0.0)
@@ -328,6 +335,8 @@ class RideThrough:
     i2t_margin_ratio: float | None  #: derated melting I²t over window I²t [-]
     warnings: tuple[tuple[str, str], ...] = ()
     sensed: Sensed | None = None  #: breaker instantaneous: what it compared, for the figure
+    #: a differential: its per-cycle table and the verdict under each harmonic logic
+    differential: differential.DifferentialResult | None = None
 
 
 @dataclass(frozen=True)
@@ -555,20 +564,82 @@ def breaker_ride_through(breaker: Breaker, inrush: InrushCurves) -> RideThrough:
     return replace(_result(breaker, inrush, timed, inst), sensed=sensed)
 
 
+def differential_ride_through(device: Differential, inrush: InrushCurves) -> RideThrough:
+    """Whether a transformer differential operates on its own unit's energisation.
+
+    Parameters
+    ----------
+    device : Differential
+        The element's settings [-].
+    inrush : InrushCurves
+        The inrush with its sampled line currents (:func:`inrush_from_waveform`) [-].
+
+    Returns
+    -------
+    RideThrough
+        ``trips``: the element operates under its chosen harmonic logic; ``margin_ratio``: min
+        over windows of max(I_thr/I_op, ratio/level) (:func:`core.protection.differential.
+        differential_response`); ``instantaneous_margin_ratio`` the same; no timed element
+        (``time_margin_ratio`` +inf); ``differential`` the full answer.
+
+    Raises
+    ------
+    ParameterError
+        On an inrush from a table (no samples) or a record that is not three lines.
+
+    Notes
+    -----
+    The far side of the unit carries no current while it is energised unloaded, so the
+    differential current is the energised side's line currents after compensation.
+
+    References
+    ----------
+    IEEE Std C37.91-2008 (from memory), via :mod:`core.protection.differential`.
+    """
+    i, f = inrush.sampled_current_a, inrush.frequency_hz
+    if i is None or f is None:
+        raise ParameterError("inrush", "a table", "sampled line currents (a simulated inrush)")
+    if i.shape[0] != 3:
+        raise ParameterError("inrush.lines", i.shape[0], "three lines for a differential")
+    rated = inrush.rated_current_a if inrush.rated_current_a is not None else math.nan
+    t = inrush.rms_time_s
+    res = differential.differential_response(device, t, i, f, rated)
+    v = res.verdict
+    words = (
+        f"harmonic ratios of the compensated differential current ({res.filter_words}); "
+        f"logic {v.logic}: {differential.LOGIC_WORDS[v.logic]}"
+    )
+    return RideThrough(
+        device.name,
+        "differential",
+        words,
+        v.operates,
+        v.time_s,
+        v.margin_ratio,
+        v.margin_ratio_time_s if math.isfinite(v.margin_ratio) else None,
+        v.margin_ratio_phase,
+        math.inf,
+        v.margin_ratio,
+        None,
+        differential=res,
+    )
+
+
 #: Each device class's judge: :func:`ride_through` looks the device's class up here.
 _JUDGES: dict[type, Callable[[Any, InrushCurves], RideThrough]] = {
     Relay: relay_ride_through,
     Fuse: fuse_ride_through,
     Breaker: breaker_ride_through,
+    Differential: differential_ride_through,
 }
 
 
 def ride_through(device: Device, inrush: InrushCurves) -> RideThrough:
-    """Whether a relay, fuse or breaker operates on the inrush, and its margin.
+    """Whether a relay, fuse, breaker or differential operates on the inrush, and its margin.
 
     Parameters
     ----------
-    device : Relay, Fuse or Breaker
+    device : Relay, Fuse, Breaker or Differential
         The device [-].
     inrush : InrushCurves
         The inrush as devices see it [-].
@@ -577,7 +648,8 @@ def ride_through(device: Device, inrush: InrushCurves) -> RideThrough:
     -------
     RideThrough
         The judgement of the device's own kind (:func:`relay_ride_through`,
-        :func:`fuse_ride_through` or :func:`breaker_ride_through`).
+        :func:`fuse_ride_through`, :func:`breaker_ride_through` or
+        :func:`differential_ride_through`).
 
     Notes
     -----
@@ -585,6 +657,6 @@ def ride_through(device: Device, inrush: InrushCurves) -> RideThrough:
 
     References
     ----------
-    As for the three functions it dispatches to.
+    As for the four functions it dispatches to.
     """
     return _JUDGES[type(device)](device, inrush)

@@ -46,6 +46,10 @@ class InrushCurves:
     peak: Extreme | None  #: largest |i| (an inrush's first peak) [A]
     half_cycle_rms: Extreme | None  #: largest rms over a half-cycle window [A]
     window_i2t: Extreme | None  #: largest ∫i² over the I²t window [A²s]
+    #: the sampled line currents, shape (n_lines, n), for devices that filter them (a
+    #: differential); None when the inrush came from a table [A]
+    sampled_current_a: FloatArray | None = None
+    frequency_hz: float | None = None  #: power frequency of the sampled record [Hz]
 
 
 def _lines(lines: Sequence[str] | None, n: int) -> tuple[str, ...]:
@@ -158,6 +162,8 @@ def inrush_from_waveform(
         peak=Extreme(np.maximum(vertex, a[rows, k]), t[k]),
         half_cycle_rms=extreme(np.sqrt(_window(t, energy, 0.5 * period) / (0.5 * period))),
         window_i2t=extreme(_window(t, energy, n_half * 0.5 * period)),
+        sampled_current_a=i,
+        frequency_hz=f,
     )
 
 

@@ -61,7 +61,7 @@ class ClearanceStudy:
     damage: damage_curves.DamageCurve | None
     evaluation: coordination.Evaluation
     windows: tuple[coordination.CoordinationWindow, ...]
-    curves: tuple[DeviceCurves, ...]
+    curves: tuple[DeviceCurves, ...]  #: devices with a time-current curve only
     approximations: tuple[str, ...]
     warnings: tuple[tuple[str, str], ...]
 
@@ -204,8 +204,9 @@ def clearance_study(
         Residual flux per winding [pu of lambda_N].
     pole_delay_s : array_like
         Pole closing delays [s].
-    devices : sequence of Relay, Fuse or Breaker
-        Candidates (distinct names), in amperes on the energised side [-].
+    devices : sequence of Relay, Fuse, Breaker or Differential
+        Candidates (distinct names), in amperes on the energised side; a differential is judged
+        on the sampled line currents and has no tabulated curve [-].
     rating_va : float
         Transformer rating, for the damage category [VA].
     impedance_percent : float
@@ -309,7 +310,8 @@ def clearance_study(
                 )
     i_r = circuit.rated_line_current_a
     grid = np.geomspace(0.5 * i_r, 1.5 * curve.short_circuit_current, 240)
-    tabulated = [device_curves(dev, grid, opening_time_s) for dev in devices]
+    curved = [dev for dev in devices if isinstance(dev, device_operation.CURVED)]
+    tabulated = [device_curves(dev, grid, opening_time_s) for dev in curved]
     if duration_s * f < 30:
         warnings.append(
             (

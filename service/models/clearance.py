@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
+import re
 from typing import Annotated, ClassVar, Literal
 
-from pydantic import Field, model_validator
+from pydantic import Field, field_validator, model_validator
 
 from service.models.common import (
     CAUTION,
@@ -130,7 +131,97 @@ class BreakerIn(Model):
     )
 
 
-Device = Annotated[RelayIn | FuseIn | BreakerIn, Field(discriminator="kind")]
+class DifferentialIn(Model):
+    """Transformer differential element of the unit being energised (its far side unloaded).
+
+    Currents in per unit of the relay's tap on the energised side. Its filter is a one-cycle
+    discrete Fourier estimate of the fundamental and harmonics over a window sliding one sample
+    at a time (the usual phasor filter of numerical relays; common practice).
+    """
+
+    kind: Literal["differential"]
+    name: Name
+    vector_group: str = Field(
+        "Dyn1",
+        pattern=r"^(YN|Y|D)(yn|y|d)(1[01]|[0-9])$",
+        max_length=6,
+        description="The unit's vector group, IEC 60076-1 notation: high-side letter, "
+        "low-side letter, clock number (the low side lags by clock x 30 deg), e.g. Dyn1, "
+        "Dyn11, YNd1, Yy0",
+    )
+    energized_side: Literal["high", "low"] = Field(
+        "high", description="Which side of vector_group the unit is switched on from"
+    )
+    reference_side: Literal["high", "low"] = Field(
+        "high",
+        description="The side whose currents the relay keeps in phase (zero sequence removed "
+        "only); the other side's currents are turned by the clock angle (zero sequence removed)",
+    )
+    ct_primary_a: float | None = Field(
+        None, gt=0.1, le=1e6, description="Energised side's CT primary rating [A]"
+    )
+    ct_secondary_a: float = Field(5.0, gt=0.01, le=10.0, description="CT secondary rating [A]")
+    tap_a: float | None = Field(
+        None,
+        gt=0.01,
+        le=100.0,
+        description="Relay tap on the energised side, secondary amperes [A]; with "
+        "ct_primary_a, 1 pu = tap_a x ct_primary_a / ct_secondary_a primary amperes. Without "
+        "both, 1 pu is the energised side's rated line current",
+    )
+    minimum_operate_pu: float = Field(
+        0.3, gt=0.0, le=5.0, description="Minimum operate current [pu of tap]; default 0.3"
+    )
+    slope_1_percent: float = Field(25.0, ge=0.0, le=100.0, description="Slope 1 [%]")
+    slope_2_percent: float = Field(50.0, ge=0.0, le=200.0, description="Slope 2 [%]")
+    slope_1_from_pu: float = Field(
+        0.0, ge=0.0, le=5.0, description="Restraint where slope 1 crosses zero [pu of tap]"
+    )
+    breakpoint_pu: float = Field(
+        3.0, gt=0.0, le=50.0, description="Restraint where slope 2 takes over [pu of tap]"
+    )
+    second_harmonic_percent: float = Field(
+        15.0, gt=0.0, le=100.0, description="Second-harmonic blocking level [% of fundamental]"
+    )
+    fifth_harmonic_percent: float | None = Field(
+        None, gt=0.0, le=100.0, description="Fifth-harmonic blocking level; null: off [%]"
+    )
+    harmonic_logic: Literal["own_phase", "any_phase", "summed_phases"] = Field(
+        "own_phase",
+        description="own_phase: each phase blocked by its own ratio (default; operates "
+        "soonest, so conservative for ride-through); any_phase: one phase above the level "
+        "blocks all three (cross-blocking); summed_phases: the three phases' harmonic "
+        "magnitudes summed over the phase's own fundamental. The answer gives the verdict "
+        "under all three",
+    )
+    restraint: Literal["average", "maximum"] = Field(
+        "average",
+        description="Restraint quantity: average of the two sides' fundamental magnitudes "
+        "(far side unloaded: I_op/2) or the larger of them (I_op)",
+    )
+    unrestrained_pu: float | None = Field(
+        None, gt=1.0, le=100.0, description="Unrestrained element; null: off [pu of tap]"
+    )
+
+    @field_validator("vector_group")
+    @classmethod
+    def _clock_of_connections(cls, value: str) -> str:
+        m = re.match(r"^(YN|Y|D)(yn|y|d)(\d+)$", value)
+        if m is not None and (int(m.group(3)) % 2 == 1) == (m.group(1)[0] == m.group(2)[0].upper()):
+            raise ValueError(f"{value}: the clock number is even for Yy/Dd, odd for Yd/Dy")
+        return value
+
+    @model_validator(mode="after")
+    def _ct_and_tap(self) -> DifferentialIn:
+        if (self.ct_primary_a is None) != (self.tap_a is None):
+            raise ValueError("give ct_primary_a and tap_a together, or neither")
+        return self
+
+
+Device = Annotated[RelayIn | FuseIn | BreakerIn | DifferentialIn, Field(discriminator="kind")]
+#: Devices with a time-current curve: what the statistics and mitigation operations judge on
+#: their many events (a differential is judged on one simulated record, in clearance only).
+CurvedDevice = Annotated[RelayIn | FuseIn | BreakerIn, Field(discriminator="kind")]
 
 
 class ClearanceOptions(Model):
@@ -215,6 +306,21 @@ class ClearanceRequest(Study):
         names = [d.name for d in self.devices]
         if len(set(names)) != len(names):
             raise ValueError("device names must be distinct")
+        for d in self.devices:
+            if d.kind != "differential":
+                continue
+            if self.transformer.phases != 3:
+                raise ValueError(f"{d.name}: a differential needs a three-phase unit")
+            g = re.match(r"^(YN|Y|D)(yn|y|d)", d.vector_group)
+            if g is None:  # the field's pattern has already matched
+                continue
+            delta = g.group(1 if d.energized_side == "high" else 2).lower() == "d"
+            if delta != (self.transformer.energized_winding.connection == "delta"):
+                raise ValueError(
+                    f"{d.name}: vector_group {d.vector_group} has the {d.energized_side} side "
+                    f"{'delta' if delta else 'wye'}, the energised winding is "
+                    f"{self.transformer.energized_winding.connection}"
+                )
         return self
 
 
@@ -230,6 +336,63 @@ class InstantaneousCheckOut(Model):
     lower_edge_a: float = Field(description="Instantaneous pickup x (1 - tolerance) [A]")
     time_s: float | None = Field(description="When the sensed value occurs [s]")
     statement: str = Field(description="The comparison in words")
+
+
+class HarmonicVerdictOut(Model):
+    """A differential element under one harmonic logic over the whole record."""
+
+    harmonic_logic: str
+    operates: bool
+    operate_time_s: float | None = Field(description="End of the first window it operates on [s]")
+    operate_cycle: int | None = Field(description="That window's cycle, 1 for the first")
+    operate_phase: str | None = Field(description="The phase element that operates first")
+    by_unrestrained: bool = Field(description="The unrestrained element operates first")
+    margin_pp: float | None = Field(
+        description="Smallest (harmonic ratio - blocking level) over the windows where the "
+        "percentage element picks up [percentage points]; negative: operates; null: it never "
+        "picks up"
+    )
+    margin_time_s: float | None = Field(description="Where that margin is tightest [s]")
+    margin_phase: str | None = Field(description="The phase where it is tightest")
+
+
+class DifferentialPhaseOut(Model):
+    """One phase element's values for the window ending at each cycle's end."""
+
+    phase: str
+    operate_pu: list[float] = Field(description="|I_1| of the compensated current [pu of tap]")
+    restraint_pu: list[float] = Field(description="Restraint quantity [pu of tap]")
+    threshold_pu: list[float] = Field(description="Percentage characteristic [pu of tap]")
+    second_harmonic_percent: list[float | None] = Field(
+        description="|I_2| / |I_1| of this phase [%]; null where I_1 = 0"
+    )
+    fifth_harmonic_percent: list[float | None] = Field(description="|I_5| / |I_1| [%]")
+    operates: list[bool] = Field(
+        description="The chosen logic operates in some window of the cycle"
+    )
+    min_second_harmonic_percent: float | None = Field(
+        description="Smallest second-harmonic ratio over the windows where this phase picks "
+        "up [%]; null: it never picks up"
+    )
+
+
+class DifferentialOut(Model):
+    """A differential element through the energisation of its own unit."""
+
+    base_current_a: float = Field(description="1 pu of the relay's tap, primary amperes [A]")
+    compensation_matrix: list[list[float]] = Field(
+        description="Applied to the energised side's line currents (turns by the clock angle "
+        "where that side is not the reference; zero sequence removed)"
+    )
+    filter: str = Field(description="How the relay estimates fundamental and harmonics")
+    restraint: str = Field(description="The restraint quantity's definition")
+    cycle_end_s: list[float] = Field(description="End of each one-cycle window tabulated [s]")
+    phases: list[DifferentialPhaseOut]
+    verdict: HarmonicVerdictOut = Field(description="Under the chosen harmonic logic")
+    verdict_by_logic: list[HarmonicVerdictOut] = Field(
+        description="Under each harmonic logic: own_phase, any_phase, summed_phases"
+    )
+    statement: str = Field(description="The verdict in words")
 
 
 class RideThroughOut(Model):
@@ -248,6 +411,9 @@ class RideThroughOut(Model):
     instantaneous_margin_ratio: float | None
     instantaneous_check: InstantaneousCheckOut | None = Field(
         None, description="Breakers: what the instantaneous element compared"
+    )
+    differential: DifferentialOut | None = Field(
+        None, description="Differentials: per-cycle table and the verdict under each logic"
     )
 
 

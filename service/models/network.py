@@ -6,7 +6,7 @@ from typing import Annotated, Literal
 
 from pydantic import Field, model_validator
 
-from service.models.clearance import Device, Name, PointOut, RideThroughOut
+from service.models.clearance import CurvedDevice, Name, PointOut, RideThroughOut
 from service.models.common import (
     CAUTION,
     Assumption,
@@ -119,7 +119,7 @@ class NetworkRequest(Model):
         "at t = 0, the reference closing; 0 is a rising zero [deg]",
     )
     units: list[NetworkUnitIn] = Field(min_length=1, max_length=MAX_UNITS)
-    devices: list[Device] = Field(
+    devices: list[CurvedDevice] = Field(
         default_factory=list,
         max_length=20,
         description="The feeder's protective devices, judged against the current out of the "

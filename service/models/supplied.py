@@ -6,7 +6,7 @@ from typing import ClassVar, Literal
 
 from pydantic import Field, model_validator
 
-from service.models.clearance import Device
+from service.models.clearance import CurvedDevice
 from service.models.common import Rules, Study, both, given, implies, is_not
 from service.models.dip import BusLoadIn, CustomLimit, ExcitationIn, GeneratorIn, PresetExcitation
 
@@ -27,7 +27,7 @@ class SuppliedStudy(Study):
     dip_limit: Literal["G1", "G2", "G3"] | CustomLimit = Field(
         "G2", description="Dip limit: an ISO 8528-5 class (values from memory) or a limit"
     )
-    devices: list[Device] | None = Field(
+    devices: list[CurvedDevice] | None = Field(
         None,
         min_length=1,
         max_length=20,

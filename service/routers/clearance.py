@@ -11,7 +11,7 @@ from fastapi import APIRouter, Body
 from fastapi.responses import Response
 
 from core import cost
-from core.protection import coordination, device_operation, protection_study
+from core.protection import coordination, device_operation, differential, protection_study
 from service import budget, compute, convert, figures
 from service.deps import SettingsDep
 from service.examples import CLEARANCE_EXAMPLES
@@ -21,6 +21,9 @@ from service.models.clearance import (
     DamageOut,
     DamagePortionOut,
     DeviceOut,
+    DifferentialOut,
+    DifferentialPhaseOut,
+    HarmonicVerdictOut,
     InstantaneousCheckOut,
     PointOut,
     ProtectionOut,
@@ -44,7 +47,10 @@ CLEARANCE_METHOD = (
     "against what its trip unit senses (default the first peak against sqrt(2) x the rms "
     "setting's lower edge; or the largest sliding half- or one-cycle rms against it); "
     "protection against the IEEE C57.109 through-fault curve (thermal table, mechanical "
-    "I^2 t = K) from the check's start to the largest through-fault current the source allows"
+    "I^2 t = K) from the check's start to the largest through-fault current the source allows; "
+    "a transformer differential on the energised side's line currents (far side unloaded) "
+    "after vector-group compensation, one-cycle discrete Fourier estimates sliding by one "
+    "sample, dual-slope percentage characteristic and harmonic blocking"
 )
 
 
@@ -57,6 +63,7 @@ def _study(
     opt = body.options
     convert.check_work(settings, circuit.phases, circuit.frequency_hz, opt.duration_s, 128)
     relays = sum(1 for d in body.devices if d.kind == "relay")
+    differentials = sum(1 for d in body.devices if d.kind == "differential")
 
     def estimate(o: Mapping[str, float]) -> cost.Work:
         r = budget.replaced
@@ -68,6 +75,7 @@ def _study(
             windows=opt.coordination_window and relays > 0,
             pole_delay_max_s=float(np.max(event.pole_delay_s)),
             figure=figure,
+            differentials=differentials,
         )
 
     knobs = [
@@ -133,6 +141,7 @@ def ride_through_out(ev: coordination.DeviceEvaluation) -> RideThroughOut:
             m(rt.instantaneous_margin_ratio) if rt.instantaneous_margin_ratio is not None else None
         ),
         instantaneous_check=_instantaneous(ev),
+        differential=_differential(ev),
     )
 
 
@@ -150,6 +159,65 @@ def points_out(ev: coordination.DeviceEvaluation) -> list[PointOut]:
         )
         for p in ev.points
     ]
+
+
+def _verdict_out(v: differential.Verdict) -> HarmonicVerdictOut:
+    return HarmonicVerdictOut(
+        harmonic_logic=v.logic,
+        operates=v.operates,
+        operate_time_s=v.time_s,
+        operate_cycle=v.cycle,
+        operate_phase=v.phase,
+        by_unrestrained=v.by_unrestrained,
+        margin_pp=v.margin_pp,
+        margin_time_s=v.margin_time_s,
+        margin_phase=v.margin_phase,
+    )
+
+
+def _statement(v: differential.Verdict) -> str:
+    if v.operates:
+        how = "its unrestrained element" if v.by_unrestrained else f"phase {v.phase}"
+        text = f"operates at cycle {v.cycle} ({v.time_s:.4g} s), {how}"
+    else:
+        text = "restrains throughout the record"
+    if v.margin_pp is None:
+        return text + "; the percentage element never picks up"
+    return (
+        f"{text}; tightest harmonic margin {v.margin_pp:+.1f} percentage points in phase "
+        f"{v.margin_phase} at {v.margin_time_s:.4g} s ({v.logic})"
+    )
+
+
+def _differential(ev: coordination.DeviceEvaluation) -> DifferentialOut | None:
+    res = ev.ride_through.differential
+    if res is None:
+        return None
+    m = convert.maybe
+    phases = [
+        DifferentialPhaseOut(
+            phase=p,
+            operate_pu=[round(float(x), 5) for x in res.operate_pu[k]],
+            restraint_pu=[round(float(x), 5) for x in res.restraint_pu[k]],
+            threshold_pu=[round(float(x), 5) for x in res.threshold_pu[k]],
+            second_harmonic_percent=[m(round(float(x), 3)) for x in res.second_harmonic_percent[k]],
+            fifth_harmonic_percent=[m(round(float(x), 3)) for x in res.fifth_harmonic_percent[k]],
+            operates=[bool(x) for x in res.operates_in_cycle[k]],
+            min_second_harmonic_percent=m(float(res.min_second_harmonic_percent[k])),
+        )
+        for k, p in enumerate(res.phases)
+    ]
+    return DifferentialOut(
+        base_current_a=res.base_current_a,
+        compensation_matrix=[[round(float(x), 6) for x in row] for row in res.compensation],
+        filter=res.filter_words,
+        restraint=res.restraint_words,
+        cycle_end_s=[round(float(x), 6) for x in res.cycle_end_s],
+        phases=phases,
+        verdict=_verdict_out(res.verdict),
+        verdict_by_logic=[_verdict_out(v) for v in res.by_logic],
+        statement=_statement(res.verdict),
+    )
 
 
 def _response(
@@ -297,6 +365,12 @@ def _figure(body: ClearanceRequest, settings: Settings) -> str:
         f"{t.rating_kva:g} kVA, {v_kv:g} kV "
         f"{t.energized_winding.connection} energised: inrush, devices and damage limit"
     )
+    unplotted = [d.name for d in body.devices if d.kind == "differential"]
+    if unplotted:  # judged on the waveform, with no time-current curve to draw
+        title += (
+            f"\n{', '.join(unplotted)}: differential, no time-current curve "
+            "(its verdict is in the clearance answer)"
+        )
     ok = math.isfinite(i_r)
     return figures.tcc_svg(
         title,

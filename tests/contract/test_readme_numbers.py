@@ -120,3 +120,14 @@ def test_network_numbers() -> None:
         f"{bus['min_percent']:.1f} % in cycle {bus['min_cycle']}; from cycle "
         f"{bus['recovered_cycle']}"
     ) in README
+
+
+def test_differential_table() -> None:
+    body = _response("clearance.northgate_main_unit_differential")
+    out = body["devices"][0]["ride_through"]["differential"]
+    for v in out["verdict_by_logic"]:
+        verdict = f"operates at cycle {v['operate_cycle']}" if v["operates"] else "restrains"
+        row = f"| {v['harmonic_logic']} | {verdict} | {v['margin_pp']:+.1f} pp, phase "
+        assert row + f"{v['margin_phase']}, {v['margin_time_s']:.4f} s |" in README
+    for p in out["phases"]:
+        assert f"{p['phase']} {p['min_second_harmonic_percent']:.1f} %" in README
