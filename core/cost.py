@@ -587,6 +587,7 @@ def network_work(
     *,
     devices: int = 0,
     samples_per_cycle: int = 128,
+    differentials: int = 0,
 ) -> Work:
     """Work of one :func:`core.network.simulate_network` call and the readings that follow.
 
@@ -604,6 +605,8 @@ def network_work(
         Feeder devices judged against the source current [-].
     samples_per_cycle : int
         Output samples per cycle [-].
+    differentials : int
+        Units whose own transformer differential is judged on their line currents [-].
 
     Returns
     -------
@@ -615,7 +618,9 @@ def network_work(
     :func:`core.network.step_plan` (the solver's own plan); reading: ENVELOPE_SAMPLE_WEIGHT x
     3 lines x (units + 1) x samples (per-cycle peaks, I_eq(t), harmonics of every unit and of
     the source); judging: devices x (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT x 3 lines x
-    samples), plus the source record read for the devices (EVENT_SAMPLE_WEIGHT x 3 x samples).
+    samples), plus the source record read for the devices (EVENT_SAMPLE_WEIGHT x 3 x samples);
+    each unit's differential: its record read (EVENT_SAMPLE_WEIGHT) and filtered
+    (DIFFERENTIAL_SAMPLE_WEIGHT) per line-sample.
 
     References
     ----------
@@ -636,4 +641,7 @@ def network_work(
                 + devices * (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT * samples),
             )
         )
+    if differentials:
+        per = EVENT_SAMPLE_WEIGHT + DIFFERENTIAL_SAMPLE_WEIGHT
+        parts.append(("differentials filtered", differentials * per * samples))
     return _work(parts)

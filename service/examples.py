@@ -428,6 +428,20 @@ RING_RELAY: dict[str, Any] = {
     "time_dial": 2.0,
     "instantaneous_pickup_a": 2000,
 }
+# The in-service 1000 kVA pad's own differential relay (invented settings): a grounded-wye -
+# grounded-wye pad-mount unit is YNyn0; rated 41.8 A at 13.8 kV, CTs 50/5, tap 4.2 A (1 pu = 42 A
+# primary); slopes and minimum operate at their defaults, 15 % second-harmonic blocking.
+PAD_DIFFERENTIAL: dict[str, Any] = {
+    "kind": "differential",
+    "name": "87T pad 2",
+    "vector_group": "YNyn0",
+    "energized_side": "high",
+    "ct_primary_a": 50,
+    "ct_secondary_a": 5,
+    "tap_a": 4.2,
+    "second_harmonic_percent": 15,
+    "harmonic_logic": "own_phase",
+}
 NETWORK_REQUESTS: dict[str, dict[str, Any]] = {
     "northgate_ring_reclose": {
         "bus_voltage_kv": 13.8,
@@ -453,6 +467,7 @@ NETWORK_REQUESTS: dict[str, dict[str, Any]] = {
                 "name": "pad 2 (1000 kVA)",
                 "transformer": _pad_mount(1000, 5),
                 "state": "in_service",
+                "differential": PAD_DIFFERENTIAL,
             },
         ],
         "options": {"duration_s": 2.0},

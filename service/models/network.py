@@ -6,7 +6,14 @@ from typing import Annotated, Literal
 
 from pydantic import Field, model_validator
 
-from service.models.clearance import CurvedDevice, Name, PointOut, RideThroughOut
+from service.models.clearance import (
+    CurvedDevice,
+    DifferentialIn,
+    DifferentialOut,
+    Name,
+    PointOut,
+    RideThroughOut,
+)
 from service.models.common import (
     CAUTION,
     Assumption,
@@ -73,6 +80,14 @@ class NetworkUnitIn(Model):
         max_length=3,
         description="Closing instant of each pole of this unit's breaker after the reference "
         "closing t = 0 [ms]; default all 0; energised units only",
+    )
+    differential: DifferentialIn | None = Field(
+        None,
+        description="This unit's own transformer differential, judged on its own line currents "
+        "from the simulation as in /v1/clearance (its far side unloaded): for a unit in "
+        "service, whether it restrains through its neighbour's energisation (the sympathetic "
+        "current); vector_group's energized_side letter must match the energised winding's "
+        "connection; default none",
     )
 
     @model_validator(mode="after")
@@ -196,6 +211,11 @@ class UnitOut(Model):
     rated_current_a: float = Field(description="Rated rms line current of its energised winding")
     current: CurrentOut
     sympathetic: SympatheticOut | None = Field(description="Units in service only")
+    differential: DifferentialOut | None = Field(
+        None,
+        description="The unit's differential (when given) on its own line currents: per-cycle "
+        "table and the verdict under each harmonic logic",
+    )
 
 
 class BusVoltageOut(Model):

@@ -141,7 +141,7 @@ def ride_through_out(ev: coordination.DeviceEvaluation) -> RideThroughOut:
             m(rt.instantaneous_margin_ratio) if rt.instantaneous_margin_ratio is not None else None
         ),
         instantaneous_check=_instantaneous(ev),
-        differential=_differential(ev),
+        differential=differential_out(ev.ride_through.differential),
     )
 
 
@@ -189,8 +189,8 @@ def _statement(v: differential.Verdict) -> str:
     )
 
 
-def _differential(ev: coordination.DeviceEvaluation) -> DifferentialOut | None:
-    res = ev.ride_through.differential
+def differential_out(res: differential.DifferentialResult | None) -> DifferentialOut | None:
+    """A differential element's per-cycle table and verdicts as the responses give them."""
     if res is None:
         return None
     m = convert.maybe

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Mapping
 from typing import Annotated
 
@@ -15,12 +16,13 @@ from core.energization import waveform
 from core.energization.switching_event import RESIDUAL_DEFAULT_SOURCE, switching_event
 from core.errors import ParameterError
 from core.network import Breaker, BusLoad, NetworkResult, Source, Unit, simulate_network
-from core.protection import coordination, device_operation
+from core.protection import coordination, device_operation, differential
 from core.protection.inrush_curves import inrush_from_waveform
 from core.transformer import circuit_model, plausibility
 from service import budget, compute, convert
 from service.deps import SettingsDep
 from service.examples import NETWORK_EXAMPLES
+from service.models.clearance import DifferentialOut
 from service.models.common import Assumption, FaultLevelSource, ImpedanceSource, Method
 from service.models.network import (
     RECOVERY_PERCENT,
@@ -31,6 +33,7 @@ from service.models.network import (
     FeederDeviceOut,
     NetworkRequest,
     NetworkResponse,
+    NetworkUnitIn,
     RuleOfThumbOut,
     SympatheticOut,
     UnitOut,
@@ -108,6 +111,7 @@ def _units(
                 f"([{v_bus * (1 - VOLTAGE_TOLERANCE):g}, {v_bus * (1 + VOLTAGE_TOLERANCE):g}] "
                 "kV, the usual off-load tap range, common practice)",
             )
+        _check_differential(u, k)
         circuit = circuit_model.equivalent_circuit(convert.nameplate_of(t), None)
         notes += [
             Assumption(name=f"{u.name}.{a.name}", value=a.value, unit=a.unit, source=a.source)
@@ -175,6 +179,54 @@ def _units(
             )
         )
     return out, rated, notes, warns
+
+
+def _check_differential(u: NetworkUnitIn, k: int) -> None:
+    """Refuse a differential whose vector group's energised side is not the unit's energised
+    winding's connection (delta against wye), as /v1/clearance does."""
+    d = u.differential
+    if d is None:
+        return
+    g = re.match(r"^(YN|Y|D)(yn|y|d)", d.vector_group)
+    if g is None:  # the field's pattern has already matched
+        return
+    delta = g.group(1 if d.energized_side == "high" else 2).lower() == "d"
+    conn = u.transformer.energized_winding.connection
+    if delta != (conn == "delta"):
+        raise ParameterError(
+            f"units.{k}.differential.vector_group",
+            d.vector_group,
+            f"a group whose {d.energized_side} side (differential.energized_side) is "
+            f"{'wye' if delta else 'delta'}: the energised winding is {conn}",
+        )
+
+
+def _differential(
+    u: NetworkUnitIn, time: np.ndarray, line: np.ndarray, f: float, rated: float
+) -> tuple[DifferentialOut | None, list[Assumption]]:
+    """The unit's own differential on its own line currents (far side unloaded), judged as
+    /v1/clearance judges it."""
+    d = u.differential
+    if d is None:
+        return None, []
+    inrush = inrush_from_waveform(time, line, f, rated_current_a=rated, lines=LINES)
+    rt = device_operation.ride_through(convert.device_of(d), inrush)
+    name = f"{u.name}.{d.name}"
+    notes = [
+        Assumption(
+            name=f"{name}.filter",
+            value=differential.FILTER_WORDS,
+            unit="-",
+            source=differential.DEFAULTS_SOURCE,
+        ),
+        Assumption(
+            name=f"{name}.restraint",
+            value=differential.RESTRAINT_WORDS[d.restraint],
+            unit="-",
+            source="setting",
+        ),
+    ]
+    return clearance.differential_out(rt.differential), notes
 
 
 def _check_source(body: NetworkRequest, source: Source) -> None:
@@ -315,6 +367,10 @@ def _bus(res: NetworkResult, v_nom: float, spc: int, f: float) -> BusVoltageOut:
     )
 
 
+def _differentials(body: NetworkRequest) -> int:
+    return sum(1 for u in body.units if u.differential is not None)
+
+
 def _estimate(
     source: Source, units: list[Unit], load: BusLoad | None, body: NetworkRequest
 ) -> budget.Estimate:
@@ -327,6 +383,7 @@ def _estimate(
             r(o, "options.duration_s", body.options.duration_s),
             load,
             devices=int(r(o, "devices", len(body.devices))),
+            differentials=int(r(o, "units.differential", _differentials(body))),
         )
 
     return estimate
@@ -351,6 +408,8 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
     ]
     if body.devices:
         knobs.append(budget.Knob("devices", len(body.devices), 0, integer=True))
+    if _differentials(body):
+        knobs.append(budget.Knob("units.differential", _differentials(body), 0, integer=True))
     try:
         budget.enforce(_estimate(source, units, load, body), knobs, settings.max_request_steps)
         res = simulate_network(
@@ -383,6 +442,8 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
         sym = None
         if u.state == "in_service":
             sym = _sympathetic(waveform.cycle_peaks(line, spc), rated[k], f, float(res.time_s[-1]))
+        diff, diff_notes = _differential(u, res.time_s, line, f, rated[k])
+        assumptions += diff_notes
         out_units.append(
             UnitOut(
                 name=u.name,
@@ -390,6 +451,7 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
                 rated_current_a=rated[k],
                 current=_current(res.time_s, line, spc, rated[k], first_end, hc),
                 sympathetic=sym,
+                differential=diff,
             )
         )
     src_i = res.source_current_a[0]

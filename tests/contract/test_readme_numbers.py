@@ -120,6 +120,15 @@ def test_network_numbers() -> None:
         f"{bus['min_percent']:.1f} % in cycle {bus['min_cycle']}; from cycle "
         f"{bus['recovered_cycle']}"
     ) in README
+    d = body["units"][1]["differential"]
+    verdicts = ", ".join(
+        f"{v['harmonic_logic']} {v['margin_pp']:+.1f} pp" for v in d["verdict_by_logic"]
+    )
+    assert all(not v["operates"] for v in d["verdict_by_logic"])
+    assert f"| restrains: {verdicts};" in README
+    op = max(max(p["operate_pu"]) for p in d["phases"])
+    h2 = " / ".join(f"{p['min_second_harmonic_percent']:.1f}" for p in d["phases"])
+    assert f"operate up to {op:.2f} pu, smallest 2nd harmonic while picked up {h2} %" in README
 
 
 def test_differential_table() -> None:
