@@ -12,9 +12,12 @@ from __future__ import annotations
 import copy
 from typing import Any
 
+import pytest
 from fastapi.testclient import TestClient
 
+from service.app import create_app
 from service.examples import NETWORK_REQUESTS, UTILITY
+from service.settings import get_settings
 
 URL = "/v1/network-energization"
 CLOSE_S = 0.1  # the neighbour's poles close this late
@@ -120,3 +123,24 @@ def test_one_unit_matches_clearance(client: TestClient) -> None:
         assert a["margin_phase"] == b["margin_phase"]
     for p, q in zip(got["phases"], want["phases"], strict=True):
         assert max(abs(x - y) for x, y in zip(p["operate_pu"], q["operate_pu"], strict=True)) < 1e-4
+
+
+def test_over_budget_names_the_differentials(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The differential's filter is most of the sympathetic example's work (a one-cycle Fourier
+    estimate of three orders at every line-sample): a budget between the work with and without
+    it names units.differential, and the request without it fits."""
+    monkeypatch.setenv("FIRSTCYCLE_MAX_REQUEST_STEPS", "2000000")
+    get_settings.cache_clear()
+    try:
+        with TestClient(create_app(), raise_server_exceptions=False) as c:
+            body = copy.deepcopy(NETWORK_REQUESTS["northgate_ring_sympathetic"])
+            r = c.post(URL, json=body)
+            assert r.status_code == 422
+            doc = r.json()
+            assert doc["type"].endswith("limit-exceeded")
+            knobs = {e["field"]: e["allowed"] for e in doc["errors"][1:]}
+            assert knobs["units.differential"].startswith("<= 0")
+            del body["units"][1]["differential"]
+            assert c.post(URL, json=body).status_code == 200
+    finally:
+        get_settings.cache_clear()
