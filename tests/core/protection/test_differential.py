@@ -2,10 +2,13 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from core.errors import ParameterError
 from core.protection import differential as d
@@ -217,3 +220,44 @@ def test_ride_through_dispatches_a_differential_on_the_samples() -> None:
         do.ride_through(dev, table)
     with pytest.raises(ParameterError, match="device"):
         do.device_times(dev, 10.0)
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    st.lists(st.floats(0.0, 0.6), min_size=3, max_size=3),
+    st.floats(0.5, 6.0),
+    st.floats(0.0, 1.0),
+    st.floats(0.1, 1.0),
+    st.floats(10.0, 40.0),
+    st.floats(0.0, 1.0),
+    st.floats(1.0, 3.0),
+)
+def test_a_less_sensitive_setting_never_turns_a_restraint_into_an_operation(
+    r2: list[float], amp: float, dc: float, pickup: float, slope: float, h2: float, k: float
+) -> None:
+    # Property (common practice: a higher operate characteristic or a lower harmonic blocking
+    # level can only make a relay more secure): raising the minimum operate current and both
+    # slopes by the factor k, and lowering the second-harmonic level by the fraction h2, keeps
+    # every restraint a restraint, under every harmonic logic. Synthetic inrush-like currents:
+    # a fundamental of `amp` pu with a decaying offset `dc` and a second harmonic r2 per phase.
+    t = np.arange(6 * N) / (F * N)
+    w = 2 * np.pi * F
+    i = np.stack(
+        [amp * (np.sin(w * t - p * 2 * np.pi / 3) + dc * np.exp(-t / 0.05))
+         + amp * r2[p] * np.sin(2 * w * t + p) for p in range(3)]
+    )  # fmt: skip
+    base = d.Differential("87T", vector_group="YNyn0", base_current_a=1.0,
+                          minimum_operate_pu=pickup, slope_1_percent=slope,
+                          slope_2_percent=2 * slope)  # fmt: skip
+    secure = dataclasses.replace(
+        base,
+        minimum_operate_pu=min(5.0, pickup * k),
+        slope_1_percent=min(100.0, slope * k),
+        slope_2_percent=min(200.0, 2 * slope * k),
+        second_harmonic_percent=base.second_harmonic_percent * (1.0 - 0.99 * h2),
+    )
+    before = {v.logic: v for v in d.differential_response(base, t, i, F, 1.0).by_logic}
+    after = {v.logic: v for v in d.differential_response(secure, t, i, F, 1.0).by_logic}
+    for logic, v in before.items():
+        if not v.operates:
+            assert not after[logic].operates, logic
