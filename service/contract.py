@@ -76,6 +76,25 @@ def example_pairs() -> dict[str, dict[str, Any]]:
             "media_type": resp.headers["content-type"].split(";")[0],
             "response_contains": [x for x in labels if x in resp.text],
         }
+    for name, body in CLEARANCE_REQUESTS.items():
+        if not any(d.get("kind") == "differential" for d in body["devices"]):
+            continue
+        resp = client.post("/v1/clearance/differential-figure", json=body)
+        if resp.status_code != 200:
+            raise RuntimeError(f"example clearance_differential_figure.{name} failed: {resp.text}")
+        out[f"clearance_differential_figure.{name}"] = {
+            "operation_id": "clearance_differential_figure",
+            "method": "POST",
+            "path": "/v1/clearance/differential-figure",
+            "request": body,
+            "status": 200,
+            "media_type": resp.headers["content-type"].split(";")[0],
+            "response_contains": [
+                x
+                for x in ("Percentage characteristic", "Blocking level", "Restraint current")
+                if x in resp.text
+            ],
+        }
     for name, body in DIP_REQUESTS.items():
         resp = client.post("/v1/generator-dip/figure", json=body)
         if resp.status_code != 200:
@@ -120,6 +139,11 @@ def figures() -> dict[str, str]:
         out[f"examples/clearance_figure.{name}.svg"] = client.post(
             "/v1/clearance/figure", json=body
         ).text
+    for name, body in CLEARANCE_REQUESTS.items():
+        if any(d.get("kind") == "differential" for d in body["devices"]):
+            out[f"examples/clearance_differential_figure.{name}.svg"] = client.post(
+                "/v1/clearance/differential-figure", json=body
+            ).text
     for name, body in DIP_REQUESTS.items():
         out[f"examples/generator_dip_figure.{name}.svg"] = client.post(
             "/v1/generator-dip/figure", json=body

@@ -429,3 +429,77 @@ def voltage_dip_svg(
         ax.grid(True, linewidth=0.5, alpha=0.5)
         fig.legend(loc="outside lower center", ncols=2, fontsize="small")
         return _render(fig)
+
+
+DIFFERENTIAL_FIGSIZE_IN = (10.0, 8.0)
+
+
+def differential_svg(
+    title: str,
+    *,
+    phases: Sequence[str],
+    operate_pu: npt.ArrayLike,
+    restraint_pu: npt.ArrayLike,
+    second_harmonic_percent: npt.ArrayLike,
+    cycle_end_s: npt.ArrayLike,
+    characteristic_restraint_pu: npt.ArrayLike,
+    characteristic_operate_pu: npt.ArrayLike,
+    second_harmonic_level_percent: float,
+) -> str:
+    """A differential element through the energisation: operate against restraint per phase,
+    with its characteristic, and the second-harmonic ratio it sees against its setting.
+
+    Parameters
+    ----------
+    title : str
+        Figure title.
+    phases : sequence of str
+        One label per row of the per-cycle arrays.
+    operate_pu : array_like, shape (n_phases, n_cycles)
+        Operate current at each cycle's end [pu of the relay's tap].
+    restraint_pu : array_like, shape (n_phases, n_cycles)
+        Restraint current at each cycle's end [pu of the relay's tap].
+    second_harmonic_percent : array_like, shape (n_phases, n_cycles)
+        Second-harmonic ratio the relay sees at each cycle's end (nan where no current) [%].
+    cycle_end_s : array_like, shape (n_cycles,)
+        End of each cycle after the closing [s].
+    characteristic_restraint_pu, characteristic_operate_pu : array_like, shape (m,)
+        The percentage characteristic: operate threshold against restraint [pu of the tap].
+    second_harmonic_level_percent : float
+        The blocking level [%].
+
+    Returns
+    -------
+    str
+        The SVG document.
+    """
+    fig = Figure(figsize=DIFFERENTIAL_FIGSIZE_IN, layout="constrained")
+    top, bottom = fig.subplots(2, 1)
+    with _rc():
+        t = _vec(cycle_end_s, "cycle_end_s")
+        op = _rows(operate_pu, "operate_pu", phases, t.size)
+        rs = _rows(restraint_pu, "restraint_pu", phases, t.size)
+        r2 = _rows(second_harmonic_percent, "second_harmonic_percent", phases, t.size)
+        cr = _vec(characteristic_restraint_pu, "characteristic_restraint_pu")
+        co = _vec(characteristic_operate_pu, "characteristic_operate_pu", cr.size)
+        ceiling = 1.1 * float(np.nanmax(np.concatenate([co, op.ravel(), [1.0]])))
+        top.fill_between(cr, co, ceiling, where=co < ceiling, color="C3", alpha=0.08,
+                         label="Operate region (above the characteristic)")  # fmt: skip
+        top.set_ylim(0.0, ceiling)
+        top.plot(cr, co, color="C3", linewidth=1.5, label="Percentage characteristic")
+        for k, name in enumerate(phases):
+            top.plot(rs[k], op[k], marker="o", markersize=3, color=f"C{k}", linewidth=0.8,
+                     label=f"Phase {name}, cycle by cycle")  # fmt: skip
+            bottom.step(t, r2[k], where="post", color=f"C{k}", linewidth=1.0,
+                        label=f"Second harmonic, phase {name}")  # fmt: skip
+        bottom.axhline(second_harmonic_level_percent, color="C3", linestyle="--",
+                       label=f"Blocking level {second_harmonic_level_percent:g} %")  # fmt: skip
+        top.set_xlabel("Restraint current [pu of tap]")
+        top.set_ylabel("Operate current [pu of tap]")
+        top.set_title(title)
+        bottom.set_xlabel("Time after closing, end of each one-cycle window [s]")
+        bottom.set_ylabel("Second harmonic / fundamental [%]")
+        for ax in (top, bottom):
+            ax.grid(True, linewidth=0.5, alpha=0.5)
+            ax.legend(fontsize="small")
+        return _render(fig)

@@ -11,6 +11,7 @@ from fastapi import APIRouter, Body
 from fastapi.responses import Response
 
 from core import cost
+from core.errors import ParameterError
 from core.protection import coordination, device_operation, differential, protection_study
 from service import budget, compute, convert, figures
 from service.deps import SettingsDep
@@ -21,6 +22,7 @@ from service.models.clearance import (
     DamageOut,
     DamagePortionOut,
     DeviceOut,
+    DifferentialIn,
     DifferentialOut,
     DifferentialPhaseOut,
     HarmonicVerdictOut,
@@ -402,4 +404,60 @@ async def clearance_figure(
     """Log-log axes: the inrush I_eq(t) per line, the common-practice inrush points, each
     device's curve or band, and the transformer's through-fault damage curve."""
     svg = await compute.run_heavy(settings, _figure, body, settings)
+    return Response(svg, media_type="image/svg+xml")
+
+
+def _differential_figure(body: ClearanceRequest, settings: Settings) -> str:
+    which = [d for d in body.devices if isinstance(d, DifferentialIn)]
+    if not which:
+        raise ParameterError(
+            "devices", [d.kind for d in body.devices], "at least one device of kind differential"
+        )
+    d = which[0]
+    study, _ = _study(body, settings, figure=True)
+    ev = next(e for e in study.evaluation.devices if e.device == d.name)
+    res = ev.ride_through.differential
+    assert res is not None  # a differential device is judged by the differential element
+    reach = max(float(np.nanmax(res.restraint_pu, initial=0.0)) * 1.2, 1.5 * d.breakpoint_pu)
+    grid = np.linspace(0.0, reach, 241)
+    threshold = differential.operate_threshold(
+        grid,
+        d.minimum_operate_pu,
+        d.slope_1_percent / 100.0,
+        d.slope_2_percent / 100.0,
+        d.slope_1_from_pu,
+        d.breakpoint_pu,
+    )
+    return figures.differential_svg(
+        f"{d.name} ({d.vector_group}, {d.harmonic_logic.replace('_', ' ')} blocking): "
+        + _statement(res.verdict).split(";")[0],
+        phases=res.phases,
+        operate_pu=res.operate_pu,
+        restraint_pu=res.restraint_pu,
+        second_harmonic_percent=res.second_harmonic_percent,
+        cycle_end_s=res.cycle_end_s,
+        characteristic_restraint_pu=grid,
+        characteristic_operate_pu=threshold,
+        second_harmonic_level_percent=d.second_harmonic_percent,
+    )
+
+
+@router.post(
+    "/differential-figure",
+    operation_id="clearance_differential_figure",
+    summary="The first differential device of a clearance request through the energisation, SVG",
+    response_class=Response,
+    responses={200: {"content": {"image/svg+xml": {"schema": {"type": "string"}}},
+                     "description": "Operate against restraint per phase with the "
+                     "characteristic; second-harmonic ratio against the blocking level"}},
+)  # fmt: skip
+async def clearance_differential_figure(
+    body: Annotated[ClearanceRequest, Body(openapi_examples=CLEARANCE_EXAMPLES)],
+    settings: SettingsDep,
+) -> Response:
+    """Top: each phase's operate current against its restraint, cycle by cycle, with the
+    percentage characteristic; bottom: the second-harmonic ratio the relay sees per phase
+    against its blocking level. The first device of kind ``differential`` is drawn (422 naming
+    ``devices`` when there is none)."""
+    svg = await compute.run_heavy(settings, _differential_figure, body, settings)
     return Response(svg, media_type="image/svg+xml")

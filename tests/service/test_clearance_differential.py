@@ -121,3 +121,28 @@ def test_figure_skips_the_differential(client: TestClient) -> None:
     assert r.headers["content-type"].startswith("image/svg+xml")
     assert "F-main 13.8 kV" in r.text
     assert "87T main: differential, no time-current curve" in r.text  # named, not drawn
+
+
+def test_differential_figure_draws_the_characteristic_and_the_harmonic(
+    client: TestClient, answer: dict[str, Any]
+) -> None:
+    r = client.post("/v1/clearance/differential-figure", json=_request())
+    assert r.status_code == 200
+    assert r.headers["content-type"].startswith("image/svg+xml")
+    svg = r.text
+    for label in ("Percentage characteristic", "Blocking level 15 %", "Restraint current",
+                  "Phase A, cycle by cycle", "Second harmonic, phase C"):  # fmt: skip
+        assert label in svg, label
+    # the title carries the verdict the JSON operation gives
+    verdict = _diff(answer)["ride_through"]["differential"]["statement"].split(";")[0]
+    assert verdict in svg
+
+
+def test_differential_figure_without_a_differential_is_422_naming_devices(
+    client: TestClient,
+) -> None:
+    body = copy.deepcopy(CLEARANCE_REQUESTS["northgate_main_unit"])
+    r = client.post("/v1/clearance/differential-figure", json=body)
+    assert r.status_code == 422
+    assert r.headers["content-type"].startswith("application/problem+json")
+    assert any(e["field"] == "devices" for e in r.json()["errors"])

@@ -19,6 +19,7 @@ JSON_POSTS = [
     "/v1/inrush/statistics",
     "/v1/clearance",
     "/v1/clearance/figure",
+    "/v1/clearance/differential-figure",
     "/v1/generator-dip",
     "/v1/generator-dip/figure",
     "/v1/mitigation",
