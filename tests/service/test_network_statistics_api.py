@@ -202,3 +202,13 @@ def test_limits_and_values_name_their_fields(
     with TestClient(create_app(), raise_server_exceptions=False) as c:
         doc = _problem(c.post(URL, json=_ring() | {"sampling": {"samples": 2000}}))
     assert doc["type"] == "urn:firstcycle:problem:limit-exceeded"
+
+
+def test_the_defaults_fit_the_budget_with_a_feeder_relay(client: TestClient) -> None:
+    # the ring's three units and its relay, every sampling default: within the default work
+    # budget (each judged event is a whole network simulation over options.duration_s)
+    r = client.post(URL, json=NETWORK_REQUESTS["northgate_ring_reclose"])
+    assert r.status_code == 200, r.text
+    out = r.json()
+    assert out["samples"] == 1000
+    assert out["device_operation"][0]["events"] == 50
