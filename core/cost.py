@@ -44,6 +44,7 @@ __all__ = [
     "dip_study_work",
     "envelope_work",
     "mitigation_work",
+    "network_statistics_work",
     "network_work",
     "peak_work",
     "search_cases",
@@ -644,4 +645,86 @@ def network_work(
     if differentials:
         per = EVENT_SAMPLE_WEIGHT + DIFFERENTIAL_SAMPLE_WEIGHT
         parts.append(("differentials filtered", differentials * per * samples))
+    return _work(parts)
+
+
+def network_statistics_work(
+    source: Source,
+    units: Sequence[Unit],
+    load: BusLoad | None = None,
+    *,
+    samples: int,
+    pole_closing_max_s: float,
+    pole_scatter_ms: float,
+    events: int = 0,
+    devices: int = 0,
+    duration_s: float = 1.0,
+    cycles: float = 2.0,
+    samples_per_cycle: int = 128,
+) -> Work:
+    """Work of :func:`core.statistics.network_statistics.network_peak_distribution` and of
+    :func:`core.statistics.network_statistics.network_device_odds`.
+
+    Parameters
+    ----------
+    source : core.network.Source
+        The source [-].
+    units : sequence of core.network.Unit
+        The units on the bus [-].
+    load : core.network.BusLoad or None
+        The bus load [-].
+    samples : int
+        Monte Carlo events [-].
+    pole_closing_max_s : float
+        Latest given pole instant of the units being energised [s].
+    pole_scatter_ms : float
+        Standard deviation of the pole scatter [ms].
+    events : int
+        Events simulated in full to judge the devices (0 for none) [-].
+    devices : int
+        Feeder devices judged on each of them [-].
+    duration_s : float
+        Record of each judged event [s].
+    cycles : float
+        First-peak window after the last pole [cycles].
+    samples_per_cycle : int
+        Output samples per cycle [-].
+
+    Returns
+    -------
+    Work
+
+    Notes
+    -----
+    Monte Carlo: samples x NETWORK_STEP_WEIGHT x units x 3 windings x steps over
+    cycles/f + d + 2 samples, d = pole_closing_max + SCATTER_SIGMAS x sigma the latest pole
+    (:func:`core.network.step_plan`, the solver's own plan); its first peaks read at
+    EVENT_SAMPLE_WEIGHT per line-sample of the source and of every unit. Devices: events x the
+    network simulated over duration_s, each event's source record read (EVENT_WEIGHT +
+    EVENT_SAMPLE_WEIGHT x 3 x samples) and each device judged on it (DEVICE_JUDGEMENT_WEIGHT +
+    DEVICE_SAMPLE_WEIGHT x 3 x samples).
+
+    References
+    ----------
+    Counts the network solver's step plan and the statistics' reading (this project).
+    """
+    units = list(units)
+    f = source.frequency_hz
+    spread = pole_closing_max_s + SCATTER_SIGMAS * pole_scatter_ms * 1e-3
+    window = cycles / f + spread + 2.0 / (f * samples_per_cycle)
+    _, _, n_steps = step_plan(source, units, window, load, samples_per_cycle)
+    record = 3.0 * (window * f * samples_per_cycle + 1)
+    parts = [
+        ("Monte Carlo events", NETWORK_STEP_WEIGHT * samples * len(units) * 3.0 * n_steps),
+        ("first peaks read", EVENT_SAMPLE_WEIGHT * samples * record * (len(units) + 1)),
+    ]
+    if events and devices:
+        _, _, full = step_plan(source, units, duration_s, load, samples_per_cycle)
+        line_samples = 3.0 * (duration_s * f * samples_per_cycle + 1)
+        per_event = DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT * line_samples
+        parts += [
+            ("device events simulated", NETWORK_STEP_WEIGHT * events * len(units) * 3.0 * full),
+            ("device events read", events * (EVENT_WEIGHT + EVENT_SAMPLE_WEIGHT * line_samples)),
+            ("device events judged", events * devices * per_event),
+        ]
     return _work(parts)

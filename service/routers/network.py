@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 import re
 from collections.abc import Mapping
+from dataclasses import dataclass
 from typing import Annotated
 
 import numpy as np
@@ -323,6 +324,27 @@ def _bus(res: NetworkResult, v_nom: float, spc: int, f: float) -> BusVoltageOut:
         recovered_cycle=rec,
         recovered_s=rec / f if rec is not None else None,
     )
+
+
+@dataclass(frozen=True)
+class Prepared:
+    """A network request in SI, checked: what the core is called with, and what it assumed."""
+
+    source: Source
+    units: list[Unit]
+    rated_current_a: list[float]
+    load: BusLoad | None
+    assumptions: list[Assumption]
+    warnings: list[tuple[str, str]]
+
+
+def prepare(body: NetworkRequest) -> Prepared:
+    """The source, units and load of a request, as /v1/network-energization builds them (the
+    operations that take the same network call this)."""
+    source, assumptions = _source(body)
+    _check_source(body, source)
+    units, rated, notes, warns = _units(body)
+    return Prepared(source, units, rated, _load(body), assumptions + notes, warns)
 
 
 def _differentials(body: NetworkRequest) -> int:
