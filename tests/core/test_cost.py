@@ -364,8 +364,9 @@ def test_clearance_estimate_counts_the_search_record_and_judging(
     circuit = _circuit("wye_grounded")
     devices: list[device_operation.Device] = [RELAY, SENSITIVE, BREAKER]
     protection_study.clearance_study(
-        circuit, closing, RESIDUAL, 0.0, devices, rating_va=2.5e6, impedance_percent=5.75,
-        duration_s=1.0, windows=windows,
+        circuit, switching_event.switching_event(circuit, closing or 0.0, RESIDUAL), devices,
+        closing="worst" if closing is None else "given", rating_va=2.5e6,
+        impedance_percent=5.75, duration_s=1.0, windows=windows,
     )  # fmt: skip
     work = cost.clearance_work(
         circuit, worst_angle=closing is None, duration_s=1.0, devices=3, windows=windows
