@@ -96,12 +96,14 @@ PEAK_CASE_WEIGHT = 360_000.0
 # about 1.2 s, the voltage-time figure of the dip about 0.25 s, whatever the record.
 TCC_FIGURE_WEIGHT = 22_000_000.0
 DIP_FIGURE_WEIGHT = 4_500_000.0
-# Dip evaluations of the generator sizing (core.dip_sizing.smallest_generator): the two ends of
-# the range, Brent's method on log(rating) to a relative 1e-3 over a factor of 200 (bisection
-# alone needs 13; Brent's superlinear steps need fewer on this smooth, monotonic dip), two steps
-# to the passing side of the root: a typical count, not a bound (the deadline is the backstop).
+# Dip evaluations of the generator sizing (core.supply.generator_sizing.smallest_generator): the
+# two ends of the range, Brent's method on log(rating) to a relative 1e-3 over a factor of 200
+# (bisection alone needs 13; Brent's superlinear steps need fewer on this smooth, monotonic dip),
+# two steps to the passing side of the root: a typical count, not a bound (the deadline is the
+# backstop).
 SIZING_EVALUATIONS = 2 + 12 + 2
-# Simulated time of each sizing evaluation [s] (core.dip_sizing.smallest_generator's default).
+# Simulated time of each sizing evaluation [s] (the default of
+# core.supply.generator_sizing.smallest_generator).
 SIZING_DURATION_S = 2.0
 # The pole scatter's largest spread over a sample, counted in standard deviations: the range of
 # three normal draws exceeds 10 sigma with a probability below 1e-6 per event (normal tail at
@@ -191,7 +193,7 @@ def simulation_steps(
 
 
 def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) -> float:
-    """Winding-steps of one generator-dip run (:func:`core.dip.energize_from_source`).
+    """Winding-steps of one generator-dip run (:func:`core.supply.dip.energize_from_source`).
 
     Parameters
     ----------
@@ -400,7 +402,7 @@ def clearance_work(
     figure: bool = False,
     differentials: int = 0,
 ) -> Work:
-    """Work of :func:`core.clearance.clearance_study` (and of its figure).
+    """Work of :func:`core.protection.protection_study.clearance_study` (and of its figure).
 
     Parameters
     ----------
@@ -436,7 +438,7 @@ def clearance_work(
 
     References
     ----------
-    Counts :func:`core.clearance.clearance_study` (this project).
+    Counts :func:`core.protection.protection_study.clearance_study` (this project).
     """
     parts = []
     if worst_angle:
@@ -464,7 +466,7 @@ def dip_study_work(
     recovery_limit_s: float | None,
     figure: bool = False,
 ) -> Work:
-    """Work of :func:`core.dip_study.dip_study`.
+    """Work of :func:`core.supply.dip_study.dip_study`.
 
     Parameters
     ----------
@@ -491,8 +493,8 @@ def dip_study_work(
 
     References
     ----------
-    Counts :func:`core.dip_study.dip_study` and :func:`core.dip_sizing.smallest_generator`
-    (this project).
+    Counts :func:`core.supply.dip_study.dip_study` and
+    :func:`core.supply.generator_sizing.smallest_generator` (this project).
     """
     parts = [("dip event", dip_run_steps(frequency_hz, duration_s))]
     if sizing:

@@ -27,7 +27,6 @@ from numpy.typing import NDArray
 from core import checks
 from core.energization import energize
 from core.energization.inrush_study import line_names
-from core.energization.switching_event import switching_events
 from core.protection import coordination, device_operation
 from core.statistics import monte_carlo
 from core.supply import dip
@@ -254,10 +253,7 @@ def dip_exceedance_odds(
     span = checks.in_range("duration_s", duration_s, 0.1, 30.0, open_low=False)
     dips = np.empty(n)
     approximations: tuple[str, ...] = ()
-    drawn = switching_events(
-        circuit, dist.closing_angle_deg[:n], dist.residual_flux_pu[:n], dist.pole_delay_s[:n]
-    )
-    for k, event in enumerate(drawn):
+    for k, event in enumerate(dist.events(circuit, n)):
         if checkpoint is not None:
             checkpoint()
         study = dip.energize_from_source(

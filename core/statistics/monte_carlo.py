@@ -26,6 +26,7 @@ from scipy import stats
 from core import checks
 from core.energization import energize
 from core.energization.inrush_study import line_names
+from core.energization.switching_event import SwitchingEvent, switching_events
 from core.errors import ParameterError
 from core.transformer.circuit_model import EquivalentCircuit
 
@@ -195,6 +196,37 @@ class PeakDistribution:
         """Largest line peak of each sample, shape (samples,) [A]."""
         out: FloatArray = self.peaks_a.max(axis=1)
         return out
+
+    def events(self, circuit: EquivalentCircuit, count: int) -> tuple[SwitchingEvent, ...]:
+        """The first ``count`` sampled energisations as switching events of ``circuit``.
+
+        Parameters
+        ----------
+        circuit : EquivalentCircuit
+            A circuit of the phase count the sample was drawn for; its source may differ (e.g.
+            the same unit on an ideal source, for a machine to replace it) [-].
+        count : int
+            How many, from the first, at most the samples [-].
+
+        Returns
+        -------
+        tuple of SwitchingEvent
+            Event k: (closing_angle_deg[k], residual_flux_pu[k], pole_delay_s[k]).
+
+        Notes
+        -----
+        Built and checked at once by :func:`core.energization.switching_event.switching_events`.
+
+        References
+        ----------
+        This project's switching event.
+        """
+        return switching_events(
+            circuit,
+            self.closing_angle_deg[:count],
+            self.residual_flux_pu[:count],
+            self.pole_delay_s[:count],
+        )
 
 
 @dataclass(frozen=True)
