@@ -1,9 +1,11 @@
 """One network model: a three-phase source, a bus with its load, and transformers on breakers.
 
 :func:`simulate_network` is the public entry; :mod:`core.network.solver` holds the equations
-and the references, :mod:`core.network.kernel` the compiled integration.
+and the references, :mod:`core.network.kernel` the compiled integration,
+:mod:`core.network.machine` the synchronous machine as source.
 """
 
+from core.network.machine import Machine, Regulator
 from core.network.solver import (
     Breaker,
     BusLoad,
@@ -14,4 +16,14 @@ from core.network.solver import (
     step_plan,
 )
 
-__all__ = ["Breaker", "BusLoad", "NetworkResult", "Source", "Unit", "simulate_network", "step_plan"]
+__all__ = [
+    "Breaker",
+    "BusLoad",
+    "Machine",
+    "NetworkResult",
+    "Regulator",
+    "Source",
+    "Unit",
+    "simulate_network",
+    "step_plan",
+]

@@ -24,9 +24,17 @@ from numpy.typing import NDArray
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
-__all__ = ["DELTA", "FLOATING_WYE", "GROUNDED_WYE", "MAX_ITERATIONS", "integrate"]
+__all__ = ["DELTA", "FLOATING_WYE", "GROUNDED_WYE", "MAX_ITERATIONS", "NSRC", "integrate"]
 
 GROUNDED_WYE, FLOATING_WYE, DELTA = 0, 1, 2
+# Columns of the per-case source parameters (src, shape (n_cases, NSRC)): the Thevenin R_s
+# [ohm], L_s [H]; DYN > 0 lets the machine's d-axis fluxes evolve, AVR > 0 its regulator; the
+# reactances X''_d, X'_d, X_d [pu], T''_do, T'_do [s], the regulator K_A [pu], T_A [s], ceiling,
+# floor [pu], T_R [s], V_ref [pu] and the base current I_b [A] of the per-unit d-axis current.
+RS, LS, DYN, AVR, X2, X1, XD, T2O, T1O, KA, TA, EMAX, EMIN, TR, VREF, IB = range(16)
+NSRC = 16
+# Machine states (per case): E''_q, E'_q, E_fd, V_s [pu]
+NMACH = 4
 # Newton's method on Phi and on a floating node's flux: iteration cap (a guard, not a budget:
 # warm-started from the previous stage a piecewise-linear curve needs two evaluations when no
 # winding crosses a breakpoint) [-].
@@ -232,8 +240,8 @@ def integrate(
     phase: FloatArray,
     ramp: FloatArray,
     ramp_steps: IntArray,
-    r_s: float,
-    l_s: float,
+    src: FloatArray,
+    m0: FloatArray,
     r_l: float,
     l_l: float,
     has_load: bool,
@@ -256,14 +264,20 @@ def integrate(
     out_line: FloatArray,
     out_wind: FloatArray,
     out_flux: FloatArray,
+    out_mach: FloatArray,
+    out_energy: FloatArray,
 ) -> int:  # pragma: no cover - compiled
     """Integrate every case; returns the number of algebraic solves that did not converge.
 
-    Shapes: phase (n_cases, 3) [rad] (EMF e_k = g*vpk*sin(omega*t + phase_k)); ramp (g0,
-    slope per step); ramp_steps (end of hold, end of rise) [steps]; per unit conn, r_w [ohm],
-    r_ins [ohm], bypass_step, curve (kind, par, flux, cur, npts); close_step (n_cases,
-    n_units, 3) [steps]; lam0 (n_cases, n_units, 3) [Wb-turn]; il0 (n_cases, 3) [A]; outputs
-    (n_cases, 3, n_samples) and (n_cases, n_units, 3, n_samples).
+    Shapes: phase (n_cases, 3) [rad] (EMF e_k = g*vpk*(E''_q*sin(omega*t + phase_k) -
+    (dE''_q/dt/omega)*cos(omega*t + phase_k))); ramp (g0, slope per step); ramp_steps (end of
+    hold, end of rise) [steps]; src (n_cases, NSRC) the source columns above; m0 (n_cases,
+    NMACH) the machine states at t = 0 [pu]; per unit conn, r_w [ohm], r_ins [ohm],
+    bypass_step, curve (kind, par, flux, cur, npts); close_step (n_cases, n_units, 3) [steps];
+    lam0 (n_cases, n_units, 3) [Wb-turn]; il0 (n_cases, 3) [A]; outputs (n_cases, 3,
+    n_samples), (n_cases, n_units, 3, n_samples), out_mach (n_cases, 2, n_samples) E''_q and
+    E_fd [pu], out_energy (n_cases, n_units) the integral of the summed squared line currents
+    while the unit's pre-insertion resistor is in [A^2*s].
     """
     n_cases = phase.shape[0]
     n_units = conn.shape[0]
@@ -271,7 +285,18 @@ def integrate(
     kh, ke = ramp_steps[0], ramp_steps[1]
     inv_ll = 1.0 / l_l if has_load else 0.0
     failed = 0
+    sq2 = math.sqrt(2.0)
     for c in range(n_cases):
+        r_s = src[c, RS]
+        l_s = src[c, LS]
+        dyn = src[c, DYN] > 0.0
+        avr = dyn and src[c, AVR] > 0.0
+        ms = m0[c].copy()
+        mbase = np.zeros(NMACH)
+        macc = np.zeros(NMACH)
+        km = np.zeros(NMACH)
+        en_acc = np.zeros(n_units)
+        ang = np.zeros(3)
         psi = np.zeros((n_units, 3))
         base = np.zeros((n_units, 3))
         acc = np.zeros((n_units, 3))
@@ -516,7 +541,20 @@ def integrate(
                 gsc = _source_scale(x_st, j, g0, slope, kh, ke)
                 wt = omega * x_st * h
                 for k in range(3):
-                    e[k] = gsc * vpk * math.sin(wt + phase[c, k])
+                    ang[k] = wt + phase[c, k]
+                km[0] = km[1] = km[2] = km[3] = 0.0
+                if dyn:
+                    # machine: Park d component of the source currents in the EMF's frame
+                    # [pu of rated current], positive lagging; the d-axis flux decay
+                    sd = 0.0
+                    for k in range(3):
+                        sd -= i_s[k] * math.cos(ang[k])
+                    i_d = sd / (1.5 * sq2 * src[c, IB])
+                    km[0] = (ms[1] - ms[0] - (src[c, X1] - src[c, X2]) * i_d) / src[c, T2O]
+                    km[1] = (ms[2] - ms[1] - (src[c, XD] - src[c, X1]) * i_d) / src[c, T1O]
+                rate = km[0] / omega
+                for k in range(3):
+                    e[k] = gsc * vpk * (ms[0] * math.sin(ang[k]) - rate * math.cos(ang[k]))
                     kl[k] = e[k] - r_s * i_s[k] - r_l * i_l[k]
                 for u in range(n_units):
                     if mode[u] == 0:
@@ -534,9 +572,10 @@ def integrate(
                             kpsi[u, k] = drv[k] - drv[(k + 1) % 3] - rw * cw[u, k]
                         else:
                             kpsi[u, k] = drv[k] - rw * cw[u, k]
-                # ---- outputs at the sample instants ----
-                if st == 0 and (j % decimate == 0 or j == n_steps):
-                    s_idx = j // decimate
+                # ---- bus voltage, regulator, outputs at the sample instants ----
+                sample = st == 0 and (j % decimate == 0 or j == n_steps)
+                v0 = v1 = v2 = 0.0
+                if sample or avr:
                     # bus voltage v = e - R_s*i_s - Phi', J*Phi' = sum S C D~ psi' + psi_L'/L_L
                     p0 = p1 = p2 = 0.0
                     if l_s > 0.0:
@@ -564,9 +603,32 @@ def integrate(
                             b1 += y1 if closed[u, 1] else 0.0
                             b2 += y2 if closed[u, 2] else 0.0
                         p0, p1, p2 = _solve3(j00, j01, j02, j11, j12, j22, b0, b1, b2)
-                    out_bus[c, 0, s_idx] = e[0] - r_s * i_s[0] - p0
-                    out_bus[c, 1, s_idx] = e[1] - r_s * i_s[1] - p1
-                    out_bus[c, 2, s_idx] = e[2] - r_s * i_s[2] - p2
+                    v0 = e[0] - r_s * i_s[0] - p0
+                    v1 = e[1] - r_s * i_s[1] - p1
+                    v2 = e[2] - r_s * i_s[2] - p2
+                    if avr:
+                        # magnitude of the bus-voltage space vector [pu of rated phase voltage]
+                        vd = v0 * math.cos(ang[0]) + v1 * math.cos(ang[1]) + v2 * math.cos(ang[2])
+                        vq = v0 * math.sin(ang[0]) + v1 * math.sin(ang[1]) + v2 * math.sin(ang[2])
+                        valg = math.sqrt(vd * vd + vq * vq) / (1.5 * vpk)
+                        vs = ms[3]
+                        if src[c, TR] > 0.0:
+                            km[3] = (valg - vs) / src[c, TR]
+                        else:
+                            vs = valg
+                        de = (src[c, KA] * (src[c, VREF] - vs) - ms[2]) / src[c, TA]
+                        if (ms[2] >= src[c, EMAX] and de > 0.0) or (
+                            ms[2] <= src[c, EMIN] and de < 0.0
+                        ):
+                            de = 0.0
+                        km[2] = de
+                if sample:
+                    s_idx = j // decimate
+                    out_bus[c, 0, s_idx] = v0
+                    out_bus[c, 1, s_idx] = v1
+                    out_bus[c, 2, s_idx] = v2
+                    out_mach[c, 0, s_idx] = ms[0]
+                    out_mach[c, 1, s_idx] = ms[2]
                     for k in range(3):
                         out_src[c, k, s_idx] = i_s[k]
                         for u in range(n_units):
@@ -576,7 +638,15 @@ def integrate(
                     if j == n_steps:
                         break
                 # ---- Runge-Kutta ----
+                wgt = 1.0 if (st == 0 or st == 3) else 2.0
+                for u in range(n_units):
+                    if j < bypass_step[u]:
+                        pw = line[u, 0] ** 2 + line[u, 1] ** 2 + line[u, 2] ** 2
+                        en_acc[u] = wgt * pw + (en_acc[u] if st > 0 else 0.0)
                 if st == 0:
+                    for k in range(NMACH):
+                        mbase[k] = ms[k]
+                        macc[k] = km[k]
                     for k in range(3):
                         base_l[k] = psi_l[k]
                         acc_l[k] = kl[k]
@@ -585,7 +655,8 @@ def integrate(
                             base[u, k] = psi[u, k]
                             acc[u, k] = kpsi[u, k]
                 else:
-                    wgt = 1.0 if st == 3 else 2.0
+                    for k in range(NMACH):
+                        macc[k] += wgt * km[k]
                     for k in range(3):
                         acc_l[k] += wgt * kl[k]
                     for u in range(n_units):
@@ -593,12 +664,21 @@ def integrate(
                             acc[u, k] += wgt * kpsi[u, k]
                 if st < 3:
                     hs = h if st == 2 else 0.5 * h
+                    for k in range(NMACH):
+                        ms[k] = mbase[k] + hs * km[k]
                     for k in range(3):
                         psi_l[k] = base_l[k] + hs * kl[k]
                     for u in range(n_units):
                         for k in range(3):
                             psi[u, k] = base[u, k] + hs * kpsi[u, k]
                 else:
+                    for k in range(NMACH):
+                        ms[k] = mbase[k] + h / 6.0 * macc[k]
+                    if avr:
+                        ms[2] = min(max(ms[2], src[c, EMIN]), src[c, EMAX])
+                    for u in range(n_units):
+                        if j < bypass_step[u]:
+                            out_energy[c, u] += h / 6.0 * en_acc[u]
                     for k in range(3):
                         psi_l[k] = base_l[k] + h / 6.0 * acc_l[k]
                     for u in range(n_units):
