@@ -296,7 +296,10 @@ def integrate(
         macc = np.zeros(NMACH)
         km = np.zeros(NMACH)
         en_acc = np.zeros(n_units)
-        ang = np.zeros(3)
+        sa = np.zeros(3)  # sin and cos of omega*t + phase_k at the stage
+        ca = np.zeros(3)
+        sph = np.sin(phase[c])
+        cph = np.cos(phase[c])
         psi = np.zeros((n_units, 3))
         base = np.zeros((n_units, 3))
         acc = np.zeros((n_units, 3))
@@ -540,21 +543,24 @@ def integrate(
                 # ---- derivatives: KVL around every loop ----
                 gsc = _source_scale(x_st, j, g0, slope, kh, ke)
                 wt = omega * x_st * h
+                swt = math.sin(wt)
+                cwt = math.cos(wt)
                 for k in range(3):
-                    ang[k] = wt + phase[c, k]
+                    sa[k] = swt * cph[k] + cwt * sph[k]
+                    ca[k] = cwt * cph[k] - swt * sph[k]
                 km[0] = km[1] = km[2] = km[3] = 0.0
                 if dyn:
                     # machine: Park d component of the source currents in the EMF's frame
                     # [pu of rated current], positive lagging; the d-axis flux decay
                     sd = 0.0
                     for k in range(3):
-                        sd -= i_s[k] * math.cos(ang[k])
+                        sd -= i_s[k] * ca[k]
                     i_d = sd / (1.5 * sq2 * src[c, IB])
                     km[0] = (ms[1] - ms[0] - (src[c, X1] - src[c, X2]) * i_d) / src[c, T2O]
                     km[1] = (ms[2] - ms[1] - (src[c, XD] - src[c, X1]) * i_d) / src[c, T1O]
                 rate = km[0] / omega
                 for k in range(3):
-                    e[k] = gsc * vpk * (ms[0] * math.sin(ang[k]) - rate * math.cos(ang[k]))
+                    e[k] = gsc * vpk * (ms[0] * sa[k] - rate * ca[k])
                     kl[k] = e[k] - r_s * i_s[k] - r_l * i_l[k]
                 for u in range(n_units):
                     if mode[u] == 0:
@@ -608,8 +614,8 @@ def integrate(
                     v2 = e[2] - r_s * i_s[2] - p2
                     if avr:
                         # magnitude of the bus-voltage space vector [pu of rated phase voltage]
-                        vd = v0 * math.cos(ang[0]) + v1 * math.cos(ang[1]) + v2 * math.cos(ang[2])
-                        vq = v0 * math.sin(ang[0]) + v1 * math.sin(ang[1]) + v2 * math.sin(ang[2])
+                        vd = v0 * ca[0] + v1 * ca[1] + v2 * ca[2]
+                        vq = v0 * sa[0] + v1 * sa[1] + v2 * sa[2]
                         valg = math.sqrt(vd * vd + vq * vq) / (1.5 * vpk)
                         vs = ms[3]
                         if src[c, TR] > 0.0:
