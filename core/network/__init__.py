@@ -12,6 +12,7 @@ from core.network.solver import (
     NetworkResult,
     Source,
     Unit,
+    insertion_substeps,
     simulate_network,
     step_plan,
 )
@@ -24,6 +25,7 @@ __all__ = [
     "Regulator",
     "Source",
     "Unit",
+    "insertion_substeps",
     "simulate_network",
     "step_plan",
 ]

@@ -117,6 +117,7 @@ __all__ = [
     "NetworkResult",
     "Source",
     "Unit",
+    "insertion_substeps",
     "simulate_network",
     "step_plan",
 ]
@@ -564,6 +565,8 @@ def step_plan(
     duration_s: float,
     load: BusLoad | None = None,
     samples_per_cycle: int = 128,
+    *,
+    substep_insertion: bool = False,
 ) -> tuple[int, int, int]:
     """The internal step of :func:`simulate_network`: decimation, steps per cycle, step count.
 
@@ -579,6 +582,9 @@ def step_plan(
         The bus load, None for none [-].
     samples_per_cycle : int
         Output samples per cycle [-].
+    substep_insertion : bool
+        True leaves the pre-insertion resistors out of the step (the steps while one is in
+        are split into sub-steps, :func:`insertion_substeps`) [-].
 
     Returns
     -------
@@ -614,7 +620,7 @@ def step_plan(
     for u in units:
         c = u.circuit
         conn = u.connection or c.connection
-        k_line = 3.0 if conn == "delta" else 1.0
+        k_line = 0.0 if substep_insertion else (3.0 if conn == "delta" else 1.0)
         r = c.winding_resistance_ohm + 2.0 * r_s + k_line * u.breaker.insertion_resistance_ohm
         taus.append(float(np.min((c.air_core_inductance_h + l_s) / np.maximum(r, 1e-300))))
     if load is not None:
@@ -631,6 +637,67 @@ def step_plan(
     spc = samples_per_cycle * decimate
     n_steps = max(decimate, round(duration_s * f * samples_per_cycle) * decimate)
     return decimate, spc, n_steps
+
+
+def insertion_substeps(
+    source: Source | Machine, units: Sequence[Unit], steps_per_cycle: int
+) -> int:
+    """Runge-Kutta sub-steps per step while the pre-insertion resistors are in.
+
+    Parameters
+    ----------
+    source : Source or Machine
+        The source [-].
+    units : sequence of Unit
+        The transformers on the bus [-].
+    steps_per_cycle : int
+        Internal steps per cycle of :func:`step_plan` (with ``substep_insertion``) [-].
+
+    Returns
+    -------
+    int
+        ceil(need/spc), at least 1 [-].
+
+    Raises
+    ------
+    ParameterError
+        Naming ``units[k].breaker.insertion_resistance_ohm`` when the inserted loop would need
+        more than MAX_STEPS_PER_CYCLE steps a cycle.
+
+    Notes
+    -----
+    need = 4/(f*tau_ins), tau_ins the shortest (L_air + L_s)/(R_w + 2*R_s + k*R_ins) over the
+    units with a resistor (k = 3 for a delta, 1 otherwise) and the cases: the step rule of
+    :func:`step_plan` applied to the loops while the resistor is in.
+
+    References
+    ----------
+    This project's step rule (four steps per saturated time constant).
+    """
+    f = float(source.frequency_hz)
+    if isinstance(source, Machine):
+        r_s, l_s = _machine.impedance(source, _machine.case_count(source))
+    else:
+        r_s, l_s = np.array([source.resistance_ohm]), np.array([source.inductance_h])
+    sub = 1
+    for k, u in enumerate(units):
+        r_ins = u.breaker.insertion_resistance_ohm
+        if r_ins <= 0.0:
+            continue
+        c = u.circuit
+        k_line = 3.0 if (u.connection or c.connection) == "delta" else 1.0
+        r = c.winding_resistance_ohm + 2.0 * r_s + k_line * r_ins
+        tau = float(np.min((c.air_core_inductance_h + l_s) / r))
+        need = 4.0 / (f * tau)
+        if need > MAX_STEPS_PER_CYCLE:
+            raise ParameterError(
+                f"units[{k}].breaker.insertion_resistance_ohm",
+                r_ins,
+                f"a resistor giving an inserted-loop time constant of at least "
+                f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s",
+            )
+        sub = max(sub, math.ceil(need / steps_per_cycle))
+    return sub
 
 
 def _machine_time_constants(source: Source | Machine) -> list[float]:
@@ -654,6 +721,7 @@ def simulate_network(
     load: BusLoad | None = None,
     samples_per_cycle: int = 128,
     max_steps: int | None = None,
+    substep_insertion: bool = False,
 ) -> NetworkResult:
     """Simulate the energisation of transformers on one bus, for many cases at once.
 
@@ -676,6 +744,11 @@ def simulate_network(
         Output samples per cycle, in [4, 100000] [-].
     max_steps : int or None
         Compute limit: most unit-steps (cases x units x internal steps) allowed [-].
+    substep_insertion : bool
+        False: the step is short enough for every loop with its pre-insertion resistor in,
+        throughout. True: the step ignores the resistors and the steps before the last bypass
+        are split into :func:`insertion_substeps` equal sub-steps (a long run with a short
+        insertion) [-].
 
     Returns
     -------
@@ -751,7 +824,9 @@ def simulate_network(
         if np.any(np.abs(residual[:, k]) > 5.0):
             raise ParameterError(name, float(np.abs(residual[:, k]).max()), "in [-5, 5]")
 
-    decimate, spc, n_steps = step_plan(source, units, duration_s, load, samples_per_cycle)
+    decimate, spc, n_steps = step_plan(
+        source, units, duration_s, load, samples_per_cycle, substep_insertion=substep_insertion
+    )
     h = 1.0 / (f * spc)
     work = n * n_units * n_steps
     if max_steps is not None and work > max_steps:
@@ -809,6 +884,8 @@ def simulate_network(
         np.ascontiguousarray(il0, dtype=float),
         NEWTON_TOLERANCE_PU * lam_n, NEWTON_TOLERANCE_PU * float(lam_n.min()),
         out_src, out_bus, out_line, out_wind, out_flux, out_mach, out_energy,
+        int(bypass.max()) if substep_insertion else 0,
+        insertion_substeps(source, units, spc) if substep_insertion else 1,
     )  # fmt: skip
     if failed:
         raise ParameterError(
