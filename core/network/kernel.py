@@ -267,7 +267,7 @@ def integrate(
     out_mach: FloatArray,
     out_energy: FloatArray,
     n_in: int,
-    sub: int,
+    sub: IntArray,
 ) -> int:  # pragma: no cover - compiled
     """Integrate every case; returns the number of algebraic solves that did not converge.
 
@@ -280,7 +280,7 @@ def integrate(
     n_samples), (n_cases, n_units, 3, n_samples), out_mach (n_cases, 2, n_samples) E''_q and
     E_fd [pu], out_energy (n_cases, n_units) the integral of the summed squared line currents
     while the unit's pre-insertion resistor is in [A^2*s]; the steps j < n_in are each split
-    into ``sub`` equal Runge-Kutta sub-steps (a resistor's short time constant while it is in),
+    into ``sub[c]`` equal Runge-Kutta sub-steps (a resistor's short time constant while it is in),
     the samples staying on the step.
     """
     n_cases = phase.shape[0]
@@ -346,7 +346,7 @@ def integrate(
                     for k in range(3):
                         if close_step[c, u, k] == j:
                             pending = True
-            nsub = sub if (j < n_in and j < n_steps) else 1
+            nsub = sub[c] if (j < n_in and j < n_steps) else 1
             hh = h / nsub
             for sb in range(nsub):
                 st = 0

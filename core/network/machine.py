@@ -107,7 +107,8 @@ class Machine:
     rating_va : array_like
         Rating, the power base [VA].
     x_d2_pu : array_like
-        Subtransient reactance X''_d (= X''_q), > 0 [pu].
+        Subtransient reactance X''_d (= X''_q), > 0 (>= 0 for a frozen EMF: 0 is an ideal
+        source) [pu].
     armature_resistance_pu : array_like
         R_a, >= 0 [pu].
     x_d1_pu, x_d_pu : array_like
@@ -195,7 +196,11 @@ def _arrays(machine: Machine, n: int) -> dict[str, FloatArray]:
         if not np.all(np.isfinite(a)):
             raise ParameterError(f"source.{name}", a.tolist(), "finite numbers")
         out[name] = np.broadcast_to(a, (n,)).astype(float)
-    positive = ["rating_va", "x_d2_pu", "emf_pu", "t_d2o_s", "t_d1o_s"]
+    positive = ["rating_va", "emf_pu", "t_d2o_s", "t_d1o_s"]
+    if machine.dynamic:
+        positive.append("x_d2_pu")
+    elif np.any(out["x_d2_pu"] < 0.0):
+        raise ParameterError("source.x_d2_pu", float(out["x_d2_pu"].min()), ">= 0")
     positive += ["regulator.gain_pu", "regulator.time_constant_s"]
     for name in positive:
         if name in out and np.any(out[name] <= 0.0):

@@ -641,7 +641,7 @@ def step_plan(
 
 def insertion_substeps(
     source: Source | Machine, units: Sequence[Unit], steps_per_cycle: int
-) -> int:
+) -> IntArray:
     """Runge-Kutta sub-steps per step while the pre-insertion resistors are in.
 
     Parameters
@@ -655,8 +655,8 @@ def insertion_substeps(
 
     Returns
     -------
-    int
-        ceil(need/spc), at least 1 [-].
+    ndarray of int, shape (n_cases,)
+        ceil(need/spc), at least 1, per case of a machine source (one value for a Source) [-].
 
     Raises
     ------
@@ -667,7 +667,7 @@ def insertion_substeps(
     Notes
     -----
     need = 4/(f*tau_ins), tau_ins the shortest (L_air + L_s)/(R_w + 2*R_s + k*R_ins) over the
-    units with a resistor (k = 3 for a delta, 1 otherwise) and the cases: the step rule of
+    units with a resistor (k = 3 for a delta, 1 otherwise), per case: the step rule of
     :func:`step_plan` applied to the loops while the resistor is in.
 
     References
@@ -679,7 +679,7 @@ def insertion_substeps(
         r_s, l_s = _machine.impedance(source, _machine.case_count(source))
     else:
         r_s, l_s = np.array([source.resistance_ohm]), np.array([source.inductance_h])
-    sub = 1
+    sub = np.ones(r_s.size, dtype=np.int64)
     for k, u in enumerate(units):
         r_ins = u.breaker.insertion_resistance_ohm
         if r_ins <= 0.0:
@@ -687,16 +687,15 @@ def insertion_substeps(
         c = u.circuit
         k_line = 3.0 if (u.connection or c.connection) == "delta" else 1.0
         r = c.winding_resistance_ohm + 2.0 * r_s + k_line * r_ins
-        tau = float(np.min((c.air_core_inductance_h + l_s) / r))
-        need = 4.0 / (f * tau)
-        if need > MAX_STEPS_PER_CYCLE:
+        need = 4.0 * r / (f * (c.air_core_inductance_h + l_s))
+        if np.any(need > MAX_STEPS_PER_CYCLE):
             raise ParameterError(
                 f"units[{k}].breaker.insertion_resistance_ohm",
                 r_ins,
                 f"a resistor giving an inserted-loop time constant of at least "
                 f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s",
             )
-        sub = max(sub, math.ceil(need / steps_per_cycle))
+        sub = np.maximum(sub, np.ceil(need / steps_per_cycle).astype(np.int64))
     return sub
 
 
@@ -885,7 +884,11 @@ def simulate_network(
         NEWTON_TOLERANCE_PU * lam_n, NEWTON_TOLERANCE_PU * float(lam_n.min()),
         out_src, out_bus, out_line, out_wind, out_flux, out_mach, out_energy,
         int(bypass.max()) if substep_insertion else 0,
-        insertion_substeps(source, units, spc) if substep_insertion else 1,
+        np.ascontiguousarray(
+            np.broadcast_to(insertion_substeps(source, units, spc), (n,))
+            if substep_insertion
+            else np.ones(n, dtype=np.int64)
+        ),
     )  # fmt: skip
     if failed:
         raise ParameterError(

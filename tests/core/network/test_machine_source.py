@@ -167,7 +167,7 @@ def test_sub_steps_while_the_resistor_is_in_match_the_fine_step(connection: str)
     )
     assert fine.steps_per_cycle > 128
     assert sub.steps_per_cycle == 128
-    assert insertion_substeps(machine, [unit], 128) > 1
+    assert insertion_substeps(machine, [unit], 128)[0] > 1
 
     def peaks(x: NDArray[np.float64]) -> NDArray[np.float64]:
         out: NDArray[np.float64] = np.abs(x[..., : 5 * 128]).reshape(3, 5, 128).max(-1)
