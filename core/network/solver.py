@@ -515,7 +515,7 @@ def _start(
         lam0[c : c + 1], il0[c : c + 1], v_bus = _steady_state(
             e_ph, z_s, w, load, units, connections, phase[c : c + 1]
         )
-        i_d0[c] = -((e_ph - v_bus) / z_s).imag
+        i_d0[c] = -((e_ph - v_bus) / z_s).imag if source.dynamic else 0.0
         v0[c] = abs(v_bus) / v_ph
     src, m0 = _machine.pack(source, n, i_d0, v0)
     return lam0, il0, src, m0

@@ -1,20 +1,19 @@
 """Case building, step planning and validation behind :mod:`core.supply.dip`.
 
-:func:`build_case` reduces a source and a transformer circuit to the packed arrays of
-:mod:`core.supply.dip_kernel` together with the pre-event steady state; :func:`run` chooses the step
-(at least 128 per cycle, short enough for every time constant, with sub-steps while a
-pre-insertion resistor is in), puts the breaker poles' closing instants on the step grid,
-calls the compiled kernel :func:`core.supply.dip_kernel.integrate` on every case and returns
-per-cycle results. The equations the kernel integrates are in :mod:`core.supply.dip_kernel`; the
-physics, its simplifications and references in :mod:`core.supply.dip` and
-:mod:`core.supply.sources`.
+:func:`build_case` reduces a source and a transformer's event to a network case together with
+the pre-event steady state (:mod:`core.supply.dip_network`); :func:`run` chooses the step (at
+least 128 per cycle, short enough for every time constant, with sub-steps while a
+pre-insertion resistor is in), puts the breaker poles' closing instants and the bypass on the
+step grid, runs every case on the network solver (:func:`core.network.simulate_network` with a
+:class:`core.network.Machine` source) and returns per-cycle results. The equations are in
+:mod:`core.network.solver` and :mod:`core.network.machine`; the dip study's physics and
+references in :mod:`core.supply.dip` and :mod:`core.supply.sources`.
 """
 
 from __future__ import annotations
 
-import cmath
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Protocol
 
@@ -24,45 +23,10 @@ from numpy.typing import ArrayLike, NDArray
 from core import checks
 from core.energization.switching_event import residual_flux_warnings
 from core.errors import ParameterError
-from core.supply.dip_kernel import (
-    AMP,
-    AVR,
-    BETA,
-    C0,
-    DYN,
-    EB,
-    EMAX,
-    EMIN,
-    HLD,
-    HTR,
-    IB,
-    KA,
-    LAM0,
-    LL,
-    LPH,
-    LS,
-    NCP,
-    NLP,
-    PHS,
-    RA,
-    RL,
-    RPH,
-    RS,
-    RW,
-    T1O,
-    T2O,
-    TA,
-    TR,
-    VREF,
-    X1,
-    X2,
-    XD,
-    Case,
-    integrate,
-    pack_curve,
-)
+from core.network import solver as network_solver
+from core.supply import dip_network
+from core.supply.dip_network import NetworkCase as Case
 from core.transformer.circuit_model import EquivalentCircuit
-from core.transformer.magnetizing import PiecewiseLinearCurve
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -89,10 +53,9 @@ __all__ = [
     "run",
 ]
 
-# steps per cycle floor: common practice of this project (core.energization.energize uses the same
-# floor); the ceiling bounds the work.
-MIN_STEPS_PER_CYCLE = 128
-MAX_STEPS_PER_CYCLE = 16384
+# steps per cycle floor and ceiling: those of the network solver (this project's choice)
+MIN_STEPS_PER_CYCLE = network_solver.MIN_STEPS_PER_CYCLE
+MAX_STEPS_PER_CYCLE = network_solver.MAX_STEPS_PER_CYCLE
 
 
 @dataclass(frozen=True)
@@ -132,7 +95,7 @@ def build_case(
     *,
     insertion_resistance_ohm: float = 0.0,
 ) -> Case:
-    """Pack one case and its pre-event steady state.
+    """One case and its pre-event steady state.
 
     Parameters
     ----------
@@ -156,158 +119,66 @@ def build_case(
     -------
     Case
 
+    Raises
+    ------
+    ParameterError
+        Naming ``excitation.ceiling_pu`` when the regulator cannot hold the pre-event field,
+        ``bus_load.reactive_power_var`` when the load loop is too stiff for the step.
+
     Notes
     -----
-    Steady state before closing, phasors in the sine convention: V = V_0∠alpha,
-    I_L = V/Z_L, E'' = V + (R + jX)*I_L; in E'''s frame I_q - j*I_d = I_L*e^(-j*beta)/I_b;
-    E'_q = E''_q + (X'_d - X''_d)*I_d, E_fd = E'_q + (X_d - X'_d)*I_d (the d-axis equations at
-    rest), V_ref = V_0 + E_fd/K_A.
+    Steady state before closing (:func:`core.supply.dip_network.pre_event`): V = V_0∠alpha,
+    I_L = V/Z_L, E'' = V + (R + jX)*I_L; E'_q = E''_q + (X'_d - X''_d)*I_d,
+    E_fd = E'_q + (X_d - X'_d)*I_d. A purely resistive load is given an inductance of
+    0.1 % of its resistance (the network's load branch needs one).
 
-    With the resistor R in, a transformer loop's resistance is R_w + k*R + R_s,loop (k = 1 for
-    wye, 2 for a delta winding loop, which closes through two lines) and its shortest time
-    constant (L_air + L_loop)/(R_w + k*R + R_s,loop), L_loop the source inductance the loop
-    sees (in parallel with the bus load's for wye). The largest R for which that time constant
-    stays at or above 4 steps of the finest allowed step, 4/(f*MAX_STEPS_PER_CYCLE), is
-    ``insertion_limit_ohm``.
+    References
+    ----------
+    Kirchhoff's laws; P. Kundur, 1994, ch. 5 and 8 -- from memory.
     """
     f = circuit.frequency_hz
-    omega = 2.0 * math.pi * f
-    v_ph = src.line_voltage_v / math.sqrt(3.0)
-    r_ph, l_ph = src.resistance_ohm, src.inductance_h
-    i_base = src.base_va / (math.sqrt(3.0) * src.line_voltage_v)
-    v_bus = cmath.rect(v0_pu * v_ph, math.radians(closing_angle_deg))
-    r_l = l_l = 0.0
-    i_l = 0j
-    if load_w_var is not None:
-        z_l = v_ph * v_ph / (complex(*load_w_var) / 3.0).conjugate()
-        r_l, l_l = z_l.real, z_l.imag / omega
-        i_l = v_bus / z_l
-    emf = v_bus + complex(r_ph, omega * l_ph) * i_l
-    beta = cmath.phase(emf)
-    i_d0 = -(i_l * cmath.rect(1.0, -beta) / i_base).imag
-    e2 = abs(emf) / v_ph
-    e1 = efd = e2
-    cp = np.zeros(NCP)
-    cp[T2O] = cp[T1O] = cp[TA] = 1.0
-    cp[[BETA, EB, IB, RPH, LPH]] = (beta, math.sqrt(2.0) * v_ph, i_base, r_ph, l_ph)
-    tau = [math.inf]
-    if src.machine is not None:
-        x2, x1, xd, t2o, t1o, ra = src.machine
-        e1 = e2 + (x1 - x2) * i_d0
-        efd = e1 + (xd - x1) * i_d0
-        cp[[DYN, X2, X1, XD, T2O, T1O, RA]] = (1.0, x2, x1, xd, t2o, t1o, ra)
-        tau.append(t2o)
-        if src.regulator is not None:
-            ka, ta, emax, emin, tr = src.regulator
-            if not emin <= efd <= emax:
-                raise ParameterError(
-                    "excitation.ceiling_pu",
-                    emax,
-                    f"at least the pre-event field voltage {efd:.4g} pu that the bus load needs",
-                )
-            cp[[AVR, KA, TA, EMAX, EMIN, TR]] = (1.0, ka, ta, emax, emin, tr)
-            cp[VREF] = v0_pu + efd / ka
-            tau += [ta] + ([tr] if tr > 0.0 else [])
-    delta = circuit.connection == "delta"
-    nl = 6 if delta else 3
-    lpar = np.zeros((nl, NLP))
-    r_ins = float(insertion_resistance_ohm)
-    k_ins = 2.0 if delta else 1.0  # delta: the winding loop closes through two line resistors
-    r_limit = math.inf
-    tau_ins: list[float] = []
-    inc = np.zeros((2, 3, nl))
-    y0 = np.zeros(2 * nl + 4)
-    poles = np.full((nl, 2), -1, dtype=np.int64)
-    opened: list[tuple[int, float]] = []  # (state, value) with the transformer branch open
-    width = circuit.curve.flux_wb.size if isinstance(circuit.curve, PiecewiseLinearCurve) else 2
-    cvs = np.zeros((nl, 7))
-    cvs[:, 1] = 2.0
-    tx = np.zeros((nl, width))
-    ti = np.zeros((nl, width))
-    for k in range(3):
-        shift = -2.0 * math.pi * k / 3.0
-        i_l0 = math.sqrt(2.0) * abs(i_l) * math.sin(cmath.phase(i_l) + shift)
-        lam0 = float(residual_flux_pu[k]) * circuit.nominal_flux_wb
-        c0 = float(circuit.curve.current(lam0))
-        jt, jl = (k, 3 + k) if delta else (k, k)
-        m = 2.0 if delta else 1.0  # delta: loop on the line-to-line EMF behind 2 x Z_s
-        lpar[jt, [AMP, PHS, RS, LS, HTR, RW]] = (
-            math.sqrt(3.0) if delta else 1.0,
-            shift + (math.pi / 6.0 if delta else 0.0),
-            m * r_ph,
-            m * l_ph,
-            1.0,
-            circuit.winding_resistance_ohm,
-        )
-        if delta:
-            lpar[jl, [AMP, PHS, RS, LS]] = (1.0, shift, r_ph, l_ph)
-            poles[jt] = (k, (k + 1) % 3)  # winding ab closes with poles a and b, ...
-            inc[0, k, k] += 1.0  # i_a = c_ab - c_ca, ...
-            inc[0, k, (k + 2) % 3] -= 1.0
-        else:
-            poles[jt] = (k, k)
-            inc[0, k, k] = 1.0
-        inc[1, k, jl] = 1.0
-        lpar[jt, [LAM0, C0]] = (lam0, c0)
-        opened.append((jt, lam0))
-        ls_t = lpar[jt, LS]
-        lp = ls_t
-        c_shared = 0.0 if delta else c0
-        i_shared = 0.0 if delta else i_l0
-        if load_w_var is not None:
-            lpar[jl, [HLD, RL, LL]] = (1.0, r_l, l_l)
-            den = l_l + lpar[jl, LS]
-            y0[nl + jl] = l_l * i_l0 + lpar[jl, LS] * (i_l0 + c_shared)
-            if not delta:  # the loop shares the winding's source path
-                opened.append((nl + jl, l_l * i_l0 + lpar[jl, LS] * i_l0))
-            r_loop = r_l + lpar[jl, RS]
-            tau_l = den / r_loop if r_loop > 0.0 else math.inf
-            if tau_l * f * MAX_STEPS_PER_CYCLE < 4.0:
-                raise ParameterError(
-                    "bus_load.reactive_power_var",
-                    load_w_var[1],
-                    "enough reactive power that the load loop's time constant "
-                    f"(L_L + L_s)/(R_L + R_s) = {tau_l:.3g} s reaches "
-                    f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s (a nearly resistive load on the "
-                    "source inductance is too stiff for the fixed step)",
-                )
-            tau.append(tau_l)
-            if not delta:
-                lp = ls_t * l_l / den
-        y0[jt] = lam0 + ls_t * (c0 + i_shared)
-        cvs[jt], cx, ci = pack_curve(circuit, lp)
-        tx[jt, : cx.size], ti[jt, : ci.size] = cx, ci
-        r_loop = circuit.winding_resistance_ohm + lpar[jt, RS]
-        if r_loop > 0.0:
-            tau.append((circuit.air_core_inductance_h + ls_t) / r_loop)
-        l_loop = circuit.air_core_inductance_h + lp
-        r_loop_ins = r_loop + k_ins * r_ins
-        if r_loop_ins > 0.0:
-            tau_ins.append(l_loop / r_loop_ins)
-        r_limit = min(r_limit, (l_loop * f * MAX_STEPS_PER_CYCLE / 4.0 - r_loop) / k_ins)
-    y0[2 * nl :] = (e2, e1, efd, v0_pu)
-    lpar_ins = lpar.copy()
-    lpar_ins[lpar[:, HTR] > 0.0, RW] = circuit.winding_resistance_ohm + k_ins * r_ins
-    y0_open = y0.copy()
-    for q, value in opened:
-        y0_open[q] = value
+    impedance = (src.resistance_ohm, src.inductance_h)
+    state = dip_network.pre_event(
+        src.line_voltage_v, f, impedance, src.base_va, src.machine, load_w_var, v0_pu,
+        closing_angle_deg,
+    )  # fmt: skip
+    _check_field(src, state.field_voltage_pu)
+    if state.load is not None and load_w_var is not None:
+        _check_load_loop(state.load, impedance, f, load_w_var[1])
     return Case(
-        cp,
-        lpar,
-        cvs,
-        tx,
-        ti,
-        inc,
-        y0,
-        min(tau),
-        efd,
-        lpar_ins,
-        min(tau + tau_ins),
-        r_ins,
-        r_limit,
-        y0_open,
-        poles,
-    )
+        src.line_voltage_v, src.base_va, impedance, src.machine, src.regulator, state, circuit,
+        np.asarray(residual_flux_pu, dtype=float), float(insertion_resistance_ohm),
+    )  # fmt: skip
+
+
+def _check_field(src: SourceParameters, efd: float) -> None:
+    # the regulator must hold the field the bus load needs before the event
+    if src.machine is None or src.regulator is None:
+        return
+    _, _, emax, emin, _ = src.regulator
+    if not emin <= efd <= emax:
+        raise ParameterError(
+            "excitation.ceiling_pu",
+            emax,
+            f"at least the pre-event field voltage {efd:.4g} pu that the bus load needs",
+        )
+
+
+def _check_load_loop(
+    load: dip_network.BusLoad, impedance: tuple[float, float], f: float, q_var: float
+) -> None:
+    # the load loop's time constant (L_L + L_s)/(R_L + R_s) must reach 4 of the finest steps
+    r_loop = load.resistance_ohm + impedance[0]
+    tau = (load.inductance_h + impedance[1]) / r_loop if r_loop > 0.0 else math.inf
+    if tau * f * MAX_STEPS_PER_CYCLE < 4.0:
+        raise ParameterError(
+            "bus_load.reactive_power_var",
+            q_var,
+            "enough reactive power that the load loop's time constant "
+            f"(L_L + L_s)/(R_L + R_s) = {tau:.3g} s reaches "
+            f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s (a nearly resistive load on the "
+            "source inductance is too stiff for the fixed step)",
+        )
 
 
 @dataclass(frozen=True)
@@ -382,7 +253,7 @@ def run(
     Parameters
     ----------
     cases : sequence of Case
-        Same connection for all [-].
+        One circuit, bus load, resistor and source kind for all [-].
     frequency_hz : float
         [Hz].
     voltage_base_v : float
@@ -390,14 +261,14 @@ def run(
     duration_s : float
         Whole cycles up to this time are simulated [s].
     steps_per_cycle : int
-        At least 128; raised so that the step stays below a quarter of the shortest time
-        constant (accuracy and stability of the explicit method) [-].
+        At least 128; raised to a multiple of it when a time constant needs a shorter step
+        (:func:`core.network.step_plan`) [-].
     wave_points : int
         About this many waveform samples returned (0: none) [-].
     insertion_time_s : float
         Each case's pre-insertion resistor (:func:`build_case`) is in from t = 0 to this
         instant rounded to the nearest step, then bypassed; nothing changes when it is 0 or
-        every case's resistor is 0 [s].
+        the resistor is 0 [s].
     pole_delay_s : array_like, shape (3,) or scalar
         Closing instant of poles a, b and c after t = 0, each in [0, duration_s) (see
         :func:`check_poles`), rounded to the nearest step; the same for every case [s].
@@ -418,126 +289,97 @@ def run(
     -----
     While the resistor is in, each step of each case is split into the fewest equal sub-steps
     that keep the sub-step at or below a quarter of that case's shortest time constant with it
-    in (the same rule as the step), the outputs staying on the step grid; unlike the step,
-    which all cases share, a case's sub-steps do not depend on the other cases run with it.
+    in (:func:`core.network.insertion_substeps`), the outputs staying on the step grid.
 
-    A loop's transformer branch closes when the later of its two poles (``Case.loop_poles``)
-    closes: a wye winding with its own pole, a delta winding ab with poles a and b. Until then
-    it carries no current and keeps its residual flux; the bus load is on the source side of
-    the breaker and sees no pole. The pre-insertion resistor is timed from t = 0 whatever the
-    poles do. With every pole at 0 the kernel runs exactly as without poles.
+    The unit's poles follow the real circuit (:mod:`core.network.solver`): a grounded-wye
+    winding conducts from its pole's closing, a floating wye and a delta from the second
+    pole's (a delta's two windings on the open terminal in series until the third). The bus
+    load is on the source side of the breaker and sees no pole. The pre-insertion resistor
+    is timed from t = 0 whatever the poles do.
     """
     delays = check_poles(pole_delay_s, duration_s)
     f = frequency_hz
     if not (isinstance(steps_per_cycle, int) and steps_per_cycle >= MIN_STEPS_PER_CYCLE):
         raise ParameterError("steps_per_cycle", steps_per_cycle, "an integer >= 128")
-    tau_min = min(c.tau_min_s for c in cases)
-    spc = max(steps_per_cycle, math.ceil(4.0 / (f * tau_min)) if tau_min < math.inf else 0)
-    if spc > MAX_STEPS_PER_CYCLE:
+    n_cyc = cycle_steps(f, duration_s, 1)
+    if n_cyc < 1:
+        raise ParameterError("duration_s", duration_s, f">= one cycle ({1.0 / f:g} s)")
+    spc = _plan(cases, f, n_cyc, steps_per_cycle)
+    h = 1.0 / (f * spc)
+    n_steps = n_cyc * spc
+    n_in = _insertion_steps(cases, f, spc, insertion_time_s)
+    pole_step = np.floor(delays * f * spc + 0.5).astype(np.int64)
+    if pole_step.max() >= n_steps:
+        raise ParameterError(
+            "pole_delay_s",
+            float(delays.max()),
+            f"before the end of the whole cycles simulated, {n_cyc / f:g} s, by at least "
+            f"half an internal step ({0.5 * h:.3g} s)",
+        )
+    stride = max(1, math.ceil((n_steps + 1) / wave_points)) if wave_points > 0 else 0
+    out = dip_network.simulate(cases, f, spc, n_cyc, pole_step * h, n_in * h, stride)
+    if not np.all(np.isfinite(out.v2)):
+        raise ParameterError("circuit", "non-finite result", "a circuit that stays finite")
+    return _raw(cases, out, spc, voltage_base_v, h * stride, n_in * h)
+
+
+def _plan(cases: Sequence[Case], f: float, n_cyc: int, steps_per_cycle: int) -> int:
+    # the network's step, its error named as the dip family names it
+    try:
+        return dip_network.plan(cases, f, n_cyc / f, steps_per_cycle)
+    except ParameterError as exc:
+        if exc.parameter != "resistance_ohm":
+            raise
         raise ParameterError(
             "time_constants",
-            tau_min,
+            exc.value,
             f"a shortest time constant of at least {4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s",
+        ) from exc
+
+
+def _insertion_steps(cases: Sequence[Case], f: float, spc: int, time_s: float) -> int:
+    # steps with the resistor in (0: none), after the resistor is checked against its limit
+    r = max(c.insertion_resistance_ohm for c in cases)
+    if r <= 0.0:
+        return 0
+    n_in = math.floor(check_insertion(0.0, time_s)[1] * f * spc + 0.5)
+    if n_in == 0:
+        return 0
+    limit = min(dip_network.insertion_limit_ohm(c.circuit, c.impedance, f) for c in cases)
+    if r > limit:
+        raise ParameterError(
+            "insertion_resistance_ohm",
+            r,
+            f"[0, {max(limit, 0.0):.4g}] ohm for this circuit and source: a larger resistor "
+            "makes the transformer loop's time constant while it is in shorter than "
+            f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s, too short for the fixed step "
+            f"({MAX_STEPS_PER_CYCLE} steps per cycle at most)",
         )
-    n_steps = cycle_steps(f, duration_s, spc)
-    n_cyc = n_steps // spc
-    if n_steps < 1:
-        raise ParameterError("duration_s", duration_s, f">= one cycle ({1.0 / f:g} s)")
-    h = 1.0 / (f * spc)
+    return n_in
+
+
+def _raw(
+    cases: Sequence[Case], out: dip_network.Cycles, spc: int, v_base: float, dt: float,
+    bypass_s: float,
+) -> Raw:  # fmt: skip
+    # per-cycle sums to rms and means, the kernel's record to the Raw the dip study reads
     n = len(cases)
-    n_in = 0
-    sub = np.ones(n, dtype=np.int64)
-    if any(c.insertion_resistance_ohm > 0.0 for c in cases):
-        n_in = math.floor(check_insertion(0.0, insertion_time_s)[1] * f * spc + 0.5)
-    if n_in > 0:
-        worst = min(cases, key=lambda c: c.insertion_limit_ohm - c.insertion_resistance_ohm)
-        if worst.insertion_resistance_ohm > worst.insertion_limit_ohm:
-            raise ParameterError(
-                "insertion_resistance_ohm",
-                worst.insertion_resistance_ohm,
-                f"[0, {max(worst.insertion_limit_ohm, 0.0):.4g}] ohm for this circuit and "
-                "source: a larger resistor makes the transformer loop's time constant while it "
-                f"is in shorter than {4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s, too short for "
-                f"the fixed step ({MAX_STEPS_PER_CYCLE} steps per cycle at most)",
-            )
-        for i, c in enumerate(cases):
-            if c.tau_inserted_s < math.inf:
-                sub[i] = max(1, -(-math.ceil(4.0 / (f * c.tau_inserted_s)) // spc))
-    lpar = np.ascontiguousarray(np.stack([c.lpar for c in cases]))
-    lpar_in = lpar
-    if n_in > 0:
-        lpar_in = np.ascontiguousarray(
-            np.stack([c.lpar if c.lpar_inserted is None else c.lpar_inserted for c in cases])
-        )
-    energy = np.zeros(n)
-    y0 = np.ascontiguousarray(np.stack([c.y0 for c in cases]))
-    pole_step = np.floor(delays * f * spc + 0.5).astype(np.int64)
-    close = np.zeros((n, lpar.shape[1]), dtype=np.int64)
-    if np.any(pole_step > 0):
-        if pole_step.max() >= n_steps:
-            raise ParameterError(
-                "pole_delay_s",
-                float(delays.max()),
-                f"before the end of the whole cycles simulated, {n_cyc / f:g} s, by at least "
-                f"half an internal step ({0.5 * h:.3g} s)",
-            )
-        for i, c in enumerate(cases):
-            close[i], y0[i] = c.closing(pole_step)
-    width = max(c.tx.shape[1] for c in cases)
-
-    def pad(a: FloatArray) -> FloatArray:
-        # repeat the last breakpoint: the search never goes past npts
-        return np.concatenate([a, np.repeat(a[:, -1:], width - a.shape[1], axis=1)], axis=1)
-
-    stride = max(1, math.ceil((n_steps + 1) / wave_points)) if wave_points > 0 else 0
-    nw = n_steps // stride + 1 if stride else 1
-    out = np.zeros((n, 4, 3, n_cyc))
-    means = np.zeros((n, 2, n_cyc))
-    wave = np.zeros((n, 2, 3, nw))
-
-    def stack(get: Callable[[Case], FloatArray]) -> FloatArray:
-        return np.ascontiguousarray(np.stack([get(c) for c in cases]))
-
-    integrate(
-        n_steps,
-        spc,
-        h,
-        2.0 * math.pi * f,
-        stack(lambda c: c.cp),
-        lpar,
-        stack(lambda c: c.cv),
-        stack(lambda c: pad(c.tx)),
-        stack(lambda c: pad(c.ti)),
-        np.ascontiguousarray(cases[0].inc),
-        y0,
-        stride,
-        out,
-        means,
-        wave,
-        n_in,
-        sub,
-        lpar_in,
-        energy,
-        close,
-    )
-    if not np.all(np.isfinite(out)):
-        raise ParameterError("circuit", "non-finite result", "a circuit that stays finite")
-    t_wave: FloatArray = np.arange(nw, dtype=np.float64) * (h * stride) if stride else np.zeros(0)
+    nw = out.wave_v.shape[-1]
     return Raw(
         steps_per_cycle=spc,
-        v_rms_pu=np.sqrt(out[:, 0] / spc) / voltage_base_v,
-        v_line_rms_pu=np.sqrt(out[:, 1] / spc) / (math.sqrt(3.0) * voltage_base_v),
-        i_rms_a=np.sqrt(out[:, 2] / spc),
-        peaks_a=out[:, 3],
-        emf_pu=means[:, 0] / spc,
-        field_pu=means[:, 1] / spc,
-        wave_t_s=t_wave,
-        wave_v=wave[:, 0] if stride else np.zeros((n, 3, 0)),
-        wave_i=wave[:, 1] if stride else np.zeros((n, 3, 0)),
-        insertion_energy_j=np.array([c.insertion_resistance_ohm for c in cases]) * energy,
-        bypass_time_s=n_in * h,
-        insertion_substeps=sub,
-        pole_close_s=pole_step.astype(np.float64) * h,
+        v_rms_pu=np.sqrt(out.v2 / spc) / v_base,
+        v_line_rms_pu=np.sqrt(out.vll2 / spc) / (math.sqrt(3.0) * v_base),
+        i_rms_a=np.sqrt(out.i2 / spc),
+        peaks_a=out.peaks,
+        emf_pu=out.emf / spc,
+        field_pu=out.field / spc,
+        wave_t_s=np.arange(nw, dtype=np.float64) * dt,
+        wave_v=out.wave_v if nw else np.zeros((n, 3, 0)),
+        wave_i=out.wave_i if nw else np.zeros((n, 3, 0)),
+        insertion_energy_j=out.energy,
+        bypass_time_s=bypass_s,
+        insertion_substeps=out.substeps,
+        pole_close_s=out.pole_close_s,
     )
 
 
