@@ -21,9 +21,9 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core import checks
-from core.energization.switching_event import residual_flux_warnings
+from core.energization.switching_event import SwitchingEvent
 from core.errors import ParameterError
-from core.network import solver as network_solver
+from core.network import BusLoad
 from core.supply import dip_network
 from core.supply.dip_network import NetworkCase as Case
 from core.transformer.circuit_model import EquivalentCircuit
@@ -53,9 +53,10 @@ __all__ = [
     "run",
 ]
 
-# steps per cycle floor and ceiling: those of the network solver (this project's choice)
-MIN_STEPS_PER_CYCLE = network_solver.MIN_STEPS_PER_CYCLE
-MAX_STEPS_PER_CYCLE = network_solver.MAX_STEPS_PER_CYCLE
+# steps per cycle floor: common practice of this project (core.energization.energize uses the same
+# floor); the ceiling bounds the work.
+MIN_STEPS_PER_CYCLE = 128
+MAX_STEPS_PER_CYCLE = 16384
 
 
 @dataclass(frozen=True)
@@ -88,12 +89,9 @@ class SourceParameters:
 def build_case(
     src: SourceParameters,
     circuit: EquivalentCircuit,
-    closing_angle_deg: float,
-    residual_flux_pu: FloatArray,
+    event: SwitchingEvent,
     load_w_var: tuple[float, float] | None,
     v0_pu: float,
-    *,
-    insertion_resistance_ohm: float = 0.0,
 ) -> Case:
     """One case and its pre-event steady state.
 
@@ -103,17 +101,15 @@ def build_case(
         The source [-].
     circuit : EquivalentCircuit
         Three-phase transformer circuit (its own source impedance is ignored) [-].
-    closing_angle_deg : float
-        Phase-A terminal voltage angle at t = 0 [deg].
-    residual_flux_pu : ndarray, shape (3,)
-        Residual flux per winding [pu of lambda_N].
+    event : SwitchingEvent
+        The energisation, checked by :func:`check_inputs`: its closing angle (phase-A terminal
+        voltage angle at t = 0), residual flux per winding and pre-insertion resistor in each
+        line to the transformer are taken here; whether and how long the resistor is in, and
+        the pole instants, are decided by :func:`run` [-].
     load_w_var : tuple of float or None
         Bus load (P, Q) at rated voltage, constant impedance; None for none [W, var].
     v0_pu : float
         Pre-event terminal voltage [pu].
-    insertion_resistance_ohm : float
-        Pre-insertion resistor in each line to the transformer, >= 0; whether and how long it
-        is in is decided by :func:`run` [ohm].
 
     Returns
     -------
@@ -140,14 +136,14 @@ def build_case(
     impedance = (src.resistance_ohm, src.inductance_h)
     state = dip_network.pre_event(
         src.line_voltage_v, f, impedance, src.base_va, src.machine, load_w_var, v0_pu,
-        closing_angle_deg,
+        event.closing_angle_deg,
     )  # fmt: skip
     _check_field(src, state.field_voltage_pu)
     if state.load is not None and load_w_var is not None:
         _check_load_loop(state.load, impedance, f, load_w_var[1])
     return Case(
         src.line_voltage_v, src.base_va, impedance, src.machine, src.regulator, state, circuit,
-        np.asarray(residual_flux_pu, dtype=float), float(insertion_resistance_ohm),
+        np.asarray(event.residual_flux_pu, dtype=float), float(event.insertion_resistance_ohm),
     )  # fmt: skip
 
 
@@ -164,9 +160,7 @@ def _check_field(src: SourceParameters, efd: float) -> None:
         )
 
 
-def _check_load_loop(
-    load: dip_network.BusLoad, impedance: tuple[float, float], f: float, q_var: float
-) -> None:
+def _check_load_loop(load: BusLoad, impedance: tuple[float, float], f: float, q_var: float) -> None:
     # the load loop's time constant (L_L + L_s)/(R_L + R_s) must reach 4 of the finest steps
     r_loop = load.resistance_ohm + impedance[0]
     tau = (load.inductance_h + impedance[1]) / r_loop if r_loop > 0.0 else math.inf
@@ -245,8 +239,7 @@ def run(
     steps_per_cycle: int,
     wave_points: int,
     *,
-    insertion_time_s: float = 0.0,
-    pole_delay_s: ArrayLike = 0.0,
+    event: SwitchingEvent | None = None,
 ) -> Raw:
     """Integrate every case over whole cycles.
 
@@ -265,13 +258,13 @@ def run(
         (:func:`core.network.step_plan`) [-].
     wave_points : int
         About this many waveform samples returned (0: none) [-].
-    insertion_time_s : float
-        Each case's pre-insertion resistor (:func:`build_case`) is in from t = 0 to this
-        instant rounded to the nearest step, then bypassed; nothing changes when it is 0 or
-        the resistor is 0 [s].
-    pole_delay_s : array_like, shape (3,) or scalar
-        Closing instant of poles a, b and c after t = 0, each in [0, duration_s) (see
-        :func:`check_poles`), rounded to the nearest step; the same for every case [s].
+    event : SwitchingEvent or None
+        The energisation the cases were built for; its timing is used here, the same for every
+        case: each case's pre-insertion resistor (:func:`build_case`) is in from t = 0 to
+        ``event.insertion_time_s`` rounded to the nearest step, then bypassed (nothing changes
+        when that is 0 or every case's resistor is 0); poles a, b and c close at
+        ``event.pole_delay_s``, each in [0, duration_s) (see :func:`check_poles`), rounded to
+        the nearest step. None for all poles at t = 0 and no resistor [-].
 
     Returns
     -------
@@ -297,7 +290,8 @@ def run(
     load is on the source side of the breaker and sees no pole. The pre-insertion resistor
     is timed from t = 0 whatever the poles do.
     """
-    delays = check_poles(pole_delay_s, duration_s)
+    delays = check_poles(0.0 if event is None else event.pole_delay_s, duration_s)
+    insertion_time_s = 0.0 if event is None else event.insertion_time_s
     f = frequency_hz
     if not (isinstance(steps_per_cycle, int) and steps_per_cycle >= MIN_STEPS_PER_CYCLE):
         raise ParameterError("steps_per_cycle", steps_per_cycle, "an integer >= 128")
@@ -317,7 +311,8 @@ def run(
             f"half an internal step ({0.5 * h:.3g} s)",
         )
     stride = max(1, math.ceil((n_steps + 1) / wave_points)) if wave_points > 0 else 0
-    out = dip_network.simulate(cases, f, spc, n_cyc, pole_step * h, n_in * h, stride)
+    poles_s = np.asarray(pole_step * h, dtype=np.float64)
+    out = dip_network.simulate(cases, f, spc, n_cyc, poles_s, n_in * h, stride)
     if not np.all(np.isfinite(out.v2)):
         raise ParameterError("circuit", "non-finite result", "a circuit that stays finite")
     return _raw(cases, out, spc, voltage_base_v, h * stride, n_in * h)
@@ -438,32 +433,44 @@ def check_poles(pole_delay_s: ArrayLike, duration_s: float) -> FloatArray:
 def check_inputs(
     source: SourceLike,
     circuit: EquivalentCircuit,
-    closing_angle_deg: float,
-    residual_flux_pu: ArrayLike,
+    event: SwitchingEvent,
     pre_event_voltage_pu: float,
     duration_s: float,
-) -> tuple[FloatArray, list[tuple[str, str]]]:
-    """Validate the inputs every dip simulation shares.
+) -> list[tuple[str, str]]:
+    """Validate the inputs every dip simulation shares; return its (code, message) warnings.
 
-    ``source`` needs ``line_voltage_v`` [V] and ``frequency_hz`` [Hz]; the angle is in [deg],
-    the residual flux in [pu of lambda_N], the pre-event voltage in [pu], the duration in [s].
-    Returns the residual flux per winding, shape (3,), and (code, message) warnings; raises
-    :class:`ParameterError` naming the offending input.
+    Raises :class:`ParameterError` naming the offending input.
 
     Parameters
     ----------
     source : Generator or UtilitySource
-        The source; it needs line_voltage_v and frequency_hz [-].
+        The source; it needs line_voltage_v [V] and frequency_hz [Hz] [-].
     circuit : EquivalentCircuit
         Three-phase circuit built on an ideal source [-].
-    closing_angle_deg : float
-        Phase-A voltage angle at t = 0 [deg].
-    residual_flux_pu : array_like
-        A scalar or 3 values in [-5, 5] [pu of lambda_N].
+    event : SwitchingEvent
+        The energisation, built for a three-phase circuit: residual flux in [-5, 5]
+        [pu of lambda_N], the resistor's insertion time in [0, 600] [s] (:func:`check_insertion`),
+        each pole within ``duration_s`` (:func:`check_poles`), no ramped source [-].
     pre_event_voltage_pu : float
         Terminal voltage before closing, in [0.5, 1.5] [pu].
     duration_s : float
         Simulated time, in (0, 600] [s].
+
+    Returns
+    -------
+    list of (str, str)
+        ``voltage_mismatch`` when the transformer's rated voltage is more than 10 % off the
+        source's, then the event's own warnings.
+
+    Notes
+    -----
+    The event itself was checked once when it was built
+    (:func:`core.energization.switching_event.switching_event`); here only what the dip model
+    adds: the bounds that depend on the simulated time, and what it does not model (a ramp).
+
+    References
+    ----------
+    This project's input rules.
     """
     if not (hasattr(source, "line_voltage_v") and hasattr(source, "frequency_hz")):
         raise ParameterError("source", type(source).__name__, "a Generator or UtilitySource")
@@ -482,17 +489,21 @@ def check_inputs(
             circuit.frequency_hz,
             f"the source frequency {source.frequency_hz:g} Hz",
         )
-    if not math.isfinite(closing_angle_deg):
-        raise ParameterError("closing_angle_deg", closing_angle_deg, "a finite angle")
     checks.in_range("pre_event_voltage_pu", pre_event_voltage_pu, 0.5, 1.5, open_low=False)
     checks.in_range("duration_s", duration_s, 0.0, 600.0)
-    res = np.asarray(residual_flux_pu, dtype=float)
-    try:
-        res = np.broadcast_to(res, (3,)).astype(float)
-    except ValueError as exc:
-        raise ParameterError("residual_flux_pu", res.tolist(), "a scalar or 3 values") from exc
-    if not np.all(np.isfinite(res)) or np.any(np.abs(res) > 5.0):
+    res = event.residual_flux_pu
+    if res.shape != (3,) or event.pole_delay_s.shape != (3,):
+        raise ParameterError("event", f"{res.size} windings", "an event built for 3 phases")
+    if np.any(np.abs(res) > 5.0):
         raise ParameterError("residual_flux_pu", res.tolist(), "finite values in [-5, 5]")
+    if not (
+        event.voltage_start_pu == 1.0
+        and event.voltage_hold_s == 0.0
+        and event.voltage_rise_s == 0.0
+    ):
+        raise ParameterError("event", "a ramped source", "a closing onto the source as it is")
+    check_insertion(event.insertion_resistance_ohm, event.insertion_time_s)
+    check_poles(event.pole_delay_s, duration_s)
     warnings: list[tuple[str, str]] = []
     ratio = circuit.line_voltage_v / source.line_voltage_v
     if abs(ratio - 1.0) > 0.1:
@@ -503,5 +514,5 @@ def check_inputs(
                 "source's: the unit is energised off its rated flux",
             )
         )
-    warnings += residual_flux_warnings(res)
-    return res, warnings
+    warnings += event.warnings
+    return warnings

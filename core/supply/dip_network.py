@@ -425,8 +425,12 @@ def simulate(
         parts.append(_reduce(res, spc, n_cycles, stride))
         subs.append(_substeps(machine, units, spc, bypass_s))
         closing = res.closing_time_s[0, 0]
-    cat = [np.concatenate([p[k] for p in parts]) for k in range(len(parts[0]))]
-    return Cycles(*cat, substeps=np.concatenate(subs), pole_close_s=closing)
+    v2, vll2, i2, peaks, emf, fld, wave_v, wave_i, energy = (
+        np.concatenate([p[k] for p in parts]) for k in range(len(parts[0]))
+    )
+    return Cycles(
+        v2, vll2, i2, peaks, emf, fld, wave_v, wave_i, energy, np.concatenate(subs), closing
+    )
 
 
 def _substeps(machine: Machine, units: Sequence[Unit], spc: int, bypass_s: float) -> IntArray:
