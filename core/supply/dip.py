@@ -66,15 +66,16 @@ raise ``steps_per_cycle`` or use the smooth knee where that matters. While a pre
 resistor is in, each step is split into sub-steps no longer than a quarter of the loop's
 shortest time constant with it in; the bypass falls on a step boundary. Measured against
 scipy's Radau (rtol 1e-9) with the resistor in for 1.5 cycles on the demo case with a bus load,
-grounded wye and delta, 0.02 ohm at 128 and 1 ohm at 512 steps per cycle: per-cycle rms
-voltages within 4.6e-6 pu, per-cycle current peaks within 4.1e-5 of the first peak, the
-resistor's energy within 1.5e-5 (relative). At 1 ohm and 128 steps per cycle the voltages are
-within 1.0e-5 pu and the energy 3.8e-5, but the peaks of the magnetising current's short
-spikes past a sharp knee are sampled up to 3.9e-3 of the first peak low. With the poles closing
-at 0, 2.1 and 4.7 ms (on the step: 0, 2.083, 4.688 ms), 128 steps per cycle, the same demo case
-against Radau with each winding switched on at its instant: grounded wye within 2.4e-6 pu on
-the per-cycle rms voltages, 1.8e-5 of the first peak on the per-cycle peaks and 7.9e-7 on the
-first peak; delta 1.3e-5 pu, 1.8e-5 and 2.9e-6.
+0.02 ohm at 128 and 1 ohm at 512 steps per cycle: grounded wye per-cycle rms voltages within
+4.6e-6 pu, per-cycle current peaks within 3.7e-5 of the first peak, the resistor's energy
+within 1.5e-5 (relative); delta (the real three-phase circuit) rms within 7.8e-6 pu, energy
+1.8e-5, per-cycle peaks 3.2e-4 (the sampled tops of the line currents' spikes past the sharp
+knee, differences of two winding currents). With the poles closing at 0, 2.1 and 4.7 ms (on
+the step: 0, 2.083, 4.688 ms), 128 steps per cycle, the same demo case against Radau with each
+winding switched on when its circuit closes: grounded wye within 2.7e-6 pu on the per-cycle rms
+voltages, 1.2e-5 of the first peak on the per-cycle peaks and 7.9e-7 on the first peak; delta
+2.3e-5 pu, 1.0e-3 (sampled spikes, 5.1e-4 at 512 steps per cycle) and 2.0e-6. The machine with
+its regulator against an independent reference: tests/references/test_machine_vs_scipy.py.
 
 References
 ----------

@@ -45,8 +45,9 @@ IntArray = NDArray[np.int64]
 __all__ = ["Cycles", "NetworkCase", "PreEvent", "insertion_limit_ohm", "pre_event", "simulate"]
 
 # Bytes of per-step record a chunk of cases may hold (17 values a step and case: bus voltages,
-# source, line and winding currents, fluxes, E''_q, E_fd); the service's largest requests
-# stay within it (this project's choice).
+# source, line and winding currents, fluxes, E''_q, E_fd; this project's choice). One case is
+# never split: its record is bounded by the work budget instead (40 M winding-steps at
+# core.cost.DIP_STEP_WEIGHT 30 is 1.3 M steps, 180 MB).
 CHUNK_BYTES = 64_000_000
 # X/R of the inductance given to a purely resistive bus load, which the network's load branch
 # needs (this project's choice: 0.1 % reactive power).
