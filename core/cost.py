@@ -57,9 +57,13 @@ __all__ = [
 # CPU-time ratios in one run), where one winding-step of the kernel costs about 56 ns of CPU, so
 # the default budget of 35 million winding-steps is about 2 s of CPU for any operation.
 #
-# One step of the generator-dip kernel (three transformer loops, the machine's flux and
-# regulator states, per case).
-DIP_STEP_WEIGHT = 80.0
+# One step of a generator-dip run on the network solver (core.network with a machine source:
+# one unit's three windings, the bus fluxes by Newton's method at each of the four stages, the
+# machine's d-axis and regulator states with the bus-voltage magnitude at every stage, every
+# step recorded for the per-cycle sums): 1.34 us a step against 4.2 us for the dip kernel it
+# replaced (the demo's 10 s run, one run each on the same machine: ratio 3.2), which weighed
+# 80; 80/3.2 = 25, rounded up to 30 for the per-cycle reductions of the record.
+DIP_STEP_WEIGHT = 30.0
 # One generator-dip run besides its steps (the machine's case built, the record read for the
 # dip, the recovery and the band): about 3 ms.
 DIP_RUN_WEIGHT = 55_000.0
