@@ -154,13 +154,13 @@ def pre_event(
     frequency_hz : float
         [Hz].
     impedance : tuple of float
-        Source (R [ohm], L [H]) per phase.
+        Source resistance R and inductance L per phase [ohm, H].
     base_va : float
         Power base of the per-unit currents [VA].
     machine : tuple of float or None
-        (X''_d, X'_d, X_d [pu], T''_do, T'_do [s], R_a [pu]); None for a constant EMF.
+        (X''_d, X'_d, X_d, T''_do, T'_do, R_a); None for a constant EMF [pu, pu, pu, s, s, pu].
     load_w_var : tuple of float or None
-        Bus load (P [W], Q [var]) at rated voltage, constant impedance.
+        Bus load (P, Q) at rated voltage, constant impedance [W, var].
     v0_pu : float
         Pre-event terminal voltage [pu].
     closing_angle_deg : float
@@ -210,7 +210,7 @@ def insertion_limit_ohm(
     circuit : EquivalentCircuit
         The transformer [-].
     impedance : tuple of float
-        Source (R [ohm], L [H]) per phase.
+        Source resistance R and inductance L per phase [ohm, H].
     frequency_hz : float
         [Hz].
 
