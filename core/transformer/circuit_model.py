@@ -18,7 +18,7 @@ three-limb core's magnetic coupling between phases is not represented here (see
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -420,6 +420,81 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
             prov = npl.provenance.get(name, "given")
         assumptions.append(Assumption(name, value, unit, prov))
 
+    s_va, f, v_ll, z_pct, xr, i0_pct = _checked_ratings(npl, note)
+    b_n, b_s, prov_n, prov_s = _flux_densities(npl)
+    note("material", npl.material, "-", "given")  # provenance applies
+    note("nominal_flux_density_t", b_n, "T", prov_n)
+    note("saturation_flux_density_t", b_s, "T", prov_s)
+
+    v_w = per_unit.winding_voltage_v(v_ll, npl.phases, npl.connection)
+    i_w = per_unit.rated_winding_current_a(s_va, npl.phases, v_w)
+    z_b = per_unit.base_impedance_ohm(s_va, npl.phases, v_w)
+    lam_n = per_unit.nominal_flux_linkage_wb(v_w, f)
+    omega = 2.0 * math.pi * f
+
+    z_pu = z_pct / 100.0
+    r_t = z_pu / math.sqrt(1.0 + xr * xr)
+    x_t = r_t * xr
+    r_w = WINDING_RESISTANCE_SHARE * r_t * z_b
+    note(
+        "winding_resistance_ohm",
+        r_w,
+        "ohm",
+        "half of the short-circuit resistance from impedance_percent and x_over_r "
+        "(common practice split)",
+    )
+    l_air = _air_core_inductance(npl, x_t, z_b, omega, note)
+    curve, l_m, lam_s = _magnetizing_curve(npl, v_w, i_w, f, lam_n, b_s / b_n, i0_pct, l_air, note)
+
+    r_s, x_s = source_impedance(src, v_ll, npl.phases)
+    if src.kind != "ideal":
+        plausibility.check_source_strength(s_va, v_ll, r_s, x_s)
+    note("source", src.kind, "-", "given" if source is not None else "default: ideal source")
+    note("source_resistance_ohm", r_s, "ohm", "from the source description")
+    note("source_inductance_h", x_s / omega, "H", "from the source description")
+
+    return EquivalentCircuit(
+        phases=npl.phases,
+        connection=npl.connection if npl.phases == 3 else "single_phase",
+        frequency_hz=f,
+        line_voltage_v=v_ll,
+        winding_voltage_v=v_w,
+        rated_line_current_a=per_unit.rated_line_current_a(s_va, npl.phases, v_ll),
+        rated_winding_current_a=i_w,
+        nominal_flux_wb=lam_n,
+        winding_resistance_ohm=r_w,
+        source_resistance_ohm=r_s,
+        source_inductance_h=x_s / omega,
+        curve=curve,
+        air_core_inductance_h=l_air,
+        magnetizing_inductance_h=l_m,
+        knee_flux_wb=lam_s,
+        assumptions=tuple(assumptions),
+        warnings=plausibility.rating_voltage_warnings(s_va, npl.phases, v_ll),
+    )
+
+
+_Note = Callable[[str, float | str | tuple[float, ...], str, str], None]
+
+
+def _checked_ratings(
+    npl: Nameplate, note: _Note
+) -> tuple[float, float, float, float, float, float]:
+    """Check the nameplate's ratings and choices, note them; (S, f, V_LL, Z%, X/R, I_0%).
+
+    Parameters
+    ----------
+    npl : Nameplate
+        Transformer data [-].
+    note : callable
+        Records one assumption (name, value, unit, provenance) [-].
+
+    Returns
+    -------
+    tuple of float
+        Rating [VA], frequency [Hz], line voltage [V], impedance [%], X/R [-], no-load
+        current [%].
+    """
     s_va = checks.in_range("rating_va", npl.rating_va, 0.0, 1e10)
     if npl.phases not in (1, 3):
         raise ParameterError("phases", npl.phases, "1 or 3")
@@ -444,49 +519,95 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
     note("impedance_percent", z_pct, "%", "given")
     note("x_over_r", xr, "-", "given")
     note("no_load_current_percent", i0_pct, "%", "given")
+    return s_va, f, v_ll, z_pct, xr, i0_pct
 
-    b_n, b_s, prov_n, prov_s = _flux_densities(npl)
-    note("material", npl.material, "-", "given")  # provenance applies
-    note("nominal_flux_density_t", b_n, "T", prov_n)
-    note("saturation_flux_density_t", b_s, "T", prov_s)
 
-    v_w = per_unit.winding_voltage_v(v_ll, npl.phases, npl.connection)
-    i_w = per_unit.rated_winding_current_a(s_va, npl.phases, v_w)
-    i_line = per_unit.rated_line_current_a(s_va, npl.phases, v_ll)
-    z_b = per_unit.base_impedance_ohm(s_va, npl.phases, v_w)
-    lam_n = per_unit.nominal_flux_linkage_wb(v_w, f)
-    omega = 2.0 * math.pi * f
+def _air_core_inductance(
+    npl: Nameplate, x_t: float, z_b: float, omega: float, note: _Note
+) -> float:
+    """Air-core inductance of the energised winding, noted with its provenance [H].
 
-    z_pu = z_pct / 100.0
-    r_t = z_pu / math.sqrt(1.0 + xr * xr)
-    x_t = r_t * xr
-    r_w = WINDING_RESISTANCE_SHARE * r_t * z_b
-    note(
-        "winding_resistance_ohm",
-        r_w,
-        "ohm",
-        "half of the short-circuit resistance from impedance_percent and x_over_r "
-        "(common practice split)",
-    )
+    Parameters
+    ----------
+    npl : Nameplate
+        Transformer data; its geometry, when given, sets the inductance [-].
+    x_t : float
+        Short-circuit reactance [pu].
+    z_b : float
+        Base impedance of the winding [ohm].
+    omega : float
+        Angular frequency [rad/s].
+    note : callable
+        Records one assumption [-].
 
+    Returns
+    -------
+    float
+        The long-solenoid inductance of the given geometry, else ``AIR_CORE_FACTOR`` of the
+        winding position times the short-circuit inductance [H].
+    """
     if npl.geometry is not None:
         g = npl.geometry
         l_air = air_core_inductance_solenoid(g.turns, g.mean_diameter_m, g.height_m)
         note("air_core_inductance_h", l_air, "H", "long-solenoid formula from the given geometry")
-    else:
-        k = AIR_CORE_FACTOR[npl.position]
-        l_air = k * x_t * z_b / omega
-        note("air_core_inductance_h", l_air, "H", AIR_CORE_SOURCE.format(k=k, pos=npl.position))
+        return l_air
+    k = AIR_CORE_FACTOR[npl.position]
+    l_air = k * x_t * z_b / omega
+    note("air_core_inductance_h", l_air, "H", AIR_CORE_SOURCE.format(k=k, pos=npl.position))
+    return l_air
 
-    l_m = v_w / (omega * (i0_pct / 100.0) * i_w)
-    lam_s = b_s / b_n * lam_n
+
+def _magnetizing_curve(
+    npl: Nameplate,
+    v_w: float,
+    i_w: float,
+    f: float,
+    lam_n: float,
+    knee_pu: float,
+    i0_pct: float,
+    l_air: float,
+    note: _Note,
+) -> tuple[MagnetizingCurve, float, float]:
+    """The winding's magnetising curve, its unsaturated inductance and knee, noted.
+
+    Parameters
+    ----------
+    npl : Nameplate
+        Transformer data: open-circuit points, curve kind, knee width [-].
+    v_w, i_w : float
+        Rated winding voltage [V] and current [A].
+    f : float
+        Frequency [Hz].
+    lam_n : float
+        Nominal flux linkage [Wb-turn].
+    knee_pu : float
+        Knee flux density over the nominal, B_S/B_N [-].
+    i0_pct : float
+        No-load current, taken as wholly magnetising [% of rated].
+    l_air : float
+        Air-core inductance [H].
+    note : callable
+        Records one assumption [-].
+
+    Returns
+    -------
+    tuple
+        The curve, its unsaturated inductance [H] and its knee flux linkage [Wb-turn].
+
+    Notes
+    -----
+    Open-circuit points are converted by the point-by-point method of Neves and Dommel (IEEE
+    Trans. Power Delivery 8(2), 1993, from memory); otherwise a two-slope curve with its knee
+    at lambda_S, or a smooth knee whose unsaturated slope is calibrated to pass through the
+    rated no-load crest current.
+    """
     curve: MagnetizingCurve
+    l_m = v_w / (2.0 * math.pi * f * (i0_pct / 100.0) * i_w)
+    lam_s = knee_pu * lam_n
     if npl.open_circuit_voltage_percent or npl.open_circuit_current_percent:
         vp = np.asarray(npl.open_circuit_voltage_percent, dtype=float)
         ip = np.asarray(npl.open_circuit_current_percent, dtype=float)
         curve = magnetizing.from_open_circuit_rms(vp / 100.0 * v_w, ip / 100.0 * i_w, f, l_air)
-        l_m = curve.unsaturated_inductance_h
-        lam_s = float(curve.flux_wb[-1])
         note(
             "magnetizing_curve",
             "open_circuit_test",
@@ -494,61 +615,35 @@ def equivalent_circuit(nameplate: Nameplate, source: Source | None = None) -> Eq
             "converted from the given open-circuit points (Neves & Dommel 1993 point-by-point "
             "method), air-core slope beyond the last point",
         )
-    else:
-        if l_air >= l_m:
-            raise ParameterError(
-                "no_load_current_percent",
-                i0_pct,
-                "small enough that the magnetising inductance exceeds the air-core inductance",
-            )
-        if npl.curve == "two_slope":
-            curve = magnetizing.two_slope(l_m, lam_s, l_air)
-            note("magnetizing_curve", "two_slope", "-", npl.provenance.get("curve", "given"))
-        else:
-            width = checks.in_range("knee_width_pu", npl.knee_width_pu, 0.0, b_s / b_n)
-            l_m = _calibrated_unsaturated_inductance(l_m, lam_n, lam_s, l_air, width * lam_n)
-            curve = magnetizing.smooth_knee(l_m, lam_s, l_air, width * lam_n)
-            note("magnetizing_curve", "smooth", "-", npl.provenance.get("curve", "given"))
-            note("knee_width_pu", width, "pu of nominal flux", "given")
-        note(
-            "magnetizing_inductance_h",
-            l_m,
-            "H",
-            "from no_load_current_percent, the no-load current taken as wholly magnetising"
-            + (
-                "; the smooth curve's slope set so that it passes through the same crest "
-                "current at rated flux"
-                if npl.curve == "smooth"
-                else ""
-            ),
+        return curve, curve.unsaturated_inductance_h, float(curve.flux_wb[-1])
+    if l_air >= l_m:
+        raise ParameterError(
+            "no_load_current_percent",
+            i0_pct,
+            "small enough that the magnetising inductance exceeds the air-core inductance",
         )
-
-    r_s, x_s = source_impedance(src, v_ll, npl.phases)
-    if src.kind != "ideal":
-        plausibility.check_source_strength(s_va, v_ll, r_s, x_s)
-    note("source", src.kind, "-", "given" if source is not None else "default: ideal source")
-    note("source_resistance_ohm", r_s, "ohm", "from the source description")
-    note("source_inductance_h", x_s / omega, "H", "from the source description")
-
-    return EquivalentCircuit(
-        phases=npl.phases,
-        connection=connection,
-        frequency_hz=f,
-        line_voltage_v=v_ll,
-        winding_voltage_v=v_w,
-        rated_line_current_a=i_line,
-        rated_winding_current_a=i_w,
-        nominal_flux_wb=lam_n,
-        winding_resistance_ohm=r_w,
-        source_resistance_ohm=r_s,
-        source_inductance_h=x_s / omega,
-        curve=curve,
-        air_core_inductance_h=l_air,
-        magnetizing_inductance_h=l_m,
-        knee_flux_wb=lam_s,
-        assumptions=tuple(assumptions),
-        warnings=plausibility.rating_voltage_warnings(s_va, npl.phases, v_ll),
+    if npl.curve == "two_slope":
+        curve = magnetizing.two_slope(l_m, lam_s, l_air)
+        note("magnetizing_curve", "two_slope", "-", npl.provenance.get("curve", "given"))
+    else:
+        width = checks.in_range("knee_width_pu", npl.knee_width_pu, 0.0, knee_pu)
+        l_m = _calibrated_unsaturated_inductance(l_m, lam_n, lam_s, l_air, width * lam_n)
+        curve = magnetizing.smooth_knee(l_m, lam_s, l_air, width * lam_n)
+        note("magnetizing_curve", "smooth", "-", npl.provenance.get("curve", "given"))
+        note("knee_width_pu", width, "pu of nominal flux", "given")
+    note(
+        "magnetizing_inductance_h",
+        l_m,
+        "H",
+        "from no_load_current_percent, the no-load current taken as wholly magnetising"
+        + (
+            "; the smooth curve's slope set so that it passes through the same crest "
+            "current at rated flux"
+            if npl.curve == "smooth"
+            else ""
+        ),
     )
+    return curve, l_m, lam_s
 
 
 def circuit_from_si(
