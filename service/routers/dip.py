@@ -77,8 +77,7 @@ def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assump
     report = dip_study.dip_study(
         source,
         circuit,
-        # all poles together, as this operation has always simulated the dip
-        event.closed_at_once(),
+        event,
         limits=limits,
         size_for=size_for,
         excitation=excitation,
