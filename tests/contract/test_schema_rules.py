@@ -23,7 +23,7 @@ from service.examples import (
 )
 from service.models.clearance import ClearanceRequest
 from service.models.dip import GeneratorDipRequest
-from service.models.inrush import PeakRequest
+from service.models.inrush import EnvelopeRequest, PeakRequest
 from service.models.mitigation import MitigationRequest
 from service.models.statistics import StatisticsRequest
 
@@ -41,6 +41,7 @@ def _edit(base: Body, change: Callable[[Body], None]) -> Body:
 
 PEAK = PEAK_REQUESTS["northgate_main_unit"]
 CIRCUIT = PEAK_REQUESTS["circuit_mode"]
+THREE = PEAK_REQUESTS["circuit_three_phase_mode"]
 DIP = DIP_REQUESTS["northgate_backfeed"]
 STATS = STATISTICS_REQUESTS["northgate_backfeed_generator"]
 CLEAR = CLEARANCE_REQUESTS["northgate_main_unit"]
@@ -65,6 +66,37 @@ CASES: dict[str, tuple[type[BaseModel], Body, bool]] = {
             CIRCUIT,
             lambda b: b.update(switching={"residual_flux_pu": [0.5], "residual_flux_wb": [0.1]}),
         ),
+        False,
+    ),
+    "peak three-phase circuit": (PeakRequest, THREE, True),
+    "peak three-phase circuit and nameplate": (
+        PeakRequest,
+        {**THREE, "transformer": PEAK["transformer"]},
+        False,
+    ),
+    "peak three-phase and single-phase circuits": (
+        PeakRequest,
+        {**THREE, "circuit": CIRCUIT["circuit"]},
+        False,
+    ),
+    "peak three-phase circuit with source": (
+        PeakRequest,
+        {**THREE, "source": {"kind": "ideal"}},
+        False,
+    ),
+    "peak wb in three-phase circuit mode": (
+        PeakRequest,
+        {**THREE, "switching": {"residual_flux_wb": [0.1]}},
+        False,
+    ),
+    "envelope three-phase circuit": (
+        EnvelopeRequest,
+        {k: v for k, v in THREE.items() if k != "method"},
+        True,
+    ),
+    "clearance three-phase circuit": (
+        ClearanceRequest,
+        {"circuit_three_phase": THREE["circuit_three_phase"], "devices": CLEAR["devices"]},
         False,
     ),
     "dip": (GeneratorDipRequest, DIP, True),
