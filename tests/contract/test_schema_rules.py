@@ -18,6 +18,7 @@ from service.examples import (
     CLEARANCE_REQUESTS,
     DIP_REQUESTS,
     MITIGATION_REQUESTS,
+    NETWORK_REQUESTS,
     PEAK_REQUESTS,
     STATISTICS_REQUESTS,
 )
@@ -25,6 +26,7 @@ from service.models.clearance import ClearanceRequest
 from service.models.dip import GeneratorDipRequest
 from service.models.inrush import EnvelopeRequest, PeakRequest
 from service.models.mitigation import MitigationRequest
+from service.models.network import NetworkRequest
 from service.models.statistics import StatisticsRequest
 
 CONTRACT = json.loads(
@@ -46,6 +48,19 @@ DIP = DIP_REQUESTS["northgate_backfeed"]
 STATS = STATISTICS_REQUESTS["northgate_backfeed_generator"]
 CLEAR = CLEARANCE_REQUESTS["northgate_main_unit"]
 MITIG = MITIGATION_REQUESTS["northgate_backfeed"]
+RING = NETWORK_REQUESTS["northgate_ring_reclose"]
+SI_WINDING = {
+    k: v
+    for k, v in THREE["circuit_three_phase"].items()
+    if k not in ("frequency_hz",) and not k.startswith("source_")
+}
+
+
+def _ring_unit(**unit: Any) -> Body:
+    out = copy.deepcopy(RING)
+    out["units"][0] = {"name": "pad 1", **unit}
+    return out
+
 
 # (model, body, valid?) — each invalid body breaks exactly one cross-field rule
 CASES: dict[str, tuple[type[BaseModel], Body, bool]] = {
@@ -161,6 +176,18 @@ CASES: dict[str, tuple[type[BaseModel], Body, bool]] = {
         ),
         False,
     ),
+    "network": (NetworkRequest, RING, True),
+    "network unit as si circuit": (
+        NetworkRequest,
+        _ring_unit(circuit_three_phase=SI_WINDING),
+        True,
+    ),
+    "network unit both ways": (
+        NetworkRequest,
+        _ring_unit(circuit_three_phase=SI_WINDING, transformer=RING["units"][1]["transformer"]),
+        False,
+    ),
+    "network unit neither way": (NetworkRequest, _ring_unit(), False),
     "mitigation": (MitigationRequest, MITIG, True),
     "mitigation circuit mode": (
         MitigationRequest,
