@@ -12,7 +12,7 @@ layer only names them.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -31,6 +31,7 @@ __all__ = [
     "residual_flux_pu_from_wb",
     "residual_flux_warnings",
     "switching_event",
+    "switching_events",
 ]
 
 #: Default residual flux per winding [pu of lambda_N], by number of phases: 0.8 pu on the first
@@ -92,6 +93,22 @@ class SwitchingEvent:
             and self.voltage_start_pu == 1.0
             and self.voltage_hold_s == 0.0
             and self.voltage_rise_s == 0.0
+        )
+
+    def closed_at_once(self) -> SwitchingEvent:
+        """The same closing angle and residual flux, every pole at t = 0, no resistor, no ramp.
+
+        The event a hand method assumes (it closes all poles together straight onto the rated
+        source); nothing is checked again, the values being a subset of this checked event.
+        """
+        return replace(
+            self,
+            pole_delay_s=np.zeros_like(self.pole_delay_s),
+            insertion_resistance_ohm=0.0,
+            insertion_time_s=0.0,
+            voltage_start_pu=1.0,
+            voltage_hold_s=0.0,
+            voltage_rise_s=0.0,
         )
 
 
@@ -247,7 +264,7 @@ def switching_event(
         ("voltage_hold_s", voltage_hold_s, 0.0, math.inf),
         ("voltage_rise_s", voltage_rise_s, 0.0, math.inf),
     ):
-        if not (math.isfinite(value) and low <= value <= high):
+        if not (_finite(value) and low <= value <= high):
             raise ParameterError(name, value, f"in [{low:g}, {high:g}]")
     return SwitchingEvent(
         closing_angle_deg=closing_angle_deg,
@@ -262,13 +279,90 @@ def switching_event(
     )
 
 
+def _finite(value: object) -> bool:
+    """True for a finite real number (False for None, a string, nan or inf)."""
+    try:
+        return math.isfinite(value)  # type: ignore[arg-type]
+    except TypeError:
+        return False
+
+
 def _per_phase(name: str, value: ArrayLike, m: int) -> FloatArray:
     """``value`` broadcast to one finite float per phase (a copy)."""
-    arr = np.asarray(value, dtype=float)
+    try:
+        arr = np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise ParameterError(name, repr(value), f"a scalar or {m} numbers") from None
     try:
         out = np.broadcast_to(arr, (m,)).copy()
     except ValueError:
         raise ParameterError(name, arr.tolist(), f"a scalar or {m} values") from None
+    if not np.all(np.isfinite(out)):
+        raise ParameterError(name, "non-finite", "finite numbers")
+    return out
+
+
+def switching_events(
+    circuit: EquivalentCircuit,
+    closing_angle_deg: ArrayLike,
+    residual_flux_pu: ArrayLike,
+    pole_delay_s: ArrayLike = 0.0,
+) -> tuple[SwitchingEvent, ...]:
+    """Many plain switching events of one circuit (e.g. a Monte Carlo sample), checked at once.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit energised; its phases set the number of windings and poles [-].
+    closing_angle_deg : array_like, shape (n,)
+        Phase-A source voltage angle at t = 0 of each event, finite [deg].
+    residual_flux_pu : array_like
+        Broadcast to (n, windings): per event, per winding [pu of lambda_N].
+    pole_delay_s : array_like
+        Broadcast to (n, poles): per event, per pole after t = 0 [s].
+
+    Returns
+    -------
+    tuple of SwitchingEvent
+        One event per angle, each as :func:`switching_event` would build it (no resistor, no
+        ramp), with its own warnings.
+
+    Notes
+    -----
+    The same checks as :func:`switching_event`, done on the whole arrays: finite angles, shapes
+    that broadcast, finite numbers; then event k is (alpha_k, b_R[k], t[k]).
+
+    References
+    ----------
+    This project's input rules, as in :func:`switching_event`.
+    """
+    angles = np.atleast_1d(np.asarray(closing_angle_deg, dtype=float))
+    if angles.ndim != 1 or not np.all(np.isfinite(angles)):
+        raise ParameterError("closing_angle_deg", "non-finite or not 1-D", "finite angles")
+    n, m = angles.size, circuit.phases
+    res = _per_event("residual_flux_pu", residual_flux_pu, n, m)
+    delay = _per_event("pole_delay_s", pole_delay_s, n, m)
+    return tuple(
+        SwitchingEvent(
+            closing_angle_deg=float(angles[k]),
+            residual_flux_pu=res[k],
+            pole_delay_s=delay[k],
+            warnings=tuple(residual_flux_warnings(res[k])),
+        )
+        for k in range(n)
+    )
+
+
+def _per_event(name: str, value: ArrayLike, n: int, m: int) -> FloatArray:
+    """``value`` broadcast to (n, m) finite floats (a copy)."""
+    try:
+        arr = np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise ParameterError(name, repr(value), f"numbers broadcastable to ({n}, {m})") from None
+    try:
+        out = np.broadcast_to(arr, (n, m)).copy()
+    except ValueError:
+        raise ParameterError(name, list(arr.shape), f"broadcastable to ({n}, {m})") from None
     if not np.all(np.isfinite(out)):
         raise ParameterError(name, "non-finite", "finite numbers")
     return out

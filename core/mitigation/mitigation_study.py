@@ -37,6 +37,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core.energization import energize, inrush_study, waveform
+from core.energization.switching_event import switching_event
 from core.errors import ParameterError
 from core.mitigation import pre_insertion
 from core.mitigation.mitigation_options import (
@@ -349,17 +350,21 @@ def _evaluate(
         if p.dip_note is not None or p.dip_circuit is None:
             notes.append(p.dip_note or "dip not evaluated")
         else:
-            d = dip.energize_from_source(
-                sup.generator,
+            event = switching_event(
                 p.dip_circuit,
                 p.angle_deg,
                 p.residual,
+                delay,
+                insertion_resistance_ohm=r_ins,
+                insertion_time_s=t_ins,
+            )
+            d = dip.energize_from_source(
+                sup.generator,
+                p.dip_circuit,
+                event,
                 excitation=sup.excitation,
                 bus_load=sup.bus_load,
                 duration_s=sup.duration_s,
-                insertion_resistance_ohm=r_ins,
-                insertion_time_s=t_ins,
-                pole_delay_s=delay,
             )
             verdict = dip_limits.verdicts(
                 d.dip_percent,

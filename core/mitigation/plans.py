@@ -19,6 +19,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from core.energization import inrush_study
+from core.energization.switching_event import switching_event
 from core.errors import ParameterError
 from core.mitigation import point_on_wave, pre_insertion
 from core.mitigation.mitigation_options import (
@@ -296,13 +297,16 @@ def _resistor(opt: PreInsertionResistor, ctx: Context, warnings: list[tuple[str,
                         dip.energize_from_source(
                             sup.generator,
                             dc,
-                            float(a),
-                            ctx.residual,
+                            switching_event(
+                                dc,
+                                float(a),
+                                ctx.residual,
+                                insertion_resistance_ohm=float(x),
+                                insertion_time_s=t_ins,
+                            ),
                             excitation=sup.excitation,
                             bus_load=sup.bus_load,
                             duration_s=1.0,
-                            insertion_resistance_ohm=float(x),
-                            insertion_time_s=t_ins,
                         ).dip_percent
                         for a, x in zip(angles, rs, strict=True)
                     ]

@@ -27,6 +27,7 @@ from numpy.typing import NDArray
 from core import checks
 from core.energization import energize
 from core.energization.inrush_study import line_names
+from core.energization.switching_event import switching_events
 from core.protection import coordination, device_operation
 from core.statistics import monte_carlo
 from core.supply import dip
@@ -221,18 +222,14 @@ def dip_exceedance_odds(
     span = checks.in_range("duration_s", duration_s, 0.1, 30.0, open_low=False)
     dips = np.empty(n)
     approximations: tuple[str, ...] = ()
-    for k in range(n):
+    drawn = switching_events(
+        circuit, dist.closing_angle_deg[:n], dist.residual_flux_pu[:n], dist.pole_delay_s[:n]
+    )
+    for k, event in enumerate(drawn):
         if checkpoint is not None:
             checkpoint()
         study = dip.energize_from_source(
-            gen,
-            circuit,
-            float(dist.closing_angle_deg[k]),
-            dist.residual_flux_pu[k],
-            excitation=excitation,
-            bus_load=bus_load,
-            duration_s=span,
-            pole_delay_s=dist.pole_delay_s[k],
+            gen, circuit, event, excitation=excitation, bus_load=bus_load, duration_s=span
         )
         dips[k] = study.dip_percent
         # each event states its own pole instants: say it once, in general

@@ -98,6 +98,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core import checks
+from core.energization.switching_event import SwitchingEvent
 from core.errors import ParameterError
 from core.supply import dip_cases
 from core.supply.sources import (
@@ -432,8 +433,7 @@ def _pole_approximations(
 def run_on_sources(
     sources: Sequence[Source],
     circuit: EquivalentCircuit,
-    closing_angle_deg: float,
-    residual_flux_pu: FloatArray,
+    event: SwitchingEvent,
     *,
     excitation: ExcitationSpec,
     bus_load: BusLoad | None,
@@ -441,46 +441,41 @@ def run_on_sources(
     duration_s: float,
     steps_per_cycle: int,
     waveform_points: int,
-    insertion: tuple[float, float],
-    pole_delay_s: FloatArray,
-) -> tuple[list[dip_cases.SourceParameters], dip_cases.Raw]:
-    """One dip case per source, the same energisation of each, integrated in one kernel call.
+) -> tuple[list[dip_cases.SourceParameters], dip_cases.Raw, list[tuple[str, str]]]:
+    """One dip case per source, the same energisation of each, checked and integrated at once.
 
     The shared first half of :func:`energize_from_source` (one source) and
-    :func:`core.supply.generator_sizing.dip_sweep` (one machine at many ratings); the inputs
-    are checked by their callers.
+    :func:`core.supply.generator_sizing.dip_sweep` (one machine at many ratings).
 
     Parameters
     ----------
     sources : sequence of Generator or UtilitySource
-        The sources, all at the circuit's frequency and the same line voltage [-].
+        The sources, all at the circuit's frequency and the same line voltage as the first,
+        which the inputs are checked against [-].
     circuit : EquivalentCircuit
         Three-phase circuit on an ideal source [-].
-    closing_angle_deg : float
-        Phase-A voltage angle at t = 0 [deg].
-    residual_flux_pu : ndarray, shape (3,)
-        Residual flux per winding [pu of lambda_N].
+    event : SwitchingEvent
+        The energisation of every case: closing angle, residual flux per winding, pole
+        instants, pre-insertion resistor and its time in circuit (checked by
+        :func:`core.supply.dip_cases.check_inputs`) [-].
     excitation : Excitation, "unknown" or "constant_field"
         The regulator of every machine [-].
     bus_load : BusLoad or None
         Load on the bus, constant impedance [-].
     pre_event_voltage_pu : float
-        Terminal voltage before closing [pu].
+        Terminal voltage before closing, in [0.5, 1.5] [pu].
     duration_s : float
-        Simulated time [s].
+        Simulated time, in (0, 600] [s].
     steps_per_cycle : int
         Steps per cycle, at least 128 [-].
     waveform_points : int
         Waveform samples kept, 0 for none [-].
-    insertion : tuple of float
-        Pre-insertion resistor and its time in circuit from closing [ohm, s].
-    pole_delay_s : ndarray, shape (3,)
-        Closing instant of each pole [s].
 
     Returns
     -------
     tuple
-        (the sources reduced to numbers, one per source; the kernel's output) [-].
+        (the sources reduced to numbers, one per source; the kernel's output; the warnings of
+        the inputs, (code, message)) [-].
 
     Notes
     -----
@@ -492,36 +487,21 @@ def run_on_sources(
     ----------
     The models of :mod:`core.supply.sources` and :mod:`core.supply.dip_cases`.
     """
+    warnings = dip_cases.check_inputs(sources[0], circuit, event, pre_event_voltage_pu, duration_s)
     f = circuit.frequency_hz
-    r_ins, t_ins = insertion
+    v0 = float(pre_event_voltage_pu)
     load = None if bus_load is None else (bus_load.active_power_w, bus_load.reactive_power_var)
     params = [source_parameters(s, excitation, 2.0 * math.pi * f) for s in sources]
-    cases = [
-        dip_cases.build_case(
-            p, circuit, closing_angle_deg, residual_flux_pu, load, pre_event_voltage_pu,
-            insertion_resistance_ohm=r_ins,
-        )
-        for p in params
-    ]  # fmt: skip
+    cases = [dip_cases.build_case(p, circuit, event, load, v0) for p in params]
     v_ph = sources[0].line_voltage_v / math.sqrt(3.0)
-    raw = dip_cases.run(
-        cases,
-        f,
-        v_ph,
-        duration_s,
-        steps_per_cycle,
-        waveform_points,
-        insertion_time_s=t_ins,
-        pole_delay_s=pole_delay_s,
-    )
-    return params, raw
+    raw = dip_cases.run(cases, f, v_ph, duration_s, steps_per_cycle, waveform_points, event=event)
+    return params, raw, warnings
 
 
 def energize_from_source(
     source: Source,
     circuit: EquivalentCircuit,
-    closing_angle_deg: float = 0.0,
-    residual_flux_pu: ArrayLike = 0.0,
+    event: SwitchingEvent,
     *,
     excitation: ExcitationSpec = "unknown",
     bus_load: BusLoad | None = None,
@@ -532,9 +512,6 @@ def energize_from_source(
     recovery_reference: Literal["pre_event", "final"] = "pre_event",
     voltage_measure: Measure = "worst",
     waveform_points: int = 0,
-    insertion_resistance_ohm: float = 0.0,
-    insertion_time_s: float = 0.0,
-    pole_delay_s: ArrayLike = 0.0,
 ) -> DipStudy:
     """Energise a transformer from a generator or weak utility source: dip and recovery.
 
@@ -544,10 +521,16 @@ def energize_from_source(
         The supply [-].
     circuit : EquivalentCircuit
         Three-phase transformer circuit built with an ideal source [-].
-    closing_angle_deg : float
-        Angle of the phase-A terminal voltage at t = 0, sqrt(2)*V*sin(omega*t + alpha) [deg].
-    residual_flux_pu : array_like
-        Residual flux per winding (a, b, c; ab, bc, ca for delta) [pu of lambda_N].
+    event : SwitchingEvent
+        The energisation (:func:`core.energization.switching_event.switching_event` for this
+        circuit): the angle of the phase-A terminal voltage at t = 0,
+        sqrt(2)*V*sin(omega*t + alpha); the residual flux per winding (a, b, c; ab, bc, ca for
+        delta), within [-5, 5] pu; the closing instant of breaker poles a, b, c after the
+        command at t = 0, each in [0, duration_s), rounded to the nearest internal step; the
+        pre-insertion resistor of the energising breaker, in each line to the transformer (the
+        largest the fixed step allows depends on the circuit, tens of ohms for the demo unit,
+        and is named in the error) and its time from closing to the bypass, in [0, 600] s,
+        rounded to the nearest internal step. A ramped source is not modelled here [-].
     excitation : Excitation, "unknown" or "constant_field"
         Regulator; "unknown" is :func:`core.supply.sources.unknown_excitation` (defaults set
         for the machine, well damped). Ignored for a utility source [-].
@@ -571,16 +554,6 @@ def energize_from_source(
         zero-sequence simplification, what a regulator senses) or ``"phase"`` [-].
     waveform_points : int
         Return the waveforms decimated to about this many points (0: none) [-].
-    insertion_resistance_ohm : float
-        Pre-insertion resistor of the energising breaker, in each line to the transformer,
-        >= 0; 0 for none. The largest the fixed step allows depends on the circuit (tens of
-        ohms for the demo unit) and is named in the error [ohm].
-    insertion_time_s : float
-        Time from closing to the resistor's bypass, in [0, 600]; rounded to the nearest
-        internal step; 0 for none [s].
-    pole_delay_s : array_like, shape (3,) or scalar
-        Closing instant of breaker poles a, b, c after the command at t = 0, each in
-        [0, duration_s); rounded to the nearest internal step; 0 for all poles together [s].
 
     Returns
     -------
@@ -608,140 +581,55 @@ def energize_from_source(
     the transformer line currents.
 
     With pole closing instants t_k a wye winding k is energised at t_k, a delta winding ab at
-    max(t_a, t_b) (bc, ca alike), as :func:`core.energization.energize.simulate` does;
-    ``closing_angle_deg`` stays the phase-A angle at t = 0, so the phase-A voltage angle when pole a
-    closes is alpha + 360*f*t_a [deg]. The cycles are counted from t = 0, the command. The hand
-    method closes all poles together at t = 0.
+    max(t_a, t_b) (bc, ca alike), as :func:`core.energization.energize.simulate` does; the
+    event's closing angle stays the phase-A angle at t = 0, so the phase-A voltage angle when
+    pole a closes is alpha + 360*f*t_a [deg]. The cycles are counted from t = 0, the command.
+    The hand method closes all poles together at t = 0 (:meth:`SwitchingEvent.closed_at_once`).
+
+    References
+    ----------
+    See the module: Kundur (1994), Machowski et al. (2008), IEEE Std 399-1997 ch. 9 (hand
+    method), ISO 8528-5 -- from memory.
     """
-    res, warnings = dip_cases.check_inputs(
-        source, circuit, closing_angle_deg, residual_flux_pu, pre_event_voltage_pu, duration_s
-    )
-    warnings = [*circuit.warnings, *warnings]
     checks.in_range("recovery_band_percent", recovery_band_percent, 0.0, 50.0)
     if recovery_reference not in ("pre_event", "final"):
         raise ParameterError("recovery_reference", recovery_reference, "pre_event or final")
     if not (isinstance(waveform_points, int) and 0 <= waveform_points <= 10_000_000):
         raise ParameterError("waveform_points", waveform_points, "an integer >= 0")
     check_measure(voltage_measure)
-    r_ins, t_ins = dip_cases.check_insertion(insertion_resistance_ohm, insertion_time_s)
-    poles = dip_cases.check_poles(pole_delay_s, duration_s)
     v0 = float(pre_event_voltage_pu)
     f = circuit.frequency_hz
-    v_ph = source.line_voltage_v / math.sqrt(3.0)
-    (src,), raw = run_on_sources(
+    (src,), raw, checked = run_on_sources(
         [source],
         circuit,
-        closing_angle_deg,
-        res,
+        event,
         excitation=excitation,
         bus_load=bus_load,
         pre_event_voltage_pu=v0,
         duration_s=duration_s,
         steps_per_cycle=steps_per_cycle,
         waveform_points=waveform_points,
-        insertion=(r_ins, t_ins),
-        pole_delay_s=poles,
     )
-    ideal = dip_cases.SourceParameters(source.line_voltage_v, 0.0, 0.0, src.base_va)
-    first = dip_cases.run(
-        [dip_cases.build_case(ideal, circuit, closing_angle_deg, res, None, 1.0)],
-        f,
-        v_ph,
-        1.0 / f,
-        dip_cases.MIN_STEPS_PER_CYCLE,
-        0,
-    )
-    ph = raw.v_rms_pu[0].min(axis=0)
-    ln = raw.v_line_rms_pu[0].min(axis=0)
-    worst = {"worst": np.minimum(ph, ln), "line": ln, "phase": ph}[voltage_measure]
-    n_min = int(np.argmin(worst))
-    n_cyc = worst.size
-    dip_ph = 100.0 * (v0 - float(ph.min())) / v0
-    dip_ln = 100.0 * (v0 - float(ln.min())) / v0
-    dip = {"worst": max(dip_ph, dip_ln), "line": dip_ln, "phase": dip_ph}[voltage_measure]
-    if n_cyc > 2 and n_min >= n_cyc - max(1, n_cyc // 10):
+    warnings = [*circuit.warnings, *checked]
+    low = _lowest(raw, v0, voltage_measure)
+    n_cyc = low.worst.size
+    if n_cyc > 2 and low.n_min >= n_cyc - max(1, n_cyc // 10):
         warnings.append(
             (
                 "dip_at_end",
                 "the lowest voltage is in the last tenth of the simulated time: simulate longer",
             )
         )
-    both = {
-        "worst": np.concatenate((raw.v_rms_pu[0], raw.v_line_rms_pu[0])),
-        "line": raw.v_line_rms_pu[0],
-        "phase": raw.v_rms_pu[0],
-    }[voltage_measure]
-    rec, ref = _recovery(both, v0, recovery_reference, recovery_band_percent, f)
-    damping, swings = math.nan, Swings(0, math.nan, math.nan, math.nan)
-    exc = (
-        unknown_excitation(source)
-        if excitation == "unknown" and isinstance(source, Generator)
-        else excitation
+    rec, ref = _recovery(low.both, v0, recovery_reference, recovery_band_percent, f)
+    damping, swings = _regulator_loop(
+        source, excitation, bus_load, low.both, f, (recovery_band_percent, ref)
     )
-    if isinstance(source, Generator) and isinstance(exc, Excitation):
-        damping = regulator_damping_ratio(source, exc, bus_load)
-        floor = max(1e-3, 1e-3 * recovery_band_percent * ref)
-        swings = voltage_swings(both.mean(axis=0), f, floor)
     reliable = not (damping < POOR_DAMPING_RATIO or swings.damping_ratio < POOR_DAMPING_RATIO)
-    if not reliable:
-        seen = (
-            f"; the simulated voltage swings ±{100.0 * swings.amplitude_pu / ref:.2g} % at "
-            f"{swings.frequency_hz:.2g} Hz, damping ratio {swings.damping_ratio:.2g} from "
-            "its last swings"
-            if math.isfinite(swings.damping_ratio)
-            else ""
-        )
-        warnings.append(
-            (
-                "regulator_poorly_damped",
-                "the regulator loop is poorly damped (damping ratio "
-                f"{damping:.2g} of the linearised loop after the inrush{seen}; below "
-                f"{POOR_DAMPING_RATIO:g} is poorly damped): the recovery time measures an "
-                "oscillation and is not judged; check the regulator's data and its stability "
-                "setting",
-            )
-        )
-    elif math.isnan(rec):
-        warnings.append(
-            (
-                "not_recovered",
-                f"voltage still outside ±{recovery_band_percent:g} % "
-                f"at the end of the simulated {n_cyc / f:g} s",
-            )
-        )
-    approximations = APPROXIMATIONS[circuit.connection]
-    if np.any(poles > 0.0):
-        half = 0.5 / (f * raw.steps_per_cycle)
-        approximations = _pole_approximations(
-            approximations, circuit.connection, raw.pole_close_s, half
-        )
-    if r_ins > 0.0 and t_ins > 0.0:
-        half = 0.5 / (f * raw.steps_per_cycle)
-        if raw.bypass_time_s == 0.0:
-            warnings.append(
-                (
-                    "insertion_rounded_out",
-                    f"insertion_time_s {t_ins:g} s is under half an internal step ({half:.3g} s) "
-                    "and rounds to no insertion: the resistor is not simulated",
-                )
-            )
-        else:
-            approximations += (_INSERTION[0].format(bypass=raw.bypass_time_s, half=half),)
-            if circuit.connection == "delta":
-                approximations += _INSERTION_DELTA
-            if raw.bypass_time_s >= (n_cyc - 0.25 / raw.steps_per_cycle) / f:
-                warnings.append(
-                    (
-                        "resistor_not_bypassed",
-                        "the pre-insertion resistor is still in at the end of the simulated "
-                        f"{n_cyc / f:g} s: the inrush and dip after its bypass are not simulated",
-                    )
-                )
-    s_load = math.sqrt(3.0) * source.line_voltage_v * float(first.i_rms_a[0, :, 0].max())
-    if isinstance(source, Generator):
-        hand = float(first_dip_voltage_divider(source.x_d2_pu, source.rating_va, s_load))
-    else:
-        hand = float(first_dip_voltage_divider(1.0, source.fault_level_va, s_load))
+    warnings += _recovery_warnings(
+        reliable, rec, damping, swings, ref, recovery_band_percent, n_cyc / f
+    )
+    approximations = _timing_notes(circuit, event, raw, n_cyc, warnings)
+    s_load, hand = _hand_method(source, circuit, event, src.base_va)
     return DipStudy(
         source_kind="generator" if isinstance(source, Generator) else "utility",
         frequency_hz=f,
@@ -750,11 +638,11 @@ def energize_from_source(
         voltage_line_rms_pu=raw.v_line_rms_pu[0],
         pre_event_voltage_pu=v0,
         voltage_measure=voltage_measure,
-        min_voltage_pu=float(worst[n_min]),
-        min_voltage_time_s=n_min / f,
-        dip_percent=dip,
-        dip_phase_percent=dip_ph,
-        dip_line_percent=dip_ln,
+        min_voltage_pu=float(low.worst[low.n_min]),
+        min_voltage_time_s=low.n_min / f,
+        dip_percent=low.dip,
+        dip_phase_percent=low.dip_phase,
+        dip_line_percent=low.dip_line,
         recovery_time_s=rec,
         recovery_band_percent=float(recovery_band_percent),
         recovery_reference_pu=ref,
@@ -764,7 +652,7 @@ def energize_from_source(
         field_voltage_pu=raw.field_pu[0],
         hand_method_load_va=s_load,
         hand_method_dip_percent=hand,
-        hand_method_difference_percent=hand - dip,
+        hand_method_difference_percent=hand - low.dip,
         steps_per_cycle=raw.steps_per_cycle,
         waveform_time_s=raw.wave_t_s,
         waveform_voltage_v=raw.wave_v[0],
@@ -778,3 +666,169 @@ def energize_from_source(
         swings=swings,
         recovery_reliable=reliable,
     )
+
+
+@dataclass(frozen=True)
+class _Lowest:
+    """The lowest voltages of one case: per-cycle worst of the chosen measure [pu], its cycle,
+    the dips [%] and the per-cycle rms rows the recovery is judged on [pu]."""
+
+    worst: FloatArray
+    n_min: int
+    dip: float
+    dip_phase: float
+    dip_line: float
+    both: FloatArray
+
+
+def _lowest(raw: dip_cases.Raw, v0: float, measure: Measure) -> _Lowest:
+    """Dip = 100*(V_0 - V_min)/V_0 of the phase and line voltages, and of the chosen measure."""
+    ph = raw.v_rms_pu[0].min(axis=0)
+    ln = raw.v_line_rms_pu[0].min(axis=0)
+    worst = {"worst": np.minimum(ph, ln), "line": ln, "phase": ph}[measure]
+    dip_ph = 100.0 * (v0 - float(ph.min())) / v0
+    dip_ln = 100.0 * (v0 - float(ln.min())) / v0
+    both = {
+        "worst": np.concatenate((raw.v_rms_pu[0], raw.v_line_rms_pu[0])),
+        "line": raw.v_line_rms_pu[0],
+        "phase": raw.v_rms_pu[0],
+    }[measure]
+    return _Lowest(
+        worst=worst,
+        n_min=int(np.argmin(worst)),
+        dip={"worst": max(dip_ph, dip_ln), "line": dip_ln, "phase": dip_ph}[measure],
+        dip_phase=dip_ph,
+        dip_line=dip_ln,
+        both=both,
+    )
+
+
+def _regulator_loop(
+    source: Source,
+    excitation: ExcitationSpec,
+    bus_load: BusLoad | None,
+    both: FloatArray,
+    f: float,
+    band: tuple[float, float],
+) -> tuple[float, Swings]:
+    """Damping ratio of the linearised regulator loop and the simulated swings (nan, none
+    without a regulator); swings smaller than 1e-3 pu or a thousandth of the band (its
+    half-width [%] and centre [pu]) in percent are not counted."""
+    damping, swings = math.nan, Swings(0, math.nan, math.nan, math.nan)
+    exc = (
+        unknown_excitation(source)
+        if excitation == "unknown" and isinstance(source, Generator)
+        else excitation
+    )
+    if isinstance(source, Generator) and isinstance(exc, Excitation):
+        damping = regulator_damping_ratio(source, exc, bus_load)
+        floor = max(1e-3, 1e-3 * band[0] * band[1])
+        swings = voltage_swings(both.mean(axis=0), f, floor)
+    return damping, swings
+
+
+def _recovery_warnings(
+    reliable: bool,
+    rec: float,
+    damping: float,
+    swings: Swings,
+    ref: float,
+    band_percent: float,
+    simulated_s: float,
+) -> list[tuple[str, str]]:
+    """``regulator_poorly_damped`` (the recovery not judged) or ``not_recovered``, or none."""
+    if not reliable:
+        seen = (
+            f"; the simulated voltage swings ±{100.0 * swings.amplitude_pu / ref:.2g} % at "
+            f"{swings.frequency_hz:.2g} Hz, damping ratio {swings.damping_ratio:.2g} from "
+            "its last swings"
+            if math.isfinite(swings.damping_ratio)
+            else ""
+        )
+        return [
+            (
+                "regulator_poorly_damped",
+                "the regulator loop is poorly damped (damping ratio "
+                f"{damping:.2g} of the linearised loop after the inrush{seen}; below "
+                f"{POOR_DAMPING_RATIO:g} is poorly damped): the recovery time measures an "
+                "oscillation and is not judged; check the regulator's data and its stability "
+                "setting",
+            )
+        ]
+    if math.isnan(rec):
+        return [
+            (
+                "not_recovered",
+                f"voltage still outside ±{band_percent:g} % "
+                f"at the end of the simulated {simulated_s:g} s",
+            )
+        ]
+    return []
+
+
+def _timing_notes(
+    circuit: EquivalentCircuit,
+    event: SwitchingEvent,
+    raw: dip_cases.Raw,
+    n_cyc: int,
+    warnings: list[tuple[str, str]],
+) -> tuple[str, ...]:
+    """The approximations, with the poles' instants and the resistor stated when they are
+    used; appends the warnings about a resistor rounded out or never bypassed."""
+    f = circuit.frequency_hz
+    approximations = APPROXIMATIONS[circuit.connection]
+    if np.any(event.pole_delay_s > 0.0):
+        half = 0.5 / (f * raw.steps_per_cycle)
+        approximations = _pole_approximations(
+            approximations, circuit.connection, raw.pole_close_s, half
+        )
+    r_ins, t_ins = event.insertion_resistance_ohm, event.insertion_time_s
+    if not (r_ins > 0.0 and t_ins > 0.0):
+        return approximations
+    half = 0.5 / (f * raw.steps_per_cycle)
+    if raw.bypass_time_s == 0.0:
+        warnings.append(
+            (
+                "insertion_rounded_out",
+                f"insertion_time_s {t_ins:g} s is under half an internal step ({half:.3g} s) "
+                "and rounds to no insertion: the resistor is not simulated",
+            )
+        )
+        return approximations
+    approximations += (_INSERTION[0].format(bypass=raw.bypass_time_s, half=half),)
+    if circuit.connection == "delta":
+        approximations += _INSERTION_DELTA
+    if raw.bypass_time_s >= (n_cyc - 0.25 / raw.steps_per_cycle) / f:
+        warnings.append(
+            (
+                "resistor_not_bypassed",
+                "the pre-insertion resistor is still in at the end of the simulated "
+                f"{n_cyc / f:g} s: the inrush and dip after its bypass are not simulated",
+            )
+        )
+    return approximations
+
+
+def _hand_method(
+    source: Source, circuit: EquivalentCircuit, event: SwitchingEvent, base_va: float
+) -> tuple[float, float]:
+    """The hand method's load [VA] and dip [%]: the first-cycle rms of the largest line current
+    on an ideal source at rated voltage, all poles together and no resistor, as three-phase
+    power, into :func:`core.supply.sources.first_dip_voltage_divider`."""
+    f = circuit.frequency_hz
+    v_ph = source.line_voltage_v / math.sqrt(3.0)
+    ideal = dip_cases.SourceParameters(source.line_voltage_v, 0.0, 0.0, base_va)
+    first = dip_cases.run(
+        [dip_cases.build_case(ideal, circuit, event.closed_at_once(), None, 1.0)],
+        f,
+        v_ph,
+        1.0 / f,
+        dip_cases.MIN_STEPS_PER_CYCLE,
+        0,
+    )
+    s_load = math.sqrt(3.0) * source.line_voltage_v * float(first.i_rms_a[0, :, 0].max())
+    if isinstance(source, Generator):
+        hand = float(first_dip_voltage_divider(source.x_d2_pu, source.rating_va, s_load))
+    else:
+        hand = float(first_dip_voltage_divider(1.0, source.fault_level_va, s_load))
+    return s_load, hand

@@ -13,8 +13,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from numpy.typing import ArrayLike
-
+from core.energization.switching_event import SwitchingEvent
 from core.supply import dip, dip_limits, generator_sizing, sources
 from core.supply.dip_limits import DipLimit
 from core.supply.sources import ExcitationSpec, Source
@@ -35,8 +34,7 @@ class DipReport:
 def dip_study(
     source: Source,
     circuit: EquivalentCircuit,
-    closing_angle_deg: float,
-    residual_flux_pu: ArrayLike,
+    event: SwitchingEvent,
     *,
     limits: tuple[DipLimit, ...] = dip_limits.ISO_8528_5_CLASSES,
     size_for: DipLimit | None = None,
@@ -46,9 +44,6 @@ def dip_study(
     recovery_band_percent: float = 3.0,
     voltage_measure: dip.Measure = "worst",
     waveform_points: int = 0,
-    insertion_resistance_ohm: float = 0.0,
-    insertion_time_s: float = 0.0,
-    pole_delay_s: ArrayLike = 0.0,
 ) -> DipReport:
     """Dip and recovery of one energisation, judged, with the passing generator size.
 
@@ -58,10 +53,12 @@ def dip_study(
         The supply [-].
     circuit : EquivalentCircuit
         Transformer circuit (ideal source; the source model replaces it) [-].
-    closing_angle_deg : float
-        Phase-A terminal-voltage angle at closing [deg].
-    residual_flux_pu : array_like
-        Residual flux per winding [pu of lambda_N].
+    event : SwitchingEvent
+        The energisation: closing angle, residual flux per winding, the closing instant of
+        poles a, b, c (each in [0, duration_s), and when sizing in [0, 2) s, the sizing's
+        simulated time), an optional pre-insertion resistor in each line to the transformer and
+        its time from closing to the bypass, in [0, 600] s (see
+        :func:`core.supply.dip.energize_from_source`) [-].
     limits : tuple of DipLimit
         Limits to judge against (ISO 8528-5 classes by default, from memory) [-].
     size_for : DipLimit or None
@@ -78,15 +75,6 @@ def dip_study(
         ``"worst"``, ``"line"`` or ``"phase"``: which rms voltage the dip is read from [-].
     waveform_points : int
         Return the terminal voltages and currents with at most this many points [-].
-    insertion_resistance_ohm : float
-        Pre-insertion resistor of the energising breaker in each line to the transformer, >= 0;
-        0 for none (see :func:`core.supply.dip.energize_from_source`) [ohm].
-    insertion_time_s : float
-        Time from closing to its bypass, in [0, 600]; 0 for none [s].
-    pole_delay_s : array_like, shape (3,) or scalar
-        Closing instant of poles a, b, c after the command at t = 0, each in [0, duration_s)
-        (and, when sizing, in [0, 2) s, the sizing's simulated time); 0 for all poles together
-        (see :func:`core.supply.dip.energize_from_source`) [s].
 
     Returns
     -------
@@ -100,17 +88,13 @@ def dip_study(
     study = dip.energize_from_source(
         source,
         circuit,
-        closing_angle_deg,
-        residual_flux_pu,
+        event,
         excitation=excitation,
         bus_load=bus_load,
         duration_s=duration_s,
         recovery_band_percent=recovery_band_percent,
         voltage_measure=voltage_measure,
         waveform_points=waveform_points,
-        insertion_resistance_ohm=insertion_resistance_ohm,
-        insertion_time_s=insertion_time_s,
-        pole_delay_s=pole_delay_s,
     )
     judged = dip_limits.verdicts(
         study.dip_percent,
@@ -124,14 +108,10 @@ def dip_study(
         sizing = generator_sizing.smallest_generator(
             source,
             circuit,
+            event,
             size_for,
-            closing_angle_deg,
-            residual_flux_pu,
             excitation=excitation,
             bus_load=bus_load,
             voltage_measure=voltage_measure,
-            insertion_resistance_ohm=insertion_resistance_ohm,
-            insertion_time_s=insertion_time_s,
-            pole_delay_s=pole_delay_s,
         )
     return DipReport(study, judged, sizing)

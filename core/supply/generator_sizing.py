@@ -51,6 +51,7 @@ import scipy.optimize
 from numpy.typing import ArrayLike, NDArray
 
 from core import checks
+from core.energization.switching_event import SwitchingEvent
 from core.errors import ParameterError
 from core.supply import dip, dip_cases
 from core.supply.dip_limits import DipLimit, iso_8528_5_class
@@ -70,8 +71,7 @@ def dip_sweep(
     generator: Generator,
     circuit: EquivalentCircuit,
     ratings_va: ArrayLike,
-    closing_angle_deg: float = 0.0,
-    residual_flux_pu: ArrayLike = 0.0,
+    event: SwitchingEvent,
     *,
     excitation: ExcitationSpec = "unknown",
     bus_load: BusLoad | None = None,
@@ -79,9 +79,6 @@ def dip_sweep(
     duration_s: float = 2.0,
     steps_per_cycle: int = dip_cases.MIN_STEPS_PER_CYCLE,
     voltage_measure: dip.Measure = "worst",
-    insertion_resistance_ohm: float = 0.0,
-    insertion_time_s: float = 0.0,
-    pole_delay_s: ArrayLike = 0.0,
 ) -> FloatArray:
     """Dip for the same per-unit generator data at several ratings, in one vectorised run.
 
@@ -93,13 +90,15 @@ def dip_sweep(
         As for :func:`core.supply.dip.energize_from_source` [-].
     ratings_va : array_like, shape (n,)
         Generator ratings [VA].
-    closing_angle_deg, residual_flux_pu, excitation, bus_load, pre_event_voltage_pu
+    event : SwitchingEvent
+        The energisation, the same at every rating (its resistor in ohms, its pole instants in
+        seconds), as for :func:`core.supply.dip.energize_from_source` [-].
+    excitation, bus_load, pre_event_voltage_pu
         As for :func:`core.supply.dip.energize_from_source`. [-] [-]
     duration_s : float
         Simulated time; the lowest voltage normally falls within the first second [s].
-    steps_per_cycle, voltage_measure, insertion_resistance_ohm, insertion_time_s, pole_delay_s
-        As for :func:`core.supply.dip.energize_from_source` (the resistor and the poles are the same
-        at every rating) [-], [ohm], [s], [s].
+    steps_per_cycle, voltage_measure
+        As for :func:`core.supply.dip.energize_from_source` [-], [-].
 
     Returns
     -------
@@ -113,26 +112,18 @@ def dip_sweep(
     """
     ratings = np.atleast_1d(np.asarray(ratings_va, dtype=float))
     gens = [replace(generator, rating_va=float(s)) for s in ratings]
-    res, _ = dip_cases.check_inputs(
-        generator, circuit, closing_angle_deg, residual_flux_pu, pre_event_voltage_pu, duration_s
-    )
-    r_ins, t_ins = dip_cases.check_insertion(insertion_resistance_ohm, insertion_time_s)
-    poles = dip_cases.check_poles(pole_delay_s, duration_s)
     v0 = float(pre_event_voltage_pu)
     dip.check_measure(voltage_measure)
-    _, raw = dip.run_on_sources(
+    _, raw, _ = dip.run_on_sources(
         gens,
         circuit,
-        closing_angle_deg,
-        res,
+        event,
         excitation=excitation,
         bus_load=bus_load,
         pre_event_voltage_pu=v0,
         duration_s=duration_s,
         steps_per_cycle=steps_per_cycle,
         waveform_points=0,
-        insertion=(r_ins, t_ins),
-        pole_delay_s=poles,
     )
     ph = raw.v_rms_pu.min(axis=(1, 2))
     ln = raw.v_line_rms_pu.min(axis=(1, 2))
@@ -183,9 +174,8 @@ class Sizing:
 def smallest_generator(
     generator: Generator,
     circuit: EquivalentCircuit,
+    event: SwitchingEvent,
     limit: DipLimit | str = "G2",
-    closing_angle_deg: float = 0.0,
-    residual_flux_pu: ArrayLike = 0.0,
     *,
     excitation: ExcitationSpec = "unknown",
     bus_load: BusLoad | None = None,
@@ -194,9 +184,6 @@ def smallest_generator(
     rtol: float = 1e-3,
     check_recovery: bool = True,
     voltage_measure: dip.Measure = "worst",
-    insertion_resistance_ohm: float = 0.0,
-    insertion_time_s: float = 0.0,
-    pole_delay_s: ArrayLike = 0.0,
 ) -> Sizing:
     """Smallest rating, same per-unit data, that keeps the dip within a limit.
 
@@ -206,9 +193,13 @@ def smallest_generator(
         Machine data; its rating is only the starting point [-].
     circuit : EquivalentCircuit
         Transformer circuit, as for :func:`core.supply.dip.energize_from_source` [-].
+    event : SwitchingEvent
+        The energisation, the same at every rating (its resistor in ohms, its pole instants in
+        seconds, each in [0, dip_duration_s)), as for
+        :func:`core.supply.dip.energize_from_source` [-].
     limit : DipLimit or str
         A limit, or an ISO 8528-5 class name ``"G1"``-``"G3"`` (values from memory) [-].
-    closing_angle_deg, residual_flux_pu, excitation, bus_load
+    excitation, bus_load
         As for :func:`core.supply.dip.energize_from_source`. [-] [-]
     bounds_va : tuple of float or None
         Search range; default 0.1-20 x the given rating [VA].
@@ -220,12 +211,6 @@ def smallest_generator(
         Also simulate the found rating for the limit's recovery time plus 1 s and judge it [-].
     voltage_measure : str
         As for :func:`core.supply.dip.energize_from_source` [-].
-    insertion_resistance_ohm, insertion_time_s : float
-        Pre-insertion resistor, the same at every rating, and its insertion time, as for
-        :func:`core.supply.dip.energize_from_source` [ohm], [s].
-    pole_delay_s : array_like, shape (3,) or scalar
-        Pole closing instants, the same at every rating, each in [0, dip_duration_s), as for
-        :func:`core.supply.dip.energize_from_source` [s].
 
     Returns
     -------
@@ -255,8 +240,8 @@ def smallest_generator(
     checks.in_range("bounds_va", lo, 0.0, 1e10)
     checks.in_range("bounds_va", hi, lo, 1e10)
     checks.in_range("rtol", rtol, 0.0, 0.1)
-    dip_cases.check_insertion(insertion_resistance_ohm, insertion_time_s)
-    dip_cases.check_poles(pole_delay_s, dip_duration_s)
+    dip_cases.check_insertion(event.insertion_resistance_ohm, event.insertion_time_s)
+    dip_cases.check_poles(event.pole_delay_s, dip_duration_s)
     target = lim.max_dip_percent
 
     def dips(ratings: list[float]) -> FloatArray:
@@ -264,15 +249,11 @@ def smallest_generator(
             generator,
             circuit,
             ratings,
-            closing_angle_deg,
-            residual_flux_pu,
+            event,
             excitation=excitation,
             bus_load=bus_load,
             duration_s=dip_duration_s,
             voltage_measure=voltage_measure,
-            insertion_resistance_ohm=insertion_resistance_ohm,
-            insertion_time_s=insertion_time_s,
-            pole_delay_s=pole_delay_s,
         )
 
     ends = dips([lo, hi])
@@ -318,15 +299,11 @@ def smallest_generator(
         study = dip.energize_from_source(
             replace(generator, rating_va=rating),
             circuit,
-            closing_angle_deg,
-            residual_flux_pu,
+            event,
             excitation=excitation,
             bus_load=bus_load,
             duration_s=lim.max_recovery_s + 1.0,
             voltage_measure=voltage_measure,
-            insertion_resistance_ohm=insertion_resistance_ohm,
-            insertion_time_s=insertion_time_s,
-            pole_delay_s=pole_delay_s,
         )
         count += 1
         rec = study.recovery_time_s

@@ -79,8 +79,8 @@ def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assump
     report = dip_study.dip_study(
         source,
         circuit,
-        body.switching.closing_angle_deg,
-        event.residual_flux_pu,
+        # all poles together, as this operation has always simulated the dip
+        event.closed_at_once(),
         limits=limits,
         size_for=size_for,
         excitation=excitation,

@@ -16,7 +16,7 @@ from core import cost
 from core.energization import waveform
 from core.energization.switching_event import RESIDUAL_DEFAULT_SOURCE, switching_event
 from core.errors import ParameterError
-from core.network import Breaker, BusLoad, NetworkResult, Source, Unit, simulate_network
+from core.network import Breaker, BusLoad, NetworkResult, Source, Unit, analysis, simulate_network
 from core.protection import coordination, device_operation, differential
 from core.protection.inrush_curves import inrush_from_waveform
 from core.transformer import circuit_model, plausibility
@@ -64,7 +64,7 @@ NETWORK_METHOD = (
     "against the source current as in /v1/clearance"
 )
 LINES = ("A", "B", "C")
-FIRST_PEAK_CYCLES = 2.0
+FIRST_PEAK_CYCLES = analysis.FIRST_PEAK_CYCLES
 SAMPLES_PER_CYCLE = 128
 EMF_CONVENTION = (
     "e_k = sqrt(2)*V_bus/sqrt(3)*sin(omega*t + closing_angle + theta_k), theta = 0, -120, "
@@ -324,17 +324,6 @@ def _load(body: NetworkRequest) -> BusLoad | None:
     )
 
 
-def _refined_peak(a: np.ndarray, j: int) -> float:
-    """|i| at sample j refined by the parabola through it and its neighbours (as
-    :func:`core.energization.waveform.cycle_peaks` reads a peak)."""
-    if 0 < j < a.size - 1:
-        y0, y1, y2 = float(a[j - 1]), float(a[j]), float(a[j + 1])
-        den = y0 - 2.0 * y1 + y2
-        if den < 0.0:
-            return y1 - 0.125 * (y2 - y0) ** 2 / den
-    return float(a[j])
-
-
 def _current(
     time: np.ndarray,
     i: np.ndarray,
@@ -344,77 +333,46 @@ def _current(
     harmonic_cycles: int,
 ) -> CurrentOut:
     """Readings of three line currents i, shape (3, n)."""
-    dt = float(time[1] - time[0])
-    window = int(np.searchsorted(time, first_end_s + 1e-12 * first_end_s, side="right"))
-    seg = np.abs(i[:, :window])
-    line = int(np.argmax(seg.max(axis=1)))
-    first = _refined_peak(np.abs(i[line]), int(np.argmax(seg[line])))
-    cyc = waveform.cycle_peaks(i, spc)
-    n_cyc = cyc.shape[1]
-    body = i[:, : n_cyc * spc].reshape(3, n_cyc, spc)
-    means = body.mean(axis=2)
-    times = [t for t in waveform.STANDARD_TIMES_S if t <= time[-1] * (1 + 1e-12)]
-    worst = int(np.argmax(cyc.max(axis=1)))
-    ieq = waveform.equivalent_rms(i[worst], dt, times) if times else np.zeros(0)
-    h2 = waveform.harmonic_ratio(i, spc, 2)
-    h2_min = np.min(np.where(np.isnan(h2), np.inf, h2), axis=0)
-    h2_min = np.where(np.isfinite(h2_min), h2_min, np.nan)
-    head = h2_min[:harmonic_cycles]
-    head = head[np.isfinite(head)]
+    r = analysis.current_readings(time, i, spc, first_end_s, harmonic_cycles)
+    first = r.first_peak_a
     return CurrentOut(
         first_peak_a=first,
         first_peak_x_rated=first / rated if rated else None,
-        first_peak_line=LINES[line],
-        cycle_peaks_a=convert.floats(cyc.max(axis=0)),
-        cycle_mean_a={LINES[k]: convert.floats(means[k]) for k in range(3)},
-        equivalent_rms_a=convert.floats(ieq),
-        second_harmonic_ratio=[convert.maybe(x) for x in h2_min],
-        min_second_harmonic_ratio=float(head.min()) if head.size else None,
+        first_peak_line=LINES[r.first_peak_line],
+        cycle_peaks_a=convert.floats(r.cycle_peaks_a),
+        cycle_mean_a={LINES[k]: convert.floats(r.cycle_mean_a[k]) for k in range(3)},
+        equivalent_rms_a=convert.floats(r.equivalent_rms_a),
+        second_harmonic_ratio=[convert.maybe(x) for x in r.second_harmonic_ratio],
+        min_second_harmonic_ratio=convert.maybe(r.min_second_harmonic_ratio),
     )
 
 
-def _sympathetic(cyc: np.ndarray, rated: float, f: float, duration: float) -> SympatheticOut:
-    """cyc: per-cycle peaks per line, shape (3, n_cycles)."""
-    per = cyc.max(axis=0)
-    k = int(np.argmax(per))
-    line = int(np.argmax(cyc[:, k]))
-    peak = float(per[k])
-    above = np.nonzero(per >= SYMPATHETIC_FRACTION * peak)[0]
-    start = float(above[0]) / f
-    until = min(float(above[-1] + 1) / f, duration)
-    if above[-1] == per.size - 1:
-        until = duration
+def _sympathetic(
+    line: np.ndarray, spc: int, rated: float, f: float, duration: float
+) -> SympatheticOut:
+    """line: the unit's line currents, shape (3, n)."""
+    s = analysis.sympathetic_current(line, spc, f, duration, SYMPATHETIC_FRACTION)
     return SympatheticOut(
-        peak_a=peak,
-        peak_x_rated=peak / rated,
-        peak_cycle=k,
-        line=LINES[line],
+        peak_a=s.peak_a,
+        peak_x_rated=s.peak_a / rated,
+        peak_cycle=s.peak_cycle,
+        line=LINES[s.line],
         fraction_of_peak=SYMPATHETIC_FRACTION,
-        above_from_s=start,
-        above_until_s=until,
-        duration_above_s=until - start,
-        steady_peak_a=float(per[0]),
+        above_from_s=s.above_from_s,
+        above_until_s=s.above_until_s,
+        duration_above_s=s.duration_above_s,
+        steady_peak_a=s.steady_peak_a,
     )
 
 
 def _bus(res: NetworkResult, v_nom: float, spc: int, f: float) -> BusVoltageOut:
-    v = res.bus_voltage_v[0]
-    n_cyc = (v.shape[1] - 1) // spc
-    rms = np.sqrt(np.mean(v[:, : n_cyc * spc].reshape(3, n_cyc, spc) ** 2, axis=2))
-    pct = 100.0 * rms.min(axis=0) / v_nom
-    k = int(np.argmin(pct))
-    below = np.nonzero(pct < RECOVERY_PERCENT)[0]
-    if below.size == 0:
-        rec: int | None = 0
-    elif below[-1] + 1 < n_cyc:
-        rec = int(below[-1] + 1)
-    else:
-        rec = None
+    d = analysis.bus_dip(res.bus_voltage_v[0], v_nom, spc, RECOVERY_PERCENT)
+    rec = d.recovered_cycle
     return BusVoltageOut(
         nominal_phase_voltage_v=v_nom,
-        cycle_rms_percent=convert.floats(pct),
-        min_percent=float(pct[k]),
-        min_cycle=k,
+        cycle_rms_percent=convert.floats(d.cycle_rms_percent),
+        min_percent=d.min_percent,
+        min_cycle=d.min_cycle,
         recovery_percent=RECOVERY_PERCENT,
         recovered_cycle=rec,
         recovered_s=rec / f if rec is not None else None,
@@ -521,8 +479,8 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
     duration = body.options.duration_s
     spc = SAMPLES_PER_CYCLE
     energized = [k for k, u in enumerate(body.units) if u.state == "energized"]
-    last_pole = float(res.closing_time_s[0, energized].max())
-    first_end = last_pole + FIRST_PEAK_CYCLES / f
+    is_energized = [u.state == "energized" for u in body.units]
+    first_end = float(analysis.first_peak_window_end(res.closing_time_s[0], is_energized, f))
     hc = body.options.harmonic_cycles
     i_rated_sum = float(sum(rated[k] for k in energized))
     out_units = []
@@ -530,7 +488,7 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
         line = res.line_current_a[0, k]
         sym = None
         if u.state == "in_service":
-            sym = _sympathetic(waveform.cycle_peaks(line, spc), rated[k], f, float(res.time_s[-1]))
+            sym = _sympathetic(line, spc, rated[k], f, float(res.time_s[-1]))
         diff, diff_notes = _differential(u, res.time_s, line, f, rated[k])
         assumptions += diff_notes
         out_units.append(
@@ -546,25 +504,18 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
     src_i = res.source_current_a[0]
     src_out = _current(res.time_s, src_i, spc, i_rated_sum, first_end, hc)
     curves = inrush_from_waveform(res.time_s, src_i, f, rated_current_a=i_rated_sum, lines=LINES)
-    rule = []
-    worst = int(np.argmax(np.abs(src_i).max(axis=1)))
-    dt = float(res.time_s[1] - res.time_s[0])
-    for mult, t_pt in device_operation.INRUSH_POINTS:
-        sim = (
-            float(waveform.equivalent_rms(src_i[worst], dt, [t_pt])[0])
-            if t_pt <= res.time_s[-1]
-            else None
+    rule = [
+        RuleOfThumbOut(
+            multiple_x_rated=p.multiple_x_rated,
+            time_s=p.time_s,
+            current_a=p.current_a,
+            simulated_equivalent_rms_a=p.simulated_equivalent_rms_a,
+            simulated_over_rule=p.simulated_over_rule,
         )
-        cur = mult * i_rated_sum
-        rule.append(
-            RuleOfThumbOut(
-                multiple_x_rated=mult,
-                time_s=t_pt,
-                current_a=cur,
-                simulated_equivalent_rms_a=sim,
-                simulated_over_rule=sim / cur if sim is not None else None,
-            )
+        for p in analysis.rule_of_thumb(
+            res.time_s, src_i, i_rated_sum, device_operation.INRUSH_POINTS
         )
+    ]
     devices = []
     if body.devices:
         ev = coordination.evaluate(

@@ -318,7 +318,12 @@ def test_statistics_estimate_with_event_checks_counts_each_part(tally: Tally) ->
 def test_dip_estimate_is_the_solver_steps(tally: Tally, duration_s: float) -> None:
     # exact: whole cycles of the event at the solver's 128 steps per cycle (these circuits do
     # not raise it) and the one-cycle run on an ideal source
-    dip_study.dip_study(NORTHGATE, _circuit("wye_grounded"), 0.0, RESIDUAL, duration_s=duration_s)
+    dip_study.dip_study(
+        NORTHGATE,
+        _circuit("wye_grounded"),
+        switching_event.switching_event(_circuit("wye_grounded"), 0.0, RESIDUAL),
+        duration_s=duration_s,
+    )
     assert tally.dip_steps_per_cycle == {dip_cases.MIN_STEPS_PER_CYCLE}
     assert len(tally.dips) == 2
     work = cost.dip_study_work(F_HZ, duration_s, sizing=False, recovery_limit_s=None)
@@ -332,8 +337,13 @@ def test_dip_sizing_estimate_is_near_the_evaluations_made(tally: Tally) -> None:
     # (each 2 s, plus the recovery check) and overstate them by less than 60 % (measured: 11
     # runs against the 16 and the recovery check counted, 1.45 times the steps)
     g2 = dip_limits.iso_8528_5_class("G2")
-    dip_study.dip_study(NORTHGATE, _circuit("wye_grounded"), 0.0, RESIDUAL, duration_s=0.5,
-                        size_for=g2)  # fmt: skip
+    dip_study.dip_study(
+        NORTHGATE,
+        _circuit("wye_grounded"),
+        switching_event.switching_event(_circuit("wye_grounded"), 0.0, RESIDUAL),
+        duration_s=0.5,
+        size_for=g2,
+    )
     sizing_runs = sum(tally.dips[2:])  # after the event and its ideal-source cycle
     work = cost.dip_study_work(F_HZ, 0.5, sizing=True, recovery_limit_s=g2.max_recovery_s)
     runs = cost.SIZING_EVALUATIONS + 1  # and the recovery check

@@ -1,9 +1,10 @@
 """Imports inside core/ run one way: each domain package uses only the packages below it.
 
 The order (DEVELOPERS.md, Layout): ``core.errors`` and ``core.checks`` at the bottom, then
-``transformer``, ``energization``, ``protection`` beside ``supply`` (neither imports the other),
-``statistics``, ``mitigation``; ``core.cost`` spans every domain and sits on top. A module may
-always import its own package. No module imports a private name (``_foo``) from another module.
+``transformer``, ``energization``, ``protection`` beside ``supply`` and ``network`` (none imports
+another), ``statistics``, ``mitigation``; ``core.cost`` spans every domain and sits on top. A
+module may always import its own package. No module imports a private name (``_foo``) from
+another module.
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ RANK = {
     "checks": 1,
     "transformer": 2,
     "energization": 3,
-    "network": 3,
+    "network": 4,  # above energization: its record readings use core.energization.waveform
     "protection": 4,
     "supply": 4,
     "statistics": 5,

@@ -46,6 +46,7 @@ import pytest
 from numpy.typing import NDArray
 from scipy.integrate import solve_ivp
 
+from core.energization.switching_event import switching_event
 from core.supply import dip, sources
 from core.transformer import circuit_model, magnetizing
 
@@ -262,8 +263,7 @@ def _core(
     return dip.energize_from_source(
         gen,
         circ,
-        0.0,
-        RESIDUAL,
+        switching_event(circ, 0.0, RESIDUAL),
         excitation=_excitation(gen),
         bus_load=sources.BusLoad(LOAD_W, LOAD_VAR),
         duration_s=N_CYCLES * T,
@@ -468,14 +468,13 @@ def test_pre_insertion_resistor_matches_radau(connection: str, r_ins: float, ste
     study = dip.energize_from_source(
         gen,
         circ,
-        0.0,
-        RESIDUAL,
+        switching_event(
+            circ, 0.0, RESIDUAL, insertion_resistance_ohm=r_ins, insertion_time_s=T_BYPASS
+        ),
         excitation=_excitation(gen),
         bus_load=sources.BusLoad(LOAD_W, LOAD_VAR),
         duration_s=N_CYCLES * T,
         steps_per_cycle=steps,
-        insertion_resistance_ohm=r_ins,
-        insertion_time_s=T_BYPASS,
     )
     err_v = float(np.max(np.abs(study.voltage_rms_pu - ref_v)))
     err_i = float(np.max(np.abs(study.cycle_peak_current_a - ref_peaks))) / float(ref_peaks.max())
@@ -521,13 +520,11 @@ def test_staggered_poles_match_radau(connection: str) -> None:
         return dip.energize_from_source(
             gen,
             circ,
-            0.0,
-            RESIDUAL,
+            switching_event(circ, 0.0, RESIDUAL, pole_delay_s=poles),
             excitation=_excitation(gen),
             bus_load=sources.BusLoad(LOAD_W, LOAD_VAR),
             duration_s=N_CYCLES * T,
             steps_per_cycle=steps,
-            pole_delay_s=poles,
         )
 
     study = core(POLES_S)

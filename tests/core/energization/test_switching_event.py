@@ -19,6 +19,7 @@ from core.energization.switching_event import (
     residual_flux_pu_from_wb,
     residual_flux_warnings,
     switching_event,
+    switching_events,
 )
 from core.errors import ParameterError
 from core.supply import dip_cases
@@ -69,6 +70,8 @@ def test_event_broadcasts_per_winding_and_per_pole(
         ({"insertion_resistance_ohm": -1.0}, "insertion_resistance_ohm"),
         ({"voltage_start_pu": 1.5}, "voltage_start_pu"),
         ({"voltage_rise_s": math.nan}, "voltage_rise_s"),
+        ({"insertion_time_s": None}, "insertion_time_s"),
+        ({"pole_delay_s": "soon"}, "pole_delay_s"),
     ],
 )
 def test_event_names_the_bad_input(
@@ -96,8 +99,8 @@ def test_high_residual_flux_has_one_wording_everywhere(
     ideal = circuit_model.equivalent_circuit(
         circuit_model.Nameplate(2.5e6, 3, 60, 480, impedance_percent=5.75, x_over_r=7)
     )
-    _, dip_warnings = dip_cases.check_inputs(
-        UtilitySource(50e6, 10.0, 480.0, 60.0), ideal, 0.0, res, 1.0, 0.5
+    dip_warnings = dip_cases.check_inputs(
+        UtilitySource(50e6, 10.0, 480.0, 60.0), ideal, switching_event(ideal, 0.0, res), 1.0, 0.5
     )
     assert (code, message) in dip_warnings
 
@@ -114,3 +117,71 @@ def test_study_refuses_an_event_it_does_not_model(
         )
     with pytest.raises(ParameterError):
         inrush_study.peak_study(three_phase, switching_event(single_phase), method="analytic")
+
+
+def test_closed_at_once_keeps_the_angle_and_flux_and_drops_the_timing(
+    three_phase: circuit_model.EquivalentCircuit,
+) -> None:
+    # the hand methods close all poles together onto the rated source: only the angle and the
+    # residual flux of the event remain
+    event = switching_event(
+        three_phase,
+        40.0,
+        (0.7, -0.3, -0.4),
+        (0.0, 0.001, 0.002),
+        insertion_resistance_ohm=2.0,
+        insertion_time_s=0.01,
+        voltage_start_pu=0.5,
+        voltage_rise_s=0.1,
+    )
+    together = event.closed_at_once()
+    assert together.plain
+    assert together.closing_angle_deg == 40.0
+    assert together.residual_flux_pu.tolist() == [0.7, -0.3, -0.4]
+    assert together.pole_delay_s.tolist() == [0.0, 0.0, 0.0]
+    assert together.warnings == event.warnings
+    assert event.pole_delay_s.tolist() == [0.0, 0.001, 0.002]  # the event itself is unchanged
+
+
+def test_events_equal_the_event_built_one_by_one(
+    three_phase: circuit_model.EquivalentCircuit,
+) -> None:
+    # vector equals scalar: event k of the batch is the event switching_event builds from the
+    # k-th values, warnings included
+    angles = np.array([0.0, 90.0, 271.5])
+    res = np.array([[0.8, -0.4, -0.4], [0.95, 0.0, -0.95], [0.1, 0.2, -0.3]])
+    delays = np.array([[0.0, 0.001, 0.002], [0.0, 0.0, 0.0], [0.003, 0.0, 0.001]])
+    batch = switching_events(three_phase, angles, res, delays)
+    assert len(batch) == 3
+    for k, got in enumerate(batch):
+        one = switching_event(three_phase, float(angles[k]), res[k], delays[k])
+        assert got.closing_angle_deg == one.closing_angle_deg
+        assert np.array_equal(got.residual_flux_pu, one.residual_flux_pu)
+        assert np.array_equal(got.pole_delay_s, one.pole_delay_s)
+        assert got.warnings == one.warnings
+        assert got.plain
+    assert batch[1].warnings[0][0] == "residual_flux_high"
+    # a scalar broadcasts to every event and winding
+    assert switching_events(three_phase, [0.0, 1.0], 0.5)[1].residual_flux_pu.tolist() == [0.5] * 3
+
+
+@pytest.mark.parametrize(
+    ("angles", "res", "delays", "parameter"),
+    [
+        ([0.0, math.nan], 0.0, 0.0, "closing_angle_deg"),
+        ([0.0, 1.0], [[0.1, 0.2]], 0.0, "residual_flux_pu"),
+        ([0.0, 1.0], [[0.1, 0.2, math.inf]], 0.0, "residual_flux_pu"),
+        ([0.0, 1.0], 0.0, [0.0, 0.0, 0.0, 0.0], "pole_delay_s"),
+        ([0.0, 1.0], 0.0, "soon", "pole_delay_s"),
+    ],
+)
+def test_events_name_the_bad_input(
+    three_phase: circuit_model.EquivalentCircuit,
+    angles: object,
+    res: object,
+    delays: object,
+    parameter: str,
+) -> None:
+    with pytest.raises(ParameterError) as err:
+        switching_events(three_phase, angles, res, delays)  # type: ignore[arg-type]
+    assert err.value.parameter == parameter

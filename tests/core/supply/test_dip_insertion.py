@@ -23,6 +23,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
+from core.energization.switching_event import switching_event
 from core.errors import ParameterError
 from core.supply import dip, dip_limits, dip_study, generator_sizing, sources
 from core.transformer import circuit_model, magnetizing
@@ -91,14 +92,15 @@ def test_resistor_off_is_bit_identical(
     # rounds to none) must leave every output unchanged bit for bit; only the warning that
     # says the resistor was rounded out may be added.
     kw: dict[str, Any] = {"bus_load": LOAD, "duration_s": 0.2, "waveform_points": 200}
-    plain = dip.energize_from_source(_northgate(), _unit(connection), 20.0, RESIDUAL, **kw)
+    plain = dip.energize_from_source(
+        _northgate(), _unit(connection), switching_event(_unit(connection), 20.0, RESIDUAL), **kw
+    )
     off = dip.energize_from_source(
         _northgate(),
         _unit(connection),
-        20.0,
-        RESIDUAL,
-        insertion_resistance_ohm=r_ohm,
-        insertion_time_s=t_s,
+        switching_event(
+            _unit(connection), 20.0, RESIDUAL, insertion_resistance_ohm=r_ohm, insertion_time_s=t_s
+        ),
         **kw,
     )
     rounded_out = r_ohm > 0.0 and t_s > 0.0
@@ -118,16 +120,24 @@ def test_sweep_sizing_and_study_off_are_bit_identical(
     # Reference: the same calls without the keywords.
     gen, circ = _northgate(), _unit()
     ratings = [1e6, 3e6]
-    plain = generator_sizing.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2)
+    plain = generator_sizing.dip_sweep(
+        gen, circ, ratings, switching_event(circ, 0.0, RESIDUAL), duration_s=0.2
+    )
     off = generator_sizing.dip_sweep(
-        gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2, insertion_resistance_ohm=0.0,
-        insertion_time_s=0.1,
-    )  # fmt: skip
+        gen,
+        circ,
+        ratings,
+        switching_event(circ, 0.0, RESIDUAL, insertion_resistance_ohm=0.0, insertion_time_s=0.1),
+        duration_s=0.2,
+    )
     assert np.array_equal(plain, off)
     kw: dict[str, Any] = {"size_for": dip_limits.iso_8528_5_class("G2"), "duration_s": 0.5}
-    report = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, **kw)
+    report = dip_study.dip_study(gen, circ, switching_event(circ, 0.0, RESIDUAL), **kw)
     report_off = dip_study.dip_study(
-        gen, circ, 0.0, RESIDUAL, insertion_resistance_ohm=5.0, insertion_time_s=0.0, **kw
+        gen,
+        circ,
+        switching_event(circ, 0.0, RESIDUAL, insertion_resistance_ohm=5.0, insertion_time_s=0.0),
+        **kw,
     )
     assert_identical(report, report_off)
 
@@ -164,11 +174,14 @@ def test_linear_wye_branch_is_the_complex_divider_and_joule_energy() -> None:
     study = dip.energize_from_source(
         src,
         _linear("wye_grounded", x, r_w),
-        alpha,
-        0.0,
+        switching_event(
+            _linear("wye_grounded", x, r_w),
+            alpha,
+            0.0,
+            insertion_resistance_ohm=r,
+            insertion_time_s=1.0,
+        ),
         duration_s=3 * T,
-        insertion_resistance_ohm=r,
-        insertion_time_s=1.0,
     )
     z_b = complex(r + r_w, x)
     np.testing.assert_allclose(study.voltage_rms_pu, abs(z_b / (z_b + z_s)), rtol=0, atol=1e-6)
@@ -202,11 +215,10 @@ def test_linear_delta_loop_sees_the_line_resistor_twice() -> None:
     study = dip.energize_from_source(
         src,
         _linear("delta", x_w, r_w),
-        alpha,
-        0.0,
+        switching_event(
+            _linear("delta", x_w, r_w), alpha, 0.0, insertion_resistance_ohm=r, insertion_time_s=1.0
+        ),
         duration_s=3 * T,
-        insertion_resistance_ohm=r,
-        insertion_time_s=1.0,
     )
     e_k = [cmath.rect(V_PH, math.radians(alpha) - 2 * math.pi * k / 3) for k in range(3)]
     c_j = [(e_k[j] - e_k[(j + 1) % 3]) / (2 * z_s + 2 * r + complex(r_w, x_w)) for j in range(3)]
@@ -233,17 +245,32 @@ def test_bypass_falls_on_the_step_grid(assert_identical: Callable[[Any, Any], No
     # step (128 per cycle here) gives the same result bit for bit (reference: the time on the
     # grid itself); the next step differs.
     h = T / 128
-    kw: dict[str, Any] = {"duration_s": 0.1, "insertion_resistance_ohm": 0.05}
+    kw: dict[str, Any] = {"duration_s": 0.1}
     on_grid = dip.energize_from_source(
-        _northgate(), _unit(), 0.0, RESIDUAL, insertion_time_s=40 * h, **kw
+        _northgate(),
+        _unit(),
+        switching_event(
+            _unit(), 0.0, RESIDUAL, insertion_time_s=40 * h, insertion_resistance_ohm=0.05
+        ),
+        **kw,
     )
     for t_s in (39.6 * h, 40.4 * h):
         near = dip.energize_from_source(
-            _northgate(), _unit(), 0.0, RESIDUAL, insertion_time_s=t_s, **kw
+            _northgate(),
+            _unit(),
+            switching_event(
+                _unit(), 0.0, RESIDUAL, insertion_time_s=t_s, insertion_resistance_ohm=0.05
+            ),
+            **kw,
         )
         assert_identical(on_grid, near)
     later = dip.energize_from_source(
-        _northgate(), _unit(), 0.0, RESIDUAL, insertion_time_s=41 * h, **kw
+        _northgate(),
+        _unit(),
+        switching_event(
+            _unit(), 0.0, RESIDUAL, insertion_time_s=41 * h, insertion_resistance_ohm=0.05
+        ),
+        **kw,
     )
     assert later.insertion_energy_j > on_grid.insertion_energy_j
 
@@ -265,12 +292,11 @@ def test_more_resistance_smaller_dip_and_lower_peak(
         dip.energize_from_source(
             _northgate(),
             _unit(connection),
-            0.0,
-            RESIDUAL,
+            switching_event(
+                _unit(connection), 0.0, RESIDUAL, insertion_resistance_ohm=r, insertion_time_s=1.0
+            ),
             bus_load=bus_load,
             duration_s=0.3,
-            insertion_resistance_ohm=r,
-            insertion_time_s=1.0,
         )
         for r in [*resistances, 2.0, 5.0, 20.0]
     ]
@@ -293,20 +319,22 @@ def test_huge_resistance_leaves_the_bus_load_alone() -> None:
     # current would settle to with no regulator (measured 0.11 % against a bound of 1.6 %).
     gen = _northgate()
     alone = dip.energize_from_source(
-        gen, _linear("wye_grounded", 3.0 * V_PH**2 / 0.1, 0.0), 0.0, 0.0, bus_load=LOAD,
+        gen,
+        _linear("wye_grounded", 3.0 * V_PH**2 / 0.1, 0.0),
+        switching_event(_linear("wye_grounded", 3.0 * V_PH**2 / 0.1, 0.0), 0.0, 0.0),
+        bus_load=LOAD,
         duration_s=0.3,
-    )  # fmt: skip
+    )
     diffs = []
     for r in (2.0, 5.0, 20.0):
         study = dip.energize_from_source(
             gen,
             _unit(),
-            0.0,
-            RESIDUAL,
+            switching_event(
+                _unit(), 0.0, RESIDUAL, insertion_resistance_ohm=r, insertion_time_s=1.0
+            ),
             bus_load=LOAD,
             duration_s=0.3,
-            insertion_resistance_ohm=r,
-            insertion_time_s=1.0,
         )
         diffs.append(abs(study.dip_percent - alone.dip_percent))
     assert diffs[0] > diffs[1] > diffs[2], diffs
@@ -326,10 +354,15 @@ def test_energy_grows_with_insertion_time_and_is_bounded_by_the_open_circuit() -
     # over one cycle, 3 lines x (V_ph^2/R) x T is the energy of the resistor alone across
     # the phase voltage; the residual flux's stored energy, at most lambda*i of its initial
     # point per winding, adds to it (bound 802 J; measured 206 J at 5 ohm).
-    kw: dict[str, Any] = {"duration_s": 0.2, "insertion_resistance_ohm": 5.0}
+    kw: dict[str, Any] = {"duration_s": 0.2}
     energies = [
         dip.energize_from_source(
-            _northgate(), _unit(), 0.0, RESIDUAL, insertion_time_s=n * T, **kw
+            _northgate(),
+            _unit(),
+            switching_event(
+                _unit(), 0.0, RESIDUAL, insertion_time_s=n * T, insertion_resistance_ohm=5.0
+            ),
+            **kw,
         ).insertion_energy_j
         for n in (1, 2, 5)
     ]
@@ -344,9 +377,15 @@ def test_sweep_equals_single_study_with_the_resistor() -> None:
     # vector equals scalar: each case gets its own sub-steps, so a sweep reproduces the single
     # study at the same step count exactly
     kw: dict[str, Any] = {"insertion_resistance_ohm": 0.5, "insertion_time_s": 2.0 * T}
-    single = dip.energize_from_source(_northgate(), _unit(), 0.0, RESIDUAL, duration_s=0.2, **kw)
+    single = dip.energize_from_source(
+        _northgate(), _unit(), switching_event(_unit(), 0.0, RESIDUAL, **kw), duration_s=0.2
+    )
     swept = generator_sizing.dip_sweep(
-        _northgate(), _unit(), [S_GEN, 4.0 * S_GEN], 0.0, RESIDUAL, duration_s=0.2, **kw
+        _northgate(),
+        _unit(),
+        [S_GEN, 4.0 * S_GEN],
+        switching_event(_unit(), 0.0, RESIDUAL, **kw),
+        duration_s=0.2,
     )
     assert swept[0] == single.dip_percent
 
@@ -359,19 +398,19 @@ def test_study_and_sizing_use_the_resistor(assert_identical: Callable[[Any, Any]
     g2 = dip_limits.iso_8528_5_class("G2")
     kw: dict[str, Any] = {"size_for": g2, "duration_s": 0.5}
     with_r = dip_study.dip_study(
-        gen, circ, 0.0, RESIDUAL, insertion_resistance_ohm=0.1, insertion_time_s=5 * T, **kw
+        gen,
+        circ,
+        switching_event(circ, 0.0, RESIDUAL, insertion_resistance_ohm=0.1, insertion_time_s=5 * T),
+        **kw,
     )
     direct = dip.energize_from_source(
         gen,
         circ,
-        0.0,
-        RESIDUAL,
+        switching_event(circ, 0.0, RESIDUAL, insertion_resistance_ohm=0.1, insertion_time_s=5 * T),
         duration_s=0.5,
-        insertion_resistance_ohm=0.1,
-        insertion_time_s=5 * T,
     )
     assert_identical(with_r.study, direct)
-    plain = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, **kw)
+    plain = dip_study.dip_study(gen, circ, switching_event(circ, 0.0, RESIDUAL), **kw)
     assert with_r.study.dip_percent < plain.study.dip_percent
     assert with_r.sizing is not None
     assert plain.sizing is not None
@@ -403,13 +442,24 @@ def test_study_and_sizing_use_the_resistor(assert_identical: Callable[[Any, Any]
 def test_invalid_insertion_names_the_parameter(kwargs: dict[str, Any], parameter: str) -> None:
     for call in (
         lambda: dip.energize_from_source(
-            _northgate(), _unit("delta"), 0.0, RESIDUAL, duration_s=0.1, **kwargs
+            _northgate(),
+            _unit("delta"),
+            switching_event(_unit("delta"), 0.0, RESIDUAL, **kwargs),
+            duration_s=0.1,
         ),
         lambda: generator_sizing.dip_sweep(
-            _northgate(), _unit(), [S_GEN], duration_s=0.1, **kwargs
+            _northgate(),
+            _unit(),
+            [S_GEN],
+            switching_event(_unit(), 0.0, 0.0, **kwargs),
+            duration_s=0.1,
         ),
-        lambda: generator_sizing.smallest_generator(_northgate(), _unit(), "G2", **kwargs),
-        lambda: dip_study.dip_study(_northgate(), _unit(), 0.0, 0.0, duration_s=0.1, **kwargs),
+        lambda: generator_sizing.smallest_generator(
+            _northgate(), _unit(), switching_event(_unit(), 0.0, 0.0, **kwargs), "G2"
+        ),
+        lambda: dip_study.dip_study(
+            _northgate(), _unit(), switching_event(_unit(), 0.0, 0.0, **kwargs), duration_s=0.1
+        ),
     ):
         with pytest.raises(ParameterError) as err:
             call()
@@ -430,13 +480,21 @@ def test_too_large_resistor_names_the_largest_allowed() -> None:
     )
     assert limit == pytest.approx(23.15, abs=0.01)
     dip.energize_from_source(
-        gen, circ, 0.0, RESIDUAL, duration_s=2 * T, insertion_resistance_ohm=0.999 * limit,
-        insertion_time_s=T,
-    )  # fmt: skip
+        gen,
+        circ,
+        switching_event(
+            circ, 0.0, RESIDUAL, insertion_resistance_ohm=0.999 * limit, insertion_time_s=T
+        ),
+        duration_s=2 * T,
+    )
     with pytest.raises(ParameterError) as err:
         dip.energize_from_source(
-            gen, circ, 0.0, RESIDUAL, duration_s=2 * T, insertion_resistance_ohm=1.001 * limit,
-            insertion_time_s=T,
-        )  # fmt: skip
+            gen,
+            circ,
+            switching_event(
+                circ, 0.0, RESIDUAL, insertion_resistance_ohm=1.001 * limit, insertion_time_s=T
+            ),
+            duration_s=2 * T,
+        )
     assert err.value.parameter == "insertion_resistance_ohm"
     assert f"{limit:.4g}" in err.value.allowed

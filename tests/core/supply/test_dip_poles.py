@@ -25,6 +25,7 @@ from typing import Any
 import numpy as np
 import pytest
 
+from core.energization.switching_event import switching_event
 from core.errors import ParameterError
 from core.supply import dip, dip_limits, dip_study, generator_sizing, sources
 from core.transformer import circuit_model
@@ -74,12 +75,19 @@ def test_poles_at_zero_are_bit_identical(
         "bus_load": LOAD,
         "duration_s": 0.2,
         "waveform_points": 200,
-        "insertion_resistance_ohm": 0.3,
-        "insertion_time_s": 0.01,
     }
-    plain = dip.energize_from_source(_northgate(), _unit(connection), 20.0, RESIDUAL, **kw)
+    ins: dict[str, Any] = {"insertion_resistance_ohm": 0.3, "insertion_time_s": 0.01}
+    plain = dip.energize_from_source(
+        _northgate(),
+        _unit(connection),
+        switching_event(_unit(connection), 20.0, RESIDUAL, **ins),
+        **kw,
+    )
     zeros = dip.energize_from_source(
-        _northgate(), _unit(connection), 20.0, RESIDUAL, pole_delay_s=zero, **kw
+        _northgate(),
+        _unit(connection),
+        switching_event(_unit(connection), 20.0, RESIDUAL, pole_delay_s=zero, **ins),
+        **kw,
     )
     assert_identical(plain, zeros)
     assert any("all poles close together at t = 0" in a for a in plain.approximations)
@@ -92,14 +100,18 @@ def test_sweep_sizing_and_study_with_poles_at_zero_are_bit_identical(
     # Reference: the same calls without the keyword.
     gen, circ = _northgate(), _unit("delta")
     ratings = [1e6, 3e6]
-    plain = generator_sizing.dip_sweep(gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2)
+    plain = generator_sizing.dip_sweep(
+        gen, circ, ratings, switching_event(circ, 0.0, RESIDUAL), duration_s=0.2
+    )
     zeros = generator_sizing.dip_sweep(
-        gen, circ, ratings, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=0.0
+        gen, circ, ratings, switching_event(circ, 0.0, RESIDUAL, pole_delay_s=0.0), duration_s=0.2
     )
     assert np.array_equal(plain, zeros)
     kw: dict[str, Any] = {"size_for": dip_limits.iso_8528_5_class("G2"), "duration_s": 0.5}
-    a = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, **kw)
-    b = dip_study.dip_study(gen, circ, 0.0, RESIDUAL, pole_delay_s=(0, 0, 0), **kw)
+    a = dip_study.dip_study(gen, circ, switching_event(circ, 0.0, RESIDUAL), **kw)
+    b = dip_study.dip_study(
+        gen, circ, switching_event(circ, 0.0, RESIDUAL, pole_delay_s=(0, 0, 0)), **kw
+    )
     assert_identical(a, b)
 
 
@@ -109,9 +121,14 @@ def test_delays_under_half_a_step_round_to_together(
     # Reference: the study without the keyword. Instants under half a step (0.065 ms) round to
     # the first step: every number is unchanged; only the approximations say so.
     kw: dict[str, Any] = {"bus_load": LOAD, "duration_s": 0.2}
-    plain = dip.energize_from_source(_northgate(), _unit(), 0.0, RESIDUAL, **kw)
+    plain = dip.energize_from_source(
+        _northgate(), _unit(), switching_event(_unit(), 0.0, RESIDUAL), **kw
+    )
     tiny = dip.energize_from_source(
-        _northgate(), _unit(), 0.0, RESIDUAL, pole_delay_s=(0.0, 0.2 * H, 0.49 * H), **kw
+        _northgate(),
+        _unit(),
+        switching_event(_unit(), 0.0, RESIDUAL, pole_delay_s=(0.0, 0.2 * H, 0.49 * H)),
+        **kw,
     )
     assert not any("all poles close together" in a for a in tiny.approximations)
     assert any("poles close at a 0 ms, b 0 ms, c 0 ms" in a for a in tiny.approximations)
@@ -125,10 +142,8 @@ def _study(connection: str, alpha: float, delay: float, load: bool, **kw: Any) -
     return dip.energize_from_source(
         _northgate(),
         _unit(connection),
-        alpha,
-        RESIDUAL,
+        switching_event(_unit(connection), alpha, RESIDUAL, pole_delay_s=delay),
         bus_load=LOAD if load else None,
-        pole_delay_s=delay,
         **kw,
     )
 
@@ -203,11 +218,15 @@ def test_grounded_wye_phases_on_a_utility_source_close_independently() -> None:
     delays = np.array([0.0, 107.0, 21.0]) * H
     n = 6
     kw: dict[str, Any] = {"duration_s": n * T, "waveform_points": n * SPC + 1}
-    staggered = dip.energize_from_source(util, circ, 0.0, RESIDUAL, pole_delay_s=delays, **kw)
+    staggered = dip.energize_from_source(
+        util, circ, switching_event(circ, 0.0, RESIDUAL, pole_delay_s=delays), **kw
+    )
     assert np.array_equal(staggered.pole_delay_s, delays)
     for k in (1, 2):
         s = round(delays[k] / H)
-        alone = dip.energize_from_source(util, circ, 360.0 * F_HZ * delays[k], RESIDUAL, **kw)
+        alone = dip.energize_from_source(
+            util, circ, switching_event(circ, 360.0 * F_HZ * delays[k], RESIDUAL), **kw
+        )
         assert np.all(staggered.waveform_current_a[k, :s] == 0.0)
         got = staggered.waveform_current_a[k, s:]
         want = alone.waveform_current_a[k, : got.size]
@@ -224,12 +243,10 @@ def test_delta_winding_waits_for_the_later_of_its_poles() -> None:
     study = dip.energize_from_source(
         _northgate(),
         _unit("delta"),
-        0.0,
-        RESIDUAL,
+        switching_event(_unit("delta"), 0.0, RESIDUAL, pole_delay_s=(0.0, 0.0, t_c)),
         bus_load=LOAD,
         duration_s=6 * T,
         waveform_points=6 * SPC + 1,
-        pole_delay_s=(0.0, 0.0, t_c),
     )
     s = round(t_c / H)
     i = study.waveform_current_a
@@ -249,16 +266,22 @@ def test_pre_insertion_resistor_bypassed_before_the_poles_close_does_nothing() -
     # through it, it absorbs exactly nothing and the result is unchanged; only the bus-load
     # loop is integrated in sub-steps while it is in, which changes its fixed-step error
     # (measured 3.0e-9 pu, 4.3e-10 of the first peak; tolerance 1e-7).
-    kw: dict[str, Any] = {"duration_s": 12 * T, "pole_delay_s": 2 * T}
+    kw: dict[str, Any] = {
+        "duration_s": 12 * T,
+    }
     without = _study("wye_grounded", 0.0, 2 * T, True, duration_s=12 * T)
     bypassed = dip.energize_from_source(
         _northgate(),
         _unit(),
-        0.0,
-        RESIDUAL,
+        switching_event(
+            _unit(),
+            0.0,
+            RESIDUAL,
+            insertion_resistance_ohm=5.0,
+            insertion_time_s=T,
+            pole_delay_s=2 * T,
+        ),
         bus_load=LOAD,
-        insertion_resistance_ohm=5.0,
-        insertion_time_s=T,
         **kw,
     )
     assert bypassed.insertion_energy_j == 0.0
@@ -278,20 +301,28 @@ def test_staggered_poles_are_reported_and_used_everywhere(
     # used and no longer say the poles close together.
     gen, circ = _northgate(), _unit("delta")
     poles = (0.0, 2.1e-3, 4.7e-3)
-    single = dip.energize_from_source(gen, circ, 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles)
+    single = dip.energize_from_source(
+        gen, circ, switching_event(circ, 0.0, RESIDUAL, pole_delay_s=poles), duration_s=0.3
+    )
     swept = generator_sizing.dip_sweep(
-        gen, circ, [S_GEN], 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles
+        gen, circ, [S_GEN], switching_event(circ, 0.0, RESIDUAL, pole_delay_s=poles), duration_s=0.3
     )
     assert swept[0] == pytest.approx(single.dip_percent, rel=1e-12)
     report = dip_study.dip_study(
-        gen, circ, 0.0, RESIDUAL, duration_s=0.3, pole_delay_s=poles,
+        gen,
+        circ,
+        switching_event(circ, 0.0, RESIDUAL, pole_delay_s=poles),
+        duration_s=0.3,
         size_for=dip_limits.iso_8528_5_class("G2"),
-    )  # fmt: skip
+    )
     assert_identical(report.study, single)
     assert report.sizing is not None
     assert report.sizing.rating_va is not None
     sized = generator_sizing.dip_sweep(
-        gen, circ, [report.sizing.rating_va], 0.0, RESIDUAL, pole_delay_s=poles
+        gen,
+        circ,
+        [report.sizing.rating_va],
+        switching_event(circ, 0.0, RESIDUAL, pole_delay_s=poles),
     )  # the sizing's own 2 s dip simulation
     assert report.sizing.dip_percent == pytest.approx(float(sized[0]), rel=1e-12)
     texts = " ".join(single.approximations)
@@ -313,15 +344,25 @@ def test_invalid_pole_delays_name_the_parameter(bad: Any) -> None:
     gen, circ = _northgate(), _unit()
     calls: list[Callable[[], object]] = [
         lambda: dip.energize_from_source(
-            gen, circ, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=bad
+            gen, circ, switching_event(circ, 0.0, RESIDUAL, pole_delay_s=bad), duration_s=0.2
         ),
         lambda: generator_sizing.dip_sweep(
-            gen, circ, [S_GEN], 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=bad
+            gen,
+            circ,
+            [S_GEN],
+            switching_event(circ, 0.0, RESIDUAL, pole_delay_s=bad),
+            duration_s=0.2,
         ),
         lambda: generator_sizing.smallest_generator(
-            gen, circ, "G2", 0.0, RESIDUAL, dip_duration_s=0.2, pole_delay_s=bad
+            gen,
+            circ,
+            switching_event(circ, 0.0, RESIDUAL, pole_delay_s=bad),
+            "G2",
+            dip_duration_s=0.2,
         ),
-        lambda: dip_study.dip_study(gen, circ, 0.0, RESIDUAL, duration_s=0.2, pole_delay_s=bad),
+        lambda: dip_study.dip_study(
+            gen, circ, switching_event(circ, 0.0, RESIDUAL, pole_delay_s=bad), duration_s=0.2
+        ),
     ]
     for call in calls:
         with pytest.raises(ParameterError) as err:
@@ -338,7 +379,10 @@ def test_pole_closing_after_the_whole_cycles_simulated_is_refused() -> None:
     for duration, delay in ((0.11, 0.105), (0.1, 0.1 - 0.4 * H)):
         with pytest.raises(ParameterError) as err:
             dip.energize_from_source(
-                gen, circ, 0.0, RESIDUAL, duration_s=duration, pole_delay_s=(0.0, 0.0, delay)
+                gen,
+                circ,
+                switching_event(circ, 0.0, RESIDUAL, pole_delay_s=(0.0, 0.0, delay)),
+                duration_s=duration,
             )
         assert err.value.parameter == "pole_delay_s"
         assert "0.1 s" in err.value.allowed

@@ -20,6 +20,7 @@ import pytest
 import scipy.optimize
 import scipy.signal
 
+from core.energization.switching_event import switching_event
 from core.errors import ParameterError
 from core.supply import dip, dip_limits, sources
 from core.transformer import circuit_model
@@ -157,7 +158,7 @@ def test_swings_log_decrement_of_a_damped_sinusoid() -> None:
 
 def test_reported_case_recovers_with_the_default() -> None:
     # the reported case: the default now recovers, without swinging, within the G3 4 s
-    study = dip.energize_from_source(_reported(), _unit(), 0.0, RESIDUAL)
+    study = dip.energize_from_source(_reported(), _unit(), switching_event(_unit(), 0.0, RESIDUAL))
     v = np.concatenate((study.voltage_rms_pu, study.voltage_line_rms_pu))
     assert study.recovery_reliable
     assert 0.0 < study.recovery_time_s < 4.0
@@ -172,7 +173,9 @@ def test_reported_case_with_the_old_gain_is_flagged() -> None:
     # the earlier default given as the caller's regulator: a 1.2 Hz swing, flagged
     g = _reported()
     old = sources.Excitation(50.0, 0.5, sources.unknown_excitation(g).ceiling_pu, 0.0, 0.02)
-    study = dip.energize_from_source(g, _unit(), 0.0, RESIDUAL, excitation=old)
+    study = dip.energize_from_source(
+        g, _unit(), switching_event(_unit(), 0.0, RESIDUAL), excitation=old
+    )
     assert not study.recovery_reliable
     assert study.regulator_damping_ratio < 0.01
     assert study.swings.frequency_hz == pytest.approx(1.2, abs=0.1)
@@ -196,7 +199,9 @@ def test_fast_high_gain_regulator_limit_cycle_is_flagged() -> None:
     # K_A = 200, T_A = 0.05 s, no transducer lag: linearly unstable; the floor and ceiling hold
     # it in a limit cycle inside the 3 % band, so "recovered" would be read from an oscillation
     exc = sources.Excitation(200.0, 0.05, 5.0, 0.0, 0.0)
-    study = dip.energize_from_source(_reported(), _unit(), 0.0, RESIDUAL, excitation=exc)
+    study = dip.energize_from_source(
+        _reported(), _unit(), switching_event(_unit(), 0.0, RESIDUAL), excitation=exc
+    )
     assert not study.recovery_reliable
     assert study.swings.count > 10
 
@@ -215,7 +220,9 @@ def test_default_recovers_without_sustained_swing(
 ) -> None:
     # simulated: into the 3 % band, and any swing after the dip decays (no sustained swing)
     g = sources.Generator(rating, V_LL, F_HZ, *x, t[0], t_d1_s=t[1])
-    study = dip.energize_from_source(g, _unit(), 0.0, RESIDUAL, duration_s=6.0)
+    study = dip.energize_from_source(
+        g, _unit(), switching_event(_unit(), 0.0, RESIDUAL), duration_s=6.0
+    )
     assert study.recovery_reliable
     assert math.isfinite(study.recovery_time_s)
     assert study.recovery_time_s < 4.0

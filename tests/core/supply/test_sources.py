@@ -19,6 +19,7 @@ import math
 import numpy as np
 import pytest
 
+from core.energization.switching_event import switching_event
 from core.errors import ParameterError
 from core.supply import dip, dip_limits, generator_sizing, sources
 from core.transformer import circuit_model, magnetizing
@@ -90,7 +91,11 @@ def test_constant_reactive_load_reproduces_the_voltage_divider(load_pu: float) -
     # at most 6.7e-6 pu).
     gen = dataclasses.replace(_northgate(), t_d2_s=100.0, t_d1_s=1000.0, armature_resistance_pu=0)
     study = dip.energize_from_source(
-        gen, _linear_load(load_pu * S_GEN), 0.0, 0.0, excitation="constant_field", duration_s=0.05
+        gen,
+        _linear_load(load_pu * S_GEN),
+        switching_event(_linear_load(load_pu * S_GEN), 0.0, 0.0),
+        excitation="constant_field",
+        duration_s=0.05,
     )
     expected = 1.0 - float(sources.first_dip_voltage_divider(0.15, S_GEN, load_pu * S_GEN)) / 100
     np.testing.assert_allclose(study.voltage_rms_pu[:, 0], expected, atol=5e-5)
@@ -102,7 +107,12 @@ def test_utility_source_dip_is_the_complex_divider() -> None:
     # same X/R, so the load's DC offset again produces no terminal voltage and the voltage is
     # E*|Z_L|/|Z_L + Z_S| from t = 0: exact up to the integrator (1e-6 pu; measured 3e-16).
     src = sources.UtilitySource(10e6, 5.0, V_LL, F_HZ)
-    study = dip.energize_from_source(src, _linear_load(S_GEN, 0.2), 30.0, 0.0, duration_s=0.05)
+    study = dip.energize_from_source(
+        src,
+        _linear_load(S_GEN, 0.2),
+        switching_event(_linear_load(S_GEN, 0.2), 30.0, 0.0),
+        duration_s=0.05,
+    )
     z_s = V_LL**2 / 10e6 * complex(1.0, 5.0) / math.sqrt(26.0)
     z_l = V_LL**2 / S_GEN * complex(0.2, 1.0)
     expected = abs(z_l / (z_l + z_s))
@@ -119,7 +129,11 @@ def _regulated(gain: float, ceiling: float, t_d1_s: float) -> dip.DipStudy:
     gen = dataclasses.replace(_northgate(), t_d2_s=0.005, t_d1_s=t_d1_s, armature_resistance_pu=0.0)
     exc = sources.Excitation(gain, 0.005, ceiling, 0.0, 0.0)
     return dip.energize_from_source(
-        gen, _linear_load(S_GEN), 0.0, 0.0, excitation=exc, duration_s=3.0
+        gen,
+        _linear_load(S_GEN),
+        switching_event(_linear_load(S_GEN), 0.0, 0.0),
+        excitation=exc,
+        duration_s=3.0,
     )
 
 
@@ -173,8 +187,7 @@ def test_bus_load_pre_event_state_is_steady() -> None:
     study = dip.energize_from_source(
         _northgate(),
         _linear_load(0.1),
-        17.0,
-        0.0,
+        switching_event(_linear_load(0.1), 17.0, 0.0),
         bus_load=sources.BusLoad(500e3, 300e3),
         pre_event_voltage_pu=0.98,
         duration_s=0.5,
@@ -189,14 +202,19 @@ def test_bus_load_pre_event_state_is_steady() -> None:
 
 def test_larger_generator_gives_smaller_dip() -> None:
     ratings = S_GEN * np.array([0.5, 1.0, 2.0, 4.0, 8.0])
-    dips = generator_sizing.dip_sweep(_northgate(), _unit(), ratings, 0.0, RESIDUAL, duration_s=0.5)
+    dips = generator_sizing.dip_sweep(
+        _northgate(), _unit(), ratings, switching_event(_unit(), 0.0, RESIDUAL), duration_s=0.5
+    )
     assert np.all(np.diff(dips) < 0.0), dips
 
 
 def test_higher_residual_flux_gives_deeper_dip() -> None:
     dips = [
         dip.energize_from_source(
-            _northgate(), _unit(), 0.0, (r, -r / 2, -r / 2), duration_s=0.5
+            _northgate(),
+            _unit(),
+            switching_event(_unit(), 0.0, (r, -r / 2, -r / 2)),
+            duration_s=0.5,
         ).dip_percent
         for r in (0.0, 0.4, 0.8)
     ]
@@ -205,9 +223,15 @@ def test_higher_residual_flux_gives_deeper_dip() -> None:
 
 def test_sweep_equals_single_study() -> None:
     # vector equals scalar: the vectorised sweep reproduces the single-case study exactly
-    single = dip.energize_from_source(_northgate(), _unit(), 0.0, RESIDUAL, duration_s=0.5)
+    single = dip.energize_from_source(
+        _northgate(), _unit(), switching_event(_unit(), 0.0, RESIDUAL), duration_s=0.5
+    )
     swept = generator_sizing.dip_sweep(
-        _northgate(), _unit(), [S_GEN, 2 * S_GEN], 0.0, RESIDUAL, duration_s=0.5
+        _northgate(),
+        _unit(),
+        [S_GEN, 2 * S_GEN],
+        switching_event(_unit(), 0.0, RESIDUAL),
+        duration_s=0.5,
     )
     assert swept[0] == pytest.approx(single.dip_percent, rel=1e-12)
 
@@ -228,7 +252,7 @@ def test_delta_independent_loops_are_conservative() -> None:
         curve=magnetizing.two_slope(x / OMEGA, 100 * lam_n, 0.5 * x / OMEGA),
     )
     study = dip.energize_from_source(
-        gen, circ, 0.0, 0.0, excitation="constant_field", duration_s=0.05
+        gen, circ, switching_event(circ, 0.0, 0.0), excitation="constant_field", duration_s=0.05
     )
     exact = float(sources.first_dip_voltage_divider(0.15, S_GEN, S_GEN))
     assert exact < study.dip_percent < exact + 1.0
@@ -282,7 +306,9 @@ def test_circuit_with_its_own_source_is_refused() -> None:
     )
     circ = circuit_model.equivalent_circuit(npl, circuit_model.Source("fault_level", 50e6, 10.0))
     with pytest.raises(ParameterError) as err:
-        dip.energize_from_source(_northgate(), circ, duration_s=0.1)
+        dip.energize_from_source(
+            _northgate(), circ, switching_event(circ, 0.0, 0.0), duration_s=0.1
+        )
     assert err.value.parameter == "circuit.source_inductance_h"
 
 
@@ -292,6 +318,7 @@ def test_excitation_ceiling_below_the_load_field_is_refused() -> None:
         dip.energize_from_source(
             _northgate(),
             _unit(),
+            switching_event(_unit(), 0.0, 0.0),
             excitation=exc,
             bus_load=sources.BusLoad(1e6, 750e3),
             duration_s=0.1,
@@ -318,7 +345,12 @@ def test_unknown_excitation_states_its_provenance() -> None:
 
 def test_sizing_states_when_the_bounds_decide() -> None:
     small = generator_sizing.smallest_generator(
-        _northgate(), _unit(), "G2", 0.0, RESIDUAL, bounds_va=(1e5, 2e5), dip_duration_s=0.3
+        _northgate(),
+        _unit(),
+        switching_event(_unit(), 0.0, RESIDUAL),
+        "G2",
+        bounds_va=(1e5, 2e5),
+        dip_duration_s=0.3,
     )
     assert small.status == "largest_bound_fails"
     assert small.rating_va is None
@@ -326,9 +358,8 @@ def test_sizing_states_when_the_bounds_decide() -> None:
     big = generator_sizing.smallest_generator(
         _northgate(),
         _unit(),
+        switching_event(_unit(), 0.0, RESIDUAL),
         "G2",
-        0.0,
-        RESIDUAL,
         bounds_va=(1e8, 2e8),
         dip_duration_s=0.3,
         check_recovery=False,
@@ -337,7 +368,9 @@ def test_sizing_states_when_the_bounds_decide() -> None:
     assert big.rating_va == 1e8
     assert "Even the smallest rating searched" in big.statement
     with pytest.raises(ParameterError):
-        generator_sizing.smallest_generator(_northgate(), _unit(), "G4")
+        generator_sizing.smallest_generator(
+            _northgate(), _unit(), switching_event(_unit(), 0.0, 0.0), "G4"
+        )
 
 
 # ------------------------------------------------------------------------- demo case
@@ -349,7 +382,7 @@ def test_northgate_back_feed_end_to_end() -> None:
     # instant for phase A), unknown (conservative) excitation. Values measured when written
     # are in the module's report; the assertions are engineering bands and consistency.
     gen, circ = _northgate(), _unit()
-    study = dip.energize_from_source(gen, circ, 0.0, RESIDUAL)
+    study = dip.energize_from_source(gen, circ, switching_event(circ, 0.0, RESIDUAL))
     assert 40.0 < study.dip_percent < 70.0  # measured 53.9 % (phase A to neutral)
     assert 25.0 < study.dip_line_percent < study.dip_phase_percent  # measured 38.8 %
     assert 0.5 < study.recovery_time_s < 6.0  # measured 0.75 s into +-3 %
@@ -362,13 +395,15 @@ def test_northgate_back_feed_end_to_end() -> None:
     }
     assert verdict == {"G1": False, "G2": False, "G3": False, "G4": None}
     # measured: 13,747 kVA (dip 20.0 %, recovery 0.48 s) on the worst-voltage measure
-    sizing = generator_sizing.smallest_generator(gen, circ, "G2", 0.0, RESIDUAL, dip_duration_s=0.5)
+    sizing = generator_sizing.smallest_generator(
+        gen, circ, switching_event(circ, 0.0, RESIDUAL), "G2", dip_duration_s=0.5
+    )
     assert sizing.status == "found"
     assert sizing.rating_va is not None
     assert sizing.rating_va > S_GEN
     assert sizing.dip_percent <= 20.0
     below = generator_sizing.dip_sweep(
-        gen, circ, [sizing.rating_va * 0.99], 0.0, RESIDUAL, duration_s=0.5
+        gen, circ, [sizing.rating_va * 0.99], switching_event(circ, 0.0, RESIDUAL), duration_s=0.5
     )
     assert below[0] > 20.0  # 1 % smaller already fails: it is the smallest
     assert sizing.recovery_ok is True
@@ -381,6 +416,10 @@ def test_bus_load_validation() -> None:
     # 1 kW purely resistive: (L_L + L_s)/(R_L + R_s) = 0.3 us, beyond the step limit
     with pytest.raises(ParameterError) as err:
         dip.energize_from_source(
-            _northgate(), _unit(), bus_load=sources.BusLoad(1e3, 0.0), duration_s=0.1
+            _northgate(),
+            _unit(),
+            switching_event(_unit(), 0.0, 0.0),
+            bus_load=sources.BusLoad(1e3, 0.0),
+            duration_s=0.1,
         )
     assert err.value.parameter == "bus_load.reactive_power_var"
