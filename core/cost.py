@@ -44,6 +44,7 @@ __all__ = [
     "dip_study_work",
     "envelope_work",
     "mitigation_work",
+    "network_statistics_work",
     "network_work",
     "peak_work",
     "search_cases",
@@ -56,9 +57,13 @@ __all__ = [
 # CPU-time ratios in one run), where one winding-step of the kernel costs about 56 ns of CPU, so
 # the default budget of 35 million winding-steps is about 2 s of CPU for any operation.
 #
-# One step of the generator-dip kernel (three transformer loops, the machine's flux and
-# regulator states, per case).
-DIP_STEP_WEIGHT = 80.0
+# One step of a generator-dip run on the network solver (core.network with a machine source:
+# one unit's three windings, the bus fluxes by Newton's method at each of the four stages, the
+# machine's d-axis and regulator states with the bus-voltage magnitude at every stage, every
+# step recorded for the per-cycle sums): 1.34 us a step against 4.2 us for the dip kernel it
+# replaced (the demo's 10 s run, one run each on the same machine: ratio 3.2), which weighed
+# 80; 80/3.2 = 25, rounded up to 30 for the per-cycle reductions of the record.
+DIP_STEP_WEIGHT = 30.0
 # One generator-dip run besides its steps (the machine's case built, the record read for the
 # dip, the recovery and the band): about 3 ms.
 DIP_RUN_WEIGHT = 55_000.0
@@ -102,12 +107,14 @@ DIP_FIGURE_WEIGHT = 4_500_000.0
 NETWORK_FIGURE_WEIGHT = 8_000_000.0
 NETWORK_FIGURE_CURVE_WEIGHT = 400_000.0
 FIGURE_SAMPLE_WEIGHT = 2.0
-# Dip evaluations of the generator sizing (core.dip_sizing.smallest_generator): the two ends of
-# the range, Brent's method on log(rating) to a relative 1e-3 over a factor of 200 (bisection
-# alone needs 13; Brent's superlinear steps need fewer on this smooth, monotonic dip), two steps
-# to the passing side of the root: a typical count, not a bound (the deadline is the backstop).
+# Dip evaluations of the generator sizing (core.supply.generator_sizing.smallest_generator): the
+# two ends of the range, Brent's method on log(rating) to a relative 1e-3 over a factor of 200
+# (bisection alone needs 13; Brent's superlinear steps need fewer on this smooth, monotonic dip),
+# two steps to the passing side of the root: a typical count, not a bound (the deadline is the
+# backstop).
 SIZING_EVALUATIONS = 2 + 12 + 2
-# Simulated time of each sizing evaluation [s] (core.dip_sizing.smallest_generator's default).
+# Simulated time of each sizing evaluation [s] (the default of
+# core.supply.generator_sizing.smallest_generator).
 SIZING_DURATION_S = 2.0
 # The pole scatter's largest spread over a sample, counted in standard deviations: the range of
 # three normal draws exceeds 10 sigma with a probability below 1e-6 per event (normal tail at
@@ -197,7 +204,7 @@ def simulation_steps(
 
 
 def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) -> float:
-    """Winding-steps of one generator-dip run (:func:`core.dip.energize_from_source`).
+    """Winding-steps of one generator-dip run (:func:`core.supply.dip.energize_from_source`).
 
     Parameters
     ----------
@@ -406,7 +413,7 @@ def clearance_work(
     figure: bool = False,
     differentials: int = 0,
 ) -> Work:
-    """Work of :func:`core.clearance.clearance_study` (and of its figure).
+    """Work of :func:`core.protection.protection_study.clearance_study` (and of its figure).
 
     Parameters
     ----------
@@ -442,7 +449,7 @@ def clearance_work(
 
     References
     ----------
-    Counts :func:`core.clearance.clearance_study` (this project).
+    Counts :func:`core.protection.protection_study.clearance_study` (this project).
     """
     parts = []
     if worst_angle:
@@ -470,7 +477,7 @@ def dip_study_work(
     recovery_limit_s: float | None,
     figure: bool = False,
 ) -> Work:
-    """Work of :func:`core.dip_study.dip_study`.
+    """Work of :func:`core.supply.dip_study.dip_study`.
 
     Parameters
     ----------
@@ -497,8 +504,8 @@ def dip_study_work(
 
     References
     ----------
-    Counts :func:`core.dip_study.dip_study` and :func:`core.dip_sizing.smallest_generator`
-    (this project).
+    Counts :func:`core.supply.dip_study.dip_study` and
+    :func:`core.supply.generator_sizing.smallest_generator` (this project).
     """
     parts = [("dip event", dip_run_steps(frequency_hz, duration_s))]
     if sizing:
@@ -651,6 +658,88 @@ def network_work(
     if differentials:
         per = EVENT_SAMPLE_WEIGHT + DIFFERENTIAL_SAMPLE_WEIGHT
         parts.append(("differentials filtered", differentials * per * samples))
+    return _work(parts)
+
+
+def network_statistics_work(
+    source: Source,
+    units: Sequence[Unit],
+    load: BusLoad | None = None,
+    *,
+    samples: int,
+    pole_closing_max_s: float,
+    pole_scatter_ms: float,
+    events: int = 0,
+    devices: int = 0,
+    duration_s: float = 1.0,
+    cycles: float = 2.0,
+    samples_per_cycle: int = 128,
+) -> Work:
+    """Work of :func:`core.statistics.network_statistics.network_peak_distribution` and of
+    :func:`core.statistics.network_statistics.network_device_odds`.
+
+    Parameters
+    ----------
+    source : core.network.Source
+        The source [-].
+    units : sequence of core.network.Unit
+        The units on the bus [-].
+    load : core.network.BusLoad or None
+        The bus load [-].
+    samples : int
+        Monte Carlo events [-].
+    pole_closing_max_s : float
+        Latest given pole instant of the units being energised [s].
+    pole_scatter_ms : float
+        Standard deviation of the pole scatter [ms].
+    events : int
+        Events simulated in full to judge the devices (0 for none) [-].
+    devices : int
+        Feeder devices judged on each of them [-].
+    duration_s : float
+        Record of each judged event [s].
+    cycles : float
+        First-peak window after the last pole [cycles].
+    samples_per_cycle : int
+        Output samples per cycle [-].
+
+    Returns
+    -------
+    Work
+
+    Notes
+    -----
+    Monte Carlo: samples x NETWORK_STEP_WEIGHT x units x 3 windings x steps over
+    cycles/f + d + 2 samples, d = pole_closing_max + SCATTER_SIGMAS x sigma the latest pole
+    (:func:`core.network.step_plan`, the solver's own plan); its first peaks read at
+    EVENT_SAMPLE_WEIGHT per line-sample of the source and of every unit. Devices: events x the
+    network simulated over duration_s, each event's source record read (EVENT_WEIGHT +
+    EVENT_SAMPLE_WEIGHT x 3 x samples) and each device judged on it (DEVICE_JUDGEMENT_WEIGHT +
+    DEVICE_SAMPLE_WEIGHT x 3 x samples).
+
+    References
+    ----------
+    Counts the network solver's step plan and the statistics' reading (this project).
+    """
+    units = list(units)
+    f = source.frequency_hz
+    spread = pole_closing_max_s + SCATTER_SIGMAS * pole_scatter_ms * 1e-3
+    window = cycles / f + spread + 2.0 / (f * samples_per_cycle)
+    _, _, n_steps = step_plan(source, units, window, load, samples_per_cycle)
+    record = 3.0 * (window * f * samples_per_cycle + 1)
+    parts = [
+        ("Monte Carlo events", NETWORK_STEP_WEIGHT * samples * len(units) * 3.0 * n_steps),
+        ("first peaks read", EVENT_SAMPLE_WEIGHT * samples * record * (len(units) + 1)),
+    ]
+    if events and devices:
+        _, _, full = step_plan(source, units, duration_s, load, samples_per_cycle)
+        line_samples = 3.0 * (duration_s * f * samples_per_cycle + 1)
+        per_event = DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT * line_samples
+        parts += [
+            ("device events simulated", NETWORK_STEP_WEIGHT * events * len(units) * 3.0 * full),
+            ("device events read", events * (EVENT_WEIGHT + EVENT_SAMPLE_WEIGHT * line_samples)),
+            ("device events judged", events * devices * per_event),
+        ]
     return _work(parts)
 
 

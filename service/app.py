@@ -23,6 +23,7 @@ from service.routers import (
     inrush,
     mitigation,
     network,
+    network_statistics,
     sheet,
     sheet_verdicts,
     statistics,
@@ -243,6 +244,7 @@ def create_app() -> FastAPI:
     app.include_router(dip.router)
     app.include_router(mitigation.router)
     app.include_router(network.router)
+    app.include_router(network_statistics.router)
     app.include_router(sheet.router)
     app.include_router(sheet_verdicts.router)
 

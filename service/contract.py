@@ -19,6 +19,7 @@ from service.examples import (
     ENVELOPE_REQUESTS,
     MITIGATION_REQUESTS,
     NETWORK_REQUESTS,
+    NETWORK_STATISTICS_REQUESTS,
     PEAK_BATCH_REQUESTS,
     PEAK_REQUESTS,
     SHEET_REQUESTS,
@@ -48,6 +49,11 @@ def example_pairs() -> dict[str, dict[str, Any]]:
         ("inrush_statistics", "/v1/inrush/statistics", STATISTICS_REQUESTS),
         ("mitigation", "/v1/mitigation", MITIGATION_REQUESTS),
         ("network_energization", "/v1/network-energization", NETWORK_REQUESTS),
+        (
+            "network_energization_statistics",
+            "/v1/network-energization/statistics",
+            NETWORK_STATISTICS_REQUESTS,
+        ),
     ):
         for name, body in requests.items():
             resp = client.post(path, json=body)

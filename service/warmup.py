@@ -47,7 +47,8 @@ REQUESTS: tuple[tuple[str, str, dict[str, Any] | None], ...] = (
     # closing instants: energize_independent.integrate and integrate_parallel
     ("POST", "/v1/inrush/peak", PEAK_REQUESTS["northgate_backfeed"]),
     ("POST", "/v1/inrush/envelope", ENVELOPE_REQUESTS["northgate_lighting"]),
-    # machine and transformer together: dip_kernel.integrate, and the voltage figure
+    # machine and transformer together: core.network.kernel.integrate with a machine source,
+    # and the voltage figure
     (
         "POST",
         "/v1/generator-dip/figure",

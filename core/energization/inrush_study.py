@@ -17,7 +17,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core.energization import closed_form, energize, energize_plan, peaks, waveform
-from core.energization.switching_event import SwitchingEvent
+from core.energization.switching_event import SwitchingEvent, plain_event_arrays
 from core.errors import ParameterError
 from core.transformer.circuit_model import EquivalentCircuit
 
@@ -173,17 +173,9 @@ def _event_checks(
     circuit: EquivalentCircuit, event: SwitchingEvent
 ) -> tuple[FloatArray, FloatArray, list[tuple[str, str]]]:
     """The event's residual flux and pole delays (copies) and the warnings of circuit and event."""
-    m = circuit.phases
-    if event.residual_flux_pu.shape != (m,) or event.pole_delay_s.shape != (m,):
-        raise ParameterError(
-            "event", f"{event.residual_flux_pu.size} windings", f"an event built for {m} phase(s)"
-        )
-    if not event.plain:
-        raise ParameterError(
-            "event", "a pre-insertion resistor or ramp", "a plain closing (see core.mitigation)"
-        )
+    res, delay = plain_event_arrays(circuit, event)
     warnings: list[tuple[str, str]] = [*circuit.warnings, *event.warnings]
-    return event.residual_flux_pu.copy(), event.pole_delay_s.copy(), warnings
+    return res, delay, warnings
 
 
 _Simulated = tuple[tuple[LinePeak, ...], tuple[float, float, str]]

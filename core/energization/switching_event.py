@@ -28,6 +28,7 @@ __all__ = [
     "RESIDUAL_FLUX_HIGH_PU",
     "SwitchingEvent",
     "default_residual_flux_pu",
+    "plain_event_arrays",
     "residual_flux_pu_from_wb",
     "residual_flux_warnings",
     "switching_event",
@@ -197,6 +198,52 @@ def residual_flux_warnings(residual_flux_pu: FloatArray) -> list[tuple[str, str]
             "worst case of about 0.8-0.9 pu (from memory)",
         )
     ]
+
+
+def plain_event_arrays(
+    circuit: EquivalentCircuit, event: SwitchingEvent
+) -> tuple[FloatArray, FloatArray]:
+    """The residual flux and pole delays of a plain event built for ``circuit`` (copies).
+
+    For the studies that simulate a closing straight onto the source (the peak, envelope and
+    protection studies): the event must have one value per winding and pole of the circuit,
+    and no pre-insertion resistor or ramp (those are the mitigation study's to simulate).
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The circuit the study simulates [-].
+    event : SwitchingEvent
+        The event given to the study [-].
+
+    Returns
+    -------
+    tuple of ndarray
+        (residual flux per winding [pu of lambda_N], pole delays [s]), shape (phases,) each.
+
+    Raises
+    ------
+    ParameterError
+        Naming ``event`` when it was built for another phase count or is not plain.
+
+    Notes
+    -----
+    Plain: R_ins = 0, t_ins = 0 and no ramp (:attr:`SwitchingEvent.plain`).
+
+    References
+    ----------
+    This project's input rules.
+    """
+    m = circuit.phases
+    if event.residual_flux_pu.shape != (m,) or event.pole_delay_s.shape != (m,):
+        raise ParameterError(
+            "event", f"{event.residual_flux_pu.size} windings", f"an event built for {m} phase(s)"
+        )
+    if not event.plain:
+        raise ParameterError(
+            "event", "a pre-insertion resistor or ramp", "a plain closing (see core.mitigation)"
+        )
+    return event.residual_flux_pu.copy(), event.pole_delay_s.copy()
 
 
 def switching_event(

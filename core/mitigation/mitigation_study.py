@@ -37,7 +37,11 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core.energization import energize, inrush_study, waveform
-from core.energization.switching_event import switching_event
+from core.energization.switching_event import (
+    SwitchingEvent,
+    plain_event_arrays,
+    switching_event,
+)
 from core.errors import ParameterError
 from core.mitigation import pre_insertion
 from core.mitigation.mitigation_options import (
@@ -324,11 +328,15 @@ def _evaluate(
         )
     r_ins = p.extras.get("insertion_resistance_ohm", 0.0)
     t_ins = p.extras.get("insertion_time_s", 0.0)
+    # the plan's design-basis event, resistor included
+    design = switching_event(
+        c, p.angle_deg, p.residual, delay, insertion_resistance_ohm=r_ins, insertion_time_s=t_ins
+    )
     if r_ins > 0.0:
         used = float(sim.insertion_time_s[0])  # the bypass as the solver rounded it
         at_event = float(pre_insertion.insertion_energy_j(sim.time_s, cur, r_ins, used))
         largest, at_angle = pre_insertion.largest_insertion_energy_j(
-            c, p.residual, delay, r_ins, t_ins, max_steps=ctx.max_steps
+            c, design, max_steps=ctx.max_steps
         )
         params += [
             Assumption(
@@ -350,18 +358,10 @@ def _evaluate(
         if p.dip_note is not None or p.dip_circuit is None:
             notes.append(p.dip_note or "dip not evaluated")
         else:
-            event = switching_event(
-                p.dip_circuit,
-                p.angle_deg,
-                p.residual,
-                delay,
-                insertion_resistance_ohm=r_ins,
-                insertion_time_s=t_ins,
-            )
             d = dip.energize_from_source(
                 sup.generator,
                 p.dip_circuit,
-                event,
+                design,
                 excitation=sup.excitation,
                 bus_load=sup.bus_load,
                 duration_s=sup.duration_s,
@@ -406,8 +406,7 @@ def _evaluate(
 def mitigation_study(
     nameplate: Nameplate,
     source: Source | None,
-    residual_flux_pu: ArrayLike,
-    pole_delay_s: ArrayLike = 0.0,
+    event: SwitchingEvent,
     options: Sequence[Option] | None = None,
     *,
     supply: GeneratorSupply | None = None,
@@ -425,10 +424,11 @@ def mitigation_study(
     source : Source or None
         Supply at the energised terminals; None for an ideal source, or with ``supply`` (whose
         subtransient impedance then is the source) [-].
-    residual_flux_pu : array_like
-        Residual flux per winding [pu of lambda_N].
-    pole_delay_s : array_like
-        Pole closing instants of an uncontrolled closing [s].
+    event : SwitchingEvent
+        The energisation as it is, a plain closing built for the unit's phase count
+        (:func:`core.energization.switching_event.switching_event`): its residual flux per
+        winding and the pole closing instants of an uncontrolled closing; its closing angle is
+        not used (each option's design-basis angle is searched) [-].
     options : sequence of options or None
         The mitigations to weigh; None for
         :func:`core.mitigation.mitigation_options.default_options` [-].
@@ -473,11 +473,9 @@ def mitigation_study(
     peak_source = sources.subtransient_source(supply.generator) if supply is not None else source
     circuit = circuit_model.equivalent_circuit(nameplate, peak_source)
     dip_circuit = circuit_model.equivalent_circuit(nameplate, None) if supply is not None else None
-    m = circuit.phases
-    res = np.broadcast_to(np.asarray(residual_flux_pu, dtype=float), (m,)).copy()
-    delay = np.broadcast_to(np.asarray(pole_delay_s, dtype=float), (m,)).copy()
+    res, delay = plain_event_arrays(circuit, event)
     ctx = Context(
-        nameplate, peak_source, circuit, dip_circuit, res, delay, supply, target_peak_a, max_steps
+        nameplate, peak_source, circuit, dip_circuit, event, supply, target_peak_a, max_steps
     )
     warnings: list[tuple[str, str]] = list(circuit.warnings)
     base = Plan(

@@ -19,7 +19,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from core.energization import inrush_study
-from core.energization.switching_event import switching_event
+from core.energization.switching_event import SwitchingEvent, switching_event
 from core.errors import ParameterError
 from core.mitigation import point_on_wave, pre_insertion
 from core.mitigation.mitigation_options import (
@@ -165,11 +165,20 @@ class Context:
     source: Source | None
     circuit: EquivalentCircuit
     dip_circuit: EquivalentCircuit | None
-    residual: FloatArray
-    delay: FloatArray
+    event: SwitchingEvent
     supply: GeneratorSupply | None
     target_a: float | None
     max_steps: int | None
+
+    @property
+    def residual(self) -> FloatArray:
+        """The event's residual flux per winding [pu of lambda_N]."""
+        return self.event.residual_flux_pu
+
+    @property
+    def delay(self) -> FloatArray:
+        """The event's pole closing instants, of an uncontrolled closing [s]."""
+        return self.event.pole_delay_s
 
 
 def _given(name: str, value: float | str, unit: str, given: bool, default: str) -> Assumption:

@@ -22,6 +22,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core.energization import energize
+from core.energization.switching_event import SwitchingEvent
 from core.errors import ParameterError
 from core.transformer.circuit_model import EquivalentCircuit
 
@@ -187,10 +188,7 @@ def insertion_energy_j(
 
 def largest_insertion_energy_j(
     circuit: EquivalentCircuit,
-    residual_flux_pu: ArrayLike,
-    pole_delay_s: ArrayLike,
-    resistance_ohm: float,
-    insertion_time_s: float,
+    event: SwitchingEvent,
     *,
     step_deg: float = 5.0,
     max_steps: int | None = None,
@@ -201,12 +199,10 @@ def largest_insertion_energy_j(
     ----------
     circuit : EquivalentCircuit
         The circuit [-].
-    residual_flux_pu : array_like
-        Residual flux per winding [pu of lambda_N].
-    pole_delay_s : array_like
-        Pole closing instants [s].
-    resistance_ohm, insertion_time_s : float
-        The resistor [ohm] and its insertion time [s].
+    event : SwitchingEvent
+        The energisation with its pre-insertion resistor: its residual flux per winding, pole
+        closing instants, resistor and insertion time are kept; its closing angle is replaced
+        by each angle of the grid [-].
     step_deg : float
         Angle grid over 0-360, in [0.5, 30] [deg].
     max_steps : int or None
@@ -216,16 +212,27 @@ def largest_insertion_energy_j(
     -------
     tuple of float
         (energy [J], phase-A closing angle [deg]).
+
+    Notes
+    -----
+    E(alpha) = R * sum over lines of the integral of i^2 while the resistor is in
+    (:func:`insertion_energy_j`), simulated for alpha = 0, step, 2*step, ... < 360 deg; the
+    largest is returned.
+
+    References
+    ----------
+    Joule's law; the angle grid is this project's (common practice for a worst-case scan).
     """
     if not (math.isfinite(step_deg) and 0.5 <= step_deg <= 30.0):
         raise ParameterError("step_deg", step_deg, "in [0.5, 30]")
     angles = np.arange(0.0, 360.0, step_deg)
-    delay = np.asarray(pole_delay_s, dtype=float)
+    delay = event.pole_delay_s
+    resistance_ohm, insertion_time_s = event.insertion_resistance_ohm, event.insertion_time_s
     sim = energize.simulate(
         circuit,
         angles,
-        residual_flux_pu,
-        pole_delay_s,
+        event.residual_flux_pu,
+        delay,
         duration_s=insertion_time_s + float(np.max(delay)) + 1.0 / circuit.frequency_hz,
         insertion_resistance_ohm=resistance_ohm,
         insertion_time_s=insertion_time_s,

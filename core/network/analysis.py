@@ -255,10 +255,11 @@ def first_peaks(
     Notes
     -----
     j = the largest sample of |i| on the line with the largest sample within the window; when
-    j has a neighbour on each side and the parabola through (y_{j-1}, y_j, y_{j+1}) opens
-    downwards (d = y_{j-1} - 2 y_j + y_{j+1} < 0), the peak is its vertex
-    y_j - (y_{j+1} - y_{j-1})^2/(8 d), otherwise y_j. The neighbours may lie just outside the
-    window: the vertex is that of the sampled waveform.
+    j has a neighbour on each side, neither larger than y_j (a local maximum of the sampled
+    waveform: its right neighbour may lie just outside the window), and the parabola through
+    (y_{j-1}, y_j, y_{j+1}) opens downwards (d = y_{j-1} - 2 y_j + y_{j+1} < 0), the peak is
+    its vertex y_j - (y_{j+1} - y_{j-1})^2/(8 d), at most |y_{j+1} - y_{j-1}|/8 above y_j;
+    otherwise y_j (a window ending on a rising edge is not extrapolated).
 
     References
     ----------
@@ -285,7 +286,7 @@ def first_peaks(
     y1 = np.take_along_axis(row, j[..., None], -1)[..., 0]
     y2 = np.take_along_axis(row, jp, -1)[..., 0]
     den = y0 - 2.0 * y1 + y2
-    inner = (j > 0) & (j < n - 1) & (den < 0.0)
+    inner = (j > 0) & (j < n - 1) & (den < 0.0) & (y1 >= y0) & (y1 >= y2)
     with np.errstate(divide="ignore", invalid="ignore"):
         vertex = y1 - 0.125 * (y2 - y0) ** 2 / den
     peak: FloatArray = np.where(inner, vertex, y1)

@@ -24,9 +24,17 @@ from numpy.typing import NDArray
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
-__all__ = ["DELTA", "FLOATING_WYE", "GROUNDED_WYE", "MAX_ITERATIONS", "integrate"]
+__all__ = ["DELTA", "FLOATING_WYE", "GROUNDED_WYE", "MAX_ITERATIONS", "NSRC", "integrate"]
 
 GROUNDED_WYE, FLOATING_WYE, DELTA = 0, 1, 2
+# Columns of the per-case source parameters (src, shape (n_cases, NSRC)): the Thevenin R_s
+# [ohm], L_s [H]; DYN > 0 lets the machine's d-axis fluxes evolve, AVR > 0 its regulator; the
+# reactances X''_d, X'_d, X_d [pu], T''_do, T'_do [s], the regulator K_A [pu], T_A [s], ceiling,
+# floor [pu], T_R [s], V_ref [pu] and the base current I_b [A] of the per-unit d-axis current.
+RS, LS, DYN, AVR, X2, X1, XD, T2O, T1O, KA, TA, EMAX, EMIN, TR, VREF, IB = range(16)
+NSRC = 16
+# Machine states (per case): E''_q, E'_q, E_fd, V_s [pu]
+NMACH = 4
 # Newton's method on Phi and on a floating node's flux: iteration cap (a guard, not a budget:
 # warm-started from the previous stage a piecewise-linear curve needs two evaluations when no
 # winding crosses a breakpoint) [-].
@@ -232,8 +240,8 @@ def integrate(
     phase: FloatArray,
     ramp: FloatArray,
     ramp_steps: IntArray,
-    r_s: float,
-    l_s: float,
+    src: FloatArray,
+    m0: FloatArray,
     r_l: float,
     l_l: float,
     has_load: bool,
@@ -256,14 +264,24 @@ def integrate(
     out_line: FloatArray,
     out_wind: FloatArray,
     out_flux: FloatArray,
+    out_mach: FloatArray,
+    out_energy: FloatArray,
+    n_in: int,
+    sub: IntArray,
 ) -> int:  # pragma: no cover - compiled
     """Integrate every case; returns the number of algebraic solves that did not converge.
 
-    Shapes: phase (n_cases, 3) [rad] (EMF e_k = g*vpk*sin(omega*t + phase_k)); ramp (g0,
-    slope per step); ramp_steps (end of hold, end of rise) [steps]; per unit conn, r_w [ohm],
-    r_ins [ohm], bypass_step, curve (kind, par, flux, cur, npts); close_step (n_cases,
-    n_units, 3) [steps]; lam0 (n_cases, n_units, 3) [Wb-turn]; il0 (n_cases, 3) [A]; outputs
-    (n_cases, 3, n_samples) and (n_cases, n_units, 3, n_samples).
+    Shapes: phase (n_cases, 3) [rad] (EMF e_k = g*vpk*(E''_q*sin(omega*t + phase_k) -
+    (dE''_q/dt/omega)*cos(omega*t + phase_k))); ramp (g0, slope per step); ramp_steps (end of
+    hold, end of rise) [steps]; src (n_cases, NSRC) the source columns above; m0 (n_cases,
+    NMACH) the machine states at t = 0 [pu]; per unit conn, r_w [ohm], r_ins [ohm],
+    bypass_step, curve (kind, par, flux, cur, npts); close_step (n_cases, n_units, 3) [steps];
+    lam0 (n_cases, n_units, 3) [Wb-turn]; il0 (n_cases, 3) [A]; outputs (n_cases, 3,
+    n_samples), (n_cases, n_units, 3, n_samples), out_mach (n_cases, 2, n_samples) E''_q and
+    E_fd [pu], out_energy (n_cases, n_units) the integral of the summed squared line currents
+    while the unit's pre-insertion resistor is in [A^2*s]; the steps j < n_in are each split
+    into ``sub[c]`` equal Runge-Kutta sub-steps (a resistor's short time constant while it is in),
+    the samples staying on the step.
     """
     n_cases = phase.shape[0]
     n_units = conn.shape[0]
@@ -271,7 +289,21 @@ def integrate(
     kh, ke = ramp_steps[0], ramp_steps[1]
     inv_ll = 1.0 / l_l if has_load else 0.0
     failed = 0
+    sq2 = math.sqrt(2.0)
     for c in range(n_cases):
+        r_s = src[c, RS]
+        l_s = src[c, LS]
+        dyn = src[c, DYN] > 0.0
+        avr = dyn and src[c, AVR] > 0.0
+        ms = m0[c].copy()
+        mbase = np.zeros(NMACH)
+        macc = np.zeros(NMACH)
+        km = np.zeros(NMACH)
+        en_acc = np.zeros(n_units)
+        sa = np.zeros(3)  # sin and cos of omega*t + phase_k at the stage
+        ca = np.zeros(3)
+        sph = np.sin(phase[c])
+        cph = np.cos(phase[c])
         psi = np.zeros((n_units, 3))
         base = np.zeros((n_units, 3))
         acc = np.zeros((n_units, 3))
@@ -314,295 +346,356 @@ def integrate(
                     for k in range(3):
                         if close_step[c, u, k] == j:
                             pending = True
-            st = 0
-            while st < 4:
-                x_st = j + (0.0 if st == 0 else (1.0 if st == 3 else 0.5))
-                # ---- algebra: Phi from KCL at the bus (Newton), every unit's currents ----
-                if l_s > 0.0:
-                    trial[0], trial[1], trial[2] = phi[0], phi[1], phi[2]
-                else:
-                    trial[0] = trial[1] = trial[2] = 0.0
-                norm0 = math.inf
-                tstep = 1.0
-                d0 = d1 = d2 = 0.0
-                converged = False
-                for _ in range(4 * MAX_ITERATIONS):
-                    r0 = r1 = r2 = 0.0  # sum of the line currents into the units
-                    g00 = g01 = g02 = g11 = g12 = g22 = 0.0
-                    bad = 0
-                    for u in range(n_units):
-                        md = mode[u]
-                        if md == 0:
-                            for k in range(3):
-                                cw[u, k] = 0.0
-                                dw[u, k] = 0.0
-                                line[u, k] = 0.0
-                            continue
-                        cu = conn[u]
-                        kd = kind[u]
-                        top = npts[u] - 1
-                        c0, c1, c2 = closed[u, 0], closed[u, 1], closed[u, 2]
-                        q0 = trial[0] if c0 else 0.0
-                        q1 = trial[1] if c1 else 0.0
-                        q2 = trial[2] if c2 else 0.0
-                        if cu == DELTA:
-                            xs[0] = psi[u, 0] - (q0 - q1)
-                            xs[1] = psi[u, 1] - (q1 - q2)
-                            xs[2] = psi[u, 2] - (q2 - q0)
-                        else:
-                            xs[0] = psi[u, 0] - q0
-                            xs[1] = psi[u, 1] - q1
-                            xs[2] = psi[u, 2] - q2
-                        s = 0.0
-                        if md == 2:
-                            # floating node: sum_k a_k*f(x_k + a_k*s) = q, increasing in s
-                            s = sig[u]
-                            lo = -math.inf
-                            hi = math.inf
-                            ok = False
-                            for _i in range(MAX_ITERATIONS):
-                                gs = -q[u]
-                                dg = 0.0
-                                for k in range(3):
-                                    ak = avec[u, k]
-                                    if ak != 0.0:
-                                        if kd == 2:
-                                            ik, dk = _curve_table(
-                                                xs[k] + ak * s, flux, cur, u, top, par[u, 0]
-                                            )
-                                        else:
-                                            ik, dk = _curve_s(
-                                                xs[k] + ak * s, kd, par[u, 0], par[u, 1],
-                                                par[u, 2], par[u, 3], par[u, 4],
-                                            )  # fmt: skip
-                                        gs += ak * ik
-                                        dg += dk
-                                if gs == 0.0:
-                                    ok = True
-                                    break
-                                if gs < 0.0:
-                                    lo = s
-                                else:
-                                    hi = s
-                                new = s - gs / dg
-                                if not (lo < new < hi):
-                                    if math.isfinite(lo) and math.isfinite(hi):
-                                        new = 0.5 * (lo + hi)
-                                    else:
-                                        new = s - 2.0 * gs / dg
-                                if abs(new - s) <= tol_u[u]:
-                                    s = new
-                                    ok = True
-                                    break
-                                s = new
-                            if not ok:
-                                bad += 1
-                            sig[u] = s
-                        for k in range(3):
-                            if on[u, k]:
-                                lk = xs[k] + avec[u, k] * s
-                                lam[u, k] = lk
-                                if kd == 2:
-                                    ik, dk = _curve_table(lk, flux, cur, u, top, par[u, 0])
-                                else:
-                                    ik, dk = _curve_s(
-                                        lk, kd, par[u, 0], par[u, 1], par[u, 2], par[u, 3],
-                                        par[u, 4],
-                                    )  # fmt: skip
-                                cw[u, k] = ik
-                                dw[u, k] = dk
-                            else:
-                                cw[u, k] = 0.0
-                                dw[u, k] = 0.0
-                        w0, w1, w2 = cw[u, 0], cw[u, 1], cw[u, 2]
-                        if cu == DELTA:
-                            la, lb, lc = w0 - w2, w1 - w0, w2 - w1
-                        else:
-                            la, lb, lc = w0, w1, w2
-                        line[u, 0] = la if c0 else 0.0
-                        line[u, 1] = lb if c1 else 0.0
-                        line[u, 2] = lc if c2 else 0.0
-                        r0 += line[u, 0]
-                        r1 += line[u, 1]
-                        r2 += line[u, 2]
-                        if l_s <= 0.0:
-                            continue
-                        # G_u = S C D~ C^T S, D~ = D - (D a)(D a)^T/(a^T D a)
-                        e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
-                        t00, t11, t22 = e0, e1, e2
-                        t01 = t02 = t12 = 0.0
-                        if md == 2:
-                            a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
-                            den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
-                            if den > 0.0:
-                                b0, b1, b2 = a0 * e0, a1 * e1, a2 * e2
-                                t00 -= b0 * b0 / den
-                                t11 -= b1 * b1 / den
-                                t22 -= b2 * b2 / den
-                                t01 = -b0 * b1 / den
-                                t02 = -b0 * b2 / den
-                                t12 = -b1 * b2 / den
-                        if cu == DELTA:
-                            # (A T A^T)_ij = T_ij - T_i,j-1 - T_i-1,j + T_i-1,j-1
-                            h00 = t00 - 2.0 * t02 + t22
-                            h11 = t11 - 2.0 * t01 + t00
-                            h22 = t22 - 2.0 * t12 + t11
-                            h01 = t01 - t00 - t12 + t02
-                            h02 = t02 - t01 - t22 + t12
-                            h12 = t12 - t11 - t02 + t01
-                        else:
-                            h00, h11, h22, h01, h02, h12 = t00, t11, t22, t01, t02, t12
-                        g00 += h00 if c0 else 0.0
-                        g11 += h11 if c1 else 0.0
-                        g22 += h22 if c2 else 0.0
-                        g01 += h01 if (c0 and c1) else 0.0
-                        g02 += h02 if (c0 and c2) else 0.0
-                        g12 += h12 if (c1 and c2) else 0.0
-                    if l_s <= 0.0:
-                        failed += bad
-                        for k in range(3):
-                            i_l[k] = psi_l[k] * inv_ll
-                        i_s[0] = r0 + i_l[0]
-                        i_s[1] = r1 + i_l[1]
-                        i_s[2] = r2 + i_l[2]
-                        converged = True
-                        break
-                    for k in range(3):
-                        i_l[k] = (psi_l[k] - trial[k]) * inv_ll
-                    f0 = trial[0] / l_s - r0 - i_l[0]
-                    f1 = trial[1] / l_s - r1 - i_l[1]
-                    f2 = trial[2] / l_s - r2 - i_l[2]
-                    norm = abs(f0) + abs(f1) + abs(f2)
-                    if norm > norm0 and tstep > 1e-6:
-                        # the step increased the residual: halve it from the accepted point
-                        tstep *= 0.5
-                        trial[0] = phi[0] - tstep * d0
-                        trial[1] = phi[1] - tstep * d1
-                        trial[2] = phi[2] - tstep * d2
-                        continue
-                    phi[0], phi[1], phi[2] = trial[0], trial[1], trial[2]
-                    norm0 = norm
-                    diag = 1.0 / l_s + inv_ll
-                    j00, j11, j22 = diag + g00, diag + g11, diag + g22
-                    j01, j02, j12 = g01, g02, g12
-                    d0, d1, d2 = _solve3(j00, j01, j02, j11, j12, j22, f0, f1, f2)
-                    if max(abs(d0), abs(d1), abs(d2)) <= tol_phi or norm == 0.0:
-                        failed += bad
-                        converged = True
-                        break
-                    tstep = 1.0
-                    trial[0] = phi[0] - d0
-                    trial[1] = phi[1] - d1
-                    trial[2] = phi[2] - d2
-                if not converged:
-                    failed += 1
-                if l_s > 0.0:
-                    i_s[0] = phi[0] / l_s
-                    i_s[1] = phi[1] / l_s
-                    i_s[2] = phi[2] / l_s
-                if st == 0 and pending:
-                    # poles close at this step: lambda and i_L are now those of t_j
-                    pending = False
-                    for u in range(n_units):
-                        for k in range(3):
-                            if close_step[c, u, k] == j:
-                                closed[u, k] = True
-                    _switch(
-                        conn, closed, on, avec, mode, lam, cw, line, sig, q, psi, phi, psi_l,
-                        i_l, l_s, l_l, kind, par, flux, cur, npts,
-                    )  # fmt: skip
-                    continue
-                # ---- derivatives: KVL around every loop ----
-                gsc = _source_scale(x_st, j, g0, slope, kh, ke)
-                wt = omega * x_st * h
-                for k in range(3):
-                    e[k] = gsc * vpk * math.sin(wt + phase[c, k])
-                    kl[k] = e[k] - r_s * i_s[k] - r_l * i_l[k]
-                for u in range(n_units):
-                    if mode[u] == 0:
-                        kpsi[u, 0] = kpsi[u, 1] = kpsi[u, 2] = 0.0
-                        continue
-                    for k in range(3):
-                        drv[k] = (
-                            e[k] - r_s * i_s[k] - r_now[u] * line[u, k] if closed[u, k] else 0.0
-                        )
-                    rw = r_w[u]
-                    for k in range(3):
-                        if not on[u, k]:
-                            kpsi[u, k] = 0.0
-                        elif conn[u] == DELTA:
-                            kpsi[u, k] = drv[k] - drv[(k + 1) % 3] - rw * cw[u, k]
-                        else:
-                            kpsi[u, k] = drv[k] - rw * cw[u, k]
-                # ---- outputs at the sample instants ----
-                if st == 0 and (j % decimate == 0 or j == n_steps):
-                    s_idx = j // decimate
-                    # bus voltage v = e - R_s*i_s - Phi', J*Phi' = sum S C D~ psi' + psi_L'/L_L
-                    p0 = p1 = p2 = 0.0
+            nsub = sub[c] if (j < n_in and j < n_steps) else 1
+            hh = h / nsub
+            for sb in range(nsub):
+                st = 0
+                while st < 4:
+                    x_st = j + (sb + (0.0 if st == 0 else (1.0 if st == 3 else 0.5))) / nsub
+                    # ---- algebra: Phi from KCL at the bus (Newton), every unit's currents ----
                     if l_s > 0.0:
-                        b0 = kl[0] * inv_ll
-                        b1 = kl[1] * inv_ll
-                        b2 = kl[2] * inv_ll
+                        trial[0], trial[1], trial[2] = phi[0], phi[1], phi[2]
+                    else:
+                        trial[0] = trial[1] = trial[2] = 0.0
+                    norm0 = math.inf
+                    tstep = 1.0
+                    d0 = d1 = d2 = 0.0
+                    converged = False
+                    for _ in range(4 * MAX_ITERATIONS):
+                        r0 = r1 = r2 = 0.0  # sum of the line currents into the units
+                        g00 = g01 = g02 = g11 = g12 = g22 = 0.0
+                        bad = 0
                         for u in range(n_units):
                             md = mode[u]
                             if md == 0:
+                                for k in range(3):
+                                    cw[u, k] = 0.0
+                                    dw[u, k] = 0.0
+                                    line[u, k] = 0.0
                                 continue
+                            cu = conn[u]
+                            kd = kind[u]
+                            top = npts[u] - 1
+                            c0, c1, c2 = closed[u, 0], closed[u, 1], closed[u, 2]
+                            q0 = trial[0] if c0 else 0.0
+                            q1 = trial[1] if c1 else 0.0
+                            q2 = trial[2] if c2 else 0.0
+                            if cu == DELTA:
+                                xs[0] = psi[u, 0] - (q0 - q1)
+                                xs[1] = psi[u, 1] - (q1 - q2)
+                                xs[2] = psi[u, 2] - (q2 - q0)
+                            else:
+                                xs[0] = psi[u, 0] - q0
+                                xs[1] = psi[u, 1] - q1
+                                xs[2] = psi[u, 2] - q2
+                            s = 0.0
+                            if md == 2:
+                                # floating node: sum_k a_k*f(x_k + a_k*s) = q, increasing in s
+                                s = sig[u]
+                                lo = -math.inf
+                                hi = math.inf
+                                ok = False
+                                for _i in range(MAX_ITERATIONS):
+                                    gs = -q[u]
+                                    dg = 0.0
+                                    for k in range(3):
+                                        ak = avec[u, k]
+                                        if ak != 0.0:
+                                            if kd == 2:
+                                                ik, dk = _curve_table(
+                                                    xs[k] + ak * s, flux, cur, u, top, par[u, 0]
+                                                )
+                                            else:
+                                                ik, dk = _curve_s(
+                                                    xs[k] + ak * s, kd, par[u, 0], par[u, 1],
+                                                    par[u, 2], par[u, 3], par[u, 4],
+                                                )  # fmt: skip
+                                            gs += ak * ik
+                                            dg += dk
+                                    if gs == 0.0:
+                                        ok = True
+                                        break
+                                    if gs < 0.0:
+                                        lo = s
+                                    else:
+                                        hi = s
+                                    new = s - gs / dg
+                                    if not (lo < new < hi):
+                                        if math.isfinite(lo) and math.isfinite(hi):
+                                            new = 0.5 * (lo + hi)
+                                        else:
+                                            new = s - 2.0 * gs / dg
+                                    if abs(new - s) <= tol_u[u]:
+                                        s = new
+                                        ok = True
+                                        break
+                                    s = new
+                                if not ok:
+                                    bad += 1
+                                sig[u] = s
+                            for k in range(3):
+                                if on[u, k]:
+                                    lk = xs[k] + avec[u, k] * s
+                                    lam[u, k] = lk
+                                    if kd == 2:
+                                        ik, dk = _curve_table(lk, flux, cur, u, top, par[u, 0])
+                                    else:
+                                        ik, dk = _curve_s(
+                                            lk, kd, par[u, 0], par[u, 1], par[u, 2], par[u, 3],
+                                            par[u, 4],
+                                        )  # fmt: skip
+                                    cw[u, k] = ik
+                                    dw[u, k] = dk
+                                else:
+                                    cw[u, k] = 0.0
+                                    dw[u, k] = 0.0
+                            w0, w1, w2 = cw[u, 0], cw[u, 1], cw[u, 2]
+                            if cu == DELTA:
+                                la, lb, lc = w0 - w2, w1 - w0, w2 - w1
+                            else:
+                                la, lb, lc = w0, w1, w2
+                            line[u, 0] = la if c0 else 0.0
+                            line[u, 1] = lb if c1 else 0.0
+                            line[u, 2] = lc if c2 else 0.0
+                            r0 += line[u, 0]
+                            r1 += line[u, 1]
+                            r2 += line[u, 2]
+                            if l_s <= 0.0:
+                                continue
+                            # G_u = S C D~ C^T S, D~ = D - (D a)(D a)^T/(a^T D a)
                             e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
-                            k0, k1, k2 = kpsi[u, 0], kpsi[u, 1], kpsi[u, 2]
-                            y0, y1, y2 = e0 * k0, e1 * k1, e2 * k2
+                            t00, t11, t22 = e0, e1, e2
+                            t01 = t02 = t12 = 0.0
                             if md == 2:
                                 a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
                                 den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
                                 if den > 0.0:
-                                    f = (a0 * e0 * k0 + a1 * e1 * k1 + a2 * e2 * k2) / den
-                                    y0 -= a0 * e0 * f
-                                    y1 -= a1 * e1 * f
-                                    y2 -= a2 * e2 * f
-                            if conn[u] == DELTA:
-                                y0, y1, y2 = y0 - y2, y1 - y0, y2 - y1
-                            b0 += y0 if closed[u, 0] else 0.0
-                            b1 += y1 if closed[u, 1] else 0.0
-                            b2 += y2 if closed[u, 2] else 0.0
-                        p0, p1, p2 = _solve3(j00, j01, j02, j11, j12, j22, b0, b1, b2)
-                    out_bus[c, 0, s_idx] = e[0] - r_s * i_s[0] - p0
-                    out_bus[c, 1, s_idx] = e[1] - r_s * i_s[1] - p1
-                    out_bus[c, 2, s_idx] = e[2] - r_s * i_s[2] - p2
-                    for k in range(3):
-                        out_src[c, k, s_idx] = i_s[k]
+                                    b0, b1, b2 = a0 * e0, a1 * e1, a2 * e2
+                                    t00 -= b0 * b0 / den
+                                    t11 -= b1 * b1 / den
+                                    t22 -= b2 * b2 / den
+                                    t01 = -b0 * b1 / den
+                                    t02 = -b0 * b2 / den
+                                    t12 = -b1 * b2 / den
+                            if cu == DELTA:
+                                # (A T A^T)_ij = T_ij - T_i,j-1 - T_i-1,j + T_i-1,j-1
+                                h00 = t00 - 2.0 * t02 + t22
+                                h11 = t11 - 2.0 * t01 + t00
+                                h22 = t22 - 2.0 * t12 + t11
+                                h01 = t01 - t00 - t12 + t02
+                                h02 = t02 - t01 - t22 + t12
+                                h12 = t12 - t11 - t02 + t01
+                            else:
+                                h00, h11, h22, h01, h02, h12 = t00, t11, t22, t01, t02, t12
+                            g00 += h00 if c0 else 0.0
+                            g11 += h11 if c1 else 0.0
+                            g22 += h22 if c2 else 0.0
+                            g01 += h01 if (c0 and c1) else 0.0
+                            g02 += h02 if (c0 and c2) else 0.0
+                            g12 += h12 if (c1 and c2) else 0.0
+                        if l_s <= 0.0:
+                            failed += bad
+                            for k in range(3):
+                                i_l[k] = psi_l[k] * inv_ll
+                            i_s[0] = r0 + i_l[0]
+                            i_s[1] = r1 + i_l[1]
+                            i_s[2] = r2 + i_l[2]
+                            converged = True
+                            break
+                        for k in range(3):
+                            i_l[k] = (psi_l[k] - trial[k]) * inv_ll
+                        f0 = trial[0] / l_s - r0 - i_l[0]
+                        f1 = trial[1] / l_s - r1 - i_l[1]
+                        f2 = trial[2] / l_s - r2 - i_l[2]
+                        norm = abs(f0) + abs(f1) + abs(f2)
+                        if norm > norm0 and tstep > 1e-6:
+                            # the step increased the residual: halve it from the accepted point
+                            tstep *= 0.5
+                            trial[0] = phi[0] - tstep * d0
+                            trial[1] = phi[1] - tstep * d1
+                            trial[2] = phi[2] - tstep * d2
+                            continue
+                        phi[0], phi[1], phi[2] = trial[0], trial[1], trial[2]
+                        norm0 = norm
+                        diag = 1.0 / l_s + inv_ll
+                        j00, j11, j22 = diag + g00, diag + g11, diag + g22
+                        j01, j02, j12 = g01, g02, g12
+                        d0, d1, d2 = _solve3(j00, j01, j02, j11, j12, j22, f0, f1, f2)
+                        if max(abs(d0), abs(d1), abs(d2)) <= tol_phi or norm == 0.0:
+                            failed += bad
+                            converged = True
+                            break
+                        tstep = 1.0
+                        trial[0] = phi[0] - d0
+                        trial[1] = phi[1] - d1
+                        trial[2] = phi[2] - d2
+                    if not converged:
+                        failed += 1
+                    if l_s > 0.0:
+                        i_s[0] = phi[0] / l_s
+                        i_s[1] = phi[1] / l_s
+                        i_s[2] = phi[2] / l_s
+                    if st == 0 and pending:
+                        # poles close at this step: lambda and i_L are now those of t_j
+                        pending = False
                         for u in range(n_units):
-                            out_line[c, u, k, s_idx] = line[u, k]
-                            out_wind[c, u, k, s_idx] = cw[u, k]
-                            out_flux[c, u, k, s_idx] = lam[u, k]
-                    if j == n_steps:
-                        break
-                # ---- Runge-Kutta ----
-                if st == 0:
+                            for k in range(3):
+                                if close_step[c, u, k] == j:
+                                    closed[u, k] = True
+                        _switch(
+                            conn, closed, on, avec, mode, lam, cw, line, sig, q, psi, phi, psi_l,
+                            i_l, l_s, l_l, kind, par, flux, cur, npts,
+                        )  # fmt: skip
+                        continue
+                    # ---- derivatives: KVL around every loop ----
+                    gsc = _source_scale(x_st, j, g0, slope, kh, ke)
+                    wt = omega * x_st * h
+                    swt = math.sin(wt)
+                    cwt = math.cos(wt)
                     for k in range(3):
-                        base_l[k] = psi_l[k]
-                        acc_l[k] = kl[k]
-                    for u in range(n_units):
+                        sa[k] = swt * cph[k] + cwt * sph[k]
+                        ca[k] = cwt * cph[k] - swt * sph[k]
+                    km[0] = km[1] = km[2] = km[3] = 0.0
+                    if dyn:
+                        # machine: Park d component of the source currents in the EMF's frame
+                        # [pu of rated current], positive lagging; the d-axis flux decay
+                        sd = 0.0
                         for k in range(3):
-                            base[u, k] = psi[u, k]
-                            acc[u, k] = kpsi[u, k]
-                else:
-                    wgt = 1.0 if st == 3 else 2.0
+                            sd -= i_s[k] * ca[k]
+                        i_d = sd / (1.5 * sq2 * src[c, IB])
+                        km[0] = (ms[1] - ms[0] - (src[c, X1] - src[c, X2]) * i_d) / src[c, T2O]
+                        km[1] = (ms[2] - ms[1] - (src[c, XD] - src[c, X1]) * i_d) / src[c, T1O]
+                    rate = km[0] / omega
                     for k in range(3):
-                        acc_l[k] += wgt * kl[k]
+                        e[k] = gsc * vpk * (ms[0] * sa[k] - rate * ca[k])
+                        kl[k] = e[k] - r_s * i_s[k] - r_l * i_l[k]
                     for u in range(n_units):
+                        if mode[u] == 0:
+                            kpsi[u, 0] = kpsi[u, 1] = kpsi[u, 2] = 0.0
+                            continue
                         for k in range(3):
-                            acc[u, k] += wgt * kpsi[u, k]
-                if st < 3:
-                    hs = h if st == 2 else 0.5 * h
-                    for k in range(3):
-                        psi_l[k] = base_l[k] + hs * kl[k]
+                            drv[k] = (
+                                e[k] - r_s * i_s[k] - r_now[u] * line[u, k] if closed[u, k] else 0.0
+                            )
+                        rw = r_w[u]
+                        for k in range(3):
+                            if not on[u, k]:
+                                kpsi[u, k] = 0.0
+                            elif conn[u] == DELTA:
+                                kpsi[u, k] = drv[k] - drv[(k + 1) % 3] - rw * cw[u, k]
+                            else:
+                                kpsi[u, k] = drv[k] - rw * cw[u, k]
+                    # ---- bus voltage, regulator, outputs at the sample instants ----
+                    sample = st == 0 and sb == 0 and (j % decimate == 0 or j == n_steps)
+                    v0 = v1 = v2 = 0.0
+                    if sample or avr:
+                        # bus voltage v = e - R_s*i_s - Phi', J*Phi' = sum S C D~ psi' + psi_L'/L_L
+                        p0 = p1 = p2 = 0.0
+                        if l_s > 0.0:
+                            b0 = kl[0] * inv_ll
+                            b1 = kl[1] * inv_ll
+                            b2 = kl[2] * inv_ll
+                            for u in range(n_units):
+                                md = mode[u]
+                                if md == 0:
+                                    continue
+                                e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
+                                k0, k1, k2 = kpsi[u, 0], kpsi[u, 1], kpsi[u, 2]
+                                y0, y1, y2 = e0 * k0, e1 * k1, e2 * k2
+                                if md == 2:
+                                    a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
+                                    den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
+                                    if den > 0.0:
+                                        f = (a0 * e0 * k0 + a1 * e1 * k1 + a2 * e2 * k2) / den
+                                        y0 -= a0 * e0 * f
+                                        y1 -= a1 * e1 * f
+                                        y2 -= a2 * e2 * f
+                                if conn[u] == DELTA:
+                                    y0, y1, y2 = y0 - y2, y1 - y0, y2 - y1
+                                b0 += y0 if closed[u, 0] else 0.0
+                                b1 += y1 if closed[u, 1] else 0.0
+                                b2 += y2 if closed[u, 2] else 0.0
+                            p0, p1, p2 = _solve3(j00, j01, j02, j11, j12, j22, b0, b1, b2)
+                        v0 = e[0] - r_s * i_s[0] - p0
+                        v1 = e[1] - r_s * i_s[1] - p1
+                        v2 = e[2] - r_s * i_s[2] - p2
+                        if avr:
+                            # magnitude of the bus-voltage space vector [pu of rated phase voltage]
+                            vd = v0 * ca[0] + v1 * ca[1] + v2 * ca[2]
+                            vq = v0 * sa[0] + v1 * sa[1] + v2 * sa[2]
+                            valg = math.sqrt(vd * vd + vq * vq) / (1.5 * vpk)
+                            vs = ms[3]
+                            if src[c, TR] > 0.0:
+                                km[3] = (valg - vs) / src[c, TR]
+                            else:
+                                vs = valg
+                            de = (src[c, KA] * (src[c, VREF] - vs) - ms[2]) / src[c, TA]
+                            if (ms[2] >= src[c, EMAX] and de > 0.0) or (
+                                ms[2] <= src[c, EMIN] and de < 0.0
+                            ):
+                                de = 0.0
+                            km[2] = de
+                    if sample:
+                        s_idx = j // decimate
+                        out_bus[c, 0, s_idx] = v0
+                        out_bus[c, 1, s_idx] = v1
+                        out_bus[c, 2, s_idx] = v2
+                        out_mach[c, 0, s_idx] = ms[0]
+                        out_mach[c, 1, s_idx] = ms[2]
+                        for k in range(3):
+                            out_src[c, k, s_idx] = i_s[k]
+                            for u in range(n_units):
+                                out_line[c, u, k, s_idx] = line[u, k]
+                                out_wind[c, u, k, s_idx] = cw[u, k]
+                                out_flux[c, u, k, s_idx] = lam[u, k]
+                        if j == n_steps:
+                            break
+                    # ---- Runge-Kutta ----
+                    wgt = 1.0 if (st == 0 or st == 3) else 2.0
                     for u in range(n_units):
+                        if j < bypass_step[u]:
+                            pw = line[u, 0] ** 2 + line[u, 1] ** 2 + line[u, 2] ** 2
+                            en_acc[u] = wgt * pw + (en_acc[u] if st > 0 else 0.0)
+                    if st == 0:
+                        for k in range(NMACH):
+                            mbase[k] = ms[k]
+                            macc[k] = km[k]
                         for k in range(3):
-                            psi[u, k] = base[u, k] + hs * kpsi[u, k]
-                else:
-                    for k in range(3):
-                        psi_l[k] = base_l[k] + h / 6.0 * acc_l[k]
-                    for u in range(n_units):
+                            base_l[k] = psi_l[k]
+                            acc_l[k] = kl[k]
+                        for u in range(n_units):
+                            for k in range(3):
+                                base[u, k] = psi[u, k]
+                                acc[u, k] = kpsi[u, k]
+                    else:
+                        for k in range(NMACH):
+                            macc[k] += wgt * km[k]
                         for k in range(3):
-                            psi[u, k] = base[u, k] + h / 6.0 * acc[u, k]
-                st += 1
+                            acc_l[k] += wgt * kl[k]
+                        for u in range(n_units):
+                            for k in range(3):
+                                acc[u, k] += wgt * kpsi[u, k]
+                    if st < 3:
+                        hs = hh if st == 2 else 0.5 * hh
+                        for k in range(NMACH):
+                            ms[k] = mbase[k] + hs * km[k]
+                        for k in range(3):
+                            psi_l[k] = base_l[k] + hs * kl[k]
+                        for u in range(n_units):
+                            for k in range(3):
+                                psi[u, k] = base[u, k] + hs * kpsi[u, k]
+                    else:
+                        for k in range(NMACH):
+                            ms[k] = mbase[k] + hh / 6.0 * macc[k]
+                        if avr:
+                            ms[2] = min(max(ms[2], src[c, EMIN]), src[c, EMAX])
+                        for u in range(n_units):
+                            if j < bypass_step[u]:
+                                out_energy[c, u] += hh / 6.0 * en_acc[u]
+                        for k in range(3):
+                            psi_l[k] = base_l[k] + hh / 6.0 * acc_l[k]
+                        for u in range(n_units):
+                            for k in range(3):
+                                psi[u, k] = base[u, k] + hh / 6.0 * acc[u, k]
+                    st += 1
     return failed

@@ -5,6 +5,9 @@ The network, per phase k = a, b, c (ABC sequence):
 * source -- EMF e_k = g(t)*sqrt(2)*V/sqrt(3)*sin(omega*t + alpha + theta_k), theta = (0, -120,
   +120) degrees, behind R_s and L_s (wye-equivalent, neutral grounded: zero-sequence impedance
   equal to the positive-sequence one); g is the optional ramp of the EMF (reduced-voltage start);
+  or a synchronous machine (:mod:`core.network.machine`): its EMF behind R_a + jX''_d evolving
+  with its d-axis fluxes and regulator, the machine states integrated with the same
+  Runge-Kutta stages as the loop fluxes, its parameters (and so R_s, L_s) per case;
 * bus -- node voltages v_k = e_k - R_s*i_sk - L_s*di_sk/dt, with an optional constant-impedance
   load R_L, L_L per phase, wye-grounded;
 * units -- each transformer behind its own breaker: line k of unit u runs from the bus through
@@ -96,6 +99,8 @@ from numpy.typing import ArrayLike, NDArray
 
 from core.errors import LimitError, ParameterError
 from core.network import kernel
+from core.network import machine as _machine
+from core.network.machine import Machine
 from core.transformer import EquivalentCircuit, source_impedance
 from core.transformer import Source as _NameplateSource
 from core.transformer.magnetizing import PiecewiseLinearCurve, SmoothKneeCurve
@@ -112,6 +117,7 @@ __all__ = [
     "NetworkResult",
     "Source",
     "Unit",
+    "insertion_substeps",
     "simulate_network",
     "step_plan",
 ]
@@ -326,6 +332,13 @@ class NetworkResult:
         Pole instants used, rounded to the step (0 for units in service) [s].
     approximations : tuple of str
         What the model approximates.
+    emf_pu : ndarray, shape (n_cases, n_samples)
+        The machine's E''_q; 1 for a :class:`Source` (its ramp not included) [pu].
+    field_voltage_pu : ndarray, shape (n_cases, n_samples)
+        The machine's E_fd; 1 for a :class:`Source` [pu].
+    insertion_energy_j : ndarray, shape (n_cases, n_units)
+        Energy each unit's pre-insertion resistor absorbs until its bypass,
+        R_ins * sum over lines of the integral of l_k^2 (the Runge-Kutta quadrature) [J].
     """
 
     time_s: FloatArray
@@ -338,6 +351,9 @@ class NetworkResult:
     steps_per_cycle: int
     closing_time_s: FloatArray
     approximations: tuple[str, ...]
+    emf_pu: FloatArray = field(default_factory=lambda: np.ones((0, 0)))
+    field_voltage_pu: FloatArray = field(default_factory=lambda: np.ones((0, 0)))
+    insertion_energy_j: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
 
 
 APPROXIMATIONS = (
@@ -401,23 +417,24 @@ def _secant_inductance(curve: PiecewiseLinearCurve | SmoothKneeCurve, peak_wb: f
 
 
 def _steady_state(
-    source: Source,
+    e_ph: float,
+    z_s: complex,
+    w: float,
     load: BusLoad | None,
     units: Sequence[Unit],
     connections: Sequence[str],
     phase: FloatArray,
-) -> tuple[FloatArray, FloatArray]:
+) -> tuple[FloatArray, FloatArray, complex]:
     """Winding fluxes of the units in service and the load currents at t = 0.
 
-    Returns (lambda0 [Wb-turn], shape (n_cases, n_units, 3), i_L0 [A], shape (n_cases, 3)).
+    e_ph is the rms phase EMF [V], z_s the source impedance [ohm], w the angular frequency
+    [rad/s]. Returns (lambda0 [Wb-turn], shape (n_cases, n_units, 3), i_L0 [A], shape
+    (n_cases, 3), the bus-voltage phasor of phase a relative to its EMF [V rms]).
     Phasor steady state of the balanced network (positive sequence: the floating neutral
     carries no voltage), sine convention x(t) = Im(sqrt(2)*X*exp(j*omega*t)), with each winding
     at its secant inductance L = lambda_pk/f(lambda_pk), found by fixed-point iteration.
     """
-    w = 2.0 * math.pi * source.frequency_hz
     n = phase.shape[0]
-    e_ph = source.voltage_start_pu * source.line_voltage_v / math.sqrt(3.0)
-    z_s = source.resistance_ohm + 1j * w * source.inductance_h
     y_l = 0.0j if load is None else 1.0 / (load.resistance_ohm + 1j * w * load.inductance_h)
     in_service = [k for k, u in enumerate(units) if u.in_service]
     l_eff = {}
@@ -457,7 +474,51 @@ def _steady_state(
         lam_ph = l_eff[k] * v_w / z_w
         lam0[:, k, :] = math.sqrt(2.0) * np.imag(lam_ph * np.exp(1j * phase))
     il0 = math.sqrt(2.0) * np.imag(y_l * v_bus * np.exp(1j * phase))
-    return lam0, il0
+    return lam0, il0, complex(v_bus)
+
+
+def _start(
+    source: Source | Machine,
+    n: int,
+    load: BusLoad | None,
+    units: Sequence[Unit],
+    connections: Sequence[str],
+    phase: FloatArray,
+) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray]:
+    """The steady state at t = 0 and the source's kernel columns.
+
+    Returns (lambda0 [Wb-turn], (n, n_units, 3); i_L0 [A], (n, 3); src, (n, kernel.NSRC);
+    m0, (n, 4) [pu]): for a :class:`Source` one phasor solution for all cases, for a
+    :class:`core.network.machine.Machine` one per case (E''_q, R, L may differ), from which
+    the machine's d-axis current and bus voltage at rest set its initial states.
+    """
+    w = 2.0 * math.pi * source.frequency_hz
+    v_ph = source.line_voltage_v / math.sqrt(3.0)
+    if isinstance(source, Source):
+        z_s = source.resistance_ohm + 1j * w * source.inductance_h
+        lam0, il0, _ = _steady_state(
+            source.voltage_start_pu * v_ph, z_s, w, load, units, connections, phase
+        )
+        src, m0 = _machine.thevenin_pack(
+            np.full(n, source.resistance_ohm), np.full(n, source.inductance_h)
+        )
+        return lam0, il0, src, m0
+    r, ind = _machine.impedance(source, n)
+    emf = np.broadcast_to(np.asarray(source.emf_pu, dtype=float).ravel(), (n,))
+    lam0 = np.zeros((n, len(units), 3))
+    il0 = np.zeros((n, 3))
+    i_d0 = np.zeros(n)
+    v0 = np.zeros(n)
+    for c in range(n):
+        z_s = complex(r[c], w * ind[c])
+        e_ph = float(emf[c]) * v_ph
+        lam0[c : c + 1], il0[c : c + 1], v_bus = _steady_state(
+            e_ph, z_s, w, load, units, connections, phase[c : c + 1]
+        )
+        i_d0[c] = -((e_ph - v_bus) / z_s).imag if source.dynamic else 0.0
+        v0[c] = abs(v_bus) / v_ph
+    src, m0 = _machine.pack(source, n, i_d0, v0)
+    return lam0, il0, src, m0
 
 
 def _broadcast(name: str, value: ArrayLike, n: int) -> FloatArray:
@@ -471,7 +532,7 @@ def _broadcast(name: str, value: ArrayLike, n: int) -> FloatArray:
     return np.ascontiguousarray(out)
 
 
-def _check_unit(k: int, unit: Unit, source: Source) -> str:
+def _check_unit(k: int, unit: Unit, source: Source | Machine) -> str:
     c = unit.circuit
     where = f"units[{k}]"
     if not isinstance(c, EquivalentCircuit):
@@ -499,17 +560,19 @@ def _check_unit(k: int, unit: Unit, source: Source) -> str:
 
 
 def step_plan(
-    source: Source,
+    source: Source | Machine,
     units: Sequence[Unit],
     duration_s: float,
     load: BusLoad | None = None,
     samples_per_cycle: int = 128,
+    *,
+    substep_insertion: bool = False,
 ) -> tuple[int, int, int]:
     """The internal step of :func:`simulate_network`: decimation, steps per cycle, step count.
 
     Parameters
     ----------
-    source : Source
+    source : Source or Machine
         The source [-].
     units : sequence of Unit
         The transformers on the bus [-].
@@ -519,6 +582,9 @@ def step_plan(
         The bus load, None for none [-].
     samples_per_cycle : int
         Output samples per cycle [-].
+    substep_insertion : bool
+        True leaves the pre-insertion resistors out of the step (the steps while one is in
+        are split into sub-steps, :func:`insertion_substeps`) [-].
 
     Returns
     -------
@@ -534,7 +600,8 @@ def step_plan(
     -----
     spc = samples_per_cycle*ceil(need/samples_per_cycle), need = max(128, 4/(f*tau_min)),
     tau_min the shortest of (L_air + L_s)/(R_w + 2*R_s + k*R_ins) over the units (k = 3 for a
-    delta, 1 otherwise) and (L_L + L_s)/(R_L + R_s) for the load; steps =
+    delta, 1 otherwise) and (L_L + L_s)/(R_L + R_s) for the load, over every case of a
+    machine source (and its T''_do, T_A and T_R when they evolve); steps =
     round(duration*f*samples_per_cycle)*decimation (at least one sample). The same rule as
     :mod:`core.energization.energize_plan`, over every loop of the network; the work estimate
     (:mod:`core.cost`) counts with it.
@@ -545,16 +612,20 @@ def step_plan(
     time constant).
     """
     f = float(source.frequency_hz)
-    r_s, l_s = float(source.resistance_ohm), float(source.inductance_h)
-    taus = [math.inf]
+    if isinstance(source, Machine):
+        r_s, l_s = _machine.impedance(source, _machine.case_count(source))
+    else:
+        r_s, l_s = np.array([source.resistance_ohm]), np.array([source.inductance_h])
+    taus = [math.inf, *_machine_time_constants(source)]
     for u in units:
         c = u.circuit
         conn = u.connection or c.connection
-        k_line = 3.0 if conn == "delta" else 1.0
+        k_line = 0.0 if substep_insertion else (3.0 if conn == "delta" else 1.0)
         r = c.winding_resistance_ohm + 2.0 * r_s + k_line * u.breaker.insertion_resistance_ohm
-        taus.append((c.air_core_inductance_h + l_s) / max(r, 1e-300))
+        taus.append(float(np.min((c.air_core_inductance_h + l_s) / np.maximum(r, 1e-300))))
     if load is not None:
-        taus.append((load.inductance_h + l_s) / max(load.resistance_ohm + r_s, 1e-300))
+        t_load = (load.inductance_h + l_s) / np.maximum(load.resistance_ohm + r_s, 1e-300)
+        taus.append(float(np.min(t_load)))
     need = max(float(MIN_STEPS_PER_CYCLE), 4.0 / (f * min(taus)))
     if need > MAX_STEPS_PER_CYCLE:
         raise ParameterError(
@@ -568,8 +639,80 @@ def step_plan(
     return decimate, spc, n_steps
 
 
+def insertion_substeps(
+    source: Source | Machine, units: Sequence[Unit], steps_per_cycle: int
+) -> IntArray:
+    """Runge-Kutta sub-steps per step while the pre-insertion resistors are in.
+
+    Parameters
+    ----------
+    source : Source or Machine
+        The source [-].
+    units : sequence of Unit
+        The transformers on the bus [-].
+    steps_per_cycle : int
+        Internal steps per cycle of :func:`step_plan` (with ``substep_insertion``) [-].
+
+    Returns
+    -------
+    ndarray of int, shape (n_cases,)
+        ceil(need/spc), at least 1, per case of a machine source (one value for a Source) [-].
+
+    Raises
+    ------
+    ParameterError
+        Naming ``units[k].breaker.insertion_resistance_ohm`` when the inserted loop would need
+        more than MAX_STEPS_PER_CYCLE steps a cycle.
+
+    Notes
+    -----
+    need = 4/(f*tau_ins), tau_ins the shortest (L_air + L_s)/(R_w + 2*R_s + k*R_ins) over the
+    units with a resistor (k = 3 for a delta, 1 otherwise), per case: the step rule of
+    :func:`step_plan` applied to the loops while the resistor is in.
+
+    References
+    ----------
+    This project's step rule (four steps per saturated time constant).
+    """
+    f = float(source.frequency_hz)
+    if isinstance(source, Machine):
+        r_s, l_s = _machine.impedance(source, _machine.case_count(source))
+    else:
+        r_s, l_s = np.array([source.resistance_ohm]), np.array([source.inductance_h])
+    sub = np.ones(r_s.size, dtype=np.int64)
+    for k, u in enumerate(units):
+        r_ins = u.breaker.insertion_resistance_ohm
+        if r_ins <= 0.0:
+            continue
+        c = u.circuit
+        k_line = 3.0 if (u.connection or c.connection) == "delta" else 1.0
+        r = c.winding_resistance_ohm + 2.0 * r_s + k_line * r_ins
+        need = 4.0 * r / (f * (c.air_core_inductance_h + l_s))
+        if np.any(need > MAX_STEPS_PER_CYCLE):
+            raise ParameterError(
+                f"units[{k}].breaker.insertion_resistance_ohm",
+                r_ins,
+                f"a resistor giving an inserted-loop time constant of at least "
+                f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s",
+            )
+        sub = np.maximum(sub, np.ceil(need / steps_per_cycle).astype(np.int64))
+    return sub
+
+
+def _machine_time_constants(source: Source | Machine) -> list[float]:
+    """T''_do, T_A and T_R (those > 0) of a machine whose states evolve [s]; none otherwise."""
+    if not (isinstance(source, Machine) and source.dynamic):
+        return []
+    reg = source.regulator
+    values = [source.t_d2o_s]
+    if reg is not None:
+        values += [reg.time_constant_s, reg.sensing_time_constant_s]
+    out = [float(np.min(np.asarray(v, dtype=float))) for v in values]
+    return [t for t in out if t > 0.0 and math.isfinite(t)]
+
+
 def simulate_network(
-    source: Source,
+    source: Source | Machine,
     units: Sequence[Unit],
     *,
     closing_angle_deg: ArrayLike,
@@ -577,17 +720,20 @@ def simulate_network(
     load: BusLoad | None = None,
     samples_per_cycle: int = 128,
     max_steps: int | None = None,
+    substep_insertion: bool = False,
 ) -> NetworkResult:
     """Simulate the energisation of transformers on one bus, for many cases at once.
 
     Parameters
     ----------
-    source : Source
-        The source and its EMF ramp [-].
+    source : Source or Machine
+        The source and its EMF ramp, or a synchronous machine
+        (:class:`core.network.machine.Machine`, per-case parameters) [-].
     units : sequence of Unit
         The transformers on the bus, each behind its breaker (at least one) [-].
     closing_angle_deg : array_like, shape (n_cases,) or scalar
-        Angle of the phase-A EMF e_a = sqrt(2)*V/sqrt(3)*sin(omega*t + alpha) at t = 0 [deg].
+        Angle of the phase-A EMF e_a = sqrt(2)*V/sqrt(3)*sin(omega*t + alpha) at t = 0 (of the
+        machine's rotating flux, E''_q's axis, for a machine) [deg].
     duration_s : float
         Simulated time from t = 0 [s].
     load : BusLoad or None
@@ -597,6 +743,11 @@ def simulate_network(
         Output samples per cycle, in [4, 100000] [-].
     max_steps : int or None
         Compute limit: most unit-steps (cases x units x internal steps) allowed [-].
+    substep_insertion : bool
+        False: the step is short enough for every loop with its pre-insertion resistor in,
+        throughout. True: the step ignores the resistors and the steps before the last bypass
+        are split into :func:`insertion_substeps` equal sub-steps (a long run with a short
+        insertion) [-].
 
     Returns
     -------
@@ -617,24 +768,19 @@ def simulate_network(
     tau_min the shortest of (L_air + L_s)/(R_w + 2*R_s + k*R_ins) over the units (k = 3 for a
     delta, 1 otherwise) and (L_L + L_s)/(R_L + R_s) for the load; the record holds
     round(duration*f*samples_per_cycle) + 1 samples from t = 0. Pole instants, the bypass and
-    the ramp's corners are rounded to the step.
+    the ramp's corners are rounded to the step. A machine source's EMF and states follow
+    :mod:`core.network.machine`; its R_a and X''_d are the Thevenin R_s and L_s of each case.
 
     References
     ----------
     H. W. Dommel, IEEE Trans. PAS-88(4), 1969 (multiphase network formulation; from memory);
     classical Runge-Kutta (Kutta 1901).
     """
-    if not isinstance(source, Source):
-        raise ParameterError("source", type(source).__name__, "a Source")
+    if not isinstance(source, Source | Machine):
+        raise ParameterError("source", type(source).__name__, "a Source or a Machine")
     f = _finite("source.frequency_hz", source.frequency_hz, 0.0, low_open=True)
     _finite("source.line_voltage_v", source.line_voltage_v, 0.0, low_open=True)
-    r_s = _finite("source.resistance_ohm", source.resistance_ohm, 0.0)
-    l_s = _finite("source.inductance_h", source.inductance_h, 0.0)
-    g0 = _finite("source.voltage_start_pu", source.voltage_start_pu, 0.0, low_open=True)
-    if g0 > 1.0:
-        raise ParameterError("source.voltage_start_pu", g0, "in (0, 1]")
-    t_hold = _finite("source.voltage_hold_s", source.voltage_hold_s, 0.0)
-    t_rise = _finite("source.voltage_rise_s", source.voltage_rise_s, 0.0)
+    g0, t_hold, t_rise = _ramp(source)
     if not (math.isfinite(duration_s) and duration_s > 0.0):
         raise ParameterError("duration_s", duration_s, "a finite number > 0")
     if not (isinstance(samples_per_cycle, int) and 4 <= samples_per_cycle <= 100_000):
@@ -652,6 +798,8 @@ def simulate_network(
     if alpha.ndim != 1 or not np.all(np.isfinite(alpha)):
         raise ParameterError("closing_angle_deg", "shape or value", "finite, scalar or 1-D")
     n_from = [alpha.size]
+    if isinstance(source, Machine):
+        n_from.append(_machine.case_count(source))
     for u in units:
         for v in (u.breaker.closing_time_s, u.residual_flux_pu):
             a = np.asarray(v)
@@ -675,7 +823,9 @@ def simulate_network(
         if np.any(np.abs(residual[:, k]) > 5.0):
             raise ParameterError(name, float(np.abs(residual[:, k]).max()), "in [-5, 5]")
 
-    decimate, spc, n_steps = step_plan(source, units, duration_s, load, samples_per_cycle)
+    decimate, spc, n_steps = step_plan(
+        source, units, duration_s, load, samples_per_cycle, substep_insertion=substep_insertion
+    )
     h = 1.0 / (f * spc)
     work = n * n_units * n_steps
     if max_steps is not None and work > max_steps:
@@ -702,7 +852,7 @@ def simulate_network(
     if g0 == 1.0:
         kh = ke = 0
     phase = np.deg2rad(alpha)[:, None] + _PHASE_SHIFT[None, :]
-    lam_ss, il0 = _steady_state(source, load, units, connections, phase)
+    lam_ss, il0, src, m0 = _start(source, n, load, units, connections, phase)
     lam_n = np.array([u.circuit.nominal_flux_wb for u in units])
     lam0 = np.where(
         np.array([u.in_service for u in units])[None, :, None],
@@ -718,11 +868,13 @@ def simulate_network(
     out_line = np.zeros((n, n_units, 3, n_samples))
     out_wind = np.zeros((n, n_units, 3, n_samples))
     out_flux = np.zeros((n, n_units, 3, n_samples))
+    out_mach = np.zeros((n, 2, n_samples))
+    out_energy = np.zeros((n, n_units))
     failed = kernel.integrate(
         n_steps, decimate, h, 2.0 * math.pi * f,
         math.sqrt(2.0) * source.line_voltage_v / math.sqrt(3.0),
         np.ascontiguousarray(phase), np.array([g0, slope]), np.array([kh, ke], dtype=np.int64),
-        r_s, l_s, r_l, l_l, load is not None,
+        np.ascontiguousarray(src), np.ascontiguousarray(m0), r_l, l_l, load is not None,
         np.array([CONNECTION_CODE[c] for c in connections], dtype=np.int64),
         np.array([u.circuit.winding_resistance_ohm for u in units]),
         np.array([u.breaker.insertion_resistance_ohm for u in units]),
@@ -730,7 +882,13 @@ def simulate_network(
         np.ascontiguousarray(close_step), np.ascontiguousarray(lam0),
         np.ascontiguousarray(il0, dtype=float),
         NEWTON_TOLERANCE_PU * lam_n, NEWTON_TOLERANCE_PU * float(lam_n.min()),
-        out_src, out_bus, out_line, out_wind, out_flux,
+        out_src, out_bus, out_line, out_wind, out_flux, out_mach, out_energy,
+        int(bypass.max()) if substep_insertion else 0,
+        np.ascontiguousarray(
+            np.broadcast_to(insertion_substeps(source, units, spc), (n,))
+            if substep_insertion
+            else np.ones(n, dtype=np.int64)
+        ),
     )  # fmt: skip
     if failed:
         raise ParameterError(
@@ -753,4 +911,22 @@ def simulate_network(
         steps_per_cycle=spc,
         closing_time_s=close_step.astype(float) * h,
         approximations=APPROXIMATIONS,
+        emf_pu=out_mach[:, 0],
+        field_voltage_pu=out_mach[:, 1],
+        insertion_energy_j=out_energy
+        * np.array([u.breaker.insertion_resistance_ohm for u in units]),
     )
+
+
+def _ramp(source: Source | Machine) -> tuple[float, float, float]:
+    """The EMF ramp (start [pu], hold [s], rise [s]) after checks; none for a machine."""
+    if isinstance(source, Machine):
+        return 1.0, 0.0, 0.0
+    _finite("source.resistance_ohm", source.resistance_ohm, 0.0)
+    _finite("source.inductance_h", source.inductance_h, 0.0)
+    g0 = _finite("source.voltage_start_pu", source.voltage_start_pu, 0.0, low_open=True)
+    if g0 > 1.0:
+        raise ParameterError("source.voltage_start_pu", g0, "in (0, 1]")
+    t_hold = _finite("source.voltage_hold_s", source.voltage_hold_s, 0.0)
+    t_rise = _finite("source.voltage_rise_s", source.voltage_rise_s, 0.0)
+    return g0, t_hold, t_rise

@@ -14,11 +14,13 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
+from typing import Literal
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core.energization import energize
+from core.energization.switching_event import SwitchingEvent, plain_event_arrays
 from core.errors import ParameterError
 from core.protection import coordination, damage_curves, device_operation, fuse_breaker_curves
 from core.transformer.circuit_model import EquivalentCircuit
@@ -173,11 +175,10 @@ def device_curves(
 
 def clearance_study(
     circuit: EquivalentCircuit,
-    closing_angle_deg: float | None,
-    residual_flux_pu: ArrayLike,
-    pole_delay_s: ArrayLike,
+    event: SwitchingEvent,
     devices: Sequence[device_operation.Device],
     *,
+    closing: Literal["given", "worst"] = "given",
     rating_va: float,
     impedance_percent: float,
     duration_s: float = 2.0,
@@ -197,16 +198,17 @@ def clearance_study(
     ----------
     circuit : EquivalentCircuit
         Energisation circuit (nameplate mode) [-].
-    closing_angle_deg : float or None
-        Phase-A voltage angle at t = 0; None for the worst closing angle for the given residual
-        flux (found by :func:`core.energization.energize.worst_closing_angle`) [deg].
-    residual_flux_pu : array_like
-        Residual flux per winding [pu of lambda_N].
-    pole_delay_s : array_like
-        Pole closing delays [s].
+    event : SwitchingEvent
+        The energisation (:func:`core.energization.switching_event.switching_event` for this
+        circuit, a plain closing: no resistor, no ramp): closing angle, residual flux per
+        winding, pole closing delays [-].
     devices : sequence of Relay, Fuse, Breaker or Differential
         Candidates (distinct names), in amperes on the energised side; a differential is judged
         on the sampled line currents and has no tabulated curve [-].
+    closing : str
+        ``"given"``: the event's closing angle; ``"worst"``: the worst closing angle for its
+        residual flux and pole delays (found by
+        :func:`core.energization.energize.worst_closing_angle`) [-].
     rating_va : float
         Transformer rating, for the damage category [VA].
     impedance_percent : float
@@ -246,16 +248,19 @@ def clearance_study(
     """
     if not devices:
         raise ParameterError("devices", 0, "at least one device")
+    if closing not in ("given", "worst"):
+        raise ParameterError("closing", closing, "given or worst")
+    residual_flux_pu, pole_delay_s = plain_event_arrays(circuit, event)
     f = circuit.frequency_hz
     warnings: list[tuple[str, str]] = list(circuit.warnings)
-    if closing_angle_deg is None:
+    if closing == "worst":
         worst = energize.worst_closing_angle(
             circuit, residual_flux_pu, pole_delay_s, max_steps=max_steps
         )
         angle = worst.closing_angle_deg
         angle_source = "worst closing angle for the given residual flux (simulated search)"
     else:
-        angle = float(closing_angle_deg)
+        angle = float(event.closing_angle_deg)
         angle_source = "given"
     sim = energize.simulate(
         circuit,

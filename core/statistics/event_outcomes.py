@@ -27,7 +27,6 @@ from numpy.typing import NDArray
 from core import checks
 from core.energization import energize
 from core.energization.inrush_study import line_names
-from core.energization.switching_event import switching_events
 from core.protection import coordination, device_operation
 from core.statistics import monte_carlo
 from core.supply import dip
@@ -36,7 +35,7 @@ from core.transformer.circuit_model import EquivalentCircuit
 
 FloatArray = NDArray[np.float64]
 
-__all__ = ["DeviceOdds", "DipOdds", "device_operation_odds", "dip_exceedance_odds"]
+__all__ = ["DeviceOdds", "DipOdds", "device_odds", "device_operation_odds", "dip_exceedance_odds"]
 
 _MAX_EVENTS = 100_000
 _POLES_STATED = "poles close at a "
@@ -166,6 +165,38 @@ def device_operation_odds(
             for j, d in enumerate(ev.devices):
                 trips[j, start + k] = float(d.ride_through.trips)
                 margins[j, start + k] = d.ride_through.margin_ratio
+    return device_odds(devices, trips, margins)
+
+
+def device_odds(
+    devices: Sequence[device_operation.Device], trips: FloatArray, margins: FloatArray
+) -> tuple[DeviceOdds, ...]:
+    """Each device's share of operations over the events judged, with its interval.
+
+    Parameters
+    ----------
+    devices : sequence of Relay, Fuse or Breaker
+        The devices judged [-].
+    trips : ndarray, shape (n_devices, n_events)
+        1 where the device operated on the event, else 0 [-].
+    margins : ndarray, shape (n_devices, n_events)
+        Its ride-through margin on each event [-].
+
+    Returns
+    -------
+    tuple of DeviceOdds
+        In the order of ``devices``.
+
+    Notes
+    -----
+    k/n operations with the Clopper-Pearson interval
+    (:func:`core.statistics.monte_carlo.exceedance_probability` above 0.5); the smallest
+    margin over the events.
+
+    References
+    ----------
+    C. J. Clopper, E. S. Pearson, Biometrika 26(4), 1934 (from memory).
+    """
     return tuple(
         DeviceOdds(
             d.name,
@@ -222,10 +253,7 @@ def dip_exceedance_odds(
     span = checks.in_range("duration_s", duration_s, 0.1, 30.0, open_low=False)
     dips = np.empty(n)
     approximations: tuple[str, ...] = ()
-    drawn = switching_events(
-        circuit, dist.closing_angle_deg[:n], dist.residual_flux_pu[:n], dist.pole_delay_s[:n]
-    )
-    for k, event in enumerate(drawn):
+    for k, event in enumerate(dist.events(circuit, n)):
         if checkpoint is not None:
             checkpoint()
         study = dip.energize_from_source(

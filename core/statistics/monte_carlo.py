@@ -26,6 +26,7 @@ from scipy import stats
 from core import checks
 from core.energization import energize
 from core.energization.inrush_study import line_names
+from core.energization.switching_event import SwitchingEvent, switching_events
 from core.errors import ParameterError
 from core.transformer.circuit_model import EquivalentCircuit
 
@@ -41,10 +42,13 @@ __all__ = [
     "PeakDistribution",
     "Percentiles",
     "UniformResidual",
+    "convergence_of",
     "exceedance_probability",
     "order_statistic_interval",
     "peak_distribution",
+    "percentiles_of",
     "pole_scatter_sigma_ms",
+    "sample_residual",
 ]
 
 # Two-sided confidence level of every interval in this module [-].
@@ -193,6 +197,37 @@ class PeakDistribution:
         out: FloatArray = self.peaks_a.max(axis=1)
         return out
 
+    def events(self, circuit: EquivalentCircuit, count: int) -> tuple[SwitchingEvent, ...]:
+        """The first ``count`` sampled energisations as switching events of ``circuit``.
+
+        Parameters
+        ----------
+        circuit : EquivalentCircuit
+            A circuit of the phase count the sample was drawn for; its source may differ (e.g.
+            the same unit on an ideal source, for a machine to replace it) [-].
+        count : int
+            How many, from the first, at most the samples [-].
+
+        Returns
+        -------
+        tuple of SwitchingEvent
+            Event k: (closing_angle_deg[k], residual_flux_pu[k], pole_delay_s[k]).
+
+        Notes
+        -----
+        Built and checked at once by :func:`core.energization.switching_event.switching_events`.
+
+        References
+        ----------
+        This project's switching event.
+        """
+        return switching_events(
+            circuit,
+            self.closing_angle_deg[:count],
+            self.residual_flux_pu[:count],
+            self.pole_delay_s[:count],
+        )
+
 
 @dataclass(frozen=True)
 class Exceedance:
@@ -291,15 +326,69 @@ def order_statistic_interval(
     return low, high
 
 
-def _percentiles(peaks: FloatArray) -> Percentiles:
+def percentiles_of(peaks: FloatArray) -> Percentiles:
+    """Percentiles of a peak sample, with the distribution-free interval of its P99.
+
+    Parameters
+    ----------
+    peaks : ndarray, shape (n,)
+        The sample, n >= 1 [A].
+
+    Returns
+    -------
+    Percentiles
+
+    Notes
+    -----
+    P50, P95, P99 by numpy's default linear interpolation (Hyndman & Fan type 7); the P99
+    interval by :func:`order_statistic_interval` at :data:`CONFIDENCE_LEVEL`.
+
+    References
+    ----------
+    R. J. Hyndman, Y. Fan, "Sample quantiles in statistical packages," The American
+    Statistician 50(4), 1996 (from memory).
+    """
     ordered = np.sort(peaks)
     p50, p95, p99 = (float(v) for v in np.percentile(ordered, _PERCENTILES))
     return Percentiles(p50, p95, p99, float(ordered[-1]), order_statistic_interval(ordered, 0.99))
 
 
-def _sample_residual(
+def sample_residual(
     spec: ResidualSpec, windings: int, samples: int, rng: np.random.Generator
 ) -> FloatArray:
+    """Residual flux of every sample, drawn from ``rng`` (nothing drawn for a fixed one).
+
+    Parameters
+    ----------
+    spec : FixedResidual or UniformResidual
+        The distribution [pu of lambda_N].
+    windings : int
+        Windings of the unit, 1 or 3 [-].
+    samples : int
+        Samples drawn [-].
+    rng : numpy.random.Generator
+        The generator, advanced by the draw [-].
+
+    Returns
+    -------
+    ndarray, shape (samples, windings)
+        Residual flux [pu of lambda_N].
+
+    Raises
+    ------
+    ParameterError
+        On a value out of range (named ``residual.*``).
+
+    Notes
+    -----
+    Uniform: b ~ U(low, high) per winding, then (random_sign) b *= s, s = +-1 with equal
+    probability, then (zero_sum) b -= mean(b) over the windings; the draws in that order, all
+    samples at once.
+
+    References
+    ----------
+    The typical range: see :class:`UniformResidual` (from memory).
+    """
     if isinstance(spec, FixedResidual):
         values = np.asarray(spec.flux_pu, dtype=float)
         if values.shape != (windings,):
@@ -323,7 +412,26 @@ def _sample_residual(
     return out
 
 
-def _convergence(worst: FloatArray) -> Convergence:
+def convergence_of(worst: FloatArray) -> Convergence:
+    """P99 and its interval from the first N samples, N = 250, 500, 1000, ... and all.
+
+    Parameters
+    ----------
+    worst : ndarray, shape (n,)
+        The sample in the order it was drawn [A].
+
+    Returns
+    -------
+    Convergence
+
+    Notes
+    -----
+    Each row is :func:`percentiles_of` of the first N values (its P99 and interval).
+
+    References
+    ----------
+    See :func:`order_statistic_interval`.
+    """
     n = worst.size
     sizes: list[int] = []
     k = _CONVERGENCE_START
@@ -418,7 +526,7 @@ def peak_distribution(
 
     rng = np.random.default_rng(random_state)
     angles: FloatArray = rng.uniform(0.0, 360.0, size=n)
-    res = _sample_residual(spec, m, n, rng)
+    res = sample_residual(spec, m, n, rng)
     raw: FloatArray = rng.normal(0.0, sigma_ms * 1e-3, size=(n, m))
     delays: FloatArray = raw - raw.min(axis=1, keepdims=True)
     duration = window / circuit.frequency_hz + float(delays.max())
@@ -442,9 +550,9 @@ def peak_distribution(
     worst: FloatArray = peaks.max(axis=1)
     return PeakDistribution(
         lines=line_names(circuit),
-        by_line=tuple(_percentiles(peaks[:, j]) for j in range(m)),
-        worst_line=_percentiles(worst),
-        convergence=_convergence(worst),
+        by_line=tuple(percentiles_of(peaks[:, j]) for j in range(m)),
+        worst_line=percentiles_of(worst),
+        convergence=convergence_of(worst),
         peaks_a=peaks,
         closing_angle_deg=angles,
         residual_flux_pu=res,

@@ -1,5 +1,5 @@
 """The supply: utility source and synchronous machine with its regulator, dip limits, the coupled
-dip simulation (cases built in ``dip_cases``, solved by the private compiled ``dip_kernel``),
+dip simulation (cases built in ``dip_cases`` as networks, solved by :mod:`core.network`),
 generator sizing and the dip study."""
 
 from __future__ import annotations

@@ -34,28 +34,28 @@ Model (per case, three phases; SI, the machine states per unit on the machine ra
   V_s the magnitude of the terminal-voltage space vector (Park d and q components, no zero
   sequence) through a transducer lag T_R (IEEE Std 421.5 structure, from memory); or a constant
   field.
-* Transformer: each winding of the :class:`core.transformer.circuit_model.EquivalentCircuit` with
-its
-  magnetising curve; an optional constant-impedance bus load in parallel at the terminals.
-  Loop fluxes as states; see :mod:`core.supply.dip_kernel`.
+* Transformer: each winding of the :class:`core.transformer.circuit_model.EquivalentCircuit`
+  with its magnetising curve, connected as it is (grounded wye, floating wye, delta) and solved
+  as the three-phase circuit it forms with the source: a delta's windings close their loop
+  through the source's phases, a floating neutral carries no current; an optional
+  constant-impedance bus load in parallel at the terminals. The network solver
+  :func:`core.network.simulate_network` with the machine as its source
+  (:mod:`core.network.machine`) integrates it; loop fluxes as states.
 * Pre-insertion resistor (optional): a linear resistor R in each line of the energising
   breaker, between the terminals (where the dip is measured and the bus load is connected) and
   the transformer, from closing until ``insertion_time_s``, then bypassed on all poles
-  together. It adds R to the transformer branch of each wye loop and 2R to each delta winding
-  loop (a winding on the line-to-line EMF closes through two lines, as it closes through two
-  source phases behind 2 x Z_s: exact while one winding carries the inrush; a balanced set
-  would see 3R, so the model damps less, which errs towards a deeper dip). It damps the inrush
-  while in; the flux it leaves in the windings at the bypass sets the inrush that follows. A
-  small resistor damps the flux offset little; a very large one leaves the windings almost no
-  voltage, the core ends demagnetised, and the bypass becomes the energisation (the demo case:
-  0.1 ohm for one cycle dips 6.8 %, 20 ohm 15 %, none 54 %), so a best value lies between.
-  The energy it absorbs is E = R * sum over lines of the integral of i^2 from 0 to the bypass.
+  together. It damps the inrush while in; the flux it leaves in the windings at the bypass
+  sets the inrush that follows. A small resistor damps the flux offset little; a very large
+  one leaves the windings almost no voltage, the core ends demagnetised, and the bypass
+  becomes the energisation, so a best value lies between. The energy it absorbs is
+  E = R * sum over lines of the integral of i^2 from 0 to the bypass.
 * Pole closing instants (optional, ``pole_delay_s``): pole k of the breaker closes t_k after
-  the command at t = 0, as in :func:`core.energization.energize.simulate`. A wye winding carries no
-  current and keeps its residual flux until its pole closes; a delta winding (ab, bc, ca) until the
-  later of its two poles closes (the series path through the other windings before that is
-  neglected). The bus load is on the source side of the breaker and is unaffected; a
-  pre-insertion resistor stays timed from t = 0. The instants are rounded to the internal step.
+  the command at t = 0, as in :func:`core.energization.energize.simulate`. A grounded-wye
+  winding conducts from its pole's closing; a floating wye's windings and a delta's from the
+  second pole's (a delta's two windings on the still-open terminal in series until the third
+  closes); until then each keeps its residual flux. The bus load is on the source side of the
+  breaker and is unaffected; a pre-insertion resistor stays timed from t = 0. The instants are
+  rounded to the internal step.
 
 Numerics: classical fixed-step Runge-Kutta, at least 128 steps per cycle, compiled with numba.
 Per-cycle rms of the terminal voltages is taken from the step samples over the cycles
@@ -66,15 +66,16 @@ raise ``steps_per_cycle`` or use the smooth knee where that matters. While a pre
 resistor is in, each step is split into sub-steps no longer than a quarter of the loop's
 shortest time constant with it in; the bypass falls on a step boundary. Measured against
 scipy's Radau (rtol 1e-9) with the resistor in for 1.5 cycles on the demo case with a bus load,
-grounded wye and delta, 0.02 ohm at 128 and 1 ohm at 512 steps per cycle: per-cycle rms
-voltages within 4.6e-6 pu, per-cycle current peaks within 4.1e-5 of the first peak, the
-resistor's energy within 1.5e-5 (relative). At 1 ohm and 128 steps per cycle the voltages are
-within 1.0e-5 pu and the energy 3.8e-5, but the peaks of the magnetising current's short
-spikes past a sharp knee are sampled up to 3.9e-3 of the first peak low. With the poles closing
-at 0, 2.1 and 4.7 ms (on the step: 0, 2.083, 4.688 ms), 128 steps per cycle, the same demo case
-against Radau with each winding switched on at its instant: grounded wye within 2.4e-6 pu on
-the per-cycle rms voltages, 1.8e-5 of the first peak on the per-cycle peaks and 7.9e-7 on the
-first peak; delta 1.3e-5 pu, 1.8e-5 and 2.9e-6.
+0.02 ohm at 128 and 1 ohm at 512 steps per cycle: grounded wye per-cycle rms voltages within
+4.6e-6 pu, per-cycle current peaks within 3.7e-5 of the first peak, the resistor's energy
+within 1.5e-5 (relative); delta (the real three-phase circuit) rms within 7.8e-6 pu, energy
+1.8e-5, per-cycle peaks 3.2e-4 (the sampled tops of the line currents' spikes past the sharp
+knee, differences of two winding currents). With the poles closing at 0, 2.1 and 4.7 ms (on
+the step: 0, 2.083, 4.688 ms), 128 steps per cycle, the same demo case against Radau with each
+winding switched on when its circuit closes: grounded wye within 2.7e-6 pu on the per-cycle rms
+voltages, 1.2e-5 of the first peak on the per-cycle peaks and 7.9e-7 on the first peak; delta
+2.3e-5 pu, 1.0e-3 (sampled spikes, 5.1e-4 at 512 steps per cycle) and 2.0e-6. The machine with
+its regulator against an independent reference: tests/references/test_machine_vs_scipy.py.
 
 References
 ----------
@@ -143,19 +144,8 @@ _COMMON = (
 )
 APPROXIMATIONS: dict[str, tuple[str, ...]] = {
     "wye_grounded": _COMMON,
-    "wye": (
-        *_COMMON,
-        "floating-neutral wye treated as grounded wye (independent windings); a floating "
-        "neutral gives lower inrush, so this is conservative for the dip",
-    ),
-    "delta": (
-        *_COMMON,
-        "delta windings as independent loops on the line-to-line EMF behind twice the per-phase "
-        "source impedance (exact while one winding carries the inrush); terminal voltages from "
-        "the line currents through the actual source impedance",
-        "delta: the bus load is its own loop on the phase EMF; it and the windings do not see "
-        "each other's drop",
-    ),
+    "wye": _COMMON,
+    "delta": _COMMON,
 }
 _INSERTION = (
     "pre-insertion resistor: linear and ideal (no heating change of R, no bypass-contact "
@@ -172,17 +162,11 @@ _POLES = (
     "together at t = 0"
 )
 _POLES_STAGGERED = {
-    "delta": "delta with staggered poles: a winding is energised when the later of its two "
-    "poles closes; the series path through the other two windings before that is neglected",
-    "wye": "floating-neutral wye with staggered poles: treated as grounded, each winding is "
-    "energised when its own pole closes, where a floating neutral carries no current until "
-    "two poles are closed",
+    "delta": "delta with staggered poles: its windings conduct once two poles are closed, the "
+    "two on the still-open terminal in series until the third closes",
+    "wye": "floating-neutral wye with staggered poles: its windings conduct once two poles are "
+    "closed (the neutral carries no current)",
 }
-_INSERTION_DELTA = (
-    "delta with a pre-insertion resistor: each winding loop sees the line resistor twice (2R, "
-    "like its 2 x source impedance): exact while one winding carries the inrush; a balanced set "
-    "would see 3R, so the model damps less (larger currents, deeper dip, more energy)",
-)
 
 
 @dataclass(frozen=True)
@@ -422,7 +406,7 @@ def _pole_approximations(
     approximations: tuple[str, ...], connection: str, used_s: FloatArray, half_step_s: float
 ) -> tuple[str, ...]:
     """The approximations with the poles' closing instants stated instead of "together"."""
-    until = "the later of its two poles" if connection == "delta" else "its pole"
+    until = "its pole" if connection == "wye_grounded" else "the second pole"
     text = _POLES.format(*(1e3 * used_s), half=half_step_s, until=until)
     out = (*(_BANK if a == _BANK + _TOGETHER else a for a in approximations), text)
     if connection in _POLES_STAGGERED and np.ptp(used_s) > 0.0:
@@ -580,8 +564,8 @@ def energize_from_source(
     E = R * sum over lines k of the integral from 0 to t_b of i_k^2 dt [J] (Joule's law), i_k
     the transformer line currents.
 
-    With pole closing instants t_k a wye winding k is energised at t_k, a delta winding ab at
-    max(t_a, t_b) (bc, ca alike), as :func:`core.energization.energize.simulate` does; the
+    With pole closing instants t_k a grounded-wye winding k is energised at t_k, a floating
+    wye's and a delta's windings at the second pole's instant (:mod:`core.network.solver`); the
     event's closing angle stays the phase-A angle at t = 0, so the phase-A voltage angle when
     pole a closes is alpha + 360*f*t_a [deg]. The cycles are counted from t = 0, the command.
     The hand method closes all poles together at t = 0 (:meth:`SwitchingEvent.closed_at_once`).
@@ -796,8 +780,6 @@ def _timing_notes(
         )
         return approximations
     approximations += (_INSERTION[0].format(bypass=raw.bypass_time_s, half=half),)
-    if circuit.connection == "delta":
-        approximations += _INSERTION_DELTA
     if raw.bypass_time_s >= (n_cyc - 0.25 / raw.steps_per_cycle) / f:
         warnings.append(
             (

@@ -1,20 +1,19 @@
 """Case building, step planning and validation behind :mod:`core.supply.dip`.
 
-:func:`build_case` reduces a source and a transformer circuit to the packed arrays of
-:mod:`core.supply.dip_kernel` together with the pre-event steady state; :func:`run` chooses the step
-(at least 128 per cycle, short enough for every time constant, with sub-steps while a
-pre-insertion resistor is in), puts the breaker poles' closing instants on the step grid,
-calls the compiled kernel :func:`core.supply.dip_kernel.integrate` on every case and returns
-per-cycle results. The equations the kernel integrates are in :mod:`core.supply.dip_kernel`; the
-physics, its simplifications and references in :mod:`core.supply.dip` and
-:mod:`core.supply.sources`.
+:func:`build_case` reduces a source and a transformer's event to a network case together with
+the pre-event steady state (:mod:`core.supply.dip_network`); :func:`run` chooses the step (at
+least 128 per cycle, short enough for every time constant, with sub-steps while a
+pre-insertion resistor is in), puts the breaker poles' closing instants and the bypass on the
+step grid, runs every case on the network solver (:func:`core.network.simulate_network` with a
+:class:`core.network.Machine` source) and returns per-cycle results. The equations are in
+:mod:`core.network.solver` and :mod:`core.network.machine`; the dip study's physics and
+references in :mod:`core.supply.dip` and :mod:`core.supply.sources`.
 """
 
 from __future__ import annotations
 
-import cmath
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Protocol
 
@@ -24,45 +23,10 @@ from numpy.typing import ArrayLike, NDArray
 from core import checks
 from core.energization.switching_event import SwitchingEvent
 from core.errors import ParameterError
-from core.supply.dip_kernel import (
-    AMP,
-    AVR,
-    BETA,
-    C0,
-    DYN,
-    EB,
-    EMAX,
-    EMIN,
-    HLD,
-    HTR,
-    IB,
-    KA,
-    LAM0,
-    LL,
-    LPH,
-    LS,
-    NCP,
-    NLP,
-    PHS,
-    RA,
-    RL,
-    RPH,
-    RS,
-    RW,
-    T1O,
-    T2O,
-    TA,
-    TR,
-    VREF,
-    X1,
-    X2,
-    XD,
-    Case,
-    integrate,
-    pack_curve,
-)
+from core.network import BusLoad
+from core.supply import dip_network
+from core.supply.dip_network import NetworkCase as Case
 from core.transformer.circuit_model import EquivalentCircuit
-from core.transformer.magnetizing import PiecewiseLinearCurve
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -129,7 +93,7 @@ def build_case(
     load_w_var: tuple[float, float] | None,
     v0_pu: float,
 ) -> Case:
-    """Pack one case and its pre-event steady state.
+    """One case and its pre-event steady state.
 
     Parameters
     ----------
@@ -140,7 +104,7 @@ def build_case(
     event : SwitchingEvent
         The energisation, checked by :func:`check_inputs`: its closing angle (phase-A terminal
         voltage angle at t = 0), residual flux per winding and pre-insertion resistor in each
-        line to the transformer are packed here; whether and how long the resistor is in, and
+        line to the transformer are taken here; whether and how long the resistor is in, and
         the pole instants, are decided by :func:`run` [-].
     load_w_var : tuple of float or None
         Bus load (P, Q) at rated voltage, constant impedance; None for none [W, var].
@@ -151,278 +115,64 @@ def build_case(
     -------
     Case
 
+    Raises
+    ------
+    ParameterError
+        Naming ``excitation.ceiling_pu`` when the regulator cannot hold the pre-event field,
+        ``bus_load.reactive_power_var`` when the load loop is too stiff for the step.
+
     Notes
     -----
-    Steady state before closing, phasors in the sine convention: V = V_0∠alpha,
-    I_L = V/Z_L, E'' = V + (R + jX)*I_L; in E'''s frame I_q - j*I_d = I_L*e^(-j*beta)/I_b;
-    E'_q = E''_q + (X'_d - X''_d)*I_d, E_fd = E'_q + (X_d - X'_d)*I_d (the d-axis equations at
-    rest), V_ref = V_0 + E_fd/K_A.
-
-    With the resistor R in, a transformer loop's resistance is R_w + k*R + R_s,loop (k = 1 for
-    wye, 2 for a delta winding loop, which closes through two lines) and its shortest time
-    constant (L_air + L_loop)/(R_w + k*R + R_s,loop), L_loop the source inductance the loop
-    sees (in parallel with the bus load's for wye). The largest R for which that time constant
-    stays at or above 4 steps of the finest allowed step, 4/(f*MAX_STEPS_PER_CYCLE), is
-    ``insertion_limit_ohm``.
+    Steady state before closing (:func:`core.supply.dip_network.pre_event`): V = V_0∠alpha,
+    I_L = V/Z_L, E'' = V + (R + jX)*I_L; E'_q = E''_q + (X'_d - X''_d)*I_d,
+    E_fd = E'_q + (X_d - X'_d)*I_d. A purely resistive load is given an inductance of
+    0.1 % of its resistance (the network's load branch needs one).
 
     References
     ----------
-    Steady state and d-axis equations: P. Kundur, "Power System Stability and Control",
-    McGraw-Hill, 1994, ch. 4-5 -- from memory; the loops as in :mod:`core.supply.dip_kernel`.
+    Kirchhoff's laws; P. Kundur, 1994, ch. 5 and 8 -- from memory.
     """
-    omega = 2.0 * math.pi * circuit.frequency_hz
-    bus = _bus_before_closing(src, event.closing_angle_deg, load_w_var, v0_pu, omega)
-    cp, (e2, e1, efd), tau = _source_columns(src, bus, v0_pu, omega)
-    loops = _transformer_loops(src, circuit, event, bus, load_w_var, tau)
-    r_ins = float(event.insertion_resistance_ohm)
-    y0 = loops.y0
-    y0[2 * loops.nl :] = (e2, e1, efd, v0_pu)
-    lpar = loops.lpar
-    lpar_ins = lpar.copy()
-    lpar_ins[lpar[:, HTR] > 0.0, RW] = circuit.winding_resistance_ohm + loops.k_ins * r_ins
-    y0_open = y0.copy()
-    for q, value in loops.opened:
-        y0_open[q] = value
-    return Case(
-        cp,
-        lpar,
-        loops.cvs,
-        loops.tx,
-        loops.ti,
-        loops.inc,
-        y0,
-        min(tau),
-        efd,
-        lpar_ins,
-        min(tau + loops.tau_ins),
-        r_ins,
-        loops.r_limit,
-        y0_open,
-        loops.poles,
-    )
-
-
-@dataclass(frozen=True)
-class _Bus:
-    """The bus before closing: phase voltage and its phasor [V]; the load's R [ohm], L [H] and
-    current phasor [A] (zero without a load)."""
-
-    v_ph: float
-    v_bus: complex
-    r_l: float
-    l_l: float
-    i_l: complex
-
-
-def _bus_before_closing(
-    src: SourceParameters,
-    closing_angle_deg: float,
-    load_w_var: tuple[float, float] | None,
-    v0_pu: float,
-    omega: float,
-) -> _Bus:
-    """The bus voltage V_0∠alpha and the constant-impedance load's current V/Z_L."""
-    v_ph = src.line_voltage_v / math.sqrt(3.0)
-    v_bus = cmath.rect(v0_pu * v_ph, math.radians(closing_angle_deg))
-    r_l = l_l = 0.0
-    i_l = 0j
-    if load_w_var is not None:
-        z_l = v_ph * v_ph / (complex(*load_w_var) / 3.0).conjugate()
-        r_l, l_l = z_l.real, z_l.imag / omega
-        i_l = v_bus / z_l
-    return _Bus(v_ph, v_bus, r_l, l_l, i_l)
-
-
-def _source_columns(
-    src: SourceParameters, bus: _Bus, v0_pu: float, omega: float
-) -> tuple[FloatArray, tuple[float, float, float], list[float]]:
-    """The source's packed parameters, its pre-event (E''_q, E'_q, E_fd) and time constants."""
-    v_ph, r_ph, l_ph = bus.v_ph, src.resistance_ohm, src.inductance_h
-    i_base = src.base_va / (math.sqrt(3.0) * src.line_voltage_v)
-    emf = bus.v_bus + complex(r_ph, omega * l_ph) * bus.i_l
-    beta = cmath.phase(emf)
-    i_d0 = -(bus.i_l * cmath.rect(1.0, -beta) / i_base).imag
-    e2 = abs(emf) / v_ph
-    e1 = efd = e2
-    cp = np.zeros(NCP)
-    cp[T2O] = cp[T1O] = cp[TA] = 1.0
-    cp[[BETA, EB, IB, RPH, LPH]] = (beta, math.sqrt(2.0) * v_ph, i_base, r_ph, l_ph)
-    tau = [math.inf]
-    if src.machine is not None:
-        x2, x1, xd, t2o, t1o, ra = src.machine
-        e1 = e2 + (x1 - x2) * i_d0
-        efd = e1 + (xd - x1) * i_d0
-        cp[[DYN, X2, X1, XD, T2O, T1O, RA]] = (1.0, x2, x1, xd, t2o, t1o, ra)
-        tau.append(t2o)
-        if src.regulator is not None:
-            ka, ta, emax, emin, tr = src.regulator
-            if not emin <= efd <= emax:
-                raise ParameterError(
-                    "excitation.ceiling_pu",
-                    emax,
-                    f"at least the pre-event field voltage {efd:.4g} pu that the bus load needs",
-                )
-            cp[[AVR, KA, TA, EMAX, EMIN, TR]] = (1.0, ka, ta, emax, emin, tr)
-            cp[VREF] = v0_pu + efd / ka
-            tau += [ta] + ([tr] if tr > 0.0 else [])
-    return cp, (e2, e1, efd), tau
-
-
-@dataclass
-class _Loops:
-    """The transformer's (and bus load's) loops being packed, one row per loop; ``opened``
-    lists (state, value) with the transformer branch open."""
-
-    nl: int
-    k_ins: float
-    lpar: FloatArray
-    inc: FloatArray
-    y0: FloatArray
-    poles: IntArray
-    cvs: FloatArray
-    tx: FloatArray
-    ti: FloatArray
-    opened: list[tuple[int, float]] = field(default_factory=list)
-    tau_ins: list[float] = field(default_factory=list)
-    r_limit: float = math.inf
-
-
-def _transformer_loops(
-    src: SourceParameters,
-    circuit: EquivalentCircuit,
-    event: SwitchingEvent,
-    bus: _Bus,
-    load_w_var: tuple[float, float] | None,
-    tau: list[float],
-) -> _Loops:
-    """Every winding's loop (and the bus load's) packed; appends their time constants to tau."""
-    delta = circuit.connection == "delta"
-    nl = 6 if delta else 3
-    width = circuit.curve.flux_wb.size if isinstance(circuit.curve, PiecewiseLinearCurve) else 2
-    cvs = np.zeros((nl, 7))
-    cvs[:, 1] = 2.0
-    loops = _Loops(
-        nl=nl,
-        k_ins=2.0 if delta else 1.0,  # delta: the winding loop closes through two line resistors
-        lpar=np.zeros((nl, NLP)),
-        inc=np.zeros((2, 3, nl)),
-        y0=np.zeros(2 * nl + 4),
-        poles=np.full((nl, 2), -1, dtype=np.int64),
-        cvs=cvs,
-        tx=np.zeros((nl, width)),
-        ti=np.zeros((nl, width)),
-    )
-    r_ins = float(event.insertion_resistance_ohm)
-    for k in range(3):
-        shift = -2.0 * math.pi * k / 3.0
-        i_l0 = math.sqrt(2.0) * abs(bus.i_l) * math.sin(cmath.phase(bus.i_l) + shift)
-        lam0 = float(event.residual_flux_pu[k]) * circuit.nominal_flux_wb
-        c0 = float(circuit.curve.current(lam0))
-        jt, jl = _place_winding(loops, k, delta, src, circuit)
-        loops.lpar[jt, [LAM0, C0]] = (lam0, c0)
-        loops.opened.append((jt, lam0))
-        ls_t = loops.lpar[jt, LS]
-        lp = ls_t
-        if load_w_var is not None:
-            lp = _place_load(loops, (jt, jl), delta, bus, load_w_var, circuit, (i_l0, c0), tau)
-        i_shared = 0.0 if delta else i_l0
-        loops.y0[jt] = lam0 + ls_t * (c0 + i_shared)
-        _pack_winding(loops, jt, circuit, lp, r_ins, tau)
-    return loops
-
-
-def _place_winding(
-    loops: _Loops, k: int, delta: bool, src: SourceParameters, circuit: EquivalentCircuit
-) -> tuple[int, int]:
-    """Winding k's loop: its EMF, source path, poles and line incidence; (its row, its load's)."""
-    r_ph, l_ph = src.resistance_ohm, src.inductance_h
-    lpar, inc = loops.lpar, loops.inc
-    shift = -2.0 * math.pi * k / 3.0
-    jt, jl = (k, 3 + k) if delta else (k, k)
-    m = 2.0 if delta else 1.0  # delta: loop on the line-to-line EMF behind 2 x Z_s
-    lpar[jt, [AMP, PHS, RS, LS, HTR, RW]] = (
-        math.sqrt(3.0) if delta else 1.0,
-        shift + (math.pi / 6.0 if delta else 0.0),
-        m * r_ph,
-        m * l_ph,
-        1.0,
-        circuit.winding_resistance_ohm,
-    )
-    if delta:
-        lpar[jl, [AMP, PHS, RS, LS]] = (1.0, shift, r_ph, l_ph)
-        loops.poles[jt] = (k, (k + 1) % 3)  # winding ab closes with poles a and b, ...
-        inc[0, k, k] += 1.0  # i_a = c_ab - c_ca, ...
-        inc[0, k, (k + 2) % 3] -= 1.0
-    else:
-        loops.poles[jt] = (k, k)
-        inc[0, k, k] = 1.0
-    inc[1, k, jl] = 1.0
-    return jt, jl
-
-
-def _place_load(
-    loops: _Loops,
-    rows: tuple[int, int],
-    delta: bool,
-    bus: _Bus,
-    load_w_var: tuple[float, float],
-    circuit: EquivalentCircuit,
-    initial: tuple[float, float],
-    tau: list[float],
-) -> float:
-    """The bus load's loop beside a winding's (rows: winding, load; initial: the load's and
-    the winding's currents); returns the inductance in series with the winding."""
-    jt, jl = rows
-    i_l0, c0 = initial
     f = circuit.frequency_hz
-    lpar, y0, nl = loops.lpar, loops.y0, loops.nl
-    r_l, l_l = bus.r_l, bus.l_l
-    ls_t = lpar[jt, LS]
-    c_shared = 0.0 if delta else c0
-    lpar[jl, [HLD, RL, LL]] = (1.0, r_l, l_l)
-    den = l_l + lpar[jl, LS]
-    y0[nl + jl] = l_l * i_l0 + lpar[jl, LS] * (i_l0 + c_shared)
-    if not delta:  # the loop shares the winding's source path
-        loops.opened.append((nl + jl, l_l * i_l0 + lpar[jl, LS] * i_l0))
-    r_loop = r_l + lpar[jl, RS]
-    tau_l = den / r_loop if r_loop > 0.0 else math.inf
-    if tau_l * f * MAX_STEPS_PER_CYCLE < 4.0:
+    impedance = (src.resistance_ohm, src.inductance_h)
+    state = dip_network.pre_event(
+        src.line_voltage_v, f, impedance, src.base_va, src.machine, load_w_var, v0_pu,
+        event.closing_angle_deg,
+    )  # fmt: skip
+    _check_field(src, state.field_voltage_pu)
+    if state.load is not None and load_w_var is not None:
+        _check_load_loop(state.load, impedance, f, load_w_var[1])
+    return Case(
+        src.line_voltage_v, src.base_va, impedance, src.machine, src.regulator, state, circuit,
+        np.asarray(event.residual_flux_pu, dtype=float), float(event.insertion_resistance_ohm),
+    )  # fmt: skip
+
+
+def _check_field(src: SourceParameters, efd: float) -> None:
+    # the regulator must hold the field the bus load needs before the event
+    if src.machine is None or src.regulator is None:
+        return
+    _, _, emax, emin, _ = src.regulator
+    if not emin <= efd <= emax:
+        raise ParameterError(
+            "excitation.ceiling_pu",
+            emax,
+            f"at least the pre-event field voltage {efd:.4g} pu that the bus load needs",
+        )
+
+
+def _check_load_loop(load: BusLoad, impedance: tuple[float, float], f: float, q_var: float) -> None:
+    # the load loop's time constant (L_L + L_s)/(R_L + R_s) must reach 4 of the finest steps
+    r_loop = load.resistance_ohm + impedance[0]
+    tau = (load.inductance_h + impedance[1]) / r_loop if r_loop > 0.0 else math.inf
+    if tau * f * MAX_STEPS_PER_CYCLE < 4.0:
         raise ParameterError(
             "bus_load.reactive_power_var",
-            load_w_var[1],
+            q_var,
             "enough reactive power that the load loop's time constant "
-            f"(L_L + L_s)/(R_L + R_s) = {tau_l:.3g} s reaches "
+            f"(L_L + L_s)/(R_L + R_s) = {tau:.3g} s reaches "
             f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s (a nearly resistive load on the "
             "source inductance is too stiff for the fixed step)",
         )
-    tau.append(tau_l)
-    lp: float = ls_t if delta else ls_t * l_l / den
-    return lp
-
-
-def _pack_winding(
-    loops: _Loops,
-    jt: int,
-    circuit: EquivalentCircuit,
-    lp: float,
-    r_ins: float,
-    tau: list[float],
-) -> None:
-    """Winding jt's curve in its loop variable, its time constants with and without R in."""
-    f = circuit.frequency_hz
-    ls_t = loops.lpar[jt, LS]
-    loops.cvs[jt], cx, ci = pack_curve(circuit, lp)
-    loops.tx[jt, : cx.size], loops.ti[jt, : ci.size] = cx, ci
-    r_loop = circuit.winding_resistance_ohm + loops.lpar[jt, RS]
-    if r_loop > 0.0:
-        tau.append((circuit.air_core_inductance_h + ls_t) / r_loop)
-    l_loop = circuit.air_core_inductance_h + lp
-    r_loop_ins = r_loop + loops.k_ins * r_ins
-    if r_loop_ins > 0.0:
-        loops.tau_ins.append(l_loop / r_loop_ins)
-    loops.r_limit = min(
-        loops.r_limit, (l_loop * f * MAX_STEPS_PER_CYCLE / 4.0 - r_loop) / loops.k_ins
-    )
 
 
 @dataclass(frozen=True)
@@ -496,7 +246,7 @@ def run(
     Parameters
     ----------
     cases : sequence of Case
-        Same connection for all [-].
+        One circuit, bus load, resistor and source kind for all [-].
     frequency_hz : float
         [Hz].
     voltage_base_v : float
@@ -504,8 +254,8 @@ def run(
     duration_s : float
         Whole cycles up to this time are simulated [s].
     steps_per_cycle : int
-        At least 128; raised so that the step stays below a quarter of the shortest time
-        constant (accuracy and stability of the explicit method) [-].
+        At least 128; raised to a multiple of it when a time constant needs a shorter step
+        (:func:`core.network.step_plan`) [-].
     wave_points : int
         About this many waveform samples returned (0: none) [-].
     event : SwitchingEvent or None
@@ -532,158 +282,100 @@ def run(
     -----
     While the resistor is in, each step of each case is split into the fewest equal sub-steps
     that keep the sub-step at or below a quarter of that case's shortest time constant with it
-    in (the same rule as the step), the outputs staying on the step grid; unlike the step,
-    which all cases share, a case's sub-steps do not depend on the other cases run with it.
+    in (:func:`core.network.insertion_substeps`), the outputs staying on the step grid.
 
-    A loop's transformer branch closes when the later of its two poles (``Case.loop_poles``)
-    closes: a wye winding with its own pole, a delta winding ab with poles a and b. Until then
-    it carries no current and keeps its residual flux; the bus load is on the source side of
-    the breaker and sees no pole. The pre-insertion resistor is timed from t = 0 whatever the
-    poles do. With every pole at 0 the kernel runs exactly as without poles.
-
-    References
-    ----------
-    Classical Runge-Kutta with a step of at most a quarter of the shortest time constant:
-    common practice for explicit integration of stiff-ish circuits (this project's rule).
+    The unit's poles follow the real circuit (:mod:`core.network.solver`): a grounded-wye
+    winding conducts from its pole's closing, a floating wye and a delta from the second
+    pole's (a delta's two windings on the open terminal in series until the third). The bus
+    load is on the source side of the breaker and sees no pole. The pre-insertion resistor
+    is timed from t = 0 whatever the poles do.
     """
     delays = check_poles(0.0 if event is None else event.pole_delay_s, duration_s)
+    insertion_time_s = 0.0 if event is None else event.insertion_time_s
     f = frequency_hz
-    spc, n_steps = _step_plan(cases, f, duration_s, steps_per_cycle)
-    n_cyc = n_steps // spc
-    h = 1.0 / (f * spc)
-    n = len(cases)
-    t_ins = 0.0 if event is None else event.insertion_time_s
-    n_in, sub = _insertion_plan(cases, f, spc, t_ins)
-    lpar = np.ascontiguousarray(np.stack([c.lpar for c in cases]))
-    lpar_in = lpar
-    if n_in > 0:
-        lpar_in = np.ascontiguousarray(
-            np.stack([c.lpar if c.lpar_inserted is None else c.lpar_inserted for c in cases])
-        )
-    energy = np.zeros(n)
-    pole_step, close, y0 = _closing_plan(cases, delays, f, spc, n_steps)
-    width = max(c.tx.shape[1] for c in cases)
-
-    def pad(a: FloatArray) -> FloatArray:
-        # repeat the last breakpoint: the search never goes past npts
-        return np.concatenate([a, np.repeat(a[:, -1:], width - a.shape[1], axis=1)], axis=1)
-
-    stride = max(1, math.ceil((n_steps + 1) / wave_points)) if wave_points > 0 else 0
-    nw = n_steps // stride + 1 if stride else 1
-    out = np.zeros((n, 4, 3, n_cyc))
-    means = np.zeros((n, 2, n_cyc))
-    wave = np.zeros((n, 2, 3, nw))
-
-    def stack(get: Callable[[Case], FloatArray]) -> FloatArray:
-        return np.ascontiguousarray(np.stack([get(c) for c in cases]))
-
-    integrate(
-        n_steps,
-        spc,
-        h,
-        2.0 * math.pi * f,
-        stack(lambda c: c.cp),
-        lpar,
-        stack(lambda c: c.cv),
-        stack(lambda c: pad(c.tx)),
-        stack(lambda c: pad(c.ti)),
-        np.ascontiguousarray(cases[0].inc),
-        y0,
-        stride,
-        out,
-        means,
-        wave,
-        n_in,
-        sub,
-        lpar_in,
-        energy,
-        close,
-    )
-    if not np.all(np.isfinite(out)):
-        raise ParameterError("circuit", "non-finite result", "a circuit that stays finite")
-    t_wave: FloatArray = np.arange(nw, dtype=np.float64) * (h * stride) if stride else np.zeros(0)
-    return Raw(
-        steps_per_cycle=spc,
-        v_rms_pu=np.sqrt(out[:, 0] / spc) / voltage_base_v,
-        v_line_rms_pu=np.sqrt(out[:, 1] / spc) / (math.sqrt(3.0) * voltage_base_v),
-        i_rms_a=np.sqrt(out[:, 2] / spc),
-        peaks_a=out[:, 3],
-        emf_pu=means[:, 0] / spc,
-        field_pu=means[:, 1] / spc,
-        wave_t_s=t_wave,
-        wave_v=wave[:, 0] if stride else np.zeros((n, 3, 0)),
-        wave_i=wave[:, 1] if stride else np.zeros((n, 3, 0)),
-        insertion_energy_j=np.array([c.insertion_resistance_ohm for c in cases]) * energy,
-        bypass_time_s=n_in * h,
-        insertion_substeps=sub,
-        pole_close_s=pole_step.astype(np.float64) * h,
-    )
-
-
-def _step_plan(
-    cases: Sequence[Case], f: float, duration_s: float, steps_per_cycle: int
-) -> tuple[int, int]:
-    """Steps per cycle (raised to a quarter of the shortest time constant) and steps in all."""
     if not (isinstance(steps_per_cycle, int) and steps_per_cycle >= MIN_STEPS_PER_CYCLE):
         raise ParameterError("steps_per_cycle", steps_per_cycle, "an integer >= 128")
-    tau_min = min(c.tau_min_s for c in cases)
-    spc = max(steps_per_cycle, math.ceil(4.0 / (f * tau_min)) if tau_min < math.inf else 0)
-    if spc > MAX_STEPS_PER_CYCLE:
+    n_cyc = cycle_steps(f, duration_s, 1)
+    if n_cyc < 1:
+        raise ParameterError("duration_s", duration_s, f">= one cycle ({1.0 / f:g} s)")
+    spc = _plan(cases, f, n_cyc, steps_per_cycle)
+    h = 1.0 / (f * spc)
+    n_steps = n_cyc * spc
+    n_in = _insertion_steps(cases, f, spc, insertion_time_s)
+    pole_step = np.floor(delays * f * spc + 0.5).astype(np.int64)
+    if pole_step.max() >= n_steps:
+        raise ParameterError(
+            "pole_delay_s",
+            float(delays.max()),
+            f"before the end of the whole cycles simulated, {n_cyc / f:g} s, by at least "
+            f"half an internal step ({0.5 * h:.3g} s)",
+        )
+    stride = max(1, math.ceil((n_steps + 1) / wave_points)) if wave_points > 0 else 0
+    poles_s = np.asarray(pole_step * h, dtype=np.float64)
+    out = dip_network.simulate(cases, f, spc, n_cyc, poles_s, n_in * h, stride)
+    if not np.all(np.isfinite(out.v2)):
+        raise ParameterError("circuit", "non-finite result", "a circuit that stays finite")
+    return _raw(cases, out, spc, voltage_base_v, h * stride, n_in * h)
+
+
+def _plan(cases: Sequence[Case], f: float, n_cyc: int, steps_per_cycle: int) -> int:
+    # the network's step, its error named as the dip family names it
+    try:
+        return dip_network.plan(cases, f, n_cyc / f, steps_per_cycle)
+    except ParameterError as exc:
+        if exc.parameter != "resistance_ohm":
+            raise
         raise ParameterError(
             "time_constants",
-            tau_min,
+            exc.value,
             f"a shortest time constant of at least {4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s",
+        ) from exc
+
+
+def _insertion_steps(cases: Sequence[Case], f: float, spc: int, time_s: float) -> int:
+    # steps with the resistor in (0: none), after the resistor is checked against its limit
+    r = max(c.insertion_resistance_ohm for c in cases)
+    if r <= 0.0:
+        return 0
+    n_in = math.floor(check_insertion(0.0, time_s)[1] * f * spc + 0.5)
+    if n_in == 0:
+        return 0
+    limit = min(dip_network.insertion_limit_ohm(c.circuit, c.impedance, f) for c in cases)
+    if r > limit:
+        raise ParameterError(
+            "insertion_resistance_ohm",
+            r,
+            f"[0, {max(limit, 0.0):.4g}] ohm for this circuit and source: a larger resistor "
+            "makes the transformer loop's time constant while it is in shorter than "
+            f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s, too short for the fixed step "
+            f"({MAX_STEPS_PER_CYCLE} steps per cycle at most)",
         )
-    n_steps = cycle_steps(f, duration_s, spc)
-    if n_steps < 1:
-        raise ParameterError("duration_s", duration_s, f">= one cycle ({1.0 / f:g} s)")
-    return spc, n_steps
+    return n_in
 
 
-def _insertion_plan(
-    cases: Sequence[Case], f: float, spc: int, insertion_time_s: float
-) -> tuple[int, IntArray]:
-    """Steps the resistors are in (0: none) and each case's sub-steps per step meanwhile."""
-    n_in = 0
-    sub = np.ones(len(cases), dtype=np.int64)
-    if any(c.insertion_resistance_ohm > 0.0 for c in cases):
-        n_in = math.floor(check_insertion(0.0, insertion_time_s)[1] * f * spc + 0.5)
-    if n_in > 0:
-        worst = min(cases, key=lambda c: c.insertion_limit_ohm - c.insertion_resistance_ohm)
-        if worst.insertion_resistance_ohm > worst.insertion_limit_ohm:
-            raise ParameterError(
-                "insertion_resistance_ohm",
-                worst.insertion_resistance_ohm,
-                f"[0, {max(worst.insertion_limit_ohm, 0.0):.4g}] ohm for this circuit and "
-                "source: a larger resistor makes the transformer loop's time constant while it "
-                f"is in shorter than {4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s, too short for "
-                f"the fixed step ({MAX_STEPS_PER_CYCLE} steps per cycle at most)",
-            )
-        for i, c in enumerate(cases):
-            if c.tau_inserted_s < math.inf:
-                sub[i] = max(1, -(-math.ceil(4.0 / (f * c.tau_inserted_s)) // spc))
-    return n_in, sub
-
-
-def _closing_plan(
-    cases: Sequence[Case], delays: FloatArray, f: float, spc: int, n_steps: int
-) -> tuple[IntArray, IntArray, FloatArray]:
-    """Each pole's closing step, each loop's, and the initial states that go with them."""
-    y0 = np.ascontiguousarray(np.stack([c.y0 for c in cases]))
-    pole_step = np.floor(delays * f * spc + 0.5).astype(np.int64)
-    close = np.zeros((len(cases), cases[0].lpar.shape[0]), dtype=np.int64)
-    if np.any(pole_step > 0):
-        if pole_step.max() >= n_steps:
-            h = 1.0 / (f * spc)
-            raise ParameterError(
-                "pole_delay_s",
-                float(delays.max()),
-                f"before the end of the whole cycles simulated, {n_steps // spc / f:g} s, by at "
-                f"least half an internal step ({0.5 * h:.3g} s)",
-            )
-        for i, c in enumerate(cases):
-            close[i], y0[i] = c.closing(pole_step)
-    return pole_step, close, y0
+def _raw(
+    cases: Sequence[Case], out: dip_network.Cycles, spc: int, v_base: float, dt: float,
+    bypass_s: float,
+) -> Raw:  # fmt: skip
+    # per-cycle sums to rms and means, the kernel's record to the Raw the dip study reads
+    n = len(cases)
+    nw = out.wave_v.shape[-1]
+    return Raw(
+        steps_per_cycle=spc,
+        v_rms_pu=np.sqrt(out.v2 / spc) / v_base,
+        v_line_rms_pu=np.sqrt(out.vll2 / spc) / (math.sqrt(3.0) * v_base),
+        i_rms_a=np.sqrt(out.i2 / spc),
+        peaks_a=out.peaks,
+        emf_pu=out.emf / spc,
+        field_pu=out.field / spc,
+        wave_t_s=np.arange(nw, dtype=np.float64) * dt,
+        wave_v=out.wave_v if nw else np.zeros((n, 3, 0)),
+        wave_i=out.wave_i if nw else np.zeros((n, 3, 0)),
+        insertion_energy_j=out.energy,
+        bypass_time_s=bypass_s,
+        insertion_substeps=out.substeps,
+        pole_close_s=out.pole_close_s,
+    )
 
 
 def check_insertion(resistance_ohm: float, time_s: float) -> tuple[float, float]:

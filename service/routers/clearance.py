@@ -89,10 +89,9 @@ def _study(
     budget.enforce(estimate, knobs, settings.max_request_steps)
     study = protection_study.clearance_study(
         circuit,
-        body.switching.closing_angle_deg if opt.closing == "given" else None,
-        event.residual_flux_pu,
-        event.pole_delay_s,
+        event,
         [convert.device_of(d, n) for n, d in enumerate(body.devices)],
+        closing=opt.closing,
         rating_va=t.rating_kva * 1e3,
         impedance_percent=t.impedance_percent,
         duration_s=opt.duration_s,

@@ -197,8 +197,7 @@ def _mitigation(body: MitigationRequest, settings: Settings) -> MitigationRespon
     study = mitigation_study.mitigation_study(
         npl,
         convert.source_of(body.source),
-        event.residual_flux_pu,
-        event.pole_delay_s,
+        event,
         [_option(o) for o in body.options] if body.options is not None else None,
         supply=supply,
         devices=check,

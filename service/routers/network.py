@@ -379,6 +379,27 @@ def _bus(res: NetworkResult, v_nom: float, spc: int, f: float) -> BusVoltageOut:
     )
 
 
+@dataclass(frozen=True)
+class Prepared:
+    """A network request in SI, checked: what the core is called with, and what it assumed."""
+
+    source: Source
+    units: list[Unit]
+    rated_current_a: list[float]
+    load: BusLoad | None
+    assumptions: list[Assumption]
+    warnings: list[tuple[str, str]]
+
+
+def prepare(body: NetworkRequest) -> Prepared:
+    """The source, units and load of a request, as /v1/network-energization builds them (the
+    operations that take the same network call this)."""
+    source, assumptions = _source(body)
+    _check_source(body, source)
+    units, rated, notes, warns = _units(body)
+    return Prepared(source, units, rated, _load(body), assumptions + notes, warns)
+
+
 def _differentials(body: NetworkRequest) -> int:
     return sum(1 for u in body.units if u.differential is not None)
 
@@ -433,11 +454,8 @@ def _simulate(body: NetworkRequest, settings: Settings, figure: bool = False) ->
             "options.duration_s", duration, f"at least two cycles, {2.0 / f:.4g} s at {f:g} Hz"
         )
     convert.check_work(settings, 3 * (len(body.units) + 1), f, duration, SAMPLES_PER_CYCLE)
-    source, assumptions = _source(body)
-    _check_source(body, source)
-    units, rated, notes, warns = _units(body)
-    assumptions += notes
-    load = _load(body)
+    net = prepare(body)
+    source, units, load = net.source, net.units, net.load
     knobs = [
         budget.Knob("options.duration_s", duration, 0.05),
         budget.Knob("units", len(units), 1, integer=True),
@@ -467,7 +485,7 @@ def _simulate(body: NetworkRequest, settings: Settings, figure: bool = False) ->
             f"a source whose saturated loops keep {exc.allowed} (the step would be too short): "
             "a larger X/R or a smaller resistance",
         ) from None
-    return _Simulated(res, rated, assumptions, warns, load)
+    return _Simulated(res, net.rated_current_a, net.assumptions, net.warnings, load)
 
 
 def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:

@@ -53,6 +53,30 @@ STATISTICS_METHOD = (
 )
 
 
+def device_odds_out(o: event_outcomes.DeviceOdds) -> DeviceOddsOut:
+    """How often a device operated over the events judged, as the responses give it."""
+    return DeviceOddsOut(
+        device=o.device,
+        probability=o.operates.probability,
+        low=o.operates.low,
+        high=o.operates.high,
+        operations=o.operates.exceedances,
+        events=o.operates.samples,
+        smallest_margin=convert.maybe(o.smallest_margin),
+    )
+
+
+def convergence_out(c: monte_carlo.Convergence) -> ConvergenceOut:
+    """The P99 convergence table as the responses give it."""
+    m = convert.maybe
+    return ConvergenceOut(
+        samples=[int(x) for x in c.samples],
+        p99_a=convert.floats(c.p99_a),
+        p99_low_a=[m(x) for x in c.p99_low_a],
+        p99_high_a=[m(x) for x in c.p99_high_a],
+    )
+
+
 def _supplied(
     body: StatisticsRequest, circuit: EquivalentCircuit, assumptions: list[Assumption]
 ) -> tuple[EquivalentCircuit, Generator | None]:
@@ -105,18 +129,7 @@ def _odds(
             max_steps=settings.max_total_steps,
             checkpoint=compute.checkpoint,
         )
-        devices = [
-            DeviceOddsOut(
-                device=o.device,
-                probability=o.operates.probability,
-                low=o.operates.low,
-                high=o.operates.high,
-                operations=o.operates.exceedances,
-                events=o.operates.samples,
-                smallest_margin=convert.maybe(o.smallest_margin),
-            )
-            for o in odds
-        ]
+        devices = [device_odds_out(o) for o in odds]
     dip_out = None
     approximations: list[str] = []
     if gen is not None:
@@ -267,12 +280,7 @@ def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsRespon
         random_state=opt.random_state,
         lines=[pct(n, p) for n, p in zip(dist.lines, dist.by_line, strict=True)],
         worst_line=pct("worst", dist.worst_line),
-        convergence=ConvergenceOut(
-            samples=[int(x) for x in conv.samples],
-            p99_a=convert.floats(conv.p99_a),
-            p99_low_a=[m(x) for x in conv.p99_low_a],
-            p99_high_a=[m(x) for x in conv.p99_high_a],
-        ),
+        convergence=convergence_out(conv),
         exceedance=exceed,
         device_operation=devices,
         dip_exceedance=dip_odds,

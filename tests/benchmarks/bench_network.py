@@ -1,6 +1,6 @@
 """Network solver speed (run on demand, prints ratios; nothing is asserted).
 
-    python tests/benchmarks/bench_network.py [--cases 200] [--cycles 10]
+    python tests/benchmarks/bench_network.py [--cases 200] [--cycles 10] [--samples 10000]
 
 1. One unit on a Thevenin source, each connection, a batch of cases (closing angles spread over
    a cycle, residual flux 0.8/-0.4/-0.4 pu): core.network.simulate_network against
@@ -9,6 +9,13 @@
    wye in turn, one in service for every four, the rest energised at t = 0) on one bus with a
    load, behind a 50 MVA source; time per unit-step relative to the single unit's, which
    should stay about flat (the bus couples the units through a 3x3 solve, O(n_units) per step).
+3. Statistics over a network: 10 000 random energisations of a 4-unit feeder
+   (core.statistics.network_statistics, default sampling: closing uniform, 1 ms pole scatter,
+   residual 0.2-0.8 pu random sign; 128 samples a cycle) and one feeder relay judged on the
+   first 200 events over the default 1 s record: the work estimate (core.cost) against the
+   default request budget, the CPU time, and the CPU time per estimated winding-step against
+   that of the single-unit Monte Carlo (core.statistics.peak_distribution, the baseline, this
+   run).
 
 Each timing is the best of three after a warm-up call (compilation excluded).
 """
@@ -21,9 +28,12 @@ from collections.abc import Callable
 
 import numpy as np
 
-from core import transformer
+from core import cost, transformer
 from core.energization import energize
-from core.network import BusLoad, Source, Unit, simulate_network
+from core.network import Breaker, BusLoad, Source, Unit, simulate_network
+from core.protection import device_operation
+from core.statistics import monte_carlo, network_statistics
+from service.settings import Settings
 
 F = 50.0
 V_LL = 11_000.0
@@ -97,13 +107,105 @@ def scaling(cycles: float) -> None:
         )
 
 
+def _cpu(fn: Callable[[], object]) -> float:
+    t0 = time.process_time()
+    fn()
+    return time.process_time() - t0
+
+
+def statistics(samples: int, events: int) -> None:
+    print(f"3. network statistics: {samples} samples, 4 units, relay on {events} events over 1 s")
+    budget = Settings().max_request_steps
+    c = _circuit("wye_grounded")
+    src = Source(V_LL, F, c.source_resistance_ohm, c.source_inductance_h)
+    ideal = _circuit_ideal()
+    units = [
+        Unit(ideal, breaker=Breaker([0.0, 0.0, 0.0]), residual_flux_pu=[0.8, -0.4, -0.4])
+        for _ in range(4)
+    ]
+    rated = 4 * ideal.rated_line_current_a
+    relay = device_operation.Relay("51", "ieee_c37_112", "very_inverse", 3 * rated, 2.0)
+    sigma = monte_carlo.DEFAULT_THREE_PHASE_POLE_SCATTER_MS
+    work = cost.network_statistics_work(
+        src, units, samples=samples, pole_closing_max_s=0.0, pole_scatter_ms=sigma,
+        events=events, devices=1, duration_s=1.0,
+    )  # fmt: skip
+    peaks_only = cost.network_statistics_work(
+        src, units, samples=samples, pole_closing_max_s=0.0, pole_scatter_ms=sigma
+    )
+    fits = "fits" if work.steps <= budget else "does NOT fit"
+    print(
+        f"   estimate {work.steps / 1e6:8.1f} M winding-steps; budget {budget / 1e6:.0f} M: {fits}"
+    )
+    for name, steps in work.parts:
+        print(f"      {name:24s} {steps / 1e6:8.1f} M")
+    alone = int(samples * budget / peaks_only.steps)
+    events_work = work.steps - peaks_only.steps
+    largest = int(samples * (budget - events_work) / peaks_only.steps)
+    print(
+        f"   most samples within the budget: about {alone} without devices, "
+        f"{max(0, largest)} with the {events} device events ({events_work / 1e6:.1f} M alone)"
+    )
+    warm = network_statistics.network_peak_distribution(
+        src, units, samples=20, random_state=1, residual=monte_carlo.UniformResidual()
+    )
+    network_statistics.network_device_odds(
+        src, units, warm, [relay], rated, events=2, duration_s=1.0
+    )
+    holder: dict[str, network_statistics.NetworkPeakDistribution] = {}
+
+    def peaks() -> None:
+        holder["d"] = network_statistics.network_peak_distribution(
+            src, units, samples=samples, random_state=1, residual=monte_carlo.UniformResidual()
+        )
+
+    t_peaks = _cpu(peaks)
+    t_dev = _cpu(
+        lambda: network_statistics.network_device_odds(
+            src, units, holder["d"], [relay], rated, events=events, duration_s=1.0
+        )
+    )
+    total = t_peaks + t_dev
+    print(
+        f"   CPU: Monte Carlo {t_peaks:7.2f} s, devices {t_dev:7.2f} s, total {total:7.2f} s "
+        f"({total / work.steps * 1e9:5.1f} ns per estimated winding-step)"
+    )
+    p = holder["d"].source.percentiles
+    print(f"   source first peak P50/P99/max {p.p50_a:.0f} / {p.p99_a:.0f} / {p.max_a:.0f} A")
+    base_samples = 2000
+    base_work = cost.statistics_work(
+        c, samples=base_samples, pole_scatter_ms=sigma, events=0, devices=0,
+        device_duration_s=1.0, dip_duration_s=None,
+    )  # fmt: skip
+    monte_carlo.peak_distribution(c, samples=20, random_state=1)
+    t_base = _cpu(lambda: monte_carlo.peak_distribution(c, samples=base_samples, random_state=1))
+    per_base = t_base / base_work.steps
+    per_net = total / work.steps
+    print(
+        f"   baseline single-unit Monte Carlo ({base_samples} samples): {t_base:6.2f} s, "
+        f"{per_base * 1e9:5.1f} ns per estimated winding-step; ratio network/baseline "
+        f"{per_net / per_base:5.2f}"
+    )
+
+
+def _circuit_ideal(rating_va: float = 1e6) -> transformer.EquivalentCircuit:
+    npl = transformer.Nameplate(
+        rating_va=rating_va, phases=3, frequency_hz=F, line_voltage_v=V_LL,
+        connection="wye_grounded",
+    )  # fmt: skip
+    return transformer.equivalent_circuit(npl, None)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__)
     parser.add_argument("--cases", type=int, default=200)
     parser.add_argument("--cycles", type=float, default=10.0)
+    parser.add_argument("--samples", type=int, default=10_000)
+    parser.add_argument("--events", type=int, default=200)
     args = parser.parse_args()
     single_unit(args.cases, args.cycles)
     scaling(args.cycles)
+    statistics(args.samples, args.events)
 
 
 if __name__ == "__main__":

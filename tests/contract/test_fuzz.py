@@ -42,6 +42,7 @@ schema = schemathesis.openapi.from_asgi("/v1/openapi.json", app)
 HEAVY = [
     "mitigation",
     "inrush_statistics",
+    "network_energization_statistics",
     "generator_dip",
     "generator_dip_figure",
     "sheet_generator_dip",

@@ -44,6 +44,7 @@ from service.examples import (
     ENVELOPE_REQUESTS,
     MITIGATION_REQUESTS,
     NETWORK_REQUESTS,
+    NETWORK_STATISTICS_REQUESTS,
     PEAK_BATCH_REQUESTS,
     PEAK_REQUESTS,
     SHEET_REQUESTS,
@@ -193,8 +194,15 @@ def _every_operation(client: Any) -> None:
             f"network_energization.{name}",
         )  # fmt: skip
         assert net.source.first_peak_a > 0
+    for name, body in NETWORK_STATISTICS_REQUESTS.items():
+        odds = _json_op(
+            client, "network.network_energization_statistics", "NetworkStatisticsRequest", body,
+            f"network_energization_statistics.{name}",
+        )  # fmt: skip
+        assert odds.source.p99_a > 0
     called |= {"inrush_peak", "inrush_envelope", "clearance", "generator_dip"}
     called |= {"inrush_statistics", "mitigation", "network_energization"}
+    called.add("network_energization_statistics")
 
     # the figures: generated, left unparsed (image/svg+xml); the bytes are the SVG
     for api, model, body in (

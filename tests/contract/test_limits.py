@@ -19,6 +19,8 @@ BOUNDED = [
     ("ClearanceOptions", "duration_s", "maximum", "max_duration_s"),
     ("EnvelopeOptions", "samples_per_cycle", "maximum", "max_samples_per_cycle"),
     ("StatisticsOptions", "samples", "maximum", "max_statistics_samples"),
+    ("NetworkSamplingIn", "samples", "maximum", "max_statistics_samples"),
+    ("NetworkOptions", "duration_s", "maximum", "max_duration_s"),
     ("PeakBatchRequest", "cases", "maxItems", "max_cases"),
 ]
 SHEET = [

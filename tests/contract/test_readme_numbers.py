@@ -131,6 +131,24 @@ def test_network_numbers() -> None:
     assert f"operate up to {op:.2f} pu, smallest 2nd harmonic while picked up {h2} %" in README
 
 
+def test_network_statistics_numbers() -> None:
+    body = _response("network_energization_statistics.northgate_ring_reclose")
+    s = body["source"]
+    pct = " / ".join(f"{s[k]:.0f}" for k in ("p50_a", "p95_a", "p99_a", "max_a"))
+    assert f"| {pct} A (P99 = {s['p99_x_rated']:.2f} × the summed rated current" in README
+    assert f"95 % interval {s['p99_low_a']:.0f}–{s['p99_high_a']:.0f} A) |" in README
+    p99 = " / ".join(f"{u['first_peak']['p99_a']:.0f}" for u in body["units"])
+    assert f"| P99 of the units' first peaks | {p99} A |" in README
+    (d,) = body["device_operation"]
+    assert (
+        f"| {d['operations']} of {d['events']} events (95 % interval {d['low']:.2f}–"
+        f"{d['high']:.2f}), smallest margin {d['smallest_margin']:.2f} |"
+    ) in README
+    single = _response("network_energization.northgate_ring_reclose")["source"]["first_peak_a"]
+    assert single > s["max_a"]
+    assert f"on every unit, {single:.0f} A)" in README
+
+
 def test_differential_table() -> None:
     body = _response("clearance.northgate_main_unit_differential")
     out = body["devices"][0]["ride_through"]["differential"]

@@ -78,6 +78,12 @@ class Tally:
         self.relay_windows = 0
 
 
+def _mitigation_event(nameplate: circuit_model.Nameplate, residual: object) -> Any:
+    """The unit's uncontrolled closing with this residual flux (all poles at t = 0)."""
+    circuit = circuit_model.equivalent_circuit(nameplate)
+    return switching_event.switching_event(circuit, 0.0, residual)  # type: ignore[arg-type]
+
+
 def _kernel_steps(sim: energize.Simulation) -> int:
     n, m, samples = sim.winding_current_a.shape
     decimate, rest = divmod(sim.steps_per_cycle, sim.samples_per_cycle)
@@ -364,8 +370,9 @@ def test_clearance_estimate_counts_the_search_record_and_judging(
     circuit = _circuit("wye_grounded")
     devices: list[device_operation.Device] = [RELAY, SENSITIVE, BREAKER]
     protection_study.clearance_study(
-        circuit, closing, RESIDUAL, 0.0, devices, rating_va=2.5e6, impedance_percent=5.75,
-        duration_s=1.0, windows=windows,
+        circuit, switching_event.switching_event(circuit, closing or 0.0, RESIDUAL), devices,
+        closing="worst" if closing is None else "given", rating_va=2.5e6,
+        impedance_percent=5.75, duration_s=1.0, windows=windows,
     )  # fmt: skip
     work = cost.clearance_work(
         circuit, worst_angle=closing is None, duration_s=1.0, devices=3, windows=windows
@@ -399,11 +406,13 @@ def test_mitigation_estimate_bounds_the_solver_steps(tally: Tally, target: float
     target_a = None
     if target is not None:
         base = mitigation_study.mitigation_study(
-            UNIT, None, RESIDUAL, options=[], residual_sweep=()
+            UNIT, None, _mitigation_event(UNIT, RESIDUAL), options=[], residual_sweep=()
         )
         target_a = target * base.baseline.peak_a
         tally.clear()
-    mitigation_study.mitigation_study(UNIT, None, RESIDUAL, target_peak_a=target_a)
+    mitigation_study.mitigation_study(
+        UNIT, None, _mitigation_event(UNIT, RESIDUAL), target_peak_a=target_a
+    )
     work = cost.mitigation_work(
         circuit, options=len(mitigation_options.default_options()),
         sweep=len(mitigation_study.RESIDUAL_SWEEP), devices=0, device_duration_s=0.1,

@@ -1,8 +1,9 @@
 """Imports inside core/ run one way: each domain package uses only the packages below it.
 
 The order (DEVELOPERS.md, Layout): ``core.errors`` and ``core.checks`` at the bottom, then
-``transformer``, ``energization``, ``protection`` beside ``supply`` and ``network`` (none imports
-another), ``statistics``, ``mitigation``; ``core.cost`` spans every domain and sits on top. A
+``transformer``, ``energization``, ``protection`` beside ``network`` (neither imports the other),
+``supply`` (its dip runs on ``network``), ``statistics``, ``mitigation``; ``core.cost`` spans every
+domain and sits on top. A
 module may always import its own package. No module imports a private name (``_foo``) from
 another module.
 """
@@ -23,10 +24,10 @@ RANK = {
     "energization": 3,
     "network": 4,  # above energization: its record readings use core.energization.waveform
     "protection": 4,
-    "supply": 4,
-    "statistics": 5,
-    "mitigation": 6,
-    "cost": 7,
+    "supply": 5,  # above network: the dip family runs on core.network
+    "statistics": 6,
+    "mitigation": 7,
+    "cost": 8,
 }
 MODULES = sorted(CORE.rglob("*.py"))
 

@@ -246,3 +246,22 @@ def test_figure_over_budget_names_the_knobs(monkeypatch: pytest.MonkeyPatch) -> 
             assert c.post(URL + "/figure", json=body).status_code == 200
     finally:
         get_settings.cache_clear()
+
+
+def test_statistics_of_si_units_equal_those_of_the_nameplates(client: TestClient) -> None:
+    # POST /v1/network-energization/statistics takes the same units: the same draws
+    # (random_state) on the same circuits give the same percentiles and events
+    plate = NETWORK_REQUESTS["northgate_ring_reclose"]
+    si = si_units(plate, client.post(URL, json=plate).json())
+    extra = {
+        "options": {"duration_s": 0.5},
+        "sampling": {"samples": 100, "random_state": 1, "check_events": 10},
+    }
+    r1 = client.post(URL + "/statistics", json={**plate, **extra})
+    r2 = client.post(URL + "/statistics", json={**si, **extra})
+    assert r1.status_code == 200, r1.text
+    assert r2.status_code == 200, r2.text
+    a, b = r1.json(), r2.json()
+    for field in a:
+        if field != "assumptions":
+            _close(a[field], b[field], field)

@@ -81,7 +81,7 @@ def test_no_kernel_compiles_after_warmup() -> None:
         "core.energization.kernel_independent.integrate",
         "core.energization.kernel_independent.integrate_parallel",
         "core.energization.kernel_coupled.integrate",
-        "core.supply.dip_kernel.integrate",
+        "core.network.kernel.integrate",
     ]
     for name in kernels:  # the warm-up reached every top-level kernel
         assert got["before"][name][0], name

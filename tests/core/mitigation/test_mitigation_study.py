@@ -11,6 +11,7 @@ import numpy as np
 import pytest
 
 from core.energization import closed_form
+from core.energization.switching_event import SwitchingEvent, switching_event
 from core.errors import ParameterError
 from core.mitigation import mitigation_options as mo
 from core.mitigation import mitigation_study
@@ -33,6 +34,12 @@ UNIT = circuit_model.Nameplate(
 )
 PHASE = replace(UNIT, rating_va=2.5e6 / 3, phases=1, line_voltage_v=480 / math.sqrt(3))
 RES3 = [0.8, -0.4, -0.4]
+
+
+def _event(nameplate: circuit_model.Nameplate, residual: object) -> SwitchingEvent:
+    """The uncontrolled closing of the unit with this residual flux (all poles at t = 0)."""
+    circuit = circuit_model.equivalent_circuit(nameplate)
+    return switching_event(circuit, 0.0, residual)  # type: ignore[arg-type]
 
 
 def _only(study: mitigation_study.MitigationStudy, kind: str) -> mitigation_study.OptionResult:
@@ -61,7 +68,11 @@ def test_resistor_peak_reduction_agrees_with_the_closed_form_with_r(ratio: float
     x = 2 * math.pi * c.frequency_hz * L
     pir = ratio * x
     study = mitigation_study.mitigation_study(
-        PHASE, None, 0.8, options=[mo.PreInsertionResistor(pir, 0.1)], residual_sweep=()
+        PHASE,
+        None,
+        _event(PHASE, 0.8),
+        options=[mo.PreInsertionResistor(pir, 0.1)],
+        residual_sweep=(),
     )
     got = _only(study, "pre_insertion_resistor").peak_a
     wang = float(
@@ -81,7 +92,7 @@ def test_more_resistance_lower_peak_and_energy_is_reported() -> None:
     x = 2 * math.pi * c.frequency_hz * (c.air_core_inductance_h + c.source_inductance_h)
     values = [0.05 * x, 0.2 * x, 0.8 * x, 3.2 * x]
     study = mitigation_study.mitigation_study(
-        PHASE, None, 0.8, options=[mo.PreInsertionResistor(v, 0.05) for v in values],
+        PHASE, None, _event(PHASE, 0.8), options=[mo.PreInsertionResistor(v, 0.05) for v in values],
         residual_sweep=(),
     )  # fmt: skip
     by_r = sorted(
@@ -97,10 +108,12 @@ def test_more_resistance_lower_peak_and_energy_is_reported() -> None:
 
 
 def test_resistor_sized_for_a_target_meets_it() -> None:
-    base = mitigation_study.mitigation_study(PHASE, None, 0.8, options=[], residual_sweep=())
+    base = mitigation_study.mitigation_study(
+        PHASE, None, _event(PHASE, 0.8), options=[], residual_sweep=()
+    )
     target = 0.5 * base.baseline.peak_a
     study = mitigation_study.mitigation_study(
-        PHASE, None, 0.8, options=[mo.PreInsertionResistor()], target_peak_a=target,
+        PHASE, None, _event(PHASE, 0.8), options=[mo.PreInsertionResistor()], target_peak_a=target,
         residual_sweep=(),
     )  # fmt: skip
     o = _only(study, "pre_insertion_resistor")
@@ -110,16 +123,20 @@ def test_resistor_sized_for_a_target_meets_it() -> None:
     # 0.22 %, core.mitigation.pre_insertion)
     r = float(next(a.value for a in o.parameters if a.name == "resistance_ohm"))
     less = mitigation_study.mitigation_study(
-        PHASE, None, 0.8, options=[mo.PreInsertionResistor(0.997 * r)], target_peak_a=target,
+        PHASE,
+        None,
+        _event(PHASE, 0.8),
+        options=[mo.PreInsertionResistor(0.997 * r)],
+        target_peak_a=target,
         residual_sweep=(),
-    )  # fmt: skip
+    )
     assert _only(less, "pre_insertion_resistor").peak_a > target
     assert study.baseline.meets_target is False
 
 
 def test_more_residual_higher_worst_peak() -> None:
     # fact of the trade and the closed form (2 + b_r - b_s): the worst peak rises with |b_r|
-    study = mitigation_study.mitigation_study(UNIT, None, RES3, options=[])
+    study = mitigation_study.mitigation_study(UNIT, None, _event(UNIT, RES3), options=[])
     peaks = [s.peak_a for s in study.residual_sweep]
     assert [s.scale for s in study.residual_sweep] == list(mitigation_study.RESIDUAL_SWEEP)
     assert all(a < b for a, b in itertools.pairwise(peaks))
@@ -128,7 +145,7 @@ def test_more_residual_higher_worst_peak() -> None:
 
 def test_demagnetising_is_the_sweep_at_its_fraction() -> None:
     study = mitigation_study.mitigation_study(
-        UNIT, None, RES3, options=[mo.Demagnetize(0.5)], residual_sweep=(0.5,)
+        UNIT, None, _event(UNIT, RES3), options=[mo.Demagnetize(0.5)], residual_sweep=(0.5,)
     )
     assert _only(study, "demagnetize").peak_a == study.residual_sweep[0].peak_a
 
@@ -136,7 +153,7 @@ def test_demagnetising_is_the_sweep_at_its_fraction() -> None:
 def test_oversized_unit_draws_the_larger_inrush() -> None:
     # fact of the trade: on the same bus, a larger unit with the same per-unit data draws more
     study = mitigation_study.mitigation_study(
-        UNIT, circuit_model.Source("fault_level", 38e6, 6.0), RES3,
+        UNIT, circuit_model.Source("fault_level", 38e6, 6.0), _event(UNIT, RES3),
         options=[mo.Rating(), mo.Rating(1.5e6)], residual_sweep=(),
     )  # fmt: skip
     big = next(o for o in study.ranked if "3750" in o.label)
@@ -148,7 +165,7 @@ def test_oversized_unit_draws_the_larger_inrush() -> None:
 def test_controlled_closing_leaves_magnetising_current_at_zero_error() -> None:
     c = circuit_model.equivalent_circuit(UNIT)
     study = mitigation_study.mitigation_study(
-        UNIT, None, RES3,
+        UNIT, None, _event(UNIT, RES3),
         options=[mo.ControlledClosing(closing_error_ms=0.0), mo.ControlledClosing()],
         residual_sweep=(),
     )  # fmt: skip
@@ -181,7 +198,11 @@ def test_preset_flux_matches_a_simultaneous_closing() -> None:
 def test_pre_magnetised_closing_is_magnetising_level() -> None:
     c = circuit_model.equivalent_circuit(UNIT)
     study = mitigation_study.mitigation_study(
-        UNIT, None, RES3, options=[mo.PreMagnetize(1.0, closing_error_ms=0.0)], residual_sweep=()
+        UNIT,
+        None,
+        _event(UNIT, RES3),
+        options=[mo.PreMagnetize(1.0, closing_error_ms=0.0)],
+        residual_sweep=(),
     )
     o = _only(study, "pre_magnetize")
     assert o.peak_a < 2 * math.sqrt(2) * 0.008 * c.rated_line_current_a
@@ -189,7 +210,7 @@ def test_pre_magnetised_closing_is_magnetising_level() -> None:
 
 def test_slow_ramp_from_zero_stays_far_below_the_baseline() -> None:
     study = mitigation_study.mitigation_study(
-        UNIT, None, RES3, options=[mo.Ramp(0.0, 0.0, 1.0), mo.Ramp(0.5, 0.1, 0.0)],
+        UNIT, None, _event(UNIT, RES3), options=[mo.Ramp(0.0, 0.0, 1.0), mo.Ramp(0.5, 0.1, 0.0)],
         residual_sweep=(),
     )  # fmt: skip
     slow = next(o for o in study.ranked if o.label.startswith("ramped from 0 pu"))
@@ -205,7 +226,7 @@ def test_tap_lowers_the_peak_as_the_closed_form_does() -> None:
     c = circuit_model.equivalent_circuit(PHASE)
     _, _, b_s = _loop(c)
     study = mitigation_study.mitigation_study(
-        PHASE, None, 0.8, options=[mo.Retap(10.0)], residual_sweep=()
+        PHASE, None, _event(PHASE, 0.8), options=[mo.Retap(10.0)], residual_sweep=()
     )
     k = 1.1
     ratio = _only(study, "tap").peak_a / study.baseline.peak_a
@@ -215,7 +236,7 @@ def test_tap_lowers_the_peak_as_the_closed_form_does() -> None:
 
 
 def test_ranking_passes_first_then_by_peak() -> None:
-    study = mitigation_study.mitigation_study(UNIT, None, RES3, target_peak_a=1.0)
+    study = mitigation_study.mitigation_study(UNIT, None, _event(UNIT, RES3), target_peak_a=1.0)
     keys = [(not o.evaluated, not o.passes, o.peak_x_rated) for o in study.ranked]
     assert keys == sorted(keys)
     assert {o.kind for o in study.ranked} == set(mo.KINDS) - {"other_winding"}
@@ -223,14 +244,16 @@ def test_ranking_passes_first_then_by_peak() -> None:
 
 def test_devices_judged_against_each_option() -> None:
     c = circuit_model.equivalent_circuit(UNIT)
-    base = mitigation_study.mitigation_study(UNIT, None, RES3, options=[], residual_sweep=())
+    base = mitigation_study.mitigation_study(
+        UNIT, None, _event(UNIT, RES3), options=[], residual_sweep=()
+    )
     # an instantaneous element between the controlled-closing current and the baseline peak
     relay = Relay(
         "51", "ieee_c37_112", "very_inverse", 2.0 * c.rated_line_current_a, 2.0,
         0.5 * base.baseline.peak_a,
     )  # fmt: skip
     study = mitigation_study.mitigation_study(
-        UNIT, None, RES3, options=[mo.ControlledClosing(closing_error_ms=0.0)],
+        UNIT, None, _event(UNIT, RES3), options=[mo.ControlledClosing(closing_error_ms=0.0)],
         devices=mo.DeviceCheck((relay,)), residual_sweep=(),
     )  # fmt: skip
     assert study.baseline.devices is not None
@@ -247,7 +270,11 @@ def test_other_winding_draws_more_from_the_inner_one() -> None:
     # the outer's inrush in per unit; here the unit is energised from its 13.8 kV outer winding
     hv = replace(UNIT, line_voltage_v=13.8e3, connection="delta", position="outer")
     study = mitigation_study.mitigation_study(
-        hv, None, RES3, options=[mo.OtherWinding(480.0, "wye_grounded")], residual_sweep=()
+        hv,
+        None,
+        _event(hv, RES3),
+        options=[mo.OtherWinding(480.0, "wye_grounded")],
+        residual_sweep=(),
     )
     o = _only(study, "other_winding")
     assert 1.8 < o.peak_x_rated / study.baseline.peak_x_rated < 3.5
@@ -262,9 +289,13 @@ def test_generator_supply_dip_and_resistor_sized_for_the_limit() -> None:
     )  # fmt: skip
     supply = mo.GeneratorSupply(gen, duration_s=2.0)
     study = mitigation_study.mitigation_study(
-        UNIT, None, RES3, options=[mo.PreInsertionResistor(), mo.Ramp()], supply=supply,
+        UNIT,
+        None,
+        _event(UNIT, RES3),
+        options=[mo.PreInsertionResistor(), mo.Ramp()],
+        supply=supply,
         residual_sweep=(),
-    )  # fmt: skip
+    )
     assert study.baseline.dip is not None
     assert study.baseline.dip.passed is False
     pir = _only(study, "pre_insertion_resistor")
@@ -274,14 +305,16 @@ def test_generator_supply_dip_and_resistor_sized_for_the_limit() -> None:
     assert ramp.dip is None
     assert any("ramped" in n for n in ramp.notes)
     with pytest.raises(ParameterError) as info:
-        mitigation_study.mitigation_study(UNIT, circuit_model.Source("ideal"), RES3, supply=supply)
+        mitigation_study.mitigation_study(
+            UNIT, circuit_model.Source("ideal"), _event(UNIT, RES3), supply=supply
+        )
     assert info.value.parameter == "source"
 
 
 def test_an_option_that_does_not_apply_is_reported_not_raised() -> None:
     # controlled closing needs |b_r| <= 1 (an angle where the prospective flux equals it)
     study = mitigation_study.mitigation_study(
-        PHASE, None, 1.3, options=[mo.ControlledClosing()], residual_sweep=()
+        PHASE, None, _event(PHASE, 1.3), options=[mo.ControlledClosing()], residual_sweep=()
     )
     o = _only(study, "controlled_closing")
     assert not o.evaluated
@@ -292,11 +325,25 @@ def test_an_option_that_does_not_apply_is_reported_not_raised() -> None:
 
 def test_parameter_errors() -> None:
     with pytest.raises(ParameterError) as info:
-        mitigation_study.mitigation_study(UNIT, None, RES3, target_peak_a=-1.0)
+        mitigation_study.mitigation_study(UNIT, None, _event(UNIT, RES3), target_peak_a=-1.0)
     assert info.value.parameter == "target_peak_a"
     with pytest.raises(ParameterError) as info:
-        mitigation_study.mitigation_study(UNIT, None, RES3, residual_sweep=(2.0,))
+        mitigation_study.mitigation_study(UNIT, None, _event(UNIT, RES3), residual_sweep=(2.0,))
     assert info.value.parameter == "residual_sweep"
     with pytest.raises(ParameterError) as info:
         mo.Ramp(start_pu=1.5)
     assert info.value.parameter == "start_pu"
+
+
+def test_the_event_as_it_is_must_be_a_plain_closing_of_the_unit() -> None:
+    # the options add the resistor, ramp or timing; the event given is the unit's closing as it
+    # is, of the unit's phase count
+    c = circuit_model.equivalent_circuit(UNIT)
+    with pytest.raises(ParameterError) as info:
+        mitigation_study.mitigation_study(
+            UNIT, None, switching_event(c, 0.0, RES3, insertion_resistance_ohm=1.0), options=[]
+        )
+    assert info.value.parameter == "event"
+    with pytest.raises(ParameterError) as info:
+        mitigation_study.mitigation_study(UNIT, None, _event(PHASE, 0.8), options=[])
+    assert info.value.parameter == "event"

@@ -14,6 +14,7 @@ import math
 import numpy as np
 import pytest
 
+from core.energization.switching_event import switching_event
 from core.errors import ParameterError
 from core.mitigation.mitigation_options import Demagnetize
 from core.mitigation.plans import Context, plan_for, preset_flux
@@ -52,7 +53,16 @@ def test_demagnetising_scales_the_residual_flux(
         rating_va=2.5e6, phases=3, frequency_hz=60, line_voltage_v=480, impedance_percent=5.75
     )
     residual = np.array([0.8, -0.4, -0.4])
-    ctx = Context(nameplate, None, three_phase, None, residual, np.zeros(3), None, None, None)
+    ctx = Context(
+        nameplate,
+        None,
+        three_phase,
+        None,
+        switching_event(three_phase, 0.0, residual),
+        None,
+        None,
+        None,
+    )
     warnings: list[tuple[str, str]] = []
     plan = plan_for(Demagnetize(0.25), ctx, warnings)
     # what remains of the flux is the given share of it (the option's definition)

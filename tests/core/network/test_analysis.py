@@ -16,6 +16,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from core.errors import ParameterError
 from core.network import analysis
@@ -63,6 +65,37 @@ def test_first_peaks_per_case_windows_equal_one_case_at_a_time() -> None:
         assert peaks[k] == float(p)
         assert lines[k] == int(ln)
     assert peaks[1] == pytest.approx(6.0, rel=1e-12)  # half of line 2's vertex 12
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    values=st.lists(
+        st.floats(-1e4, 1e4, allow_nan=False, allow_infinity=False), min_size=3 * 12, max_size=36
+    ),
+    end=st.integers(0, 11),
+)
+def test_first_peak_is_at_least_the_largest_sample_in_the_window(
+    values: list[float], end: int
+) -> None:
+    # property: the refined peak is never below the largest |i| sampled within the window, and
+    # exceeds it by at most what a parabola through a local maximum y1 >= y0, y2 can add:
+    # (y2 - y0)^2 / (8 |d|) <= |y2 - y0| / 8, since |d| = (y1 - y0) + (y1 - y2) >= |y2 - y0|
+    t = np.arange(12) * 1e-3
+    i = np.asarray(values).reshape(3, 12)
+    peak, line = analysis.first_peaks(t, i, t[end])
+    top = float(np.abs(i[:, : end + 1]).max())
+    assert float(peak) >= top
+    a = np.abs(i[int(line)])
+    assert float(peak) <= top + 0.125 * float(np.ptp(a)) + 1e-9 * max(1.0, top)
+
+
+def test_a_window_ending_on_a_rising_edge_is_not_extrapolated() -> None:
+    # |i| = 0, 1, 1.99 ...: the parabola through the last three would put a vertex at 50
+    t = np.arange(4) * 1e-3
+    i = np.zeros((3, 4))
+    i[0] = [0.0, 1.0, 1.99, 2.5]
+    peak, _ = analysis.first_peaks(t, i, t[1])
+    assert float(peak) == 1.0
 
 
 def test_first_peak_at_the_record_edge_is_not_refined() -> None:

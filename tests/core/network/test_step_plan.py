@@ -8,11 +8,23 @@ nameplate defaults of core.transformer (common practice), a 30 MVA source, X/R 8
 
 from __future__ import annotations
 
+import dataclasses
+from typing import Any
+
 import numpy as np
 import pytest
 
 from core import cost, transformer
-from core.network import Breaker, BusLoad, Source, Unit, simulate_network, step_plan
+from core.network import (
+    Breaker,
+    BusLoad,
+    NetworkResult,
+    Source,
+    Unit,
+    simulate_network,
+    step_plan,
+)
+from core.protection import device_operation
 
 F = 50.0
 V_LL = 11_000.0
@@ -69,6 +81,52 @@ def test_plan_and_work_count_the_solvers_steps(name: str, samples_per_cycle: int
     with_devices = cost.network_work(SOURCE, units, 0.1, load, devices=2)
     assert with_devices.steps > cost.network_work(SOURCE, units, 0.1, load).steps
     assert np.isfinite(work.steps)
+
+
+def test_statistics_work_counts_the_steps_the_statistics_take(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    # every simulate_network call of the Monte Carlo and of the device events, counted from
+    # what it returns: cases x units x 3 windings x internal steps
+    from core.statistics import monte_carlo
+    from core.statistics import network_statistics as ns
+
+    units, load = CASES["delta beside wye in service, load"]
+    units = [
+        dataclasses.replace(u, breaker=Breaker(np.zeros(3)), residual_flux_pu=np.zeros(3))
+        if not u.in_service
+        else u
+        for u in units
+    ]
+    taken: list[float] = []
+
+    def counted(*args: Any, **kw: Any) -> NetworkResult:
+        res = simulate_network(*args, **kw)
+        cases, n_units = res.line_current_a.shape[:2]
+        steps = (res.time_s.size - 1) * (res.steps_per_cycle // 128)
+        taken.append(cost.NETWORK_STEP_WEIGHT * cases * n_units * 3 * steps)
+        return res
+
+    monkeypatch.setattr(ns, "simulate_network", counted)
+    dist = ns.network_peak_distribution(
+        SOURCE, units, samples=9, random_state=1, load=load, pole_scatter_ms=0.0,
+        residual=monte_carlo.UniformResidual(), chunk_bytes=1e5,
+    )  # fmt: skip
+    assert len(taken) > 1  # chunked
+    relay = device_operation.Relay("r", "ieee_c37_112", "very_inverse", 400.0, 2.0)
+    ns.network_device_odds(SOURCE, units, dist, [relay], 100.0, events=4, duration_s=0.3, load=load)
+    work = cost.network_statistics_work(
+        SOURCE, units, load, samples=9, pole_closing_max_s=0.0, pole_scatter_ms=0.0, events=4,
+        devices=1, duration_s=0.3,
+    )  # fmt: skip
+    parts = dict(work.parts)
+    assert parts["Monte Carlo events"] == pytest.approx(sum(taken[:-1]))
+    assert parts["device events simulated"] == pytest.approx(taken[-1])
+    # a scatter widens the window the estimate counts by SCATTER_SIGMAS x sigma (a bound)
+    wider = cost.network_statistics_work(
+        SOURCE, units, load, samples=9, pole_closing_max_s=0.0, pole_scatter_ms=1.0
+    )
+    assert dict(wider.parts)["Monte Carlo events"] > parts["Monte Carlo events"]
 
 
 @pytest.mark.parametrize("name", sorted(CASES))

@@ -15,6 +15,8 @@ import math
 
 import pytest
 
+from core.energization.switching_event import switching_event
+from core.errors import ParameterError
 from core.protection import device_operation
 from core.protection.protection_study import clearance_study, source_impedance_pu
 from core.transformer import circuit_model
@@ -59,9 +61,7 @@ def test_an_instantaneous_setting_above_the_peak_rides_through_one_below_operate
     low = device_operation.Relay("L", "ieee_c37_112", "very_inverse", 2.0 * rated, 0.5, 2.0 * rated)
     study = clearance_study(
         circuit,
-        0.0,
-        [0.8, -0.4, -0.4],
-        0.0,
+        switching_event(circuit, 0.0, [0.8, -0.4, -0.4], 0.0),
         [high, low],
         rating_va=2.5e6,
         impedance_percent=5.75,
@@ -75,3 +75,18 @@ def test_an_instantaneous_setting_above_the_peak_rides_through_one_below_operate
     assert by_name["L"].ride_through.margin_ratio < 1.0
     assert study.rated_current_a == pytest.approx(rated, rel=1e-12)
     assert study.damage is not None
+
+
+def test_the_study_refuses_an_event_it_does_not_simulate(
+    circuit: circuit_model.EquivalentCircuit,
+) -> None:
+    # a pre-insertion resistor is the mitigation study's to simulate; "closing" is given or worst
+    relay = device_operation.Relay("R", "ieee_c37_112", "very_inverse", 200.0, 1.0, 2000.0)
+    kw = {"rating_va": 2.5e6, "impedance_percent": 5.75, "duration_s": 0.5, "windows": False}
+    resistor = switching_event(circuit, insertion_resistance_ohm=5.0, insertion_time_s=0.01)
+    with pytest.raises(ParameterError) as err:
+        clearance_study(circuit, resistor, [relay], **kw)  # type: ignore[arg-type]
+    assert err.value.parameter == "event"
+    with pytest.raises(ParameterError) as err:
+        clearance_study(circuit, switching_event(circuit), [relay], closing="best", **kw)  # type: ignore[arg-type]
+    assert err.value.parameter == "closing"

@@ -181,3 +181,16 @@ def test_order_statistic_interval_coverage() -> None:
         )
     )
     assert hits / 400 >= 0.93
+
+
+def test_events_are_the_sampled_energisations(three_phase: circuit_model.EquivalentCircuit) -> None:
+    # the events handed to the full simulations are the sample's own draws, in order (reference:
+    # the sample's arrays themselves)
+    dist = monte_carlo.peak_distribution(three_phase, samples=20, random_state=3, batch=20)
+    events = dist.events(three_phase, 5)
+    assert len(events) == 5
+    for k, event in enumerate(events):
+        assert event.closing_angle_deg == dist.closing_angle_deg[k]
+        assert np.array_equal(event.residual_flux_pu, dist.residual_flux_pu[k])
+        assert np.array_equal(event.pole_delay_s, dist.pole_delay_s[k])
+        assert event.plain

@@ -199,18 +199,19 @@ def test_linear_wye_branch_is_the_complex_divider_and_joule_energy() -> None:
     assert ("resistor_not_bypassed" in [w[0] for w in study.warnings]) is True
 
 
-def test_linear_delta_loop_sees_the_line_resistor_twice() -> None:
-    # The stated delta reduction: winding j on E_j - E_(j+1) behind 2 Z_s and 2R (two line
-    # resistors), winding impedance Z_w = R_w + j x_w. With (2R + R_w)/x_w = R_s/X_s the
-    # windings' DC offsets again decay with L_s/R_s and put no voltage across Z_s, so
-    # C_j = (E_j - E_(j+1))/(2 Z_s + 2R + Z_w), I_k = C_k - C_(k-1), V_k = E_k - Z_s I_k from
-    # t = 0. Energy: R * sum over the three lines of integral i_k^2, each winding current
-    # c_j = sqrt(2)*(Im(C_j e^(j w t)) - Im(C_j) exp(-t/tau)), by quad. Tolerances as for
-    # the wye (measured 4e-16 pu and 8.0e-8).
+def test_linear_delta_is_the_balanced_three_phase_circuit() -> None:
+    # A delta of linear windings Z_w = R_w + j x_w behind the line resistors R and Z_s is, for
+    # the balanced EMF, the wye Z_w/3 per phase (delta-wye transformation): I_k = E_k/(Z_s + R
+    # + Z_w/3), C_j = (E_j - E_(j+1))/(3 Z_s + 3R + Z_w), V_k = E_k - Z_s I_k. With
+    # (3R + R_w)/x_w = R_s/X_s every branch has the source's X/R, so the DC offsets decay with
+    # L_s/R_s and put no voltage across Z_s: V_k is that sinusoid from t = 0 (and the delta's
+    # circulating current, zero at t = 0, stays zero). Energy: R * sum over the three lines of
+    # integral i_k^2, each winding current c_j = sqrt(2)*(Im(C_j e^(j w t)) - Im(C_j)
+    # exp(-t/tau)), by quad. Tolerances 1e-6 pu and 1e-6 relative.
     src = sources.UtilitySource(10e6, 5.0, V_LL, F_HZ)
     z_s = V_LL**2 / 10e6 * complex(1.0, 5.0) / math.sqrt(26.0)
     x_w, r = 3.0 * V_LL**2 / S_GEN, 0.02
-    r_w = 0.2 * x_w - 2.0 * r
+    r_w = 0.2 * x_w - 3.0 * r
     alpha = -40.0
     study = dip.energize_from_source(
         src,
@@ -221,7 +222,7 @@ def test_linear_delta_loop_sees_the_line_resistor_twice() -> None:
         duration_s=3 * T,
     )
     e_k = [cmath.rect(V_PH, math.radians(alpha) - 2 * math.pi * k / 3) for k in range(3)]
-    c_j = [(e_k[j] - e_k[(j + 1) % 3]) / (2 * z_s + 2 * r + complex(r_w, x_w)) for j in range(3)]
+    c_j = [(e_k[j] - e_k[(j + 1) % 3]) / (3 * z_s + 3 * r + complex(r_w, x_w)) for j in range(3)]
     i_k = [c_j[k] - c_j[k - 1] for k in range(3)]
     v_k = [e_k[k] - z_s * i_k[k] for k in range(3)]
     for k in range(3):
@@ -237,7 +238,6 @@ def test_linear_delta_loop_sees_the_line_resistor_twice() -> None:
 
     expected = _energy_closed_form(cur, r, 3 * T)
     assert study.insertion_energy_j == pytest.approx(expected, rel=1e-6)
-    assert any("2R" in a for a in study.approximations)
 
 
 def test_bypass_falls_on_the_step_grid(assert_identical: Callable[[Any, Any], None]) -> None:
@@ -284,7 +284,8 @@ def test_more_resistance_smaller_dip_and_lower_peak(
     connection: str, bus_load: sources.BusLoad | None
 ) -> None:
     # The resistor in for the whole simulated time: more resistance, more damping of the
-    # inrush. The peak falls over the whole range the step allows; the dip falls while the
+    # inrush. The peak falls over the whole range the step allows (to 10 ohm: the delta's
+    # inserted loop allows 11.1 ohm); the dip falls while the
     # inrush is what makes it (up to 1 ohm, about 11 x the unit's base impedance; beyond,
     # under 1 %, the slower effects of a small branch current on the machine take over).
     resistances = [0.0, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1.0]
@@ -298,7 +299,7 @@ def test_more_resistance_smaller_dip_and_lower_peak(
             bus_load=bus_load,
             duration_s=0.3,
         )
-        for r in [*resistances, 2.0, 5.0, 20.0]
+        for r in [*resistances, 2.0, 5.0, 10.0]
     ]
     dips = np.array([s.dip_percent for s in studies[: len(resistances)]])
     peaks = np.array([s.inrush_peak_a for s in studies])

@@ -236,11 +236,13 @@ def test_sweep_equals_single_study() -> None:
     assert swept[0] == pytest.approx(single.dip_percent, rel=1e-12)
 
 
-def test_delta_independent_loops_are_conservative() -> None:
-    # A balanced linear load on a delta winding: the true loop impedance for balanced currents
-    # is 3 Z_s, the model uses 2 Z_s (exact when one winding carries the current), so the
-    # winding currents and the dip come out somewhat larger than the divider: conservative,
-    # by 0.6 percentage points here (13.64 % against 13.04 %).
+def test_balanced_linear_delta_reproduces_the_voltage_divider() -> None:
+    # A balanced linear load on a delta winding, solved as the three-phase circuit: for
+    # balanced currents it is the wye X/3 per phase behind X''d (delta-wye transformation), so
+    # the dip is the voltage divider X''d*S/(S_gen + X''d*S) (no resistance: the DC offsets put
+    # no voltage across the source inductance; time constants long enough that the EMF stays
+    # put). Measured 0.0019 percentage points apart (the old model, each winding alone behind
+    # 2 x Z_s, gave 0.6 points more than the divider).
     gen = dataclasses.replace(_northgate(), t_d2_s=100.0, t_d1_s=1000.0, armature_resistance_pu=0)
     base = _linear_load(S_GEN)
     x = 3.0 * V_LL**2 / S_GEN
@@ -255,8 +257,7 @@ def test_delta_independent_loops_are_conservative() -> None:
         gen, circ, switching_event(circ, 0.0, 0.0), excitation="constant_field", duration_s=0.05
     )
     exact = float(sources.first_dip_voltage_divider(0.15, S_GEN, S_GEN))
-    assert exact < study.dip_percent < exact + 1.0
-    assert any("delta" in a for a in study.approximations)
+    assert study.dip_percent == pytest.approx(exact, abs=0.05)
 
 
 # -------------------------------------------------------------------------- validation
