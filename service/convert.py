@@ -240,8 +240,9 @@ EMF_SINGLE_PHASE = (
 EMF_DIP = (
     "pre-event phase-A terminal voltage sqrt(2)*V_0*V_LL/sqrt(3)*sin(omega*t + closing_angle), "
     "B and C at -120 and +120 deg; a generator's EMF "
-    "e_k = sqrt(2)*V_r*E''_q(t)*sin(omega*t + beta - 2*pi*k/3) behind X''_d and R_a, beta from "
-    "the pre-event steady state; a utility source a constant EMF behind its R + jX"
+    "e_k = sqrt(2)*V_r*(E''_q*sin(theta_k) - (dE''_q/dt/omega)*cos(theta_k)), "
+    "theta_k = omega*t + beta + (0, -120, +120 deg), behind R_a + jX''_d, with beta and E''_q "
+    "at t = 0 from the pre-event steady state; a utility source a constant EMF behind its R + jX"
 )
 
 
