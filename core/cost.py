@@ -100,6 +100,13 @@ PEAK_CASE_WEIGHT = 360_000.0
 # about 1.2 s, the voltage-time figure of the dip about 0.25 s, whatever the record.
 TCC_FIGURE_WEIGHT = 22_000_000.0
 DIP_FIGURE_WEIGHT = 4_500_000.0
+# The network's current-time figure (service.figures.network_svg), measured on this project's
+# machine: about 0.45 s whatever is drawn, 0.02 s more per curve, and a little per sample drawn
+# (matplotlib simplifies the paths: a five times longer record of 12 curves, 368 000 more
+# samples, took 0.04 s more).
+NETWORK_FIGURE_WEIGHT = 8_000_000.0
+NETWORK_FIGURE_CURVE_WEIGHT = 400_000.0
+FIGURE_SAMPLE_WEIGHT = 2.0
 # Dip evaluations of the generator sizing (core.supply.generator_sizing.smallest_generator): the
 # two ends of the range, Brent's method on log(rating) to a relative 1e-3 over a factor of 200
 # (bisection alone needs 13; Brent's superlinear steps need fewer on this smooth, monotonic dip),
@@ -734,3 +741,57 @@ def network_statistics_work(
             ("device events judged", events * devices * per_event),
         ]
     return _work(parts)
+
+
+def network_figure_work(
+    source: Source,
+    units: Sequence[Unit],
+    duration_s: float,
+    load: BusLoad | None = None,
+    *,
+    samples_per_cycle: int = 128,
+) -> Work:
+    """Work of the network's current-time figure: one simulation and the drawing.
+
+    Parameters
+    ----------
+    source : core.network.Source
+        The source [-].
+    units : sequence of core.network.Unit
+        The units on the bus [-].
+    duration_s : float
+        Simulated time [s].
+    load : core.network.BusLoad or None
+        The bus load [-].
+    samples_per_cycle : int
+        Output samples per cycle [-].
+
+    Returns
+    -------
+    Work
+
+    Notes
+    -----
+    Simulation as :func:`network_work` (NETWORK_STEP_WEIGHT x units x 3 windings x steps);
+    the figure: NETWORK_FIGURE_WEIGHT + curves x (NETWORK_FIGURE_CURVE_WEIGHT +
+    FIGURE_SAMPLE_WEIGHT x samples), one curve for the source and one per unit (the line with
+    the largest current). No reading, no device judged.
+
+    References
+    ----------
+    Counts the network solver's step plan (this project); the drawing's weights measured.
+    """
+    units = list(units)
+    _, _, n_steps = step_plan(source, units, duration_s, load, samples_per_cycle)
+    samples = duration_s * source.frequency_hz * samples_per_cycle + 1
+    curves = len(units) + 1.0
+    return _work(
+        [
+            ("network simulation", NETWORK_STEP_WEIGHT * len(units) * 3.0 * n_steps),
+            (
+                "figure",
+                NETWORK_FIGURE_WEIGHT
+                + curves * (NETWORK_FIGURE_CURVE_WEIGHT + FIGURE_SAMPLE_WEIGHT * samples),
+            ),
+        ]
+    )

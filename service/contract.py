@@ -118,6 +118,20 @@ def example_pairs() -> dict[str, dict[str, Any]]:
                 if x in resp.text
             ],
         }
+    for name, body in NETWORK_REQUESTS.items():
+        resp = client.post("/v1/network-energization/figure", json=body)
+        if resp.status_code != 200:
+            raise RuntimeError(f"example network_energization_figure.{name} failed: {resp.text}")
+        labels = [u["name"] for u in body["units"]] + ["Source", "Current [A]", "Time [s]"]
+        out[f"network_energization_figure.{name}"] = {
+            "operation_id": "network_energization_figure",
+            "method": "POST",
+            "path": "/v1/network-energization/figure",
+            "request": body,
+            "status": 200,
+            "media_type": resp.headers["content-type"].split(";")[0],
+            "response_contains": [x for x in labels if x in resp.text],
+        }
     for name, (op, url) in SHEET_REQUESTS.items():
         resp = client.get(url)
         if resp.status_code != 200:

@@ -29,7 +29,7 @@ from core.supply.sources import (
     Generator,
     UtilitySource,
 )
-from core.transformer import circuit_model, magnetizing, plausibility
+from core.transformer import circuit_model, magnetizing, plausibility, three_phase_circuit
 from core.transformer.circuit_model import EquivalentCircuit
 from service.models.clearance import BreakerIn, CurvePoint, DifferentialIn, FuseIn, RelayIn
 from service.models.common import (
@@ -41,6 +41,7 @@ from service.models.common import (
     SourceIn,
     Study,
     TableCurve,
+    ThreePhaseWindingIn,
     TransformerNameplate,
     TwoSlopeCurve,
     WarningItem,
@@ -167,21 +168,12 @@ def _circuit(study: Study) -> EquivalentCircuit:
             if exc.parameter == "source.short_circuit_power_va" and study.source is not None:
                 raise _source_error(exc, study.transformer, study.source) from None
             raise
+    three = getattr(study, "circuit_three_phase", None)
+    if three is not None:
+        return circuit_three_phase_of(three, "circuit_three_phase")
     assert study.circuit is not None
     ci = study.circuit
-    m = ci.magnetizing
-    curve: magnetizing.MagnetizingCurve
-    if isinstance(m, TwoSlopeCurve):
-        curve = magnetizing.two_slope(
-            m.unsaturated_inductance_h, m.knee_flux_wb, m.saturated_inductance_h
-        )
-    elif isinstance(m, SmoothCurve):
-        curve = magnetizing.smooth_knee(
-            m.unsaturated_inductance_h, m.knee_flux_wb, m.saturated_inductance_h, m.knee_width_wb
-        )
-    else:
-        assert isinstance(m, TableCurve)
-        curve = magnetizing.from_table(m.flux_wb, m.current_a, m.final_inductance_h)
+    curve = curve_of(ci.magnetizing)
     return circuit_model.circuit_from_si(
         ci.voltage_rms_v,
         ci.frequency_hz,
@@ -192,8 +184,99 @@ def _circuit(study: Study) -> EquivalentCircuit:
     )
 
 
-def study_inputs(study: Study) -> tuple[EquivalentCircuit, SwitchingEvent, list[Assumption]]:
-    """Circuit, switching event (residual flux [pu], pole delays [s]) and the assumptions."""
+def curve_of(m: TwoSlopeCurve | SmoothCurve | TableCurve) -> magnetizing.MagnetizingCurve:
+    """The core magnetising curve of a request's ``magnetizing``."""
+    if isinstance(m, TwoSlopeCurve):
+        return magnetizing.two_slope(
+            m.unsaturated_inductance_h, m.knee_flux_wb, m.saturated_inductance_h
+        )
+    if isinstance(m, SmoothCurve):
+        return magnetizing.smooth_knee(
+            m.unsaturated_inductance_h, m.knee_flux_wb, m.saturated_inductance_h, m.knee_width_wb
+        )
+    return magnetizing.from_table(m.flux_wb, m.current_a, m.final_inductance_h)
+
+
+def circuit_three_phase_of(
+    ci: ThreePhaseWindingIn, where: str, frequency_hz: float | None = None
+) -> EquivalentCircuit:
+    """The core circuit of a three-phase SI circuit; a core error names its field under
+    ``where`` (the request path of the circuit). ``frequency_hz`` replaces the circuit's own
+    (a network unit takes the bus's); its source fields are used when it has them."""
+    try:
+        curve = curve_of(ci.magnetizing)
+    except ParameterError as exc:
+        raise ParameterError(
+            f"{where}.magnetizing.{exc.parameter}", exc.value, exc.allowed
+        ) from None
+    f = frequency_hz if frequency_hz is not None else getattr(ci, "frequency_hz", 60.0)
+    try:
+        return three_phase_circuit.circuit_three_phase_from_si(
+            ci.connection,
+            f,
+            ci.winding_voltage_v,
+            ci.winding_resistance_ohm,
+            curve,
+            ci.rated_current_a,
+            getattr(ci, "source_resistance_ohm", 0.0),
+            getattr(ci, "source_inductance_h", 0.0),
+        )
+    except ParameterError as exc:
+        raise ParameterError(f"{where}.{exc.parameter}", exc.value, exc.allowed) from None
+
+
+#: The source EMFs of the single-unit operations (core.energization.energize), as they are.
+EMF_THREE_PHASE = (
+    "e_k = sqrt(2)*V_LL/sqrt(3)*sin(omega*t + closing_angle + theta_k), theta = 0, -120, +120 "
+    "deg, V_LL the energised winding's rated line voltage; ideal EMFs behind the source "
+    "resistance and inductance per phase (wye-equivalent), zero-sequence impedance equal to "
+    "the positive-sequence one"
+)
+EMF_SINGLE_PHASE = (
+    "e = sqrt(2)*V*sin(omega*t + closing_angle), V the winding's rated voltage "
+    "(circuit mode: voltage_rms_v); an ideal EMF behind the series resistance and inductance"
+)
+#: The generator-dip operation's supply (core.supply.dip).
+EMF_DIP = (
+    "pre-event phase-A terminal voltage sqrt(2)*V_0*V_LL/sqrt(3)*sin(omega*t + closing_angle), "
+    "B and C at -120 and +120 deg; a generator's EMF "
+    "e_k = sqrt(2)*V_r*(E''_q*sin(theta_k) - (dE''_q/dt/omega)*cos(theta_k)), "
+    "theta_k = omega*t + beta + (0, -120, +120 deg), behind R_a + jX''_d, with beta and E''_q "
+    "at t = 0 from the pre-event steady state; a utility source a constant EMF behind its R + jX"
+)
+
+
+def flux_notes(circuit: EquivalentCircuit, emf: str | None = None) -> list[Assumption]:
+    """lambda_N and lambda_knee of the energised winding, and the source EMF convention
+    (``emf``; by default that of the single-unit operations for the circuit's phases)."""
+    return [
+        Assumption(
+            name="nominal_flux_wb",
+            value=circuit.nominal_flux_wb,
+            unit="Wb-turn",
+            source="lambda_N: peak flux linkage of one energised winding at rated voltage, "
+            "sqrt(2)*V_w/omega",
+        ),
+        Assumption(
+            name="knee_flux_wb",
+            value=circuit.knee_flux_wb,
+            unit="Wb-turn",
+            source="lambda_knee: knee of the energised winding's magnetising curve",
+        ),
+        Assumption(
+            name="source_emf",
+            value=emf or (EMF_THREE_PHASE if circuit.phases == 3 else EMF_SINGLE_PHASE),
+            unit="-",
+            source="model convention",
+        ),
+    ]
+
+
+def study_inputs(
+    study: Study, emf: str | None = None
+) -> tuple[EquivalentCircuit, SwitchingEvent, list[Assumption]]:
+    """Circuit, switching event (residual flux [pu], pole delays [s]) and the assumptions
+    (``emf``: the source EMF convention stated, when not the single-unit operations')."""
     circuit = _circuit(study)
     m = circuit.phases
     sw = study.switching
@@ -223,6 +306,7 @@ def study_inputs(study: Study) -> tuple[EquivalentCircuit, SwitchingEvent, list[
     )
     event = switching_event(circuit, sw.closing_angle_deg, res, delay)
     assumptions = assumptions_out(circuit.assumptions)
+    assumptions += flux_notes(circuit, emf)
     assumptions += extra
     assumptions.append(
         Assumption(

@@ -66,6 +66,25 @@ CIRCUIT: dict[str, Any] = {
     "rated_current_a": 3007.0,
 }
 
+# Three-phase SI circuit of the main unit's 13.8 kV delta winding on the utility feeder (values
+# rounded from the nameplate-derived circuit and the 250 MVA, X/R 12 source), for rebuilding the
+# case in any circuit simulator.
+CIRCUIT_THREE_PHASE: dict[str, Any] = {
+    "connection": "delta",
+    "frequency_hz": 60,
+    "winding_voltage_v": 13800.0,
+    "winding_resistance_ohm": 0.929,
+    "magnetizing": {
+        "kind": "two_slope",
+        "unsaturated_inductance_h": 75.77,
+        "knee_flux_wb": 61.82,
+        "saturated_inductance_h": 0.1035,
+    },
+    "rated_current_a": 104.6,
+    "source_resistance_ohm": 0.0633,
+    "source_inductance_h": 0.002014,
+}
+
 PEAK_REQUESTS: dict[str, dict[str, Any]] = {
     "northgate_main_unit": {
         "transformer": MAIN_UNIT,
@@ -87,6 +106,11 @@ PEAK_REQUESTS: dict[str, dict[str, Any]] = {
     "circuit_mode": {
         "circuit": CIRCUIT,
         "switching": {"closing_angle_deg": 0.0, "residual_flux_wb": [0.83]},
+        "method": "both",
+    },
+    "circuit_three_phase_mode": {
+        "circuit_three_phase": CIRCUIT_THREE_PHASE,
+        "switching": {"closing_angle_deg": 0.0},
         "method": "both",
     },
 }
@@ -114,6 +138,7 @@ _SUMMARIES = {
     "northgate_backfeed": "Demo: the same unit back-fed from the standby generator at 480 V",
     "northgate_lighting": "Demo: 112.5 kVA dry-type lighting transformer on the 480 V bus",
     "circuit_mode": "Demo: SI equivalent circuit of one low-voltage winding",
+    "circuit_three_phase_mode": "Demo: three-phase SI circuit of the main unit's 13.8 kV delta",
 }
 
 

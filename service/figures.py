@@ -503,3 +503,89 @@ def differential_svg(
             ax.grid(True, linewidth=0.5, alpha=0.5)
             ax.legend(fontsize="small")
         return _render(fig)
+
+
+NETWORK_FIGSIZE_IN = (10.0, 8.0)
+
+
+@dataclass(frozen=True, eq=False)
+class CurrentTrace:
+    """One current drawn against time on the network figure.
+
+    Attributes
+    ----------
+    label : str
+        Legend label, e.g. "Source, line A".
+    tag : str
+        Short name written beside the curve on the plot.
+    current_a : array_like, shape (n,)
+        The current at the figure's sample times [A].
+    gid : str
+        Id of the curve's group in the SVG (for readers of the file).
+    """
+
+    label: str
+    tag: str
+    current_a: npt.ArrayLike
+    gid: str
+
+
+def network_svg(
+    title: str,
+    time_s: npt.ArrayLike,
+    energized: Sequence[CurrentTrace],
+    in_service: Sequence[CurrentTrace] = (),
+) -> str:
+    """Currents of a network energisation against time: the source and the energised units
+    above, the units in service (their sympathetic currents, usually far smaller) below.
+
+    Parameters
+    ----------
+    title : str
+        Figure title.
+    time_s : array_like, shape (n,)
+        Sample times [s].
+    energized : sequence of CurrentTrace
+        The source current and the energised units' currents (top axes).
+    in_service : sequence of CurrentTrace
+        The units in service (bottom axes; none: one axes only).
+
+    Returns
+    -------
+    str
+        The SVG document.
+
+    Raises
+    ------
+    ParameterError
+        On a current whose length is not that of ``time_s``.
+    """
+    fig = Figure(figsize=NETWORK_FIGSIZE_IN if in_service else WAVEFORM_FIGSIZE_IN,
+                 layout="constrained")  # fmt: skip
+    axes = list(fig.subplots(2, 1, sharex=True)) if in_service else [fig.add_subplot()]
+    with _rc():
+        t = _vec(time_s, "time_s")
+        colour = 0
+        panels = zip(
+            axes,
+            (energized, in_service),
+            ("Source and energised units", "Units in service (sympathetic current)"),
+            ("top", "bottom"),
+            strict=False,
+        )
+        for ax, traces, what, where in panels:
+            for tr in traces:
+                i = _vec(tr.current_a, f"{tr.gid}.current_a", t.size)
+                c = f"C{colour % 10}"
+                colour += 1
+                ax.plot(t, i, color=c, linewidth=0.8, label=tr.label, gid=tr.gid)
+                # the name at the curve's own largest excursion
+                k = int(np.argmax(np.abs(i)))
+                _tag(ax, t[k : k + 1], i[k : k + 1], tr.tag, c, 0.0)
+            ax.axhline(0.0, color="0.4", linewidth=0.6, gid=f"zero-{where}")
+            ax.set_ylabel("Current [A]")
+            ax.set_title(f"{title}\n{what}" if where == "top" else what)
+            ax.grid(True, linewidth=0.5, alpha=0.5)
+        axes[-1].set_xlabel("Time [s]")
+        fig.legend(loc="outside lower center", ncols=2, fontsize="small")
+        return _render(fig)

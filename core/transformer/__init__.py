@@ -47,6 +47,7 @@ from core.transformer.plausibility import (
     rating_voltage_warnings,
     short_circuit_power_va,
 )
+from core.transformer.three_phase_circuit import circuit_three_phase_from_si, curve_key_values
 from core.transformer.variants import (
     STANDARD_RATINGS_KVA,
     TURNS_RATIO_RANGE,
@@ -84,6 +85,8 @@ __all__ = [
     "base_impedance_ohm",
     "check_source_strength",
     "circuit_from_si",
+    "circuit_three_phase_from_si",
+    "curve_key_values",
     "equivalent_circuit",
     "from_open_circuit_rms",
     "from_other_winding",

@@ -30,6 +30,10 @@ from core import checks
 from core.errors import ParameterError
 
 FloatArray = NDArray[np.float64]
+#: Largest segment inductance of a caller's table [H]: a thousand times the largest unsaturated
+#: inductance the two-slope and smooth curves accept at the API (1e6 H); steeper segments are
+#: a table's rounding, not a winding (modelling choice), and would overflow the arithmetic.
+MAX_TABLE_INDUCTANCE_H = 1e9
 
 __all__ = [
     "PiecewiseLinearCurve",
@@ -285,7 +289,15 @@ def from_table(
     la = checks.positive("final_inductance_h", final_inductance_h)
     lam = np.concatenate(([0.0], lam))
     cur = np.concatenate(([0.0], cur))
-    inductances = np.diff(lam) / np.diff(cur)
+    with np.errstate(over="ignore"):  # a rise of a few ulp in current: an infinite slope
+        inductances = np.diff(lam) / np.diff(cur)
+    if not np.all(inductances <= MAX_TABLE_INDUCTANCE_H):
+        raise ParameterError(
+            "current_a",
+            cur[1:].tolist(),
+            f"currents rising enough that each segment's inductance d(lambda)/di is at most "
+            f"{MAX_TABLE_INDUCTANCE_H:g} H (largest here {float(inductances.max()):g} H)",
+        )
     if np.any(inductances <= la):
         raise ParameterError(
             "final_inductance_h",
@@ -437,7 +449,15 @@ def from_open_circuit_rms(
                 "a current that rises fast enough with voltage for an increasing curve",
             )
         cur[k] = x
-    inductances = np.diff(lam) / np.diff(cur)
+    with np.errstate(over="ignore"):  # a rise of a few ulp in current: an infinite slope
+        inductances = np.diff(lam) / np.diff(cur)
+    if not np.all(inductances <= MAX_TABLE_INDUCTANCE_H):
+        raise ParameterError(
+            "current_a",
+            cur[1:].tolist(),
+            f"currents rising enough that each segment's inductance d(lambda)/di is at most "
+            f"{MAX_TABLE_INDUCTANCE_H:g} H (largest here {float(inductances.max()):g} H)",
+        )
     if np.any(inductances <= la):
         raise ParameterError(
             "final_inductance_h",

@@ -224,6 +224,9 @@ class TableCurve(Model):
     )
 
 
+CurveIn = Annotated[TwoSlopeCurve | SmoothCurve | TableCurve, Field(discriminator="kind")]
+
+
 class EquivalentCircuitIn(Model):
     """Single-phase energisation circuit in SI units, for cross-checks with circuit simulators."""
 
@@ -233,9 +236,53 @@ class EquivalentCircuitIn(Model):
     inductance_h: float = Field(
         ge=0.0, le=10.0, description="Series inductance outside the magnetising branch [H]"
     )
-    magnetizing: Annotated[TwoSlopeCurve | SmoothCurve | TableCurve, Field(discriminator="kind")]
+    magnetizing: CurveIn
     rated_current_a: float | None = Field(
         None, ge=1e-3, le=1e7, description="Rated rms current, for the x-rated values [A]"
+    )
+
+
+class ThreePhaseWindingIn(Model):
+    """Three identical windings in SI units: resistance, magnetising curve, connection."""
+
+    connection: Literal["wye_grounded", "wye", "delta"] = Field(
+        description="How the three windings are connected: grounded wye, wye with a floating "
+        "neutral, or delta"
+    )
+    winding_voltage_v: float = Field(
+        ge=1.0,
+        le=1e6,
+        description="Rated rms voltage across one winding (line-to-neutral for a wye, "
+        "line-to-line for a delta); it sets the nominal peak flux linkage "
+        "lambda_N = sqrt(2)*V/omega and the line voltage (sqrt(3) x this for a wye) [V]",
+    )
+    winding_resistance_ohm: float = Field(
+        ge=0.0, le=1e4, description="Resistance of one winding [ohm]"
+    )
+    magnetizing: CurveIn = Field(
+        description="Flux linkage of one winding [Wb-turn] against the winding's own current "
+        "[A] (for a delta the winding current, not the line current)"
+    )
+    rated_current_a: float | None = Field(
+        None,
+        ge=1e-3,
+        le=1e7,
+        description="Rated rms line current (sqrt(3) x the winding's own for a delta), the base "
+        "of the x-rated values [A]",
+    )
+
+
+class ThreePhaseCircuitIn(ThreePhaseWindingIn):
+    """Three-phase energisation circuit in SI units behind an R-L source, for cross-checks with
+    circuit simulators. The source EMFs are at the windings' rated voltage: phase A
+    e_a = sqrt(2)*V_LL/sqrt(3)*sin(wt + closing_angle), B and C 120 deg behind and ahead."""
+
+    frequency_hz: float = Field(60.0, ge=10.0, le=400.0, description="Source frequency [Hz]")
+    source_resistance_ohm: float = Field(
+        0.0, ge=0.0, le=1e4, description="Source resistance per phase, wye-equivalent [ohm]"
+    )
+    source_inductance_h: float = Field(
+        0.0, ge=0.0, le=10.0, description="Source inductance per phase, wye-equivalent [H]"
     )
 
 
@@ -327,7 +374,8 @@ class Study(Model):
     switching: Switching = Field(default_factory=Switching)
 
     SCHEMA_RULES: ClassVar[Rules] = (
-        {"oneOf": [given("transformer"), given("circuit")]},
+        # circuit_three_phase exists only where a subclass declares it (InrushStudy)
+        {"oneOf": [given("transformer"), given("circuit"), given("circuit_three_phase")]},
         is_not(both(given("circuit"), given("source"))),
         is_not(
             both(
@@ -342,18 +390,59 @@ class Study(Model):
 
     @model_validator(mode="after")
     def _one_mode(self) -> Study:
-        if (self.transformer is None) == (self.circuit is None):
-            raise ValueError("give exactly one of transformer or circuit")
+        three = getattr(self, "circuit_three_phase", None)
+        modes = [m for m in (self.transformer, self.circuit, three) if m is not None]
+        if len(modes) != 1:
+            raise ValueError(
+                "give exactly one of transformer or circuit"
+                + (
+                    " or circuit_three_phase"
+                    if "circuit_three_phase" in type(self).model_fields
+                    else ""
+                )
+            )
         if self.circuit is not None and self.source is not None:
             raise ValueError("source applies to nameplate mode; put it in the circuit instead")
-        if self.transformer is not None and self.switching.residual_flux_wb is not None:
-            raise ValueError("residual_flux_wb is for circuit mode; use residual_flux_pu")
-        phases = self.transformer.phases if self.transformer is not None else 1
+        if three is not None and self.source is not None:
+            raise ValueError(
+                "source applies to nameplate mode; give circuit_three_phase.source_resistance_ohm "
+                "and source_inductance_h instead"
+            )
+        if self.circuit is None and self.switching.residual_flux_wb is not None:
+            raise ValueError(
+                "residual_flux_wb is for the single-phase circuit mode; use residual_flux_pu"
+            )
+        phases = 1 if self.circuit is not None else 3
+        if self.transformer is not None:
+            phases = self.transformer.phases
         for name in ("residual_flux_pu", "pole_delay_ms"):
             values = getattr(self.switching, name)
             if values is not None and len(values) != phases:
                 raise ValueError(f"switching.{name} needs {phases} value(s), one per phase")
         return self
+
+
+class InrushStudy(Study):
+    """A study that also takes a three-phase equivalent circuit in SI units."""
+
+    circuit_three_phase: ThreePhaseCircuitIn | None = Field(
+        None,
+        description="Three-phase equivalent-circuit mode, SI units (give this, transformer or "
+        "circuit); the source is in it",
+    )
+
+    SCHEMA_RULES: ClassVar[Rules] = (
+        is_not(both(given("circuit_three_phase"), given("source"))),
+        is_not(
+            both(
+                given("circuit_three_phase"),
+                {
+                    "required": ["switching"],
+                    "properties": {"switching": given("residual_flux_wb", "array")},
+                },
+            )
+        ),
+    )
 
 
 # ------------------------------------------------------------------------------ response parts

@@ -9,9 +9,9 @@ from pydantic import Field
 from service.models.common import (
     CAUTION,
     Assumption,
+    InrushStudy,
     Method,
     Model,
-    Study,
     WarningItem,
     x_rated,
 )
@@ -19,7 +19,7 @@ from service.problems import Problem
 from service.settings import default_limit
 
 
-class PeakRequest(Study):
+class PeakRequest(InrushStudy):
     """First inrush peak of one switching event, and its worst case."""
 
     method: Literal["analytic", "simulated", "both"] = Field(
@@ -149,7 +149,7 @@ class EnvelopeOptions(Model):
     )
 
 
-class EnvelopeRequest(Study):
+class EnvelopeRequest(InrushStudy):
     """Decay envelope of one switching event."""
 
     options: EnvelopeOptions = Field(default_factory=EnvelopeOptions)

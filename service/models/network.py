@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, ClassVar, Literal
 
 from pydantic import Field, model_validator
 
@@ -19,9 +19,12 @@ from service.models.common import (
     Assumption,
     Method,
     Model,
+    Rules,
     SourceIn,
+    ThreePhaseWindingIn,
     TransformerNameplate,
     WarningItem,
+    given,
 )
 from service.settings import default_limit
 
@@ -53,13 +56,32 @@ class NetworkLoadIn(Model):
     )
 
 
+class NetworkCircuitIn(ThreePhaseWindingIn):
+    """A unit's energised windings in SI units, for cross-checks with circuit simulators: at the
+    bus frequency, fed by the network's source."""
+
+    rated_current_a: float = Field(
+        ge=1e-3,
+        le=1e7,
+        description="Rated rms line current (sqrt(3) x the winding's own for a delta), the base "
+        "of the unit's x-rated values; with the line voltage it gives the rating "
+        "sqrt(3)*V_LL*I_r the source is checked against [A]",
+    )
+
+
 class NetworkUnitIn(Model):
-    """One transformer on the bus, behind its own breaker."""
+    """One transformer on the bus, behind its own breaker: by nameplate or by SI circuit."""
 
     name: Name
-    transformer: TransformerNameplate = Field(
+    transformer: TransformerNameplate | None = Field(
+        None,
         description="Nameplate as for the other operations; three-phase, its energised winding "
-        "at the bus voltage and frequency"
+        "at the bus voltage and frequency (give this or circuit_three_phase)",
+    )
+    circuit_three_phase: NetworkCircuitIn | None = Field(
+        None,
+        description="The unit as a three-phase SI circuit, its line voltage (sqrt(3) x the "
+        "winding voltage for a wye) at the bus voltage (give this or transformer)",
     )
     state: Literal["energized", "in_service"] = Field(
         "energized",
@@ -90,8 +112,14 @@ class NetworkUnitIn(Model):
         "connection; default none",
     )
 
+    SCHEMA_RULES: ClassVar[Rules] = (
+        {"oneOf": [given("transformer"), given("circuit_three_phase")]},
+    )
+
     @model_validator(mode="after")
     def _in_service_closes_nothing(self) -> NetworkUnitIn:
+        if (self.transformer is None) == (self.circuit_three_phase is None):
+            raise ValueError("give exactly one of transformer or circuit_three_phase")
         if self.state == "in_service" and self.pole_closing_ms is not None:
             raise ValueError("pole_closing_ms is for units being energised, not in service")
         return self

@@ -47,7 +47,9 @@ NO_FREQUENCY = (
 
 def _report(body: GeneratorDipRequest) -> tuple[dip_study.DipReport, list[Assumption]]:
     # the supply model replaces the source: the circuit is built on an ideal source
-    circuit, event, assumptions = convert.study_inputs(body.model_copy(update={"source": None}))
+    circuit, event, assumptions = convert.study_inputs(
+        body.model_copy(update={"source": None}), convert.EMF_DIP
+    )
     t = body.transformer
     assert t is not None
     v_ll = t.energized_winding.voltage_kv * 1e3

@@ -20,11 +20,18 @@ from core.network import Breaker, BusLoad, NetworkResult, Source, Unit, analysis
 from core.protection import coordination, device_operation, differential
 from core.protection.inrush_curves import inrush_from_waveform
 from core.transformer import circuit_model, plausibility
-from service import budget, compute, convert
+from core.transformer.circuit_model import EquivalentCircuit
+from service import budget, compute, convert, figures
 from service.deps import SettingsDep
 from service.examples import NETWORK_EXAMPLES
 from service.models.clearance import DifferentialOut
-from service.models.common import Assumption, FaultLevelSource, ImpedanceSource, Method
+from service.models.common import (
+    Assumption,
+    FaultLevelSource,
+    ImpedanceSource,
+    Method,
+    TransformerNameplate,
+)
 from service.models.network import (
     RECOVERY_PERCENT,
     SYMPATHETIC_FRACTION,
@@ -51,9 +58,10 @@ router = APIRouter(
 NETWORK_METHOD = (
     "three-phase network in the time domain (core.network): ideal source EMFs behind the "
     "source's R-L, a constant-impedance bus load, each unit's energised winding (its "
-    "magnetising curve and winding resistance from the nameplate, as for /v1/inrush) behind its "
-    "own breaker; units in service start in their phasor steady state; classical Runge-Kutta "
-    "at a fixed step; feeder devices judged against the source current as in /v1/clearance"
+    "magnetising curve and winding resistance from the nameplate, as for /v1/inrush, or given "
+    "as a three-phase SI circuit) behind its own breaker; units in service start in their "
+    "phasor steady state; classical Runge-Kutta at a fixed step; feeder devices judged "
+    "against the source current as in /v1/clearance"
 )
 LINES = ("A", "B", "C")
 FIRST_PEAK_CYCLES = analysis.FIRST_PEAK_CYCLES
@@ -93,30 +101,16 @@ def _units(
     rated: list[float] = []
     notes: list[Assumption] = []
     warns: list[tuple[str, str]] = []
-    v_bus = body.bus_voltage_kv
     for k, u in enumerate(body.units):
         t = u.transformer
-        where = f"units.{k}.transformer"
-        if t.phases != 3:
-            raise ParameterError(f"{where}.phases", t.phases, "3: the bus is three-phase")
-        if abs(t.frequency_hz - body.frequency_hz) > 1e-9 * body.frequency_hz:
-            raise ParameterError(
-                f"{where}.frequency_hz", t.frequency_hz, f"{body.frequency_hz:g} Hz, the bus's"
-            )
-        v = t.energized_winding.voltage_kv
-        if abs(v - v_bus) > VOLTAGE_TOLERANCE * v_bus:
-            raise ParameterError(
-                f"{where}.energized_winding.voltage_kv",
-                v,
-                f"within {VOLTAGE_TOLERANCE:.0%} of bus_voltage_kv = {v_bus:g} kV "
-                f"([{v_bus * (1 - VOLTAGE_TOLERANCE):g}, {v_bus * (1 + VOLTAGE_TOLERANCE):g}] "
-                "kV, the usual off-load tap range, common practice)",
-            )
+        # an SI circuit here has no source of its own: the network's feeds it
+        left_out = {"source_resistance_ohm", "source_inductance_h"} if t is None else set()
+        circuit = _si_unit(body, u, k) if t is None else _nameplate_unit(body, t, k)
         _check_differential(u, k)
-        circuit = circuit_model.equivalent_circuit(convert.nameplate_of(t), None)
         notes += [
             Assumption(name=f"{u.name}.{a.name}", value=a.value, unit=a.unit, source=a.source)
             for a in convert.assumptions_out(circuit.assumptions)
+            if a.name not in left_out
         ]
         notes.append(
             Assumption(
@@ -131,7 +125,9 @@ def _units(
                 name=f"{u.name}.knee_flux_wb",
                 value=circuit.knee_flux_wb,
                 unit="Wb-turn",
-                source="knee of the magnetising curve (B_S/B_N x nominal)",
+                source="knee of the magnetising curve (B_S/B_N x nominal)"
+                if t is not None
+                else "knee of the given magnetising curve",
             )
         )
         warns += [(c, f"{u.name}: {m}") for c, m in circuit.warnings]
@@ -182,6 +178,59 @@ def _units(
     return out, rated, notes, warns
 
 
+def _nameplate_unit(body: NetworkRequest, t: TransformerNameplate, k: int) -> EquivalentCircuit:
+    """The circuit of a unit given by nameplate, checked against the bus."""
+    v_bus = body.bus_voltage_kv
+    where = f"units.{k}.transformer"
+    if t.phases != 3:
+        raise ParameterError(f"{where}.phases", t.phases, "3: the bus is three-phase")
+    if abs(t.frequency_hz - body.frequency_hz) > 1e-9 * body.frequency_hz:
+        raise ParameterError(
+            f"{where}.frequency_hz", t.frequency_hz, f"{body.frequency_hz:g} Hz, the bus's"
+        )
+    v = t.energized_winding.voltage_kv
+    if abs(v - v_bus) > VOLTAGE_TOLERANCE * v_bus:
+        raise ParameterError(
+            f"{where}.energized_winding.voltage_kv",
+            v,
+            f"within {VOLTAGE_TOLERANCE:.0%} of bus_voltage_kv = {v_bus:g} kV "
+            f"([{v_bus * (1 - VOLTAGE_TOLERANCE):g}, {v_bus * (1 + VOLTAGE_TOLERANCE):g}] "
+            "kV, the usual off-load tap range, common practice)",
+        )
+    return circuit_model.equivalent_circuit(convert.nameplate_of(t), None)
+
+
+def _si_unit(body: NetworkRequest, u: NetworkUnitIn, k: int) -> EquivalentCircuit:
+    """The circuit of a unit given as a three-phase SI circuit, at the bus frequency, its line
+    voltage checked against the bus's."""
+    ci = u.circuit_three_phase
+    assert ci is not None  # the request model holds one of transformer and circuit_three_phase
+    where = f"units.{k}.circuit_three_phase"
+    circuit = convert.circuit_three_phase_of(ci, where, body.frequency_hz)
+    v_bus = body.bus_voltage_kv * 1e3
+    if abs(circuit.line_voltage_v - v_bus) > VOLTAGE_TOLERANCE * v_bus:
+        factor = 1.0 if ci.connection == "delta" else math.sqrt(3.0)
+        lo, hi = (v_bus * (1.0 + s * VOLTAGE_TOLERANCE) / factor for s in (-1.0, 1.0))
+        raise ParameterError(
+            f"{where}.winding_voltage_v",
+            ci.winding_voltage_v,
+            f"a line voltage ({'x 1 for a delta' if factor == 1.0 else 'x sqrt(3) for a wye'}) "
+            f"within {VOLTAGE_TOLERANCE:.0%} of bus_voltage_kv = {body.bus_voltage_kv:g} kV: "
+            f"[{lo:.6g}, {hi:.6g}] V (the usual off-load tap range, common practice)",
+        )
+    return circuit
+
+
+def _rating_va(u: NetworkUnitIn) -> float:
+    """A unit's rated power: its nameplate's, or sqrt(3)*V_LL*I_r of its SI circuit [VA]."""
+    if u.transformer is not None:
+        return u.transformer.rating_kva * 1e3
+    ci = u.circuit_three_phase
+    assert ci is not None
+    v_ll = ci.winding_voltage_v * (1.0 if ci.connection == "delta" else math.sqrt(3.0))
+    return math.sqrt(3.0) * v_ll * ci.rated_current_a
+
+
 def _check_differential(u: NetworkUnitIn, k: int) -> None:
     """Refuse a differential whose vector group's energised side is not the unit's energised
     winding's connection (delta against wye), as /v1/clearance does."""
@@ -192,7 +241,11 @@ def _check_differential(u: NetworkUnitIn, k: int) -> None:
     if g is None:  # the field's pattern has already matched
         return
     delta = g.group(1 if d.energized_side == "high" else 2).lower() == "d"
-    conn = u.transformer.energized_winding.connection
+    if u.transformer is not None:
+        conn: str = u.transformer.energized_winding.connection
+    else:
+        assert u.circuit_three_phase is not None
+        conn = u.circuit_three_phase.connection
     if delta != (conn == "delta"):
         raise ParameterError(
             f"units.{k}.differential.vector_group",
@@ -239,7 +292,7 @@ def _check_source(body: NetworkRequest, source: Source) -> None:
     v = body.bus_voltage_kv * 1e3
     w = 2.0 * math.pi * body.frequency_hz
     s_sc = plausibility.short_circuit_power_va(v, source.resistance_ohm, source.inductance_h * w)
-    total_va = sum(u.transformer.rating_kva for u in body.units) * 1e3
+    total_va = sum(_rating_va(u) for u in body.units)
     need = plausibility.SOURCE_STRENGTH_FACTOR * total_va
     if s_sc >= need * (1.0 - 1e-9):
         return
@@ -369,7 +422,31 @@ def _estimate(
     return estimate
 
 
-def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
+def _figure_estimate(
+    source: Source, units: list[Unit], load: BusLoad | None, body: NetworkRequest
+) -> budget.Estimate:
+    def estimate(o: Mapping[str, float]) -> cost.Work:
+        n = int(budget.replaced(o, "units", len(units)))
+        duration = budget.replaced(o, "options.duration_s", body.options.duration_s)
+        return cost.network_figure_work(source, units[:n], duration, load)
+
+    return estimate
+
+
+@dataclass(frozen=True)
+class _Simulated:
+    """One network request simulated: the record and what it was built from."""
+
+    res: NetworkResult
+    rated: list[float]
+    assumptions: list[Assumption]
+    warns: list[tuple[str, str]]
+    load: BusLoad | None
+
+
+def _simulate(body: NetworkRequest, settings: Settings, figure: bool = False) -> _Simulated:
+    """Check the request, enforce its work budget (the JSON operation's, or the figure's) and
+    simulate it."""
     f = body.frequency_hz
     duration = body.options.duration_s
     if duration * f < 2.0:
@@ -377,21 +454,19 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
             "options.duration_s", duration, f"at least two cycles, {2.0 / f:.4g} s at {f:g} Hz"
         )
     convert.check_work(settings, 3 * (len(body.units) + 1), f, duration, SAMPLES_PER_CYCLE)
-    source, assumptions = _source(body)
-    _check_source(body, source)
-    units, rated, notes, warns = _units(body)
-    assumptions += notes
-    load = _load(body)
+    net = prepare(body)
+    source, units, load = net.source, net.units, net.load
     knobs = [
         budget.Knob("options.duration_s", duration, 0.05),
         budget.Knob("units", len(units), 1, integer=True),
     ]
-    if body.devices:
+    if body.devices and not figure:
         knobs.append(budget.Knob("devices", len(body.devices), 0, integer=True))
-    if _differentials(body):
+    if _differentials(body) and not figure:
         knobs.append(budget.Knob("units.differential", _differentials(body), 0, integer=True))
+    estimate = (_figure_estimate if figure else _estimate)(source, units, load, body)
     try:
-        budget.enforce(_estimate(source, units, load, body), knobs, settings.max_request_steps)
+        budget.enforce(estimate, knobs, settings.max_request_steps)
         res = simulate_network(
             source,
             units,
@@ -410,6 +485,16 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
             f"a source whose saturated loops keep {exc.allowed} (the step would be too short): "
             "a larger X/R or a smaller resistance",
         ) from None
+    return _Simulated(res, net.rated_current_a, net.assumptions, net.warnings, load)
+
+
+def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
+    run = _simulate(body, settings)
+    res, rated, assumptions, warns, load = (
+        run.res, run.rated, run.assumptions, run.warns, run.load
+    )  # fmt: skip
+    f = body.frequency_hz
+    duration = body.options.duration_s
     spc = SAMPLES_PER_CYCLE
     energized = [k for k, u in enumerate(body.units) if u.state == "energized"]
     is_energized = [u.state == "energized" for u in body.units]
@@ -534,3 +619,47 @@ async def network_energization(
 
     out = await compute.run_heavy(settings, run)
     return Response(out.model_dump_json(), media_type="application/json")
+
+
+def _figure(body: NetworkRequest, settings: Settings) -> str:
+    """The source's and each unit's current over time (the line with the largest current)."""
+    res = _simulate(body, settings, figure=True).res
+    energized: list[figures.CurrentTrace] = []
+    in_service: list[figures.CurrentTrace] = []
+
+    def trace(i: np.ndarray, label: str, tag: str, gid: str) -> figures.CurrentTrace:
+        line = int(np.argmax(np.abs(i).max(axis=1)))
+        return figures.CurrentTrace(f"{label}, line {LINES[line]}", tag, i[line], gid)
+
+    energized.append(trace(res.source_current_a[0], "Source", "Source", "source"))
+    for k, u in enumerate(body.units):
+        what = "energised" if u.state == "energized" else "in service"
+        tr = trace(res.line_current_a[0, k], f"{u.name} ({what})", u.name, f"unit-{k}")
+        (energized if u.state == "energized" else in_service).append(tr)
+    n_on = sum(1 for u in body.units if u.state == "energized")
+    title = (
+        f"{n_on} of {len(body.units)} units energised on the {body.bus_voltage_kv:g} kV bus, "
+        f"closing angle {body.closing_angle_deg:g} deg"
+    )
+    return figures.network_svg(title, res.time_s, energized, in_service)
+
+
+@router.post(
+    "/figure",
+    operation_id="network_energization_figure",
+    summary="The currents of a network energisation over time as SVG",
+    response_class=Response,
+    responses={200: {"content": {"image/svg+xml": {"schema": {"type": "string"}}},
+                     "description": "The source current and each energised unit's current "
+                     "against time; the units in service below"}},
+)  # fmt: skip
+async def network_energization_figure(
+    body: Annotated[NetworkRequest, Body(openapi_examples=NETWORK_EXAMPLES)],
+    settings: SettingsDep,
+) -> Response:
+    """The same request as POST /v1/network-energization, drawn: for the source and for each
+    unit the line carrying the largest current, in A against time in s, each curve named on the
+    plot; the energised units with the source, the units in service (sympathetic current) on
+    their own axes below. The feeder devices and differentials are not judged here."""
+    svg = await compute.run_heavy(settings, _figure, body, settings)
+    return Response(svg, media_type="image/svg+xml")

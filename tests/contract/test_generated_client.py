@@ -213,6 +213,7 @@ def _every_operation(client: Any) -> None:
             "ClearanceRequest",
             {"diff": CLEARANCE_REQUESTS["northgate_main_unit_differential"]},
         ),
+        ("network.network_energization_figure", "NetworkRequest", NETWORK_REQUESTS),
     ):
         first = next(iter(body.values()))
         r = _mod(f"api.{api}").sync_detailed(client=client, body=_model(model, first))

@@ -18,13 +18,15 @@ from service.examples import (
     CLEARANCE_REQUESTS,
     DIP_REQUESTS,
     MITIGATION_REQUESTS,
+    NETWORK_REQUESTS,
     PEAK_REQUESTS,
     STATISTICS_REQUESTS,
 )
 from service.models.clearance import ClearanceRequest
 from service.models.dip import GeneratorDipRequest
-from service.models.inrush import PeakRequest
+from service.models.inrush import EnvelopeRequest, PeakRequest
 from service.models.mitigation import MitigationRequest
+from service.models.network import NetworkRequest
 from service.models.statistics import StatisticsRequest
 
 CONTRACT = json.loads(
@@ -41,10 +43,24 @@ def _edit(base: Body, change: Callable[[Body], None]) -> Body:
 
 PEAK = PEAK_REQUESTS["northgate_main_unit"]
 CIRCUIT = PEAK_REQUESTS["circuit_mode"]
+THREE = PEAK_REQUESTS["circuit_three_phase_mode"]
 DIP = DIP_REQUESTS["northgate_backfeed"]
 STATS = STATISTICS_REQUESTS["northgate_backfeed_generator"]
 CLEAR = CLEARANCE_REQUESTS["northgate_main_unit"]
 MITIG = MITIGATION_REQUESTS["northgate_backfeed"]
+RING = NETWORK_REQUESTS["northgate_ring_reclose"]
+SI_WINDING = {
+    k: v
+    for k, v in THREE["circuit_three_phase"].items()
+    if k not in ("frequency_hz",) and not k.startswith("source_")
+}
+
+
+def _ring_unit(**unit: Any) -> Body:
+    out = copy.deepcopy(RING)
+    out["units"][0] = {"name": "pad 1", **unit}
+    return out
+
 
 # (model, body, valid?) — each invalid body breaks exactly one cross-field rule
 CASES: dict[str, tuple[type[BaseModel], Body, bool]] = {
@@ -65,6 +81,37 @@ CASES: dict[str, tuple[type[BaseModel], Body, bool]] = {
             CIRCUIT,
             lambda b: b.update(switching={"residual_flux_pu": [0.5], "residual_flux_wb": [0.1]}),
         ),
+        False,
+    ),
+    "peak three-phase circuit": (PeakRequest, THREE, True),
+    "peak three-phase circuit and nameplate": (
+        PeakRequest,
+        {**THREE, "transformer": PEAK["transformer"]},
+        False,
+    ),
+    "peak three-phase and single-phase circuits": (
+        PeakRequest,
+        {**THREE, "circuit": CIRCUIT["circuit"]},
+        False,
+    ),
+    "peak three-phase circuit with source": (
+        PeakRequest,
+        {**THREE, "source": {"kind": "ideal"}},
+        False,
+    ),
+    "peak wb in three-phase circuit mode": (
+        PeakRequest,
+        {**THREE, "switching": {"residual_flux_wb": [0.1]}},
+        False,
+    ),
+    "envelope three-phase circuit": (
+        EnvelopeRequest,
+        {k: v for k, v in THREE.items() if k != "method"},
+        True,
+    ),
+    "clearance three-phase circuit": (
+        ClearanceRequest,
+        {"circuit_three_phase": THREE["circuit_three_phase"], "devices": CLEAR["devices"]},
         False,
     ),
     "dip": (GeneratorDipRequest, DIP, True),
@@ -129,6 +176,18 @@ CASES: dict[str, tuple[type[BaseModel], Body, bool]] = {
         ),
         False,
     ),
+    "network": (NetworkRequest, RING, True),
+    "network unit as si circuit": (
+        NetworkRequest,
+        _ring_unit(circuit_three_phase=SI_WINDING),
+        True,
+    ),
+    "network unit both ways": (
+        NetworkRequest,
+        _ring_unit(circuit_three_phase=SI_WINDING, transformer=RING["units"][1]["transformer"]),
+        False,
+    ),
+    "network unit neither way": (NetworkRequest, _ring_unit(), False),
     "mitigation": (MitigationRequest, MITIG, True),
     "mitigation circuit mode": (
         MitigationRequest,

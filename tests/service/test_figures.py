@@ -148,3 +148,72 @@ def test_tcc_marks_points_draws_edges_and_names_curves_on_the_plot() -> None:
     assert "CB-1 compares 1800 A" in texts
     assert "CB-1: compares 1800 A" in texts  # and in the legend
     assert "damage limit" in texts
+
+
+def _network_inputs() -> dict[str, object]:
+    t = np.arange(0, 769) / 7680.0  # 0.1 s at 128 samples per cycle of 60 Hz
+    w = 2.0 * np.pi * 60.0
+    unit = 900.0 * np.maximum(np.sin(w * t), 0.0) ** 3 * np.exp(-t / 0.05)  # invented inrush
+    near = 40.0 * np.sin(w * t - 1.2)  # invented sympathetic current
+    return {
+        "time_s": t,
+        "energized": [
+            figures.CurrentTrace("Source, line A", "Source", unit + near, "source"),
+            figures.CurrentTrace("T1 (energised), line A", "T1", unit, "unit-0"),
+        ],
+        "in_service": [figures.CurrentTrace("T2 (in service), line B", "T2", near, "unit-1")],
+    }
+
+
+def _path_points(root: ET.Element, gid: str) -> np.ndarray:
+    """The vertices of the first path in the group ``gid`` [SVG user units]."""
+    group = next(g for g in root.iter(f"{SVG_NS}g") if g.get("id") == gid)
+    d = next(group.iter(f"{SVG_NS}path")).get("d", "")
+    nums = [float(x) for x in d.replace("M", " ").replace("L", " ").replace("z", " ").split()]
+    return np.array(nums).reshape(-1, 2)
+
+
+def test_network_figure_names_curves_and_draws_them_where_they_are() -> None:
+    inputs = _network_inputs()
+    svg = figures.network_svg("Ring: T1 energised beside T2", **inputs)  # type: ignore[arg-type]
+    root = ET.fromstring(svg)
+    texts = [("".join(t.itertext())) for t in root.iter(f"{SVG_NS}text")]
+    for label in ("Source, line A", "T1 (energised), line A", "T2 (in service), line B",
+                  "Source", "T1", "T2", "Time [s]", "Current [A]"):  # fmt: skip
+        assert label in texts, label
+    assert any("Ring: T1 energised beside T2" in t for t in texts)
+    # positions read from the SVG: the curves share the axes' scale, so their largest
+    # excursions from the zero line stand in the ratio of the currents' largest values, and
+    # the peak sits at its time along the axis (x from t = 0 to the record's end)
+    zero = _path_points(root, "zero-top")[0, 1]
+    src, unit = _path_points(root, "source"), _path_points(root, "unit-0")
+    t = np.asarray(inputs["time_s"])
+    i_src = np.asarray(inputs["energized"][0].current_a)  # type: ignore[index]
+    i_unit = np.asarray(inputs["energized"][1].current_a)  # type: ignore[index]
+    ratio = np.max(np.abs(src[:, 1] - zero)) / np.max(np.abs(unit[:, 1] - zero))
+    assert ratio == pytest.approx(np.max(np.abs(i_src)) / np.max(np.abs(i_unit)), rel=1e-3)
+    k = int(np.argmax(np.abs(unit[:, 1] - zero)))
+    x0, x1 = unit[0, 0], unit[-1, 0]
+    assert (unit[k, 0] - x0) / (x1 - x0) == pytest.approx(
+        t[int(np.argmax(np.abs(i_unit)))] / t[-1], abs=2e-3
+    )
+    # the units in service on their own axes below
+    assert _path_points(root, "unit-1").shape[0] > 10
+
+
+def test_network_figure_same_bytes_and_one_axes_without_units_in_service() -> None:
+    inputs = _network_inputs()
+    a = figures.network_svg("T", **inputs)  # type: ignore[arg-type]
+    assert a.encode() == figures.network_svg("T", **inputs).encode()  # type: ignore[arg-type]
+    inputs["in_service"] = []
+    svg = figures.network_svg("T", **inputs)  # type: ignore[arg-type]
+    assert "Units in service" not in svg
+    assert "zero-bottom" not in svg
+
+
+def test_network_figure_refuses_a_current_of_another_length() -> None:
+    inputs = _network_inputs()
+    inputs["in_service"] = [figures.CurrentTrace("x", "x", [1.0, 2.0], "unit-9")]
+    with pytest.raises(ParameterError) as err:
+        figures.network_svg("T", **inputs)  # type: ignore[arg-type]
+    assert err.value.parameter == "unit-9.current_a"

@@ -24,6 +24,7 @@ JSON_POSTS = [
     "/v1/generator-dip/figure",
     "/v1/mitigation",
     "/v1/network-energization",
+    "/v1/network-energization/figure",
     "/v1/network-energization/statistics",
 ]
 

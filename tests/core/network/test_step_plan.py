@@ -127,3 +127,23 @@ def test_statistics_work_counts_the_steps_the_statistics_take(
         SOURCE, units, load, samples=9, pole_closing_max_s=0.0, pole_scatter_ms=1.0
     )
     assert dict(wider.parts)["Monte Carlo events"] > parts["Monte Carlo events"]
+
+
+@pytest.mark.parametrize("name", sorted(CASES))
+def test_figure_work_counts_the_same_simulation_and_one_curve_per_current(name: str) -> None:
+    units, load = CASES[name]
+    res = simulate_network(SOURCE, units, closing_angle_deg=[0.0], duration_s=0.1, load=load)
+    fig = dict(cost.network_figure_work(SOURCE, units, 0.1, load).parts)
+    # the same simulation as the JSON operation's estimate (the solver's own step plan)
+    assert (
+        fig["network simulation"]
+        == dict(cost.network_work(SOURCE, units, 0.1, load).parts)["network simulation"]
+    )
+    # the source and each unit drawn once, every sample of the record
+    curves = len(units) + 1
+    assert fig["figure"] == pytest.approx(
+        cost.NETWORK_FIGURE_WEIGHT
+        + curves * (cost.NETWORK_FIGURE_CURVE_WEIGHT + cost.FIGURE_SAMPLE_WEIGHT * res.time_s.size)
+    )
+    longer = cost.network_figure_work(SOURCE, units, 0.2, load)
+    assert longer.steps > cost.network_figure_work(SOURCE, units, 0.1, load).steps

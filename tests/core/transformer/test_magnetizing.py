@@ -188,6 +188,9 @@ def test_open_circuit_single_point_is_the_linear_curve() -> None:
         ([-1.0, 2.0], [1.0, 2.0], 0.01, "flux_wb"),
         ([1.0, 2.0], [1.0, 2.0], 5.0, "final_inductance_h"),  # steeper than the last segment
         ([1.0, 2.0], [1.0, 2.0], math.inf, "final_inductance_h"),
+        # a segment steeper than 1e9 H: 1e5 Wb-turn over the smallest positive current overflows
+        ([1e5], [5e-324], 1e-9, "current_a"),
+        ([1.0, 2.0], [1.0, 1.0 + 1e-12], 0.01, "current_a"),  # 1e12 H
     ],
 )
 def test_table_validation_names_the_parameter(
