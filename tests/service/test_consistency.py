@@ -296,6 +296,11 @@ def test_network_solver_operations_agree(
     # against the single-unit solver read exactly
     peak = post("/v1/inrush/peak", _study(case) | {"method": "simulated"})
     assert want == pytest.approx(peak["first_peak_a"], rel=FIRST_PEAK_READING)
+    # one nameplate, one rated current S/(sqrt(3)*V_LL) behind every x_rated
+    rated = peak["rated_current_a"]
+    assert net["units"][0]["rated_current_a"] == pytest.approx(rated, rel=SAME)
+    assert net["energized_rated_current_a"] == pytest.approx(rated, rel=SAME)
+    assert cur["first_peak_x_rated"] * rated == pytest.approx(want, rel=SAME)
     env = post("/v1/inrush/envelope", _envelope_body(case))
     assert cur["cycle_peaks_a"] == pytest.approx(
         _largest_line_per_cycle(env), rel=CYCLE_PEAK_READING
