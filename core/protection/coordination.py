@@ -20,29 +20,17 @@ import numpy.typing as npt
 
 from core import checks
 from core.errors import ParameterError
-from core.protection import differential
 from core.protection.damage_curves import DamageCurve
 from core.protection.device_operation import (
-    DEFAULT_MELT_CURRENT_FACTOR,
     DEFAULT_OPENING_TIME_S,
-    DEFAULT_PEAK_FACTOR,
-    DEFAULT_SENSING,
     INRUSH_POINTS,
-    MELT_SOURCE,
     OPENING_SOURCE,
-    PEAK_SOURCE,
-    RELAY_RMS_WORDS,
-    RESET_SOURCE,
-    SENSING_SOURCE,
     TIME_DIAL_RANGE,
-    Breaker,
     Device,
-    Differential,
-    Fuse,
     Relay,
     RideThrough,
     Status,
-    device_kind,
+    default_note,
     device_times,
     relay_ride_through,
     ride_through,
@@ -240,7 +228,8 @@ def protection_check(
     Raises
     ------
     ParameterError
-        On a fuse without a total-clearing curve, or out-of-range values.
+        On a fuse without a total-clearing curve, a differential (no curve), or out-of-range
+        values.
 
     Notes
     -----
@@ -254,7 +243,8 @@ def protection_check(
     ----------
     IEEE Std C57.109-1993 clause 4 (from memory); IEEE Std C37.91-2008 (from memory).
     """
-    if isinstance(device, Fuse) and device.total_clearing is None:
+    clearing = device.clearing_curve  # a differential has none: its error is raised here
+    if clearing is None:
         raise ParameterError("total_clearing", None, "a total-clearing curve")
     f = _factor(damage_current_factor)
     ci = checks.finite_array("damage.current", damage.current, (1,), 1e-300) * f
@@ -271,10 +261,9 @@ def protection_check(
     ok, k = ratio > 1.0, int(np.argmin(ratio))
     status: Status = "protects" if ok.all() else "partial" if ok.any() else "does_not_protect"
     bad = grid[~ok]
-    clearing = {"relay": "relay curve + opening time", "fuse": "total clearing"}
     return Protection(
         device.name,
-        clearing.get(device_kind(device), "maximum band"),
+        clearing,
         status,
         status == "protects",
         float(ratio[k]),
@@ -315,12 +304,6 @@ class Evaluation:
     portions: tuple[Portion, ...] = ()  #: the damage curve's parts, checked or not and why
 
 
-def _note(name: str, value: float | None, default: float, unit: str, source: str) -> Assumption:
-    if value is None:
-        return Assumption(name, default, unit, source)
-    return Assumption(name, value, unit, "given")
-
-
 def evaluate(
     inrush: InrushCurves,
     devices: Sequence[Device],
@@ -338,8 +321,8 @@ def evaluate(
     ----------
     inrush : InrushCurves
         The inrush [-].
-    devices : sequence of Relay, Fuse or Breaker
-        Candidates, with distinct names [-].
+    devices : sequence of Relay, Fuse, Breaker or Differential
+        Candidates, with distinct names; each adds its own assumption notes, in order [-].
     damage : core.protection.damage_curves.DamageCurve or None
         Damage curve in the devices' amperes; None skips the protection side [-].
     opening_time_s, damage_current_factor : float or None
@@ -378,8 +361,10 @@ def evaluate(
     start: float | None = None
     portions: tuple[Portion, ...] = ()
     if damage is not None:
-        notes.append(_note("opening_time_s", o, DEFAULT_OPENING_TIME_S, "s", OPENING_SOURCE))
-        notes.append(_note("damage_current_factor", f, 1.0, "-", "default 1 (curve as given)"))
+        notes.append(default_note("opening_time_s", o, DEFAULT_OPENING_TIME_S, "s", OPENING_SOURCE))
+        notes.append(
+            default_note("damage_current_factor", f, 1.0, "-", "default 1 (curve as given)")
+        )
         start, why = check_start(damage, check_from_current, overload_by_secondary_device)
         notes.append(Assumption("damage_check_from_a", start, "A", why))
         scale = _factor(f)
@@ -398,34 +383,15 @@ def evaluate(
         notes.append(Assumption("inrush_points", pts, "x rated, s", "common practice"))
     out = []
     for d in devices:
-        if isinstance(d, Fuse):
-            k, dk = d.melt_current_factor, DEFAULT_MELT_CURRENT_FACTOR
-            notes.append(_note(f"{d.name}.melt_current_factor", k, dk, "-", MELT_SOURCE))
-        elif isinstance(d, Breaker):
-            sense = d.sensing or DEFAULT_SENSING
-            src = "given" if d.sensing is not None else SENSING_SOURCE
-            notes.append(Assumption(f"{d.name}.instantaneous_sensing", sense, "-", src))
-            if sense == "peak":
-                k, dk = d.peak_factor, DEFAULT_PEAK_FACTOR
-                notes.append(_note(f"{d.name}.peak_factor", k, dk, "-", PEAK_SOURCE))
-        elif isinstance(d, Differential):
-            src = differential.DEFAULTS_SOURCE
-            notes.append(Assumption(f"{d.name}.filter", differential.FILTER_WORDS, "-", src))
-            words = differential.RESTRAINT_WORDS[d.restraint]
-            notes.append(Assumption(f"{d.name}.restraint", words, "-", "setting"))
-        else:
-            notes.append(
-                Assumption(f"{d.name}.measured_current", RELAY_RMS_WORDS, "-", "common practice")
-            )
-            notes.append(Assumption(f"{d.name}.reset", d.reset, "-", RESET_SOURCE))
+        notes.extend(d.assumption_notes())
         rt = ride_through(d, inrush)
-        if isinstance(d, Differential):  # no time-current curve: ride-through is its verdict
+        if not d.has_curve:  # a differential: its ride-through is its verdict
             rides = not rt.trips
-            out.append(DeviceEvaluation(d.name, "differential", rt, None, (), rides, None))
+            out.append(DeviceEvaluation(d.name, d.kind, rt, None, (), rides, None))
             continue
         warnings += [(c, f"{d.name}: {m}") for c, m in rt.warnings]
         prot = None
-        if damage is not None and isinstance(d, Fuse) and d.total_clearing is None:
+        if damage is not None and d.clearing_curve is None:
             warnings.append(("protection_not_checked", f"{d.name}: no total-clearing curve"))
         elif damage is not None:
             prot = protection_check(
@@ -434,7 +400,7 @@ def evaluate(
         pts_out = () if i_r is None else _point_checks(d, i_r, inrush_points)
         ok = not rt.trips and prot is not None and prot.protects
         margin = None if prot is None else min(rt.margin_ratio, prot.margin_ratio)
-        out.append(DeviceEvaluation(d.name, device_kind(d), rt, prot, pts_out, ok, margin))
+        out.append(DeviceEvaluation(d.name, d.kind, rt, prot, pts_out, ok, margin))
     ranked = sorted(
         (e for e in out if e.suitable and e.kind != "differential"),
         key=lambda e: (-(e.margin_ratio or 0), e.device),

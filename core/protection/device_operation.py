@@ -50,6 +50,7 @@ from core.protection.inrush_curves import (
     inrush_from_table,
     inrush_from_waveform,
 )
+from core.transformer.circuit_model import Assumption
 
 # The inrush curves are re-exported: callers may take everything device-side from here.
 __all__ = [
@@ -64,6 +65,7 @@ __all__ = [
     "Relay",
     "RideThrough",
     "breaker_ride_through",
+    "default_note",
     "device_kind",
     "device_times",
     "differential_ride_through",
@@ -131,6 +133,52 @@ _EQ = "equivalent rms I_eq(t) = sqrt((1/t)·∫i² dt)"
 RELAY_RMS_WORDS = "sliding one-cycle true rms, integrated as ∫dt/t(I)"
 
 
+def default_note(
+    name: str, value: float | None, default: float, unit: str, source: str
+) -> Assumption:
+    """The assumption a setting stands for: the value given, or the default with its source.
+
+    Parameters
+    ----------
+    name : str
+        The setting's name in the answers [-].
+    value : float or None
+        The value given; None: the default was used [``unit``].
+    default : float
+        The default used when nothing was given [``unit``].
+    unit : str
+        The setting's unit, as the answers write it [-].
+    source : str
+        Where the default comes from [-].
+
+    Returns
+    -------
+    core.transformer.circuit_model.Assumption
+        (name, value, unit, "given"), or (name, default, unit, source) without a value.
+
+    Notes
+    -----
+    No formula: the value is reported as it was given, or the default as it was used.
+
+    References
+    ----------
+    This project's reporting of assumptions.
+    """
+    if value is None:
+        return Assumption(name, default, unit, source)
+    return Assumption(name, value, unit, "given")
+
+
+def _band_inputs(
+    current_a: npt.ArrayLike, opening_time_s: float | None
+) -> tuple[FloatArray, float]:
+    """The checked currents and opening time of a trip band (the default opening time if None)."""
+    i = checks.finite_array("current_a", current_a, (0, 1, 2), 0.0)
+    t_open = DEFAULT_OPENING_TIME_S if opening_time_s is None else opening_time_s
+    t_open = checks.number("opening_time_s", t_open, "a finite number >= 0", lambda x: x >= 0.0)
+    return i, t_open
+
+
 @dataclass(frozen=True)
 class Relay:
     """An inverse-time overcurrent relay, IEEE C37.112 or IEC 60255-151, optional instantaneous.
@@ -165,6 +213,79 @@ class Relay:
         if self.reset not in ("curve", "hold", "instantaneous"):
             raise ParameterError("reset", self.reset, "curve, hold or instantaneous")
 
+    @property
+    def kind(self) -> str:
+        """``"relay"``: the device's kind as the answers name it [-]."""
+        return "relay"
+
+    @property
+    def has_curve(self) -> bool:
+        """True: a relay has a time-current curve [-]."""
+        return True
+
+    @property
+    def clearing_curve(self) -> str | None:
+        """The curve that clears a through-fault: the relay curve plus the opening time [-]."""
+        return "relay curve + opening time"
+
+    def trip_band(
+        self, current_a: npt.ArrayLike, opening_time_s: float | None = None
+    ) -> fuse_breaker_curves.TripBand:
+        """The relay curve, and the curve plus the breaker's opening time, at given currents.
+
+        Parameters
+        ----------
+        current_a : array_like
+            rms current [A].
+        opening_time_s : float or None
+            Breaker opening time added to the relay's; None: :data:`DEFAULT_OPENING_TIME_S` [s].
+
+        Returns
+        -------
+        core.protection.fuse_breaker_curves.TripBand
+            ``minimum_time``: the relay curve, 0 s above an instantaneous pickup;
+            ``maximum_time``: that plus the opening time; +inf below pickup [s].
+
+        Raises
+        ------
+        ParameterError
+            On negative or non-finite currents or opening time.
+
+        Notes
+        -----
+        t_min(I) = t(I/I_p; TD), or 0 for I > I_inst; t_max(I) = t_min(I) + t_open.
+
+        References
+        ----------
+        IEEE Std C37.112, IEC 60255-151, via :mod:`core.protection.relay_curves`.
+        """
+        i, t_open = _band_inputs(current_a, opening_time_s)
+        low = _relay_fns(self, self.time_dial)[0](i)
+        if self.instantaneous_pickup_a is not None:
+            low = np.where(i > self.instantaneous_pickup_a, 0.0, low)
+        return fuse_breaker_curves.TripBand(low, low + t_open)
+
+    def assumption_notes(self) -> tuple[Assumption, ...]:
+        """What the relay's judgement assumes: the current it measures and its reset.
+
+        Returns
+        -------
+        tuple of core.transformer.circuit_model.Assumption
+            The measured current (common practice) and the reset (setting or default).
+
+        Notes
+        -----
+        No formula: the words of :data:`RELAY_RMS_WORDS` and :data:`RESET_SOURCE`.
+
+        References
+        ----------
+        IEEE Std C37.112 (reset; from memory); common practice (measured rms).
+        """
+        return (
+            Assumption(f"{self.name}.measured_current", RELAY_RMS_WORDS, "-", "common practice"),
+            Assumption(f"{self.name}.reset", self.reset, "-", RESET_SOURCE),
+        )
+
 
 @dataclass(frozen=True)
 class Fuse:
@@ -189,6 +310,76 @@ class Fuse:
         if self.minimum_melting_i2t_a2s is not None:
             checks.positive("minimum_melting_i2t_a2s", self.minimum_melting_i2t_a2s)
 
+    @property
+    def kind(self) -> str:
+        """``"fuse"``: the device's kind as the answers name it [-]."""
+        return "fuse"
+
+    @property
+    def has_curve(self) -> bool:
+        """True: a fuse has time-current curves [-]."""
+        return True
+
+    @property
+    def clearing_curve(self) -> str | None:
+        """The curve that clears a through-fault: total clearing; None without that curve [-]."""
+        return None if self.total_clearing is None else "total clearing"
+
+    def trip_band(
+        self, current_a: npt.ArrayLike, opening_time_s: float | None = None
+    ) -> fuse_breaker_curves.TripBand:
+        """The derated minimum melt and the total clearing at given currents.
+
+        Parameters
+        ----------
+        current_a : array_like
+            rms current [A].
+        opening_time_s : float or None
+            Checked like a relay's, not used: a fuse clears by itself [s].
+
+        Returns
+        -------
+        core.protection.fuse_breaker_curves.TripBand
+            ``minimum_time``: derated minimum melt; ``maximum_time``: total clearing (NaN
+            without that curve); +inf where it does not operate [s].
+
+        Raises
+        ------
+        ParameterError
+            On negative or non-finite currents or opening time.
+
+        Notes
+        -----
+        Derated minimum melt t'(I) = k_t·t_mm(I/k_i) (see the class docstring).
+
+        References
+        ----------
+        Common practice (:mod:`core.protection.fuse_breaker_curves`; derating 0.75-0.9).
+        """
+        i = _band_inputs(current_a, opening_time_s)[0]
+        tc = self.total_clearing
+        high = np.full(i.shape, np.nan) if tc is None else tc.trip_time(i)
+        return fuse_breaker_curves.TripBand(_melt_time(self, i), high)
+
+    def assumption_notes(self) -> tuple[Assumption, ...]:
+        """What the fuse's judgement assumes: its melt current factor.
+
+        Returns
+        -------
+        tuple of core.transformer.circuit_model.Assumption
+            The melt current factor, given or :data:`DEFAULT_MELT_CURRENT_FACTOR`.
+
+        Notes
+        -----
+        No formula: the factor k_i of t'(I) = k_t·t_mm(I/k_i) as used.
+
+        References
+        ----------
+        Common practice (derating 0.75-0.9 on the melt current).
+        """
+        k, dk = self.melt_current_factor, DEFAULT_MELT_CURRENT_FACTOR
+        return (default_note(f"{self.name}.melt_current_factor", k, dk, "-", MELT_SOURCE),)
+
 
 @dataclass(frozen=True)
 class Breaker:
@@ -209,6 +400,83 @@ class Breaker:
             checks.number("peak_factor", self.peak_factor, "in [1, 3]", lambda x: 1.0 <= x <= 3.0)
         if self.sensing is not None and self.sensing not in SENSED_WORDS:
             raise ParameterError("sensing", self.sensing, ", ".join(SENSED_WORDS))
+
+    @property
+    def kind(self) -> str:
+        """``"breaker"``: the device's kind as the answers name it [-]."""
+        return "breaker"
+
+    @property
+    def has_curve(self) -> bool:
+        """True: a breaker has a time-current band [-]."""
+        return True
+
+    @property
+    def clearing_curve(self) -> str | None:
+        """The curve that clears a through-fault: the band's maximum [-]."""
+        return "maximum band"
+
+    def trip_band(
+        self, current_a: npt.ArrayLike, opening_time_s: float | None = None
+    ) -> fuse_breaker_curves.TripBand:
+        """The trip unit's minimum and maximum band at given currents.
+
+        Parameters
+        ----------
+        current_a : array_like
+            rms current [A].
+        opening_time_s : float or None
+            Checked like a relay's, not used: the band includes the breaker's clearing [s].
+
+        Returns
+        -------
+        core.protection.fuse_breaker_curves.TripBand
+            The band of :func:`core.protection.fuse_breaker_curves.lv_breaker_trip_band`;
+            +inf where it does not operate [s].
+
+        Raises
+        ------
+        ParameterError
+            On negative or non-finite currents or opening time.
+
+        Notes
+        -----
+        Long time, short time and instantaneous with their tolerances (see
+        :func:`core.protection.fuse_breaker_curves.lv_breaker_trip_band`).
+
+        References
+        ----------
+        Common practice (:mod:`core.protection.fuse_breaker_curves`).
+        """
+        i = _band_inputs(current_a, opening_time_s)[0]
+        return fuse_breaker_curves.lv_breaker_trip_band(i, self.trip_unit)
+
+    def assumption_notes(self) -> tuple[Assumption, ...]:
+        """What the breaker's judgement assumes: what its instantaneous senses, its peak factor.
+
+        Returns
+        -------
+        tuple of core.transformer.circuit_model.Assumption
+            The sensed quantity (given or :data:`DEFAULT_SENSING`) and, for a peak-sensing
+            unit, the peak factor (given or :data:`DEFAULT_PEAK_FACTOR`).
+
+        Notes
+        -----
+        No formula: the sensing and the factor k of the check k·(1 − tol)·P as used.
+
+        References
+        ----------
+        Common practice (peak-sensing trip units against √2 × the rms setting), from memory.
+        """
+        sense = self.sensing or DEFAULT_SENSING
+        src = "given" if self.sensing is not None else SENSING_SOURCE
+        notes: tuple[Assumption, ...] = (
+            Assumption(f"{self.name}.instantaneous_sensing", sense, "-", src),
+        )
+        if sense == "peak":
+            k, dk = self.peak_factor, DEFAULT_PEAK_FACTOR
+            notes += (default_note(f"{self.name}.peak_factor", k, dk, "-", PEAK_SOURCE),)
+        return notes
 
 
 Device = Relay | Fuse | Breaker | Differential
@@ -231,13 +499,13 @@ def device_kind(device: Device) -> str:
 
     Notes
     -----
-    The class name in lower case.
+    Each device class names its own kind (its ``kind`` property).
 
     References
     ----------
     This project's naming.
     """
-    return type(device).__name__.lower()
+    return device.kind
 
 
 def _relay_fns(relay: Relay, time_dial: float) -> tuple[TimeFn, TimeFn | None]:
@@ -293,26 +561,16 @@ def device_times(
     ParameterError
         On negative or non-finite currents or opening time, or a differential (no curve).
 
+    Notes
+    -----
+    Each device class computes its own band (its ``trip_band`` method).
+
     References
     ----------
     IEEE Std C37.112, IEC 60255-151, via :mod:`core.protection.relay_curves`; common practice for
     the rest (:mod:`core.protection.fuse_breaker_curves`).
     """
-    if isinstance(device, Differential):
-        raise ParameterError("device", device.name, "a device with a time-current curve")
-    i = checks.finite_array("current_a", current_a, (0, 1, 2), 0.0)
-    t_open = DEFAULT_OPENING_TIME_S if opening_time_s is None else opening_time_s
-    t_open = checks.number("opening_time_s", t_open, "a finite number >= 0", lambda x: x >= 0.0)
-    if isinstance(device, Relay):
-        low = _relay_fns(device, device.time_dial)[0](i)
-        if device.instantaneous_pickup_a is not None:
-            low = np.where(i > device.instantaneous_pickup_a, 0.0, low)
-        return fuse_breaker_curves.TripBand(low, low + t_open)
-    if isinstance(device, Fuse):
-        tc = device.total_clearing
-        high = np.full(i.shape, np.nan) if tc is None else tc.trip_time(i)
-        return fuse_breaker_curves.TripBand(_melt_time(device, i), high)
-    return fuse_breaker_curves.lv_breaker_trip_band(i, device.trip_unit)
+    return device.trip_band(current_a, opening_time_s)
 
 
 # --------------------------------------------------------------------------------- ride-through

@@ -37,6 +37,8 @@ import numpy.typing as npt
 
 from core import checks
 from core.errors import ParameterError
+from core.protection import fuse_breaker_curves
+from core.transformer.circuit_model import Assumption
 
 __all__ = [
     "HARMONIC_LOGICS",
@@ -301,6 +303,86 @@ class Differential:
             raise ParameterError("restraint", self.restraint, "average or maximum")
         if self.unrestrained_pu is not None:
             checks.in_range("unrestrained_pu", self.unrestrained_pu, 1.0, 100.0)
+
+    @property
+    def kind(self) -> str:
+        """``"differential"``: the device's kind as the answers name it [-]."""
+        return "differential"
+
+    @property
+    def has_curve(self) -> bool:
+        """False: a differential has no time-current curve; it is judged on the waveform [-]."""
+        return False
+
+    @property
+    def clearing_curve(self) -> str | None:
+        """Never returns: a differential has no clearing curve [-].
+
+        Raises
+        ------
+        ParameterError
+            Always: the element is judged on the waveform, not on a time-current curve.
+        """
+        raise self._no_curve()
+
+    def trip_band(
+        self, current_a: npt.ArrayLike, opening_time_s: float | None = None
+    ) -> fuse_breaker_curves.TripBand:
+        """A differential has no trip band; asking for one is an error.
+
+        Parameters
+        ----------
+        current_a : array_like
+            rms current, not read [A].
+        opening_time_s : float or None
+            Breaker opening time, not read [s].
+
+        Returns
+        -------
+        core.protection.fuse_breaker_curves.TripBand
+            Never returned.
+
+        Raises
+        ------
+        ParameterError
+            Always, naming the device: only devices with a time-current curve have a band.
+
+        Notes
+        -----
+        The element is judged on the sampled waveform (:func:`differential_response`).
+
+        References
+        ----------
+        IEEE Std C37.91-2008 (from memory).
+        """
+        raise self._no_curve()
+
+    def _no_curve(self) -> ParameterError:
+        return ParameterError("device", self.name, "a device with a time-current curve")
+
+    def assumption_notes(self) -> tuple[Assumption, ...]:
+        """What the differential's judgement assumes: its filter and its restraint rule.
+
+        Returns
+        -------
+        tuple of core.transformer.circuit_model.Assumption
+            The phasor filter (:data:`FILTER_WORDS`, common practice) and the restraint rule
+            (setting).
+
+        Notes
+        -----
+        No formula: the words of :data:`FILTER_WORDS` and :data:`RESTRAINT_WORDS`.
+
+        References
+        ----------
+        Phadke and Thorp, *Computer Relaying for Power Systems*, ch. 3 (from memory); IEEE Std
+        C37.91-2008 (from memory).
+        """
+        words = RESTRAINT_WORDS[self.restraint]
+        return (
+            Assumption(f"{self.name}.filter", FILTER_WORDS, "-", DEFAULTS_SOURCE),
+            Assumption(f"{self.name}.restraint", words, "-", "setting"),
+        )
 
 
 @dataclass(frozen=True)

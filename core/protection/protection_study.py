@@ -12,9 +12,9 @@ for the TCC figure. The devices are taken to sit on the energised side, seeing i
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -110,67 +110,107 @@ def device_curves(
         current factor), its total clearing outside its own table: a table says nothing beyond
         its points. A breaker's and a relay's instantaneous pickups carry vertical edges.
 
+    Raises
+    ------
+    ParameterError
+        On a differential (no time-current curve), or currents or opening time out of range.
+
     Notes
     -----
-    Derated minimum melt t'(I) = k_t·t_mm(I/k_i) (see
-    :class:`core.protection.device_operation.Fuse`).
+    Each device class has its own tabulation (a table keyed by class). Derated minimum melt
+    t'(I) = k_t·t_mm(I/k_i) (see :class:`core.protection.device_operation.Fuse`).
     """
     g = np.asarray(grid, dtype=float)
-    verticals: list[tuple[float, float, float]] = []
-    low_label, high_label = "minimum curve", "clearing curve"
-    if isinstance(device, device_operation.Fuse):
-        k = device.melt_current_factor or device_operation.DEFAULT_MELT_CURRENT_FACTOR
-        kt = device.melt_time_factor or 1.0
-        melt = device.minimum_melt.current * k
-        tc = device.total_clearing
-        g = np.union1d(g, np.concatenate((melt, tc.current if tc is not None else [])))
-        band = device_operation.device_times(device, g, opening_time_s=opening_time_s)
-        low = np.where((g >= melt[0]) & (g <= melt[-1]), band.minimum_time, np.nan)
-        high = np.asarray(band.maximum_time, dtype=float)
-        if tc is not None:
-            high = np.where((g >= tc.current[0]) & (g <= tc.current[-1]), high, np.nan)
-        low_label = f"minimum melt derated (current x {k:g}" + (
-            f", time x {kt:g})" if kt != 1.0 else ")"
-        )
-        high_label = "total clearing"
-        return DeviceCurves(device.name, g, low, high, low_label, high_label)
-    if isinstance(device, device_operation.Breaker):
-        unit = device.trip_unit
-        edges = [unit.long_time_pickup, unit.short_time_pickup, unit.instantaneous_pickup]
-        tol = [unit.pickup_tolerance, unit.pickup_tolerance, unit.instantaneous_tolerance]
-        extra = [p * (1 + s * q) for p, q in zip(edges, tol, strict=True) if p for s in (-1, 1)]
-        g = np.union1d(g, extra)
-        p = unit.instantaneous_pickup
-        if p is not None:
-            q = unit.instantaneous_tolerance
-            timed = replace(unit, instantaneous_pickup=None)
-            below = fuse_breaker_curves.lv_breaker_trip_band(np.array([(1 - q) * p]), timed)
-            above = fuse_breaker_curves.lv_breaker_trip_band(np.array([(1 + q) * p]), timed)
-            t_lo, t_hi = float(below.minimum_time[0]), float(above.maximum_time[0])
-            verticals.append(((1 - q) * p, 0.0, t_lo))
-            clear = unit.instantaneous_clearing_time
-            if t_hi > clear:
-                verticals.append(((1 + q) * p, clear, t_hi))
-        low_label, high_label = "minimum band", "maximum band"
-    elif isinstance(device, device_operation.Relay):
-        p_inst = device.instantaneous_pickup_a
-        if p_inst is not None:
-            g = np.union1d(g, [p_inst])
-            t_at = device_operation.device_times(
-                replace(device, instantaneous_pickup_a=None), p_inst
-            )
-            verticals.append((p_inst, 0.0, float(t_at.minimum_time)))
-        low_label, high_label = "relay curve", "relay curve + opening time"
+    return _TABULATORS[type(device)](device, g, opening_time_s)
+
+
+def _tabulated(
+    device: device_operation.Device,
+    g: FloatArray,
+    opening_time_s: float | None,
+    labels: tuple[str, str] = ("minimum curve", "clearing curve"),
+    verticals: tuple[tuple[float, float, float], ...] = (),
+) -> DeviceCurves:
+    """The device's band at every current of ``g`` (a differential raises: it has no band)."""
     band = device_operation.device_times(device, g, opening_time_s=opening_time_s)
     return DeviceCurves(
         device.name,
         g,
         np.asarray(band.minimum_time, dtype=float),
         np.asarray(band.maximum_time, dtype=float),
-        low_label,
-        high_label,
-        tuple(verticals),
+        labels[0],
+        labels[1],
+        verticals,
     )
+
+
+def _fuse_curves(
+    device: device_operation.Fuse, g: FloatArray, opening_time_s: float | None
+) -> DeviceCurves:
+    """Each of a fuse's curves only over its own table's currents (the melt's scaled by k_i)."""
+    k = device.melt_current_factor or device_operation.DEFAULT_MELT_CURRENT_FACTOR
+    kt = device.melt_time_factor or 1.0
+    melt = device.minimum_melt.current * k
+    tc = device.total_clearing
+    g = np.union1d(g, np.concatenate((melt, tc.current if tc is not None else [])))
+    band = device_operation.device_times(device, g, opening_time_s=opening_time_s)
+    low = np.where((g >= melt[0]) & (g <= melt[-1]), band.minimum_time, np.nan)
+    high = np.asarray(band.maximum_time, dtype=float)
+    if tc is not None:
+        high = np.where((g >= tc.current[0]) & (g <= tc.current[-1]), high, np.nan)
+    low_label = f"minimum melt derated (current x {k:g}" + (
+        f", time x {kt:g})" if kt != 1.0 else ")"
+    )
+    return DeviceCurves(device.name, g, low, high, low_label, "total clearing")
+
+
+def _breaker_curves(
+    device: device_operation.Breaker, g: FloatArray, opening_time_s: float | None
+) -> DeviceCurves:
+    """A breaker's band with its pickups' tolerance edges and the instantaneous's verticals."""
+    verticals: list[tuple[float, float, float]] = []
+    unit = device.trip_unit
+    edges = [unit.long_time_pickup, unit.short_time_pickup, unit.instantaneous_pickup]
+    tol = [unit.pickup_tolerance, unit.pickup_tolerance, unit.instantaneous_tolerance]
+    extra = [p * (1 + s * q) for p, q in zip(edges, tol, strict=True) if p for s in (-1, 1)]
+    g = np.union1d(g, extra)
+    p = unit.instantaneous_pickup
+    if p is not None:
+        q = unit.instantaneous_tolerance
+        timed = replace(unit, instantaneous_pickup=None)
+        below = fuse_breaker_curves.lv_breaker_trip_band(np.array([(1 - q) * p]), timed)
+        above = fuse_breaker_curves.lv_breaker_trip_band(np.array([(1 + q) * p]), timed)
+        t_lo, t_hi = float(below.minimum_time[0]), float(above.maximum_time[0])
+        verticals.append(((1 - q) * p, 0.0, t_lo))
+        clear = unit.instantaneous_clearing_time
+        if t_hi > clear:
+            verticals.append(((1 + q) * p, clear, t_hi))
+    labels = ("minimum band", "maximum band")
+    return _tabulated(device, g, opening_time_s, labels, tuple(verticals))
+
+
+def _relay_curves(
+    device: device_operation.Relay, g: FloatArray, opening_time_s: float | None
+) -> DeviceCurves:
+    """A relay's curve, with a vertical edge at its instantaneous pickup."""
+    verticals: list[tuple[float, float, float]] = []
+    p_inst = device.instantaneous_pickup_a
+    if p_inst is not None:
+        g = np.union1d(g, [p_inst])
+        t_at = device_operation.device_times(replace(device, instantaneous_pickup_a=None), p_inst)
+        verticals.append((p_inst, 0.0, float(t_at.minimum_time)))
+    labels = ("relay curve", "relay curve + opening time")
+    return _tabulated(device, g, opening_time_s, labels, tuple(verticals))
+
+
+#: Each device class's tabulation for the TCC: :func:`device_curves` looks the class up here. A
+#: differential has no curve: :func:`_tabulated` raises the device error for it.
+_TABULATORS: dict[type, Callable[[Any, FloatArray, float | None], DeviceCurves]] = {
+    device_operation.Relay: _relay_curves,
+    device_operation.Fuse: _fuse_curves,
+    device_operation.Breaker: _breaker_curves,
+    device_operation.Differential: _tabulated,
+}
 
 
 def clearance_study(
@@ -315,7 +355,7 @@ def clearance_study(
                 )
     i_r = circuit.rated_line_current_a
     grid = np.geomspace(0.5 * i_r, 1.5 * curve.short_circuit_current, 240)
-    curved = [dev for dev in devices if isinstance(dev, device_operation.CURVED)]
+    curved = [dev for dev in devices if dev.has_curve]
     tabulated = [device_curves(dev, grid, opening_time_s) for dev in curved]
     if duration_s * f < 30:
         warnings.append(

@@ -17,7 +17,13 @@ from scipy.integrate import quad
 from scipy.optimize import brentq
 
 from core.errors import ParameterError
-from core.protection import coordination, damage_curves, device_operation, fuse_breaker_curves
+from core.protection import (
+    coordination,
+    damage_curves,
+    device_operation,
+    fuse_breaker_curves,
+    protection_study,
+)
 
 F = 60.0  # power frequency of the synthetic records [Hz]
 T = 1.0 / F
@@ -561,3 +567,35 @@ def test_table_with_a_peak_checks_the_instantaneous_without_a_time() -> None:
     assert got.trip_time_s is None
     assert got.margin_time_s is None
     assert got.instantaneous_margin_ratio == pytest.approx(math.sqrt(2) * 0.9 * 1800.0 / 3000.0)
+
+
+def test_each_kind_reports_its_own_notes_in_order_and_a_differential_has_no_curve() -> None:
+    # the answers' contract: kinds by name; one note list per device, in the order devices come
+    t, i = record(10.0 * I_R, 0.2, 1.0)
+    inr = device_operation.inrush_from_waveform(t, i, F, rated_current_a=I_R)
+    relay = device_operation.Relay("r", "ieee_c37_112", "very_inverse", 1.5 * I_R, 1.0)
+    fuse = device_operation.Fuse("f", table([(1.8 * I_R, 2000.0), (40.0 * I_R, 0.01)]))
+    breaker = _breaker(20.0 * I_R)
+    diff = device_operation.Differential("d")
+    kinds = [device_operation.device_kind(d) for d in (relay, fuse, breaker, diff)]
+    assert kinds == ["relay", "fuse", "breaker", "differential"]
+    ev = coordination.evaluate(inr, [breaker, relay, fuse], DAMAGE)
+    assert [a.name for a in ev.assumptions][4:] == [
+        f"{breaker.name}.instantaneous_sensing",
+        f"{breaker.name}.peak_factor",
+        "r.measured_current",
+        "r.reset",
+        "f.melt_current_factor",
+    ]
+    assert [a.name for a in diff.assumption_notes()] == ["d.filter", "d.restraint"]
+    # a differential is judged on the waveform: every curve-based call names it the same way
+    calls = (
+        lambda: device_operation.device_times(diff, [I_R]),
+        lambda: protection_study.device_curves(diff, [I_R, 2 * I_R]),
+        lambda: coordination.protection_check(diff, DAMAGE),
+    )
+    for call in calls:
+        with pytest.raises(ParameterError) as err:
+            call()
+        assert (err.value.parameter, err.value.value) == ("device", "d")
+        assert err.value.allowed == "a device with a time-current curve"
