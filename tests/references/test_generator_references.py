@@ -315,10 +315,11 @@ def test_rms_sampling_error_at_the_sharp_knee(
 # The same equations with a resistor R in each line between the terminals and the transformer
 # for 0 <= t < t_b, integrated by Radau in two pieces, [0, t_b] and [t_b, end], so that the
 # integrator never steps over the bypass. Wye: R adds to R_w in the winding equation only (the
-# bus load and the source impedance are on the terminal side). Delta: each winding j (AB, BC,
-# CA) on the line-to-line EMF e_j - e_(j+1) through 2 x Z_s and the two line resistors, 2R, the
-# reduction the core states in its approximations; the bus load on the phase EMF behind Z_s;
-# line currents i_k = c_k - c_(k-1) + i_L,k; terminal voltage e_k - R_s*i_k - L_s*di_k/dt.
+# bus load and the source impedance are on the terminal side). Delta: the whole three-phase
+# circuit, solved as one dense system per call (_delta_rates): each winding j (AB, BC, CA)
+# between terminals j and j+1, each terminal behind its line resistor R and the source's Z_s,
+# the bus load on the phase EMF behind Z_s; line currents i_k = c_k - c_(k-1) + i_L,k; terminal
+# voltage e_k - R_s*i_k - L_s*di_k/dt.
 # The energy is the extra state R * sum_k integral of i_k^2 (transformer line currents).
 
 T_BYPASS = 1.5 * T  # 192 steps at 128 per cycle: on the core's step grid, nothing to round
