@@ -509,9 +509,29 @@ def integrate(
                             r0 += line[u, 0]
                             r1 += line[u, 1]
                             r2 += line[u, 2]
-                            if l_s <= 0.0:
+                        if l_s <= 0.0:
+                            failed += bad
+                            for k in range(3):
+                                i_l[k] = psi_l[k] * inv_ll
+                            i_s[0] = r0 + i_l[0]
+                            i_s[1] = r1 + i_l[1]
+                            i_s[2] = r2 + i_l[2]
+                            converged = True
+                            break
+                        for k in range(3):
+                            i_l[k] = (psi_l[k] - trial[k]) * inv_ll
+                        if same and bad == 0:
+                            # the Jacobian at trial is the accepted point's, bit for bit
+                            phi[0], phi[1], phi[2] = trial[0], trial[1], trial[2]
+                            converged = True
+                            break
+                        # G = sum over the units of S C D~ C^T S, D~ = D - (D a)(D a)^T/(a^T D a)
+                        for u in range(n_units):
+                            md = mode[u]
+                            if md == 0:
                                 continue
-                            # G_u = S C D~ C^T S, D~ = D - (D a)(D a)^T/(a^T D a)
+                            cu = conn[u]
+                            c0, c1, c2 = closed[u, 0], closed[u, 1], closed[u, 2]
                             e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
                             t00, t11, t22 = e0, e1, e2
                             t01 = t02 = t12 = 0.0
@@ -542,22 +562,6 @@ def integrate(
                             g01 += h01 if (c0 and c1) else 0.0
                             g02 += h02 if (c0 and c2) else 0.0
                             g12 += h12 if (c1 and c2) else 0.0
-                        if l_s <= 0.0:
-                            failed += bad
-                            for k in range(3):
-                                i_l[k] = psi_l[k] * inv_ll
-                            i_s[0] = r0 + i_l[0]
-                            i_s[1] = r1 + i_l[1]
-                            i_s[2] = r2 + i_l[2]
-                            converged = True
-                            break
-                        for k in range(3):
-                            i_l[k] = (psi_l[k] - trial[k]) * inv_ll
-                        if same and bad == 0:
-                            # the Jacobian at trial is the accepted point's, bit for bit
-                            phi[0], phi[1], phi[2] = trial[0], trial[1], trial[2]
-                            converged = True
-                            break
                         f0 = trial[0] / l_s - r0 - i_l[0]
                         f1 = trial[1] / l_s - r1 - i_l[1]
                         f2 = trial[2] / l_s - r2 - i_l[2]
