@@ -369,6 +369,8 @@ def integrate(
             l_l, kind, par, flux, cur, npts,
         )  # fmt: skip
         j00 = j01 = j02 = j11 = j12 = j22 = 0.0
+        x_trig = -1.0  # the stage instant of swt, cwt [steps]
+        swt = cwt = 0.0
         for j in range(n_steps + 1):
             pending = False
             for u in range(n_units):
@@ -610,9 +612,13 @@ def integrate(
                         continue
                     # ---- derivatives: KVL around every loop ----
                     gsc = _source_scale(x_st, j, g0, slope, kh, ke)
-                    wt = omega * x_st * h
-                    swt = math.sin(wt)
-                    cwt = math.cos(wt)
+                    if x_st != x_trig:
+                        # the two middle stages, and a step's end and the next one's start, are
+                        # the same instant: its sine and cosine are computed once
+                        x_trig = x_st
+                        wt = omega * x_st * h
+                        swt = math.sin(wt)
+                        cwt = math.cos(wt)
                     for k in range(3):
                         sa[k] = swt * cph[k] + cwt * sph[k]
                         ca[k] = cwt * cph[k] - swt * sph[k]
