@@ -39,6 +39,9 @@ NMACH = 4
 # warm-started from the previous stage a piecewise-linear curve needs two evaluations when no
 # winding crosses a breakpoint) [-].
 MAX_ITERATIONS = 60
+# The piece reported for a point of a smooth curve: never equal to another point's piece, so the
+# exit on an unchanged piece (exact only where the curves are piecewise linear) never fires.
+NONLINEAR = 1 << 40
 
 
 # The hot path (the stages' algebra, derivatives and outputs) is written out in one function
@@ -48,36 +51,51 @@ MAX_ITERATIONS = 60
 
 
 @numba.njit(cache=True)
-def _curve_s(
+def _curve_seg_s(
     lam: float, kd: int, p0: float, p1: float, p2: float, p3: float, p4: float
-) -> tuple[float, float]:  # pragma: no cover - compiled
-    # Current f(lambda) and slope di/d(lambda): kind 0 two-slope (p = 1/L_m, lambda_S, 1/L_air,
-    # i_S), kind 1 smooth knee (1/L_m, 1/L_air - 1/L_m, lambda_S, width, g0)
+) -> tuple[float, float, int]:  # pragma: no cover - compiled
+    # Current f(lambda), slope di/d(lambda) and the linear piece lambda is on: kind 0 two-slope
+    # (p = 1/L_m, lambda_S, 1/L_air, i_S; pieces -1, 0, 1), kind 1 smooth knee (1/L_m,
+    # 1/L_air - 1/L_m, lambda_S, width, g0; no linear piece, NONLINEAR)
     x = abs(lam)
     if kd == 0:
         if x > p1:
             d = p2
             i = p3 + (x - p1) * d
+            seg = 1 if lam >= 0.0 else -1
         else:
             d = p0
             i = x * d
+            seg = 0
     else:
         s = x - p2
         q = math.sqrt(s * s + p3 * p3)
         i = p0 * x + p1 * (0.5 * (s + q) - p4)
         d = p0 + p1 * 0.5 * (1.0 + s / q)
-    return (i if lam >= 0.0 else -i), d
+        seg = NONLINEAR
+    return (i if lam >= 0.0 else -i), d, seg
 
 
 @numba.njit(cache=True)
-def _curve_table(
-    lam: float, flux: FloatArray, cur: FloatArray, u: int, top: int, final: float
+def _curve_s(
+    lam: float, kd: int, p0: float, p1: float, p2: float, p3: float, p4: float
 ) -> tuple[float, float]:  # pragma: no cover - compiled
-    # kind 2, a table: breakpoints flux[u, :top + 1], cur[u, :top + 1], final slope beyond
+    # Current f(lambda) and slope di/d(lambda) of a two-slope curve or a smooth knee
+    i, d, _ = _curve_seg_s(lam, kd, p0, p1, p2, p3, p4)
+    return i, d
+
+
+@numba.njit(cache=True)
+def _curve_seg_table(
+    lam: float, flux: FloatArray, cur: FloatArray, u: int, top: int, final: float
+) -> tuple[float, float, int]:  # pragma: no cover - compiled
+    # kind 2, a table: breakpoints flux[u, :top + 1], cur[u, :top + 1], final slope beyond; the
+    # piece is the segment's index from 1 (top + 1 beyond the last point), signed as lambda
     x = abs(lam)
     if x >= flux[u, top]:
         d = final
         i = cur[u, top] + (x - flux[u, top]) * d
+        seg = top + 1
     else:
         lo = 0
         hi = top
@@ -89,7 +107,17 @@ def _curve_table(
                 hi = mid
         d = (cur[u, hi] - cur[u, lo]) / (flux[u, hi] - flux[u, lo])
         i = cur[u, lo] + (x - flux[u, lo]) * d
-    return (i if lam >= 0.0 else -i), d
+        seg = hi
+    return (i if lam >= 0.0 else -i), d, (seg if lam >= 0.0 else -seg)
+
+
+@numba.njit(cache=True)
+def _curve_table(
+    lam: float, flux: FloatArray, cur: FloatArray, u: int, top: int, final: float
+) -> tuple[float, float]:  # pragma: no cover - compiled
+    # Current and slope of a table curve (kind 2)
+    i, d, _ = _curve_seg_table(lam, flux, cur, u, top, final)
+    return i, d
 
 
 @numba.njit(cache=True)
@@ -317,6 +345,9 @@ def integrate(
         on = np.zeros((n_units, 3), dtype=np.bool_)
         closed = np.zeros((n_units, 3), dtype=np.bool_)
         mode = np.zeros(n_units, dtype=np.int64)
+        segp = np.zeros((n_units, 3), dtype=np.int64)  # linear pieces at the accepted Phi
+        segn = np.zeros((n_units, 3), dtype=np.int64)  # and at the trial
+        segf = np.zeros(3, dtype=np.int64)  # at a floating node's previous iterate
         line = np.zeros((n_units, 3))
         r_now = np.zeros(n_units)
         phi = np.zeros(3)
@@ -338,6 +369,8 @@ def integrate(
             l_l, kind, par, flux, cur, npts,
         )  # fmt: skip
         j00 = j01 = j02 = j11 = j12 = j22 = 0.0
+        x_trig = -1.0  # the stage instant of swt, cwt [steps]
+        swt = cwt = 0.0
         for j in range(n_steps + 1):
             pending = False
             for u in range(n_units):
@@ -361,10 +394,13 @@ def integrate(
                     tstep = 1.0
                     d0 = d1 = d2 = 0.0
                     converged = False
-                    for _ in range(4 * MAX_ITERATIONS):
+                    for it in range(4 * MAX_ITERATIONS):
                         r0 = r1 = r2 = 0.0  # sum of the line currents into the units
                         g00 = g01 = g02 = g11 = g12 = g22 = 0.0
                         bad = 0
+                        # every winding on the linear piece of the accepted point's: the full
+                        # Newton step from there solved KCL exactly (the system is linear between)
+                        same = it > 0 and tstep == 1.0
                         for u in range(n_units):
                             md = mode[u]
                             if md == 0:
@@ -395,24 +431,31 @@ def integrate(
                                 lo = -math.inf
                                 hi = math.inf
                                 ok = False
+                                stepped = False  # s came from a full Newton step
                                 for _i in range(MAX_ITERATIONS):
                                     gs = -q[u]
                                     dg = 0.0
+                                    unchanged = stepped
                                     for k in range(3):
                                         ak = avec[u, k]
                                         if ak != 0.0:
                                             if kd == 2:
-                                                ik, dk = _curve_table(
+                                                ik, dk, sg = _curve_seg_table(
                                                     xs[k] + ak * s, flux, cur, u, top, par[u, 0]
                                                 )
                                             else:
-                                                ik, dk = _curve_s(
+                                                ik, dk, sg = _curve_seg_s(
                                                     xs[k] + ak * s, kd, par[u, 0], par[u, 1],
                                                     par[u, 2], par[u, 3], par[u, 4],
                                                 )  # fmt: skip
                                             gs += ak * ik
                                             dg += dk
-                                    if gs == 0.0:
+                                            if sg != segf[k] or sg == NONLINEAR:
+                                                unchanged = False
+                                            segf[k] = sg
+                                    if gs == 0.0 or unchanged:
+                                        # a root, or every winding on the piece of the point the
+                                        # Newton step came from: the step was exact
                                         ok = True
                                         break
                                     if gs < 0.0:
@@ -420,7 +463,9 @@ def integrate(
                                     else:
                                         hi = s
                                     new = s - gs / dg
+                                    stepped = True
                                     if not (lo < new < hi):
+                                        stepped = False
                                         if math.isfinite(lo) and math.isfinite(hi):
                                             new = 0.5 * (lo + hi)
                                         else:
@@ -438,17 +483,23 @@ def integrate(
                                     lk = xs[k] + avec[u, k] * s
                                     lam[u, k] = lk
                                     if kd == 2:
-                                        ik, dk = _curve_table(lk, flux, cur, u, top, par[u, 0])
+                                        ik, dk, sg = _curve_seg_table(
+                                            lk, flux, cur, u, top, par[u, 0]
+                                        )
                                     else:
-                                        ik, dk = _curve_s(
+                                        ik, dk, sg = _curve_seg_s(
                                             lk, kd, par[u, 0], par[u, 1], par[u, 2], par[u, 3],
                                             par[u, 4],
                                         )  # fmt: skip
                                     cw[u, k] = ik
                                     dw[u, k] = dk
+                                    if sg != segp[u, k] or sg == NONLINEAR:
+                                        same = False
+                                    segn[u, k] = sg
                                 else:
                                     cw[u, k] = 0.0
                                     dw[u, k] = 0.0
+                                    segn[u, k] = 0
                             w0, w1, w2 = cw[u, 0], cw[u, 1], cw[u, 2]
                             if cu == DELTA:
                                 la, lb, lc = w0 - w2, w1 - w0, w2 - w1
@@ -460,9 +511,29 @@ def integrate(
                             r0 += line[u, 0]
                             r1 += line[u, 1]
                             r2 += line[u, 2]
-                            if l_s <= 0.0:
+                        if l_s <= 0.0:
+                            failed += bad
+                            for k in range(3):
+                                i_l[k] = psi_l[k] * inv_ll
+                            i_s[0] = r0 + i_l[0]
+                            i_s[1] = r1 + i_l[1]
+                            i_s[2] = r2 + i_l[2]
+                            converged = True
+                            break
+                        for k in range(3):
+                            i_l[k] = (psi_l[k] - trial[k]) * inv_ll
+                        if same and bad == 0:
+                            # the Jacobian at trial is the accepted point's, bit for bit
+                            phi[0], phi[1], phi[2] = trial[0], trial[1], trial[2]
+                            converged = True
+                            break
+                        # G = sum over the units of S C D~ C^T S, D~ = D - (D a)(D a)^T/(a^T D a)
+                        for u in range(n_units):
+                            md = mode[u]
+                            if md == 0:
                                 continue
-                            # G_u = S C D~ C^T S, D~ = D - (D a)(D a)^T/(a^T D a)
+                            cu = conn[u]
+                            c0, c1, c2 = closed[u, 0], closed[u, 1], closed[u, 2]
                             e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
                             t00, t11, t22 = e0, e1, e2
                             t01 = t02 = t12 = 0.0
@@ -493,17 +564,6 @@ def integrate(
                             g01 += h01 if (c0 and c1) else 0.0
                             g02 += h02 if (c0 and c2) else 0.0
                             g12 += h12 if (c1 and c2) else 0.0
-                        if l_s <= 0.0:
-                            failed += bad
-                            for k in range(3):
-                                i_l[k] = psi_l[k] * inv_ll
-                            i_s[0] = r0 + i_l[0]
-                            i_s[1] = r1 + i_l[1]
-                            i_s[2] = r2 + i_l[2]
-                            converged = True
-                            break
-                        for k in range(3):
-                            i_l[k] = (psi_l[k] - trial[k]) * inv_ll
                         f0 = trial[0] / l_s - r0 - i_l[0]
                         f1 = trial[1] / l_s - r1 - i_l[1]
                         f2 = trial[2] / l_s - r2 - i_l[2]
@@ -516,6 +576,9 @@ def integrate(
                             trial[2] = phi[2] - tstep * d2
                             continue
                         phi[0], phi[1], phi[2] = trial[0], trial[1], trial[2]
+                        for u in range(n_units):
+                            for k in range(3):
+                                segp[u, k] = segn[u, k]
                         norm0 = norm
                         diag = 1.0 / l_s + inv_ll
                         j00, j11, j22 = diag + g00, diag + g11, diag + g22
@@ -549,9 +612,13 @@ def integrate(
                         continue
                     # ---- derivatives: KVL around every loop ----
                     gsc = _source_scale(x_st, j, g0, slope, kh, ke)
-                    wt = omega * x_st * h
-                    swt = math.sin(wt)
-                    cwt = math.cos(wt)
+                    if x_st != x_trig:
+                        # the two middle stages, and a step's end and the next one's start, are
+                        # the same instant: its sine and cosine are computed once
+                        x_trig = x_st
+                        wt = omega * x_st * h
+                        swt = math.sin(wt)
+                        cwt = math.cos(wt)
                     for k in range(3):
                         sa[k] = swt * cph[k] + cwt * sph[k]
                         ca[k] = cwt * cph[k] - swt * sph[k]
