@@ -211,8 +211,8 @@ def test_unit_behind_subtransient_reactance(
     # the floating neutral, not each winding alone. Measured first peaks, this solver /
     # reference: delta 12 204.06 / 12 204.05 A, floating wye 9 548 A both; the former dip model
     # (removed; the dip now runs on this solver), which took each delta winding alone behind
-    # 2 x Z_s and the floating wye's phases as independent, gave 15 139 A and 12 730 A. Per-cycle peaks
-    # within 1.6e-6 (delta) and 3.5e-6 (floating wye) over six cycles.
+    # 2 x Z_s and the floating wye's phases as independent, gave 15 139 A and 12 730 A.
+    # Per-cycle peaks within 1.6e-6 (delta) and 3.5e-6 (floating wye) over six cycles.
     f, v = 60.0, 480.0
     x_d2 = 0.15 * v * v / 1.25e6
     fault = v * v / (x_d2 * math.sqrt(1.0 + 1.0 / 40.0**2))
