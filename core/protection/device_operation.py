@@ -35,7 +35,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, replace
-from typing import Any, Literal, cast
+from typing import Any, ClassVar, Literal, cast
 
 import numpy as np
 import numpy.typing as npt
@@ -213,15 +213,10 @@ class Relay:
         if self.reset not in ("curve", "hold", "instantaneous"):
             raise ParameterError("reset", self.reset, "curve, hold or instantaneous")
 
-    @property
-    def kind(self) -> str:
-        """``"relay"``: the device's kind as the answers name it [-]."""
-        return "relay"
-
-    @property
-    def has_curve(self) -> bool:
-        """True: a relay has a time-current curve [-]."""
-        return True
+    #: The device's kind as the answers name it.
+    kind: ClassVar[str] = "relay"
+    #: True: a relay has a time-current curve [-].
+    has_curve: ClassVar[bool] = True
 
     @property
     def clearing_curve(self) -> str | None:
@@ -310,15 +305,10 @@ class Fuse:
         if self.minimum_melting_i2t_a2s is not None:
             checks.positive("minimum_melting_i2t_a2s", self.minimum_melting_i2t_a2s)
 
-    @property
-    def kind(self) -> str:
-        """``"fuse"``: the device's kind as the answers name it [-]."""
-        return "fuse"
-
-    @property
-    def has_curve(self) -> bool:
-        """True: a fuse has time-current curves [-]."""
-        return True
+    #: The device's kind as the answers name it.
+    kind: ClassVar[str] = "fuse"
+    #: True: a fuse has time-current curves [-].
+    has_curve: ClassVar[bool] = True
 
     @property
     def clearing_curve(self) -> str | None:
@@ -401,15 +391,10 @@ class Breaker:
         if self.sensing is not None and self.sensing not in SENSED_WORDS:
             raise ParameterError("sensing", self.sensing, ", ".join(SENSED_WORDS))
 
-    @property
-    def kind(self) -> str:
-        """``"breaker"``: the device's kind as the answers name it [-]."""
-        return "breaker"
-
-    @property
-    def has_curve(self) -> bool:
-        """True: a breaker has a time-current band [-]."""
-        return True
+    #: The device's kind as the answers name it.
+    kind: ClassVar[str] = "breaker"
+    #: True: a breaker has a time-current band [-].
+    has_curve: ClassVar[bool] = True
 
     @property
     def clearing_curve(self) -> str | None:

@@ -30,7 +30,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
-from typing import Literal
+from typing import ClassVar, Literal
 
 import numpy as np
 import numpy.typing as npt
@@ -304,15 +304,10 @@ class Differential:
         if self.unrestrained_pu is not None:
             checks.in_range("unrestrained_pu", self.unrestrained_pu, 1.0, 100.0)
 
-    @property
-    def kind(self) -> str:
-        """``"differential"``: the device's kind as the answers name it [-]."""
-        return "differential"
-
-    @property
-    def has_curve(self) -> bool:
-        """False: a differential has no time-current curve; it is judged on the waveform [-]."""
-        return False
+    #: The device's kind as the answers name it.
+    kind: ClassVar[str] = "differential"
+    #: False: a differential has no time-current curve; it is judged on the waveform [-].
+    has_curve: ClassVar[bool] = False
 
     @property
     def clearing_curve(self) -> str | None:
