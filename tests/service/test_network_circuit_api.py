@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 import pytest
 from fastapi.testclient import TestClient
+from json_compare import assert_json_close
 
 from service.app import create_app
 from service.examples import NETWORK_REQUESTS
@@ -23,7 +24,6 @@ from service.settings import get_settings
 
 URL = "/v1/network-energization"
 SVG_NS = "{http://www.w3.org/2000/svg}"
-TOL = 1e-9
 Body = dict[str, Any]
 
 
@@ -55,21 +55,6 @@ def si_units(request: Body, resp: Body) -> Body:
     return out
 
 
-def _close(a: Any, b: Any, where: str = "") -> None:
-    if isinstance(a, dict):
-        assert set(a) == set(b), where
-        for k in a:
-            _close(a[k], b[k], f"{where}.{k}")
-    elif isinstance(a, list):
-        assert len(a) == len(b), where
-        for k, (x, y) in enumerate(zip(a, b, strict=True)):
-            _close(x, y, f"{where}[{k}]")
-    elif isinstance(a, float) and isinstance(b, float | int):
-        assert math.isclose(a, b, rel_tol=TOL, abs_tol=1e-12 * max(1.0, abs(a))), (where, a, b)
-    else:
-        assert a == b, (where, a, b)
-
-
 @pytest.mark.parametrize("name", sorted(NETWORK_REQUESTS))
 def test_si_units_answer_as_the_nameplates(client: TestClient, name: str) -> None:
     plate = NETWORK_REQUESTS[name]
@@ -89,11 +74,11 @@ def test_si_units_answer_as_the_nameplates(client: TestClient, name: str) -> Non
         "devices",
         "warnings",
     ):
-        _close(a[field], b[field], field)
+        assert_json_close(a[field], b[field], field)
     sa, sb = _stated(a), _stated(b)
     for k in sa:
         if k.endswith(("nominal_flux_wb", "knee_flux_wb", "residual_flux_pu")) or k == "source_emf":
-            _close(sa[k], sb[k], k)
+            assert_json_close(sa[k], sb[k], k)
 
 
 def test_a_nameplate_unit_beside_an_si_unit(client: TestClient) -> None:
@@ -103,7 +88,7 @@ def test_a_nameplate_unit_beside_an_si_unit(client: TestClient) -> None:
     mixed["units"][0] = copy.deepcopy(plate["units"][0])
     r2 = client.post(URL, json=mixed)
     assert r2.status_code == 200, r2.text
-    _close(r1["units"], r2.json()["units"], "units")
+    assert_json_close(r1["units"], r2.json()["units"], "units")
 
 
 def _field_of(resp: Any) -> list[str]:
@@ -264,4 +249,4 @@ def test_statistics_of_si_units_equal_those_of_the_nameplates(client: TestClient
     a, b = r1.json(), r2.json()
     for field in a:
         if field != "assumptions":
-            _close(a[field], b[field], field)
+            assert_json_close(a[field], b[field], field)

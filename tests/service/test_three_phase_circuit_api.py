@@ -15,6 +15,7 @@ from typing import Any
 
 import pytest
 from fastapi.testclient import TestClient
+from json_compare import assert_json_close
 
 from service.examples import (
     CLEARANCE_REQUESTS,
@@ -26,7 +27,6 @@ from service.examples import (
 )
 
 Body = dict[str, Any]
-TOL = 1e-9
 
 
 def _stated(resp: Body) -> dict[str, Any]:
@@ -64,22 +64,6 @@ def _si_request(nameplate: Body, resp: Body) -> Body:
     out = {k: copy.deepcopy(v) for k, v in nameplate.items() if k not in ("transformer", "source")}
     out["circuit_three_phase"] = si_circuit_from_response(nameplate, resp)
     return out
-
-
-def _close(a: Any, b: Any, where: str = "") -> None:
-    """Every number of two JSON values agrees to TOL relative (of the larger magnitude)."""
-    if isinstance(a, dict):
-        assert set(a) == set(b), where
-        for k in a:
-            _close(a[k], b[k], f"{where}.{k}")
-    elif isinstance(a, list):
-        assert len(a) == len(b), where
-        for k, (x, y) in enumerate(zip(a, b, strict=True)):
-            _close(x, y, f"{where}[{k}]")
-    elif isinstance(a, float) and isinstance(b, float | int):
-        assert math.isclose(a, b, rel_tol=TOL, abs_tol=1e-12 * max(1.0, abs(a))), (where, a, b)
-    else:
-        assert a == b, (where, a, b)
 
 
 SMOOTH_FLOATING = {
@@ -124,9 +108,9 @@ def test_peak_from_the_nameplates_circuit_equals_the_nameplate(
     assert r2.status_code == 200, r2.text
     a, b = r1.json(), r2.json()
     for field in RESULT_FIELDS:
-        _close(a[field], b[field], field)
+        assert_json_close(a[field], b[field], field)
     for name_ in ("nominal_flux_wb", "knee_flux_wb", "residual_flux_pu", "source_emf"):
-        _close(_stated(a)[name_], _stated(b)[name_], name_)
+        assert_json_close(_stated(a)[name_], _stated(b)[name_], name_)
 
 
 def test_envelope_from_the_nameplates_circuit_equals_the_nameplate(client: TestClient) -> None:
@@ -137,7 +121,7 @@ def test_envelope_from_the_nameplates_circuit_equals_the_nameplate(client: TestC
     assert r2.status_code == 200, r2.text
     a, b = r1.json(), r2.json()
     for field in ("lines", "analytic", "threshold_a", "equivalent_rms_times_s", "steps_per_cycle"):
-        _close(a[field], b[field], field)
+        assert_json_close(a[field], b[field], field)
 
 
 def test_batch_item_from_the_nameplates_circuit_equals_the_nameplate(client: TestClient) -> None:
@@ -149,7 +133,7 @@ def test_batch_item_from_the_nameplates_circuit_equals_the_nameplate(client: Tes
     items = r.json()["results"]
     assert [it["status"] for it in items] == [200, 200]
     for field in RESULT_FIELDS:
-        _close(items[0]["result"][field], items[1]["result"][field], field)
+        assert_json_close(items[0]["result"][field], items[1]["result"][field], field)
 
 
 def _si_main_unit(client: TestClient) -> Body:
