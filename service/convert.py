@@ -173,15 +173,23 @@ def _circuit(study: Study) -> EquivalentCircuit:
         return circuit_three_phase_of(three, "circuit_three_phase")
     assert study.circuit is not None
     ci = study.circuit
-    curve = curve_of(ci.magnetizing)
-    return circuit_model.circuit_from_si(
-        ci.voltage_rms_v,
-        ci.frequency_hz,
-        ci.resistance_ohm,
-        ci.inductance_h,
-        curve,
-        ci.rated_current_a,
-    )
+    try:
+        curve = curve_of(ci.magnetizing)
+    except ParameterError as exc:
+        raise ParameterError(
+            f"circuit.magnetizing.{exc.parameter}", exc.value, exc.allowed
+        ) from None
+    try:
+        return circuit_model.circuit_from_si(
+            ci.voltage_rms_v,
+            ci.frequency_hz,
+            ci.resistance_ohm,
+            ci.inductance_h,
+            curve,
+            ci.rated_current_a,
+        )
+    except ParameterError as exc:
+        raise ParameterError(f"circuit.{exc.parameter}", exc.value, exc.allowed) from None
 
 
 def curve_of(m: TwoSlopeCurve | SmoothCurve | TableCurve) -> magnetizing.MagnetizingCurve:

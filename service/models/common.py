@@ -363,10 +363,14 @@ class Study(Model):
     """What is studied: a transformer from its nameplate, or an SI equivalent circuit."""
 
     transformer: TransformerNameplate | None = Field(
-        None, description="Nameplate mode (give this or circuit)"
+        None,
+        description="Nameplate mode; give exactly one of the modes this operation offers "
+        "(transformer, circuit and, where listed, circuit_three_phase)",
     )
     circuit: EquivalentCircuitIn | None = Field(
-        None, description="Equivalent-circuit mode (give this or transformer)"
+        None,
+        description="Single-phase SI equivalent-circuit mode; give exactly one of the modes "
+        "this operation offers (transformer, circuit and, where listed, circuit_three_phase)",
     )
     source: SourceIn | None = Field(
         None, description="Supply at the energised terminals (nameplate mode); default ideal"

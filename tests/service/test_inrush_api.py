@@ -186,6 +186,15 @@ def test_stiff_circuit_is_rejected_not_hung(client: TestClient) -> None:
     assert body["errors"][0]["field"] == "resistance_ohm"  # type: ignore[index]
 
 
+def test_circuit_mode_core_errors_name_the_request_path(client: TestClient) -> None:
+    # a rule the schema cannot express (the curve's slopes), caught in core: the problem names
+    # the field where the caller wrote it, under circuit.
+    req = copy.deepcopy(PEAK_REQUESTS["circuit_mode"])
+    req["circuit"]["magnetizing"]["saturated_inductance_h"] = 0.1  # above the unsaturated 0.0306
+    body = _problem(client.post("/v1/inrush/peak", json=req), 422)
+    assert body["errors"][0]["field"] == "circuit.magnetizing.saturated_inductance_h"  # type: ignore[index]
+
+
 def test_body_too_large_is_413(client: TestClient) -> None:
     big = b'{"x": "' + b"a" * 2_000_000 + b'"}'
     r = client.post("/v1/inrush/peak", content=big, headers={"content-type": "application/json"})
