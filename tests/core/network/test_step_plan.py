@@ -114,8 +114,9 @@ def test_statistics_work_counts_the_steps_the_statistics_take(
             samples = np.minimum(last + 1, res.time_s.size - 1)
             taken.append(cost.NETWORK_PEAK_STEP_WEIGHT * n_units * 3 * decimate * samples.sum())
             return res
+        assert kw.get("record") == "source"  # the device events: the source current only
         steps = (res.time_s.size - 1) * decimate
-        taken.append(cost.NETWORK_STEP_WEIGHT * cases * n_units * 3 * steps)
+        taken.append(cost.NETWORK_SOURCE_STEP_WEIGHT * cases * n_units * 3 * steps)
         return res
 
     monkeypatch.setattr(ns, "simulate_network", counted)
