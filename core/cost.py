@@ -14,10 +14,15 @@ budget; :attr:`Work.parts` says where the work goes.
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+import numpy as np
+from scipy import special
+
 from core.energization import energize_plan, peaks
+from core.errors import ParameterError
 from core.network import BusLoad, Source, Unit, step_plan
 from core.supply import dip_cases as dip_solver
 from core.transformer import EquivalentCircuit
@@ -32,6 +37,8 @@ __all__ = [
     "ENVELOPE_SAMPLE_WEIGHT",
     "EVENT_SAMPLE_WEIGHT",
     "EVENT_WEIGHT",
+    "NETWORK_PEAK_STEP_WEIGHT",
+    "NETWORK_SOURCE_STEP_WEIGHT",
     "NETWORK_STEP_WEIGHT",
     "PEAK_CASE_WEIGHT",
     "RECORD_SAMPLE_WEIGHT",
@@ -43,6 +50,7 @@ __all__ = [
     "dip_run_steps",
     "dip_study_work",
     "envelope_work",
+    "expected_normal_range",
     "mitigation_work",
     "network_statistics_work",
     "network_work",
@@ -71,6 +79,20 @@ DIP_RUN_WEIGHT = 55_000.0
 # of the bus fluxes at every stage), in winding-steps of core.energize: about 163 ns against
 # 65 ns for a winding-step of core.energize (eight 1500 kVA units over 2 s, one run, CPU time).
 NETWORK_STEP_WEIGHT = 2.5
+# One network step per winding of the statistics' Monte Carlo, which keeps no record (the
+# kernel keeps each current's running first-peak maxima, no bus voltage computed, each case
+# stopped one sample after its window), the drawing and the reading included, against the
+# single-unit Monte Carlo (core.statistics.monte_carlo.peak_distribution) per winding-step of
+# its estimate: tests/benchmarks/bench_network.py section 3, both in one run (4 units,
+# 10 000 samples: 6.7 s of CPU; the baseline's 2000 samples 0.24 s, 124 ns per estimated
+# winding-step; with 1.6 the ratio of the two per estimated winding-step was 1.01). The full
+# record it replaced cost 8.9 s (and 143 MB against 6 MB).
+NETWORK_PEAK_STEP_WEIGHT = 1.6
+# One network step per winding of a statistics device event, which records only the source
+# current the devices are judged on (no bus voltage, no unit's currents or fluxes), against the
+# same baseline in one run: 60 events of the benchmark's 4 units over 1 s, 0.94 s of CPU for
+# 4.6 M winding-steps, 205 ns each against the baseline's 105 ns: 1.95.
+NETWORK_SOURCE_STEP_WEIGHT = 2.0
 # Judging one device against one event: per line-sample of the record (the sliding one-cycle
 # rms, I_eq(t), the relay integral and its reset) and per judgement (the device's curve built
 # and its verdict read): 45 ns a line-sample and 1.7 ms a judgement.
@@ -135,6 +157,40 @@ class Work:
 
     def __add__(self, other: Work) -> Work:
         return Work(self.steps + other.steps, self.parts + other.parts)
+
+
+@functools.lru_cache(maxsize=256)
+def expected_normal_range(m: int) -> float:
+    """Expected range of m independent standard normal draws.
+
+    Parameters
+    ----------
+    m : int
+        Number of draws, >= 1 [-].
+
+    Returns
+    -------
+    float
+        E[max - min] [standard deviations].
+
+    Notes
+    -----
+    E[R_m] = integral over x of 1 - Phi(x)^m - (1 - Phi(x))^m, by the trapezoidal rule on
+    [-12, 12] (the integrand is below 1e-30 beyond for any m here); 0 for m = 1, 2/sqrt(pi)
+    for m = 2, about 3.26 for m = 12.
+
+    References
+    ----------
+    L. H. C. Tippett, "On the extreme individuals and the range of samples taken from a normal
+    population", Biometrika 17, 1925 (from memory); H. A. David, H. N. Nagaraja, Order
+    Statistics, 3rd ed., Wiley 2003 (from memory).
+    """
+    n = int(m)
+    if n < 1:
+        raise ParameterError("m", m, "an integer >= 1")
+    x = np.linspace(-12.0, 12.0, 24_001)
+    phi = special.ndtr(x)
+    return float(np.trapezoid(1.0 - phi**n - (1.0 - phi) ** n, x))
 
 
 def _work(parts: Sequence[tuple[str, float]]) -> Work:
@@ -709,13 +765,16 @@ def network_statistics_work(
 
     Notes
     -----
-    Monte Carlo: samples x NETWORK_STEP_WEIGHT x units x 3 windings x steps over
-    cycles/f + d + 2 samples, d = pole_closing_max + SCATTER_SIGMAS x sigma the latest pole
-    (:func:`core.network.step_plan`, the solver's own plan); its first peaks read at
-    EVENT_SAMPLE_WEIGHT per line-sample of the source and of every unit. Devices: events x the
-    network simulated over duration_s, each event's source record read (EVENT_WEIGHT +
-    EVENT_SAMPLE_WEIGHT x 3 x samples) and each device judged on it (DEVICE_JUDGEMENT_WEIGHT +
-    DEVICE_SAMPLE_WEIGHT x 3 x samples).
+    Monte Carlo: samples x NETWORK_PEAK_STEP_WEIGHT x units x 3 windings x steps over
+    cycles/f + d + 1 sample, d = pole_closing_max + E[R] x sigma the mean latest pole, E[R]
+    the expected range of the 3 x (units being energised) normal pole draws
+    (:func:`expected_normal_range`; each case is integrated only to the sample after its own
+    window, so the sample's cost is its mean case's; :func:`core.network.step_plan`, the
+    solver's own plan); the first peaks are read in the kernel (in the weight). Devices:
+    events x the network simulated over duration_s (NETWORK_SOURCE_STEP_WEIGHT: only the
+    source current recorded), each event's source
+    record read (EVENT_WEIGHT + EVENT_SAMPLE_WEIGHT x 3 x samples) and each device judged on it
+    (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT x 3 x samples).
 
     References
     ----------
@@ -723,20 +782,22 @@ def network_statistics_work(
     """
     units = list(units)
     f = source.frequency_hz
-    spread = pole_closing_max_s + SCATTER_SIGMAS * pole_scatter_ms * 1e-3
-    window = cycles / f + spread + 2.0 / (f * samples_per_cycle)
+    poles = 3 * max(1, sum(not u.in_service for u in units))
+    spread = pole_closing_max_s + expected_normal_range(poles) * pole_scatter_ms * 1e-3
+    window = cycles / f + spread + 1.0 / (f * samples_per_cycle)
     _, _, n_steps = step_plan(source, units, window, load, samples_per_cycle)
-    record = 3.0 * (window * f * samples_per_cycle + 1)
     parts = [
-        ("Monte Carlo events", NETWORK_STEP_WEIGHT * samples * len(units) * 3.0 * n_steps),
-        ("first peaks read", EVENT_SAMPLE_WEIGHT * samples * record * (len(units) + 1)),
+        ("Monte Carlo events", NETWORK_PEAK_STEP_WEIGHT * samples * len(units) * 3.0 * n_steps),
     ]
     if events and devices:
         _, _, full = step_plan(source, units, duration_s, load, samples_per_cycle)
         line_samples = 3.0 * (duration_s * f * samples_per_cycle + 1)
         per_event = DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT * line_samples
         parts += [
-            ("device events simulated", NETWORK_STEP_WEIGHT * events * len(units) * 3.0 * full),
+            (
+                "device events simulated",
+                NETWORK_SOURCE_STEP_WEIGHT * events * len(units) * 3.0 * full,
+            ),
             ("device events read", events * (EVENT_WEIGHT + EVENT_SAMPLE_WEIGHT * line_samples)),
             ("device events judged", events * devices * per_event),
         ]

@@ -39,6 +39,7 @@ __all__ = [
     "current_readings",
     "first_peak_window_end",
     "first_peaks",
+    "first_peaks_of_maxima",
     "rule_of_thumb",
     "sympathetic_current",
 ]
@@ -285,6 +286,60 @@ def first_peaks(
     y0 = np.take_along_axis(row, jm, -1)[..., 0]
     y1 = np.take_along_axis(row, j[..., None], -1)[..., 0]
     y2 = np.take_along_axis(row, jp, -1)[..., 0]
+    den = y0 - 2.0 * y1 + y2
+    inner = (j > 0) & (j < n - 1) & (den < 0.0) & (y1 >= y0) & (y1 >= y2)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        vertex = y1 - 0.125 * (y2 - y0) ** 2 / den
+    peak: FloatArray = np.where(inner, vertex, y1)
+    return peak, line.astype(np.int64)
+
+
+def first_peaks_of_maxima(maxima: ArrayLike, n_samples: int) -> tuple[FloatArray, IntArray]:
+    """:func:`first_peaks` from running maxima kept during the integration instead of a record.
+
+    Parameters
+    ----------
+    maxima : array_like, shape (..., 3, 4)
+        Per line: the largest |i| over the window's samples (the first of equal ones), |i| at
+        the sample before it and at the sample after it (each the largest itself where there
+        is none), and its sample index, as :func:`core.network.kernel.integrate` keeps them
+        [A, A, A, -].
+    n_samples : int
+        Samples of the record the maxima stand for, >= 1 [-].
+
+    Returns
+    -------
+    peak_a : ndarray, shape (...)
+        The first peak [A].
+    line : ndarray of int, shape (...)
+        The line carrying it (the first of equal ones) [-].
+
+    Raises
+    ------
+    ParameterError
+        On a shape or size out of range.
+
+    Notes
+    -----
+    The reading of :func:`first_peaks` on the same samples, operation for operation: the line
+    with the largest maximum, y_j its maximum, y_{j-1} and y_{j+1} its neighbours, the vertex
+    y_j - (y_{j+1} - y_{j-1})^2/(8 d), d = y_{j-1} - 2 y_j + y_{j+1}, where 0 < j < n - 1,
+    d < 0 and y_j is no smaller than either neighbour; otherwise y_j. The same waveform gives
+    the same number, bit for bit.
+
+    References
+    ----------
+    As :func:`first_peaks` (W. H. Press et al., Numerical Recipes, 3rd ed., Cambridge 2007,
+    section 10.3, from memory).
+    """
+    m = np.asarray(maxima, dtype=float)
+    if m.ndim < 2 or m.shape[-2:] != (3, 4):
+        raise ParameterError("maxima", m.shape, "shape (..., 3, 4)")
+    n = checks.integer("n_samples", n_samples, 1, 2**62)
+    line = np.argmax(m[..., 0], axis=-1)
+    row = np.take_along_axis(m, line[..., None, None], axis=-2)[..., 0, :]
+    y0, y1, y2 = row[..., 1], row[..., 0], row[..., 2]
+    j = row[..., 3]
     den = y0 - 2.0 * y1 + y2
     inner = (j > 0) & (j < n - 1) & (den < 0.0) & (y1 >= y0) & (y1 >= y2)
     with np.errstate(divide="ignore", invalid="ignore"):

@@ -24,7 +24,17 @@ from numpy.typing import NDArray
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
-__all__ = ["DELTA", "FLOATING_WYE", "GROUNDED_WYE", "MAX_ITERATIONS", "NSRC", "integrate"]
+__all__ = [
+    "DELTA",
+    "FLOATING_WYE",
+    "GROUNDED_WYE",
+    "MAX_ITERATIONS",
+    "NSRC",
+    "RECORD_ALL",
+    "RECORD_FIRST_PEAKS",
+    "RECORD_SOURCE",
+    "integrate",
+]
 
 GROUNDED_WYE, FLOATING_WYE, DELTA = 0, 1, 2
 # Columns of the per-case source parameters (src, shape (n_cases, NSRC)): the Thevenin R_s
@@ -42,6 +52,16 @@ MAX_ITERATIONS = 60
 # The piece reported for a point of a smooth curve: never equal to another point's piece, so the
 # exit on an unchanged piece (exact only where the curves are piecewise linear) never fires.
 NONLINEAR = 1 << 40
+# What integrate writes at the sample instants (its ``record`` argument): every output array;
+# the source current only (the other record arrays untouched, the bus voltage not computed);
+# or no record at all, only each current's running first-peak maxima (out_peak) up to each
+# case's window (peak_last), the case's integration stopping one sample after it.
+RECORD_ALL, RECORD_SOURCE, RECORD_FIRST_PEAKS = 0, 1, 2
+# Columns of out_peak (n_cases, 1 + n_units, 3, NPEAK), per current (the source's, then each
+# unit's line currents) and line: the largest |i| over the window's samples (the first of equal
+# ones), |i| at the sample before it and at the sample after it, and its sample index.
+PEAK_MAX, PEAK_BEFORE, PEAK_AFTER, PEAK_INDEX = range(4)
+NPEAK = 4
 
 
 # The hot path (the stages' algebra, derivatives and outputs) is written out in one function
@@ -296,6 +316,9 @@ def integrate(
     out_energy: FloatArray,
     n_in: int,
     sub: IntArray,
+    record: int,
+    peak_last: IntArray,
+    out_peak: FloatArray,
 ) -> int:  # pragma: no cover - compiled
     """Integrate every case; returns the number of algebraic solves that did not converge.
 
@@ -309,7 +332,12 @@ def integrate(
     E_fd [pu], out_energy (n_cases, n_units) the integral of the summed squared line currents
     while the unit's pre-insertion resistor is in [A^2*s]; the steps j < n_in are each split
     into ``sub[c]`` equal Runge-Kutta sub-steps (a resistor's short time constant while it is in),
-    the samples staying on the step.
+    the samples staying on the step. ``record`` (RECORD_ALL, RECORD_SOURCE, RECORD_FIRST_PEAKS)
+    says what is written at the samples; with RECORD_FIRST_PEAKS, peak_last (n_cases,) is the
+    last sample of each case's first-peak window and out_peak (n_cases, 1 + n_units, 3, NPEAK)
+    receives the running maxima (columns above; set to -1 on entry), the record arrays are not
+    touched and each case stops after sample peak_last + 1 (or the last step); a non-finite
+    source current sets out_peak[c, 0, 0, PEAK_MAX] to nan.
     """
     n_cases = phase.shape[0]
     n_units = conn.shape[0]
@@ -371,6 +399,9 @@ def integrate(
         j00 = j01 = j02 = j11 = j12 = j22 = 0.0
         x_trig = -1.0  # the stage instant of swt, cwt [steps]
         swt = cwt = 0.0
+        stop = False  # RECORD_FIRST_PEAKS: the case's window and the sample after it are read
+        last = peak_last[c] if record == RECORD_FIRST_PEAKS else -1
+        prev_abs = np.zeros((n_units + 1, 3))  # |i| at the previous sample, per current
         for j in range(n_steps + 1):
             pending = False
             for u in range(n_units):
@@ -655,7 +686,7 @@ def integrate(
                     # ---- bus voltage, regulator, outputs at the sample instants ----
                     sample = st == 0 and sb == 0 and (j % decimate == 0 or j == n_steps)
                     v0 = v1 = v2 = 0.0
-                    if sample or avr:
+                    if (sample and record != RECORD_FIRST_PEAKS) or avr:
                         # bus voltage v = e - R_s*i_s - Phi', J*Phi' = sum S C D~ psi' + psi_L'/L_L
                         p0 = p1 = p2 = 0.0
                         if l_s > 0.0:
@@ -702,7 +733,32 @@ def integrate(
                             ):
                                 de = 0.0
                             km[2] = de
-                    if sample:
+                    if sample and record == RECORD_FIRST_PEAKS:
+                        s_idx = j // decimate
+                        for r in range(n_units + 1):
+                            for k in range(3):
+                                y = abs(i_s[k]) if r == 0 else abs(line[r - 1, k])
+                                if s_idx > 0 and out_peak[c, r, k, PEAK_INDEX] == s_idx - 1:
+                                    out_peak[c, r, k, PEAK_AFTER] = y
+                                if s_idx <= last and y > out_peak[c, r, k, PEAK_MAX]:
+                                    out_peak[c, r, k, PEAK_MAX] = y
+                                    out_peak[c, r, k, PEAK_BEFORE] = prev_abs[r, k] if s_idx else y
+                                    out_peak[c, r, k, PEAK_AFTER] = y
+                                    out_peak[c, r, k, PEAK_INDEX] = s_idx
+                                prev_abs[r, k] = y
+                        for k in range(3):
+                            if not math.isfinite(i_s[k]):
+                                out_peak[c, 0, 0, PEAK_MAX] = math.nan
+                        if s_idx > last or j == n_steps:
+                            stop = True
+                            break
+                    if sample and record == RECORD_SOURCE:
+                        s_idx = j // decimate
+                        for k in range(3):
+                            out_src[c, k, s_idx] = i_s[k]
+                        if j == n_steps:
+                            break
+                    if sample and record == RECORD_ALL:
                         s_idx = j // decimate
                         out_bus[c, 0, s_idx] = v0
                         out_bus[c, 1, s_idx] = v1
@@ -765,4 +821,8 @@ def integrate(
                             for k in range(3):
                                 psi[u, k] = base[u, k] + hh / 6.0 * acc[u, k]
                     st += 1
+                if stop:
+                    break
+            if stop:
+                break
     return failed

@@ -98,7 +98,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core.errors import LimitError, ParameterError
-from core.network import kernel
+from core.network import analysis, kernel
 from core.network import machine as _machine
 from core.network.machine import Machine
 from core.transformer import EquivalentCircuit, source_impedance
@@ -339,6 +339,10 @@ class NetworkResult:
     insertion_energy_j : ndarray, shape (n_cases, n_units)
         Energy each unit's pre-insertion resistor absorbs until its bypass,
         R_ins * sum over lines of the integral of l_k^2 (the Runge-Kutta quadrature) [J].
+    first_peak_a : ndarray, shape (n_cases, 1 + n_units)
+        With ``record="first_peaks"``: the first peak of the source current, then of each
+        unit's line currents (:func:`core.network.analysis.first_peaks` over the window);
+        empty otherwise [A].
     """
 
     time_s: FloatArray
@@ -354,6 +358,7 @@ class NetworkResult:
     emf_pu: FloatArray = field(default_factory=lambda: np.ones((0, 0)))
     field_voltage_pu: FloatArray = field(default_factory=lambda: np.ones((0, 0)))
     insertion_energy_j: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
+    first_peak_a: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
 
 
 APPROXIMATIONS = (
@@ -721,6 +726,8 @@ def simulate_network(
     samples_per_cycle: int = 128,
     max_steps: int | None = None,
     substep_insertion: bool = False,
+    record: str = "all",
+    first_peak_cycles: float = analysis.FIRST_PEAK_CYCLES,
 ) -> NetworkResult:
     """Simulate the energisation of transformers on one bus, for many cases at once.
 
@@ -748,6 +755,14 @@ def simulate_network(
         throughout. True: the step ignores the resistors and the steps before the last bypass
         are split into :func:`insertion_substeps` equal sub-steps (a long run with a short
         insertion) [-].
+    record : {"all", "source", "first_peaks"}
+        What is kept: the whole record; only the source current (the other record arrays
+        have no samples, the bus voltage is not computed); or no record, only each current's
+        first peak (``first_peak_a``; every record array has no samples), each case integrated
+        to the sample after its window only [-].
+    first_peak_cycles : float
+        With ``record="first_peaks"``: the window after the last pole of the units being
+        energised (:func:`core.network.analysis.first_peak_window_end`), > 0 [cycles].
 
     Returns
     -------
@@ -776,6 +791,14 @@ def simulate_network(
     H. W. Dommel, IEEE Trans. PAS-88(4), 1969 (multiphase network formulation; from memory);
     classical Runge-Kutta (Kutta 1901).
     """
+    modes = {
+        "all": kernel.RECORD_ALL,
+        "source": kernel.RECORD_SOURCE,
+        "first_peaks": kernel.RECORD_FIRST_PEAKS,
+    }
+    if record not in modes:
+        raise ParameterError("record", record, "'all', 'source' or 'first_peaks'")
+    mode = modes[record]
     if not isinstance(source, Source | Machine):
         raise ParameterError("source", type(source).__name__, "a Source or a Machine")
     f = _finite("source.frequency_hz", source.frequency_hz, 0.0, low_open=True)
@@ -863,12 +886,16 @@ def simulate_network(
         il0 = np.zeros((n, 3))
     kind, par, flux, cur, npts = _curve_arrays(units)
     n_samples = n_steps // decimate + 1
-    out_src = np.zeros((n, 3, n_samples))
-    out_bus = np.zeros((n, 3, n_samples))
-    out_line = np.zeros((n, n_units, 3, n_samples))
-    out_wind = np.zeros((n, n_units, 3, n_samples))
-    out_flux = np.zeros((n, n_units, 3, n_samples))
-    out_mach = np.zeros((n, 2, n_samples))
+    kept = n_samples if mode == kernel.RECORD_ALL else 0
+    out_src = np.zeros((n, 3, n_samples if mode != kernel.RECORD_FIRST_PEAKS else 0))
+    out_bus = np.zeros((n, 3, kept))
+    out_line = np.zeros((n, n_units, 3, kept))
+    out_wind = np.zeros((n, n_units, 3, kept))
+    out_flux = np.zeros((n, n_units, 3, kept))
+    out_mach = np.zeros((n, 2, kept))
+    peak_last, out_peak = _first_peak_window(
+        mode, units, close_step.astype(float) * h, f, first_peak_cycles, n_samples, h * decimate
+    )
     out_energy = np.zeros((n, n_units))
     failed = kernel.integrate(
         n_steps, decimate, h, 2.0 * math.pi * f,
@@ -889,6 +916,7 @@ def simulate_network(
             if substep_insertion
             else np.ones(n, dtype=np.int64)
         ),
+        mode, peak_last, out_peak,
     )  # fmt: skip
     if failed:
         raise ParameterError(
@@ -896,10 +924,10 @@ def simulate_network(
             f"{failed} algebraic solves without convergence",
             f"a network on which Newton's method converges in {kernel.MAX_ITERATIONS} iterations",
         )
-    if not np.all(np.isfinite(out_src)):
+    if not (np.all(np.isfinite(out_src)) and np.all(np.isfinite(out_peak[:, :1, 0, 0]))):
         raise ParameterError("units", "non-finite current", "a network whose currents stay finite")
     time: FloatArray = np.arange(n_samples, dtype=float) * (h * decimate)
-    i_load = out_src - np.sum(out_line, axis=1)
+    i_load = out_src - np.sum(out_line, axis=1) if kept else np.zeros((n, 3, kept))
     return NetworkResult(
         time_s=time,
         source_current_a=out_src,
@@ -907,7 +935,7 @@ def simulate_network(
         line_current_a=out_line,
         winding_current_a=out_wind,
         flux_linkage_wb=out_flux,
-        load_current_a=i_load if load is not None else np.zeros_like(out_src),
+        load_current_a=i_load if load is not None else np.zeros((n, 3, kept)),
         steps_per_cycle=spc,
         closing_time_s=close_step.astype(float) * h,
         approximations=APPROXIMATIONS,
@@ -915,7 +943,35 @@ def simulate_network(
         field_voltage_pu=out_mach[:, 1],
         insertion_energy_j=out_energy
         * np.array([u.breaker.insertion_resistance_ohm for u in units]),
+        first_peak_a=analysis.first_peaks_of_maxima(out_peak, n_samples)[0]
+        if mode == kernel.RECORD_FIRST_PEAKS
+        else np.zeros((0, 0)),
     )
+
+
+def _first_peak_window(
+    mode: int,
+    units: Sequence[Unit],
+    closing_time_s: FloatArray,
+    frequency_hz: float,
+    cycles: float,
+    n_samples: int,
+    sample_s: float,
+) -> tuple[IntArray, FloatArray]:
+    """The kernel's first-peak arguments: each case's last window sample and the maxima.
+
+    Empty arrays unless ``mode`` is RECORD_FIRST_PEAKS. The last sample is the largest j with
+    j*sample_s <= t_end*(1 + 1e-12), t_end from :func:`core.network.analysis.
+    first_peak_window_end`: the samples :func:`core.network.analysis.first_peaks` reads.
+    """
+    if mode != kernel.RECORD_FIRST_PEAKS:
+        return np.zeros(0, dtype=np.int64), np.zeros((0, 0, 3, kernel.NPEAK))
+    energized = [not u.in_service for u in units]
+    end = analysis.first_peak_window_end(closing_time_s, energized, frequency_hz, cycles)
+    t = np.arange(n_samples, dtype=float) * sample_s
+    last = np.searchsorted(t, end + 1e-12 * end, side="right").astype(np.int64) - 1
+    out = np.full((end.size, len(units) + 1, 3, kernel.NPEAK), -1.0)
+    return np.ascontiguousarray(last), out
 
 
 def _ramp(source: Source | Machine) -> tuple[float, float, float]:

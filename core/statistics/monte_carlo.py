@@ -460,6 +460,7 @@ def peak_distribution(
     max_steps: int | None = None,
     batch: int = 2000,
     checkpoint: Callable[[], None] | None = None,
+    closing_angle_deg: float | None = None,
 ) -> PeakDistribution:
     """Monte Carlo distribution of the first-cycles inrush peak over random closing instants.
 
@@ -487,6 +488,9 @@ def peak_distribution(
     checkpoint : callable or None
         Called with no argument before each solver call; it may raise to stop the work (the
         caller's deadline) [-].
+    closing_angle_deg : float or None
+        Phase-A voltage angle at the first pole's closing in every sample, in [-360, 360] (a
+        controlled closing's target); None draws it uniform in [0, 360) [deg].
 
     Returns
     -------
@@ -502,7 +506,8 @@ def peak_distribution(
     Notes
     -----
     Every sample is drawn first, from one generator, in this order: the phase-A voltage angle at
-    the first pole's closing, uniform in [0, 360) deg; the residual flux; the pole instants
+    the first pole's closing, uniform in [0, 360) deg (not drawn when given: the residual flux
+    and the scatter are then the next draws of the generator); the residual flux; the pole instants
     t_k ~ N(0, sigma^2), taken relative to the earliest (so a single pole never scatters). Every
     case is then simulated over the same window, ``cycles``/f plus the largest sampled pole
     delay, in batches of ``batch``; the result does not depend on ``batch``. A line's peak is
@@ -525,7 +530,12 @@ def peak_distribution(
     spec: ResidualSpec = UniformResidual() if residual is None else residual
 
     rng = np.random.default_rng(random_state)
-    angles: FloatArray = rng.uniform(0.0, 360.0, size=n)
+    angles: FloatArray
+    if closing_angle_deg is None:
+        angles = rng.uniform(0.0, 360.0, size=n)
+    else:
+        a = checks.in_range("closing_angle_deg", closing_angle_deg, -360.0, 360.0, open_low=False)
+        angles = np.full(n, a)
     res = sample_residual(spec, m, n, rng)
     raw: FloatArray = rng.normal(0.0, sigma_ms * 1e-3, size=(n, m))
     delays: FloatArray = raw - raw.min(axis=1, keepdims=True)

@@ -3,14 +3,15 @@ and the residual flux of every unit being energised on one bus.
 
 :func:`network_peak_distribution` draws the events the way
 :func:`core.statistics.monte_carlo.peak_distribution` draws them for one unit (closing angle
-uniform over a cycle, normal pole scatter, residual flux fixed or uniform per winding), simulates
-them as cases of :func:`core.network.simulate_network` in chunks, and reads each event's first
-peaks at the source and in every unit being energised with
-:func:`core.network.analysis.first_peaks` -- the reading the single network operation gives, so
-a sample replayed through it gives the same peak. :func:`network_device_odds` judges the feeder's
-devices on the first events of the sample, each simulated over the whole record, as the single
-operation judges one event (:func:`core.protection.coordination.evaluate` on the source
-current), and gives how often each operates with its binomial interval.
+uniform over a cycle, normal pole scatter, residual flux fixed or uniform per winding),
+simulates them as cases of :func:`core.network.simulate_network` in chunks without a record
+(each case's first peaks at the source and in every unit being energised kept while it runs,
+each case stopped after its window), the reading of :func:`core.network.analysis.first_peaks` --
+the one the single network operation gives, so a sample replayed through it gives the same peak.
+:func:`network_device_odds` judges the feeder's devices on the first events of the sample, each
+simulated over the whole record, as the single operation judges one event
+(:func:`core.protection.coordination.evaluate` on the source current, the only current those
+simulations record), and gives how often each operates with its binomial interval.
 
 Limits: the network solver's approximations apply (reported with every result, see
 :mod:`core.network.solver`); percentiles are empirical (P99 with a distribution-free interval
@@ -52,6 +53,9 @@ CHUNK_BYTES = 64_000_000
 # Output samples per cycle of every simulation here: those of the single network operation, so
 # that a replayed event reads the same first peak.
 SAMPLES_PER_CYCLE = 128
+# Cases per solver call of the Monte Carlo: without a record a case holds a few hundred bytes,
+# so this bounds only how long a call runs between two checkpoints (the request's deadline).
+PEAK_CHUNK_CASES = 1000
 _MAX_SAMPLES = 10_000_000
 _MAX_EVENTS = 100_000
 _LINES = ("A", "B", "C")
@@ -240,7 +244,9 @@ def network_peak_distribution(
     max_steps : int or None
         Compute limit per solver call (cases x units x steps) [-].
     chunk_bytes : float
-        Memory of one solver call's record (:func:`chunk_cases`) [bytes].
+        Memory of one solver call's cases (no record is kept: each case's first peaks are kept
+        as running maxima while it is integrated; at most PEAK_CHUNK_CASES cases a call)
+        [bytes].
     checkpoint : callable or None
         Called with no argument before each solver call; it may raise to stop the work [-].
 
@@ -264,9 +270,12 @@ def network_peak_distribution(
     closes at t_uk = t0_uk + r_uk - min_{u,k} r_uk (t0 the given instants), so the earliest
     scattered pole keeps its given instant when all are given at 0: with one unit this is
     :func:`core.statistics.monte_carlo.peak_distribution`'s convention and its draws, in the
-    same order. Every event is simulated over cycles/f + max t_uk + two samples; its first
-    peaks are read up to t_end = max_{u,k} t_uk (rounded to the step) + cycles/f
-    (:func:`core.network.analysis.first_peaks`). The result does not depend on the chunking.
+    same order. Every event is simulated up to the sample after t_end = max_{u,k} t_uk (rounded
+    to the step) + cycles/f, within a plan over cycles/f + max t_uk over the sample + two
+    samples, and its first peaks read up to t_end without a record
+    (``simulate_network(record="first_peaks")``: the reading of
+    :func:`core.network.analysis.first_peaks`, the same numbers as from the whole record). The
+    result does not depend on the chunking.
 
     References
     ----------
@@ -309,9 +318,12 @@ def network_peak_distribution(
     sim_units = units
     spc_out = SAMPLES_PER_CYCLE
     duration = window / f + float(np.nanmax(closing)) + 2.0 / (f * spc_out)
-    decimate, _, n_steps = step_plan(source, sim_units, duration, load, spc_out)
-    record = n_steps // decimate + 1
-    size = chunk_cases(n_u, record, chunk_bytes)
+    _, _, n_steps = step_plan(source, sim_units, duration, load, spc_out)
+    # per case: the kernel's maxima (1 + units) x 3 x 4 and its inputs, about 36 floats a unit
+    per_case = 8.0 * (12.0 * (n_u + 1) + 36.0 * n_u)
+    size = max(
+        1, min(PEAK_CHUNK_CASES, int(checks.positive("chunk_bytes", chunk_bytes) // per_case))
+    )
     if max_steps is not None:
         size = max(1, min(size, max_steps // max(1, n_u * n_steps)))
 
@@ -330,13 +342,12 @@ def network_peak_distribution(
             load=load,
             samples_per_cycle=spc_out,
             max_steps=max_steps,
+            record="first_peaks",
+            first_peak_cycles=window,
         )
-        ends = analysis.first_peak_window_end(sim.closing_time_s, energized, f, window)
-        src_peaks[part] = analysis.first_peaks(sim.time_s, sim.source_current_a, ends)[0]
+        src_peaks[part] = sim.first_peak_a[:, 0]
         for k in idx:
-            unit_peaks[part, k] = analysis.first_peaks(sim.time_s, sim.line_current_a[:, k], ends)[
-                0
-            ]
+            unit_peaks[part, k] = sim.first_peak_a[:, 1 + k]
         approximations = tuple(dict.fromkeys(approximations + sim.approximations))
     return NetworkPeakDistribution(
         source=_statistics(src_peaks),
@@ -444,6 +455,7 @@ def network_device_odds(
             load=load,
             samples_per_cycle=SAMPLES_PER_CYCLE,
             max_steps=max_steps,
+            record="source",
         )
         for c in range(sim.source_current_a.shape[0]):
             seen = device_operation.inrush_from_waveform(

@@ -53,6 +53,14 @@ class StatisticsOptions(Model):
         description="Std. dev. of each pole's closing instant [ms]; "
         "default 1 ms for three phase (common practice), 0 for one phase",
     )
+    closing_angle_fixed_deg: float | None = Field(
+        None,
+        ge=-360.0,
+        le=360.0,
+        description="Angle of the phase-A source voltage at the first pole's closing in every "
+        "sample (e.g. a controlled-closing target), the statistics then over the residual flux "
+        "and the pole scatter only; null: drawn uniform over one cycle [deg]",
+    )
     threshold_a: float | None = Field(
         None,
         gt=0.0,

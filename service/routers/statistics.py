@@ -231,6 +231,7 @@ def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsRespon
         pole_scatter_ms=opt.pole_scatter_ms,
         max_steps=settings.max_total_steps,
         checkpoint=compute.checkpoint,
+        closing_angle_deg=opt.closing_angle_fixed_deg,
     )
     rated = circuit.rated_line_current_a
     m = convert.maybe
@@ -274,6 +275,16 @@ def _statistics(body: StatisticsRequest, settings: Settings) -> StatisticsRespon
             else "default: uniform 0.2-0.8 pu, random sign (typical range, from memory)",
         )
     )
+    if opt.closing_angle_fixed_deg is not None:
+        assumptions.append(
+            Assumption(
+                name="closing_angle_fixed_deg",
+                value=opt.closing_angle_fixed_deg,
+                unit="deg",
+                source="given: the phase-A voltage angle at the first pole's closing in every "
+                "sample, not drawn",
+            )
+        )
     return StatisticsResponse(
         rated_current_a=m(rated),
         samples=opt.samples,

@@ -15,7 +15,10 @@
    first 200 events over the default 1 s record: the work estimate (core.cost) against the
    default request budget, the CPU time, and the CPU time per estimated winding-step against
    that of the single-unit Monte Carlo (core.statistics.peak_distribution, the baseline, this
-   run).
+   run), for the whole and for each part (the Monte Carlo, the device events): the ratios
+   that calibrate core.cost's NETWORK_PEAK_STEP_WEIGHT and NETWORK_STEP_WEIGHT (a ratio of 1
+   is an honest estimate); the peak traced memory (tracemalloc) of each part, in a separate
+   run.
 
 Each timing is the best of three after a warm-up call (compilation excluded).
 """
@@ -24,6 +27,7 @@ from __future__ import annotations
 
 import argparse
 import time
+import tracemalloc
 from collections.abc import Callable
 
 import numpy as np
@@ -170,6 +174,14 @@ def statistics(samples: int, events: int) -> None:
         f"   CPU: Monte Carlo {t_peaks:7.2f} s, devices {t_dev:7.2f} s, total {total:7.2f} s "
         f"({total / work.steps * 1e9:5.1f} ns per estimated winding-step)"
     )
+    mem_peaks = _traced(peaks)
+    mem_dev = _traced(
+        lambda: network_statistics.network_device_odds(
+            src, units, holder["d"], [relay], rated, events=events, duration_s=1.0
+        )
+    )
+    print(f"   peak traced memory: Monte Carlo {mem_peaks / 1e6:6.1f} MB, devices "
+          f"{mem_dev / 1e6:6.1f} MB")  # fmt: skip
     p = holder["d"].source.percentiles
     print(f"   source first peak P50/P99/max {p.p50_a:.0f} / {p.p99_a:.0f} / {p.max_a:.0f} A")
     base_samples = 2000
@@ -186,6 +198,21 @@ def statistics(samples: int, events: int) -> None:
         f"{per_base * 1e9:5.1f} ns per estimated winding-step; ratio network/baseline "
         f"{per_net / per_base:5.2f}"
     )
+    mc = peaks_only.steps
+    dev = work.steps - mc
+    print(
+        f"   ratio network/baseline per estimated winding-step: Monte Carlo "
+        f"{t_peaks / mc / per_base:5.2f}, device events {t_dev / dev / per_base:5.2f}"
+    )
+
+
+def _traced(fn: Callable[[], object]) -> int:
+    tracemalloc.start()
+    try:
+        fn()
+        return tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
 
 
 def _circuit_ideal(rating_va: float = 1e6) -> transformer.EquivalentCircuit:

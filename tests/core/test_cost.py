@@ -508,3 +508,13 @@ def test_other_estimates_grow_with_their_inputs(duration_s: float) -> None:
     # the parts add up to the total
     for w in (cost.envelope_work(c, duration_s, 128), cost.peak_work(c, True, 0.0)):
         assert w.steps == pytest.approx(sum(v for _, v in w.parts), rel=1e-15)
+
+
+def test_expected_normal_range_closed_forms_and_table() -> None:
+    # E[range] of 2 and 3 standard normals in closed form, 2/sqrt(pi) and 3/sqrt(pi) (e.g.
+    # H. A. David, H. N. Nagaraja, Order Statistics, 3rd ed., 2003, from memory); 12 draws:
+    # 3.258, the control-chart constant d2 of a subgroup of 12 (ASTM E2587 table, from memory)
+    assert cost.expected_normal_range(1) == 0.0
+    assert cost.expected_normal_range(2) == pytest.approx(2.0 / math.sqrt(math.pi), rel=1e-9)
+    assert cost.expected_normal_range(3) == pytest.approx(3.0 / math.sqrt(math.pi), rel=1e-9)
+    assert cost.expected_normal_range(12) == pytest.approx(3.258, abs=5e-4)

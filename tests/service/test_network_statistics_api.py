@@ -212,3 +212,32 @@ def test_the_defaults_fit_the_budget_with_a_feeder_relay(client: TestClient) -> 
     out = r.json()
     assert out["samples"] == 1000
     assert out["device_operation"][0]["events"] == 50
+
+
+def test_a_four_unit_feeder_without_a_record_succeeds_within_the_budget(
+    client: TestClient,
+) -> None:
+    # the ring with a fourth unit, no devices: the Monte Carlo keeps no record (its first
+    # peaks read in the solver); a small sample here, the 10 000-sample figures are in
+    # tests/benchmarks/bench_network.py section 3
+    body = _ring()
+    body["units"].append(dict(copy.deepcopy(body["units"][2]), name="pad 4 (750 kVA)"))
+    body["devices"] = []
+    body["sampling"] = {"samples": 60}
+    r = client.post(URL, json=body)
+    assert r.status_code == 200, r.text
+    out = r.json()
+    assert out["samples"] == 60
+    assert [u["first_peak"]["max_a"] > 0 for u in out["units"]] == [True] * 4
+    # the worst event replayed through the single operation gives the same first peak
+    worst = out["worst_events"][0]
+    single = copy.deepcopy(body)
+    del single["sampling"]
+    single["closing_angle_deg"] = worst["closing_angle_deg"]
+    for u, e in zip(single["units"], worst["units"], strict=True):
+        u["residual_flux_pu"] = e["residual_flux_pu"]
+        u["pole_closing_ms"] = e["pole_closing_ms"]
+    got = client.post(SINGLE, json=single)
+    assert got.status_code == 200, got.text
+    assert worst["worst_of"] == "source"
+    assert got.json()["source"]["first_peak_a"] == pytest.approx(worst["first_peak_a"], rel=1e-9)

@@ -87,7 +87,10 @@ def test_statistics_work_counts_the_steps_the_statistics_take(
     monkeypatch: pytest.MonkeyPatch,
 ) -> None:
     # every simulate_network call of the Monte Carlo and of the device events, counted from
-    # what it returns: cases x units x 3 windings x internal steps
+    # what it returns: cases x units x 3 windings x internal steps; a Monte Carlo case (no
+    # record) is integrated to the sample after its own first-peak window, read off its
+    # returned pole instants
+    from core.network import analysis
     from core.statistics import monte_carlo
     from core.statistics import network_statistics as ns
 
@@ -103,14 +106,23 @@ def test_statistics_work_counts_the_steps_the_statistics_take(
     def counted(*args: Any, **kw: Any) -> NetworkResult:
         res = simulate_network(*args, **kw)
         cases, n_units = res.line_current_a.shape[:2]
-        steps = (res.time_s.size - 1) * (res.steps_per_cycle // 128)
-        taken.append(cost.NETWORK_STEP_WEIGHT * cases * n_units * 3 * steps)
+        decimate = res.steps_per_cycle // 128
+        if kw.get("record") == "first_peaks":
+            energized = [not u.in_service for u in args[1]]
+            end = analysis.first_peak_window_end(res.closing_time_s, energized, F)
+            last = np.searchsorted(res.time_s, end * (1 + 1e-12), side="right") - 1
+            samples = np.minimum(last + 1, res.time_s.size - 1)
+            taken.append(cost.NETWORK_PEAK_STEP_WEIGHT * n_units * 3 * decimate * samples.sum())
+            return res
+        assert kw.get("record") == "source"  # the device events: the source current only
+        steps = (res.time_s.size - 1) * decimate
+        taken.append(cost.NETWORK_SOURCE_STEP_WEIGHT * cases * n_units * 3 * steps)
         return res
 
     monkeypatch.setattr(ns, "simulate_network", counted)
     dist = ns.network_peak_distribution(
         SOURCE, units, samples=9, random_state=1, load=load, pole_scatter_ms=0.0,
-        residual=monte_carlo.UniformResidual(), chunk_bytes=1e5,
+        residual=monte_carlo.UniformResidual(), chunk_bytes=1e3,
     )  # fmt: skip
     assert len(taken) > 1  # chunked
     relay = device_operation.Relay("r", "ieee_c37_112", "very_inverse", 400.0, 2.0)
@@ -122,7 +134,7 @@ def test_statistics_work_counts_the_steps_the_statistics_take(
     parts = dict(work.parts)
     assert parts["Monte Carlo events"] == pytest.approx(sum(taken[:-1]))
     assert parts["device events simulated"] == pytest.approx(taken[-1])
-    # a scatter widens the window the estimate counts by SCATTER_SIGMAS x sigma (a bound)
+    # a scatter widens the window the estimate counts by the expected range of the poles
     wider = cost.network_statistics_work(
         SOURCE, units, load, samples=9, pole_closing_max_s=0.0, pole_scatter_ms=1.0
     )

@@ -92,6 +92,20 @@ def test_zero_sum_residual(three_phase: circuit_model.EquivalentCircuit) -> None
     np.testing.assert_allclose(d.residual_flux_pu.sum(axis=1), 0.0, atol=1e-12)
 
 
+def test_a_fixed_angle_is_not_drawn(three_phase: circuit_model.EquivalentCircuit) -> None:
+    # every sample at the given angle; the generator's next draws are the residual flux and the
+    # scatter (numpy's default_rng with the same state, no angle drawn first)
+    spec = monte_carlo.UniformResidual()
+    d = monte_carlo.peak_distribution(
+        three_phase, samples=40, random_state=5, residual=spec, closing_angle_deg=-30.0
+    )
+    assert (d.closing_angle_deg == -30.0).all()
+    rng = np.random.default_rng(5)
+    np.testing.assert_array_equal(d.residual_flux_pu, monte_carlo.sample_residual(spec, 3, 40, rng))
+    raw = rng.normal(0.0, 1e-3, size=(40, 3))
+    np.testing.assert_array_equal(d.pole_delay_s, raw - raw.min(axis=1, keepdims=True))
+
+
 @pytest.mark.parametrize(
     ("kwargs", "field"),
     [
@@ -102,6 +116,7 @@ def test_zero_sum_residual(three_phase: circuit_model.EquivalentCircuit) -> None
         ({"samples": 10, "residual": monte_carlo.UniformResidual(0.8, 0.2)}, "residual.high_pu"),
         ({"samples": 10, "residual": monte_carlo.UniformResidual(-0.1, 0.5)}, "residual.low_pu"),
         ({"samples": 10, "residual": monte_carlo.FixedResidual((0.5,))}, "residual.flux_pu"),
+        ({"samples": 10, "closing_angle_deg": 400.0}, "closing_angle_deg"),
     ],
 )
 def test_parameter_errors_name_the_field(

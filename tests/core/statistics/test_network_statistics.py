@@ -104,6 +104,35 @@ def test_chunking_does_not_change_the_answer() -> None:
     np.testing.assert_array_equal(whole.unit_peaks_a, tiny.unit_peaks_a)
 
 
+def test_peaks_without_a_record_equal_the_whole_records_reading() -> None:
+    # property: the Monte Carlo keeps no record (each case's first peaks kept while it runs);
+    # the same drawn events simulated with every output written out and read by
+    # analysis.first_peaks over the same plan give the same peaks (1e-12 relative)
+    units = [_unit(1500), _unit(1000, in_service=True, breaker=Breaker()), _unit(750)]
+    d = ns.network_peak_distribution(
+        _source(), units, samples=30, random_state=4, residual=monte_carlo.UniformResidual(),
+        pole_scatter_ms=2.0,
+    )  # fmt: skip
+    part = slice(0, 30)
+    cases = []
+    for k, u in enumerate(units):
+        if u.in_service:
+            cases.append(u)
+            continue
+        brk = Breaker(d.pole_closing_s[part, k])
+        cases.append(Unit(u.circuit, breaker=brk, residual_flux_pu=d.residual_flux_pu[part, k]))
+    duration = 2.0 / F + float(np.nanmax(d.pole_closing_s)) + 2.0 / (F * 128)
+    whole = simulate_network(
+        _source(), cases, closing_angle_deg=d.closing_angle_deg, duration_s=duration
+    )
+    end = analysis.first_peak_window_end(whole.closing_time_s, [True, False, True], F)
+    src, _ = analysis.first_peaks(whole.time_s, whole.source_current_a, end)
+    np.testing.assert_allclose(d.source_peaks_a, src, rtol=1e-12)
+    for k in (0, 2):
+        unit, _ = analysis.first_peaks(whole.time_s, whole.line_current_a[:, k], end)
+        np.testing.assert_allclose(d.unit_peaks_a[:, k], unit, rtol=1e-12)
+
+
 def test_scatter_convention_and_zero_sum_residual() -> None:
     units = [_unit(1500), _unit(750, breaker=Breaker(np.array([0.004, 0.004, 0.004])))]
     d = ns.network_peak_distribution(
