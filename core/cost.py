@@ -1,15 +1,15 @@
 """Work estimates: how much an operation will compute, known before it computes anything.
 
 Each function counts the integration steps an operation will take from the same step plan the
-solvers use (:func:`core.energize_plan.step_plan`, :func:`core.energize_plan.
+solvers use (:func:`core.network.step_rule`, :func:`core.energize_plan.
 saturated_time_constant`, :func:`core.energize_plan.search_offsets`, :func:`core.dip_solver.
 cycle_steps`), so the estimate cannot drift from the solver, and adds the judging that follows
-each simulation. The unit of work is one *winding-step*: one Runge-Kutta step of one winding of
-one case in :mod:`core.energize` (cases x windings x steps, the unit ``max_steps`` counts). The
-other kinds of work are weighed in it with the factors below, measured on the reference machine
-by ``tests/benchmarks/bench_heaviest.py`` (ratios of CPU times in one run; they are this
-project's measurements, not published values). The caller compares :attr:`Work.steps` with its
-budget; :attr:`Work.parts` says where the work goes.
+each simulation. The unit of work is one *winding-step*: one Runge-Kutta step of one winding of one
+case in :func:`core.energization.energize.simulate` (cases x windings x steps, the unit
+``max_steps`` counts). The other kinds of work are weighed in it with the factors below, measured on
+the reference machine by ``tests/benchmarks/bench_heaviest.py`` (ratios of CPU times in one run;
+they are this project's measurements, not published values). The caller compares :attr:`Work.steps`
+with its budget; :attr:`Work.parts` says where the work goes.
 """
 
 from __future__ import annotations
@@ -23,7 +23,7 @@ from scipy import special
 
 from core.energization import energize_plan, peaks
 from core.errors import ParameterError
-from core.network import BusLoad, Source, Unit, step_plan
+from core.network import BusLoad, Source, Unit, step_plan, step_rule
 from core.supply import dip_cases as dip_solver
 from core.transformer import EquivalentCircuit
 
@@ -244,7 +244,7 @@ def simulation_steps(
 
     Notes
     -----
-    steps = :func:`core.energize_plan.step_plan` (f, T, samples per cycle, tau) with tau the
+    steps = :func:`core.network.step_rule` (f, T, samples per cycle, tau) with tau the
     saturated loop's time constant (:func:`core.energize_plan.saturated_time_constant`): the
     count :func:`core.energize.simulate` compares with ``max_steps``.
 
@@ -253,9 +253,7 @@ def simulation_steps(
     The solver's own step plan (this project).
     """
     tau = energize_plan.saturated_time_constant(circuit)
-    _, _, n_steps = energize_plan.step_plan(
-        circuit.frequency_hz, duration_s, samples_per_cycle, tau
-    )
+    _, _, n_steps = step_rule(circuit.frequency_hz, duration_s, samples_per_cycle, tau)
     return float(cases) * circuit.phases * n_steps
 
 

@@ -2,7 +2,7 @@
 
 Plain arrays in, SVG text out; nothing here computes physics (the caller takes the curves from
 :mod:`core.protection.device_operation`, :mod:`core.protection.damage_curves` and
-:mod:`core.energization.waveform`). Rendering uses matplotlib's object-oriented
+:mod:`core.waveform`). Rendering uses matplotlib's object-oriented
 :class:`~matplotlib.figure.Figure` with the SVG canvas (no pyplot, so no global backend or figure
 registry) and is byte-for-byte deterministic: a fixed ``svg.hashsalt`` for element ids, text kept as
 text (``svg.fonttype = 'none'``), no date in the metadata; rc settings are applied in a context, so
@@ -331,7 +331,7 @@ def waveform_svg(
     envelope_time_s : array_like, shape (n_cycles,), optional
         Time at which each cycle's peak is drawn (e.g. the cycle's start or its peak) [s].
     envelope_a : array_like, shape (n_lines, n_cycles), optional
-        Per-cycle peak |i|, e.g. :func:`core.energization.waveform.cycle_peaks`; drawn dashed on the
+        Per-cycle peak |i|, e.g. :func:`core.waveform.cycle_peaks`; drawn dashed on the
         side where the line's current mostly lies (the sign of its mean), so the envelope meets the
         lobes it describes [A].
 

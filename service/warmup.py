@@ -41,10 +41,10 @@ log = logging.getLogger("firstcycle")
 
 # (method, path, body): each line reaches a kernel signature or a first-call path.
 REQUESTS: tuple[tuple[str, str, dict[str, Any] | None], ...] = (
-    # delta winding on a source with impedance: energize_coupled.integrate
+    # delta winding on a source with impedance: core.network.kernel.integrate, single unit
     ("POST", "/v1/inrush/peak", PEAK_REQUESTS["northgate_main_unit"]),
     # grounded wye on the generator's subtransient reactance, worst-case search over many
-    # closing instants: energize_independent.integrate and integrate_parallel
+    # closing instants (a large batch of single-unit cases)
     ("POST", "/v1/inrush/peak", PEAK_REQUESTS["northgate_backfeed"]),
     ("POST", "/v1/inrush/envelope", ENVELOPE_REQUESTS["northgate_lighting"]),
     # machine and transformer together: core.network.kernel.integrate with a machine source,

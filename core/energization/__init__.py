@@ -1,6 +1,6 @@
-"""Energising the transformer: the simulation API, its step plan and compiled kernels (private:
-``kernel_independent``, ``kernel_coupled``), closed forms, waveform analysis, exact peaks, and the
-peak and envelope studies."""
+"""Energising the transformer: the single-unit simulation (run on :mod:`core.network`) and its
+step plan, closed forms, exact peaks, the peak and envelope studies; the waveform readings of
+:mod:`core.waveform` re-exported."""
 
 from __future__ import annotations
 
@@ -23,19 +23,15 @@ from core.energization.energize import (
     worst_closing_angle,
 )
 from core.energization.energize_plan import (
-    MAX_STEPS_PER_CYCLE,
-    MIN_STEPS_PER_CYCLE,
     MITIGATION_PARAMETERS,
     Cases,
     Grid,
     Plan,
     check_cases,
-    element_curves,
     on_step_grid,
     plan_steps,
     saturated_time_constant,
     search_offsets,
-    step_plan,
 )
 from core.energization.inrush_study import (
     ANALYTIC_METHOD,
@@ -71,7 +67,7 @@ from core.energization.switching_event import (
     residual_flux_pu_from_wb,
     residual_flux_warnings,
 )
-from core.energization.waveform import (
+from core.waveform import (
     STANDARD_TIMES_S,
     DecayFit,
     decay_time_constant,
@@ -87,8 +83,6 @@ __all__ = [
     "DEFAULT_RESIDUAL_FLUX_PU",
     "ENVELOPE_VALIDITY_R_OVER_X",
     "MAX_SAMPLES_PER_CYCLE",
-    "MAX_STEPS_PER_CYCLE",
-    "MIN_STEPS_PER_CYCLE",
     "MITIGATION_PARAMETERS",
     "RESIDUAL_DEFAULT_SOURCE",
     "RESIDUAL_FLUX_HIGH_PU",
@@ -112,7 +106,6 @@ __all__ = [
     "check_cases",
     "decay_time_constant",
     "default_residual_flux_pu",
-    "element_curves",
     "envelope_study",
     "equivalent_rms",
     "first_peak_wang",
@@ -135,7 +128,6 @@ __all__ = [
     "saturated_time_constant",
     "search_offsets",
     "simulate",
-    "step_plan",
     "time_below",
     "winding_angles",
     "winding_names",

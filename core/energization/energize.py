@@ -1,117 +1,79 @@
-"""Time-domain energisation of a transformer: the saturating circuit solved over many cases.
+"""Time-domain energisation of one transformer, many cases: the single-unit entry the studies call.
 
-Each energised winding obeys
+Each case is one unit alone behind its breaker on a Thevenin source (the circuit's R_s and L_s),
+simulated by the network solver (:func:`core.network.run_single_unit`, the equations, states and
+references in :mod:`core.network.solver`). Each energised winding obeys
 
     e(t) = R*i + L_s*di/dt + d(lambda)/dt,    i = f(lambda),
 
-i.e. d(lambda)/dt = (e - R*f(lambda)) / (1 + L_s*f'(lambda)), with e the source voltage, R the
-series resistance (winding plus source), L_s the source inductance and f the magnetising curve
-(:mod:`core.transformer.magnetizing`). The state is the flux linkage, so a residual flux is an
-initial condition.
+with e the source EMF, f the magnetising curve (:mod:`core.transformer.magnetizing`) and the
+winding fluxes continuous, so that a residual flux is an initial condition. The mapping of a
+case onto the network:
 
-Connections (``topology``):
+* grounded wye, floating wye, delta -- the unit with that connection; its winding resistance
+  plus ``extra_resistance_ohm``; the EMF sqrt(2)*V_LL/sqrt(3) at alpha, alpha - 120 deg,
+  alpha + 120 deg;
+* single phase -- the grounded-wye unit with the winding on phase a at the winding's EMF
+  sqrt(2)*V_w at alpha, whose poles b and c never close: those windings carry no current and
+  their lines none, so phase a is the single-phase loop exactly;
+* pole instants, residual flux and closing angle per case; the pre-insertion resistor in each
+  line (between the source and the terminals) until all poles short it together; the
+  reduced-voltage source as the source's EMF ramp g(t): g = g_0 until t_hold, a linear rise to 1
+  over t_rise, then 1 (phases unchanged).
 
-* single phase and grounded wye -- each winding is an independent circuit (a grounded-wye
-  source of equal zero- and positive-sequence impedance is assumed);
-* ungrounded wye -- the neutral voltage is whatever keeps the sum of the currents constant:
-  v_n = sum(w_k*(e_k - R*i_k))/sum(w_k) with w_k = f'_k/(1 + L_s*f'_k); a phase with its pole
-  still open carries no current and keeps its flux;
-* delta -- winding currents c_ab, c_bc, c_ca; line currents are their differences
-  (i_a = c_ab - c_ca, ...). Through the source impedance the three windings are coupled:
-  (I + L_s*M*D) lambda' = e_LL - R_s*M*c - R_w*c with M = [[2,-1,-1],[-1,2,-1],[-1,-1,2]] and
-  D = diag(f'), solved as a 3x3 system at every stage.
-
-Mitigation, per case (:func:`simulate`):
-
-* pre-insertion resistor -- R_ins in series with each line (breaker pole), between the source and
-  the terminals, from t = 0 until all poles short it together at t_ins: it adds to the source
-  resistance of every line, i.e. to each winding's R for single phase and wye and to R_s (which
-  couples the windings through M) for a delta; a delta on an ideal source with the resistor in
-  is therefore solved by the coupled kernel;
-* reduced-voltage source -- the EMF amplitude times g(t): g = g_0 until t_hold, a linear rise to
-  1 over t_rise, then 1 (e_a = g*sqrt(2)*V*sin(omega*t + alpha), phases unchanged).
+Cases that share a circuit, added resistance, resistor with its bypass and ramp form one
+network and one kernel call; each case has its own source impedance, phases, pole instants and
+fluxes there.
 
 Approximations, reported with every result: phases are magnetically independent (a bank of
 single-phase cores; the coupling of a three-limb or five-limb core is not modelled, which is
-usually conservative for the peak phase); no hysteresis or core loss; while only one of a delta
-winding's two poles is closed, that winding is taken as unenergised (the series path through the
-other two windings is neglected); pole closing instants are rounded to the internal step. A
-pre-insertion resistor is an ideal linear resistance, shorted by all poles at once (no bypass
-scatter, arc or contact resistance); the reduced-voltage source scales only the EMF, behind an
-unchanged source impedance and at a fixed phase; the bypass, the end of the hold and the end of
-the rise are rounded to the internal step, so that no step straddles a jump of R or a corner of
-g, and g is evaluated at every Runge-Kutta stage on the piece its step lies on.
+usually conservative for the peak phase); no hysteresis or core loss; a floating wye carries
+current once two of its poles are closed, a delta all three windings once two poles are closed
+(the two windings on the open terminal then carry one current in series); pole closing instants
+are rounded to the internal step. A pre-insertion resistor is an ideal linear resistance, shorted
+by all poles at once (no bypass scatter, arc or contact resistance); the reduced-voltage source
+scales only the EMF, behind an unchanged source impedance and at a fixed phase; the bypass, the
+end of the hold and the end of the rise are rounded to the internal step, so that no step
+straddles a jump of R or a corner of g, and g is evaluated at every Runge-Kutta stage on the
+piece its step lies on.
 
-Numerics: classical fourth-order Runge-Kutta at a fixed step of at least 128 steps per cycle,
-compiled with numba and looped over cases; the equation is not stiff (its fastest time
-constant, (L_air + L_s)/R, is at least four steps long). With a pre-insertion resistor in, that
-loop is faster, (L_air + L_s)/(R + k*R_ins), k = 3 for a delta, whose windings see the line
-resistance through M, 1 otherwise: the step stays the one planned without the resistor, and
-until the bypass each step of that case is split into the fewest equal sub-steps that keep four
-of them within that time constant (one when the step already does), so that a large resistor
-costs sub-steps only while it is in and only for its own case. Without the mitigation the
-resistance added is exactly 0.0, the EMF is multiplied by exactly 1.0 and no step is split, so
-the results are bit for bit those of the solver before it had the features. With L_s > 0 and
-a sharp (two-slope or table) knee d(lambda)/dt jumps at the knee, where a fixed step loses its
-order (when the coupled connections integrated lambda, their peaks were off by 0.1 % of the
-first peak for a delta on a 250 MVA source up to 13 % for a floating neutral on 20 MVA). Each
-connection therefore integrates a state whose derivative is continuous there and recovers
-lambda from it:
-
-* independent windings: the loop flux psi = lambda + L_s*i, psi' = e - R*i, through the curve
-  re-expressed against psi (no solve needed);
-* delta: the loop-flux vector psi = lambda + L_s*M*c, psi' = e_LL - R_s*M*c - R_w*c; at every
-  stage lambda solves lambda + L_s*M*f(lambda) = psi by Newton's method (Jacobian
-  I + L_s*M*D, 3x3 by Cramer's rule) from the previous stage's lambda, halving any step that
-  does not reduce the residual;
-* ungrounded wye: loop fluxes per phase, psi_k = lambda_k + L_s*i_k, are not enough, since
-  psi_k' = e_k - v_n - R*i_k and the neutral voltage v_n itself jumps when a phase crosses the
-  knee (the constraint on the currents holds that phase near the knee and shifts the voltage
-  onto the neutral); the per-phase state was measured as inaccurate as lambda. The jump is
-  common to all phases, so the state is y with y_k' = x_k - mean(x), x_k = e_k - R*i_k, which
-  is continuous; psi_k = y_k + s, and the common shift s is fixed by sum(i_k) = const, an
-  increasing scalar equation solved by Newton's method with bisection whenever a step leaves
-  the bracket, each phase's lambda coming from its psi_k by a bracketed scalar Newton.
-
-An unenergised winding keeps its lambda and carries no current; when a pole closes the state
-is re-initialised from lambda, which is continuous. The solves stop at 1e-12 pu of lambda_N; one
-that does not converge raises :class:`core.errors.ParameterError` rather than return a wrong
-current.
+Step plan (:mod:`core.energization.energize_plan`): the network solver's rule
+(:func:`core.network.step_rule`: at least 128 steps per cycle, at most a quarter of the
+shortest saturated time constant (L_air + L_s)/(R_w + 2*R_s + R_extra) over the batch, so that
+a case gives the same result in any batch of one step). While a case's resistor is in, its
+loop is faster, (L_air + L_s)/(R + k*R_ins), k = 3 for a delta (the line resistance enters its
+windings' loops through M = [[2,-1,-1],[-1,2,-1],[-1,-1,2]], whose non-zero eigenvalue is 3),
+1 otherwise: the step stays the one planned without the resistor, and until the bypass each
+step of that case is split into the fewest equal sub-steps that keep four of them within that
+time constant (one when the step already does), so that a large resistor costs sub-steps only
+while it is in and only for its own case. ``max_steps`` counts winding-steps (cases x windings
+x steps, a split step counting its sub-steps; :mod:`core.cost`).
 
 Accuracy (tests/references/test_solver_vs_scipy.py), as the worst of the first ten per-cycle
 peaks relative to the first peak, read from the default 128 samples per cycle, against scipy's
 Radau at rtol 1e-9 (for the floating neutral DOP853 at rtol 1e-10 on a system that holds the
-current sum exactly, Radau's own error being larger there): single phase and grounded wye at
-most 3.2e-5; delta 2.3e-6 on a 250 MVA source, 2.6e-4 on 50 MVA and 2.6e-4 on 20 MVA; ungrounded
-wye 2.3e-3 on an ideal source, 1.7e-3 on 250 MVA and 1.6e-3 on 20 MVA. Against the same
-references sampled at the output instants the coupled kernel is within 4.2e-5 (delta, most of it
-Radau's own error: against DOP853 at rtol 1e-12 the samples agree to 6e-6) and 8e-6 (wye). The
-rest is the reading of a peak from 128 samples per cycle (a parabola through the three around the
-largest), which the floating-neutral current, with a corner wherever a phase crosses the knee,
-defeats most; more samples per cycle reduce it (2.3e-3 becomes 1.2e-4 at 2048). The studies
-read their peaks exactly instead (:mod:`core.energization.peaks`: within 6.3e-6 of the first peak
-against a piecewise-exact reference, tests/references/test_piecewise_reference.py). With the
-mitigation, against the same references integrated interval by interval between the bypass and
-the ramp's corners (a resistor of 0.3 of the saturated loop reactance, a third of that for a
-delta, bypassed at 4.3 cycles; a ramp from 0.3 pu held one cycle, then rising over three), as
-the worst of the ten peaks relative to the largest, and in brackets against the reference sampled
-at the output instants: resistor, single phase 2.0e-5, grounded wye 4.9e-5, delta on 50 MVA
-9.4e-6 (9.9e-6), delta on an ideal source 1.8e-5 (1.8e-5), ungrounded wye on 250 MVA 2.8e-3
-(1.6e-5); ramp, single phase 3.6e-5, delta on 50 MVA 5.7e-4 (5.3e-6), delta on an ideal source
-3.6e-6 (3.6e-6). A large resistor, 5 and 50 times the saturated loop's reactance (a third of
-that for a delta) in for the first cycle (1 or 2 sub-steps per step at 5 times, 10 at 50):
-single phase 1.4e-5 (3.6e-6) and 1.8e-3 (9.8e-7); grounded wye 1.8e-4 (1.8e-4) and 1.2e-4
-(9.1e-8); delta on 50 MVA 2.9e-5 (2.3e-5) and 7.2e-3 (3.3e-6); ungrounded wye on 250 MVA 1.8e-4
-(1.8e-4) and 2.7e-3 (1.5e-6). The integrator's share is largest where the step meets the
-inserted time constant without sub-steps; the rest, up to 7.2e-3, is the peak of the current
-clipped by the resistor read from 128 samples per cycle (within 7.9e-5 from 512). Without
-the sub-steps the 50-times cases were off by 2.1e-2 to 1.2e-1. The same resistor in for 1.5
-cycles while a ramp from 0.3 pu rises over two: at most 4.9e-4 (1.6e-4).
-
-Implementation: :mod:`core.energization.energize_plan` checks the inputs, chooses the step and puts
-the switching instants on it; :mod:`core.energization.kernel_independent` and
-:mod:`core.energization.kernel_coupled` hold the compiled kernels (independent windings; windings
-coupled through the source).
+current sum exactly): single phase and grounded wye at most 3.2e-5; delta 2.3e-6 on a 250 MVA
+source, 2.6e-4 on 50 MVA and 2.6e-4 on 20 MVA; ungrounded wye 2.3e-3 on an ideal source, 1.7e-3
+on 250 MVA and 1.6e-3 on 20 MVA. Most of the floating-neutral figure is the reading of a peak
+from 128 samples per cycle (a parabola through the three around the largest), which its current,
+with a corner wherever a phase crosses the knee, defeats most; more samples per cycle reduce it
+(2.3e-3 becomes 1.2e-4 at 2048). The studies read their peaks exactly instead
+(:mod:`core.energization.peaks`: within 6.3e-6 of the first peak against a piecewise-exact
+reference, tests/references/test_piecewise_reference.py). With the mitigation, against the
+same references integrated interval by interval between the bypass and the ramp's corners, as
+the worst of the ten peaks relative to the largest: resistor and ramp within 2.8e-3 (floating
+wye with a resistor, the peak reading again), a large resistor (5 and 50 times the saturated
+loop's reactance, in for the first cycle) within 7.2e-3, most of it the peak of the clipped
+current read from 128 samples per cycle (within 7.9e-5 from 512); the figures per case are in
+the reference tests. These were measured on the single-unit kernels this module ran before; the
+network solver gives the same waveforms to 1e-11 of the largest current (measured over the
+three connections and curve kinds, with resistor and ramp) except (a) a grounded wye on a
+smooth-knee curve behind a source, where the earlier kernel integrated lambda itself and this
+solver a loop flux (2.6e-3 of the largest current apart on a 50 MVA source; against a 2048-step
+solution the network solver is within 4.5e-7, tests/core/network/), (b) a delta with staggered
+poles, whose windings now carry the series path while one pole is open, and (c) a floating wye
+with staggered poles (1.3e-3 apart while two poles are closed); both network figures are
+checked against an independent scipy reference (tests/references/test_network_vs_scipy.py).
 """
 
 from __future__ import annotations
@@ -123,28 +85,20 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from core.energization import energize_plan, kernel_coupled, kernel_independent
-from core.energization.energize_plan import MAX_STEPS_PER_CYCLE, MIN_STEPS_PER_CYCLE, step_plan
-from core.energization.kernel_coupled import NEWTON_MAX_ITERATIONS, NEWTON_TOLERANCE_PU
-from core.energization.kernel_independent import PARALLEL_MIN_ELEMENTS
+from core.energization import energize_plan
 from core.errors import LimitError, ParameterError
+from core.network.solver import run_single_unit
 from core.transformer.circuit_model import EquivalentCircuit
-from core.transformer.magnetizing import PiecewiseLinearCurve
 
 FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
 
 __all__ = [
     "APPROXIMATIONS",
-    "MAX_STEPS_PER_CYCLE",
-    "MIN_STEPS_PER_CYCLE",
-    "NEWTON_MAX_ITERATIONS",
-    "NEWTON_TOLERANCE_PU",
-    "PARALLEL_MIN_ELEMENTS",
     "Simulation",
     "WorstCase",
     "refined_abs_peak",
     "simulate",
-    "step_plan",
     "worst_closing_angle",
 ]
 
@@ -171,8 +125,8 @@ APPROXIMATIONS = {
     "delta": (
         "phases magnetically independent (bank of single-phase cores); three-limb core "
         "coupling not modelled (usually conservative for the peak phase)",
-        "a delta winding is energised when the later of its two poles closes; the series path "
-        "through the other two windings before that is neglected",
+        "delta: with one pole open the two windings on its terminal carry one current in "
+        "series; all three are energised once two poles are closed",
         "no hysteresis or core loss: residual flux is an initial condition on a single-valued "
         "curve",
     ),
@@ -298,12 +252,11 @@ def simulate(
     See the module docstring for the equations. Phase B and C source voltages lag and lead
     phase A by 120 degrees (ABC sequence).
 
-    Pre-insertion resistor: while it is in, R_ins adds to the source resistance of every line.
-    For single-phase and wye windings each line is a winding's loop, so it adds to that loop's
-    R; for a delta it adds to R_s, the resistance that couples the windings through
-    M = [[2,-1,-1],[-1,2,-1],[-1,-1,2]], and a delta on an ideal source is then solved by the
-    coupled kernel (a batch takes one kernel; any case with a resistor in sends a delta batch
-    there). The bypass instant is rounded to the internal step, so that no step straddles it.
+    Each case runs on the network solver as one unit on its circuit's Thevenin source (module
+    docstring). Pre-insertion resistor: while it is in, R_ins is in series with every line,
+    between the bus and the terminals (for a delta it therefore couples the windings through
+    M = [[2,-1,-1],[-1,2,-1],[-1,-1,2]], as R_s does). The bypass instant is rounded to the
+    internal step, so that no step straddles it.
     The step is planned for the circuits without the resistor; while a case's resistor is in,
     each of its steps is split into m equal sub-steps, m = ceil(4/(f*tau_ins)/steps per cycle)
     (reported as ``insertion_substeps``), tau_ins = (L_air + L_s)/(R + k*R_ins) the saturated
@@ -326,7 +279,8 @@ def simulate(
     References
     ----------
     Circuit equation: e.g. Y. Wang, S. G. Abdulsalam, W. Xu, IEEE Trans. Power Delivery 23(2),
-    2008 (from memory); integrator: classical Runge-Kutta (Kutta 1901). Pre-insertion resistors
+    2008 (from memory); the network formulation: H. W. Dommel, IEEE Trans. PAS-88(4), 1969 (from
+    memory); integrator: classical Runge-Kutta (Kutta 1901). Pre-insertion resistors
     and reduced-voltage (soft) energisation as inrush mitigation: common practice.
     """
     cases = energize_plan.check_cases(
@@ -347,47 +301,32 @@ def simulate(
     circ_list = cases.circuits
     first = circ_list[0]
     n, m = cases.residual_flux_pu.shape
-    alpha, res, extra = cases.closing_angle_deg, cases.residual_flux_pu, cases.extra_resistance_ohm
-    delay = cases.pole_delay_s
-    f = first.frequency_hz
-    omega = 2.0 * math.pi * f
+    extra, delay = cases.extra_resistance_ohm, cases.pole_delay_s
     topo = TOPOLOGY[first.connection]
     plan = energize_plan.plan_steps(cases, topo, duration_s, samples_per_cycle)
     spc, decimate, n_steps, h = plan.steps_per_cycle, plan.decimate, plan.n_steps, plan.step_s
-    grid = energize_plan.on_step_grid(cases, topo, plan)
+    grid = energize_plan.on_step_grid(cases, plan)
     mit_i = grid.mit_i
     # every step of the record, a step split while the resistor is in counting its sub-steps
     work = n * m * n_steps + m * int(np.sum((mit_i[:, 3] - 1) * np.minimum(mit_i[:, 0], n_steps)))
     if max_steps is not None and work > max_steps:
         raise LimitError("integration steps (cases x windings x steps)", work, max_steps)
 
-    vpk, phase = _source_emf(circ_list, alpha, m)
-    r_w = np.array([c.winding_resistance_ohm for c in circ_list]) + extra
-    r_s = np.array([c.source_resistance_ohm for c in circ_list])
-    l_s = np.array([c.source_inductance_h for c in circ_list])
-    r_el = np.repeat((r_w if topo == 2 else r_w + r_s)[:, None], m, axis=1)
-    lam0 = res * np.array([c.nominal_flux_wb for c in circ_list])[:, None]
     n_samples = n_steps // decimate + 1
-    out = np.zeros((n, m, n_samples))
-    independent = topo == 0 or (
-        topo == 2 and not np.any(l_s) and not np.any(r_s) and not grid.any_inserted
-    )
-    if independent:
-        _run_independent(circ_list, topo, plan, grid, omega, vpk, phase, r_el, l_s, lam0, out)
-    else:
-        _run_coupled(circ_list, topo, plan, grid, omega, vpk, phase, r_el, r_s, l_s, lam0, out)
-    if not np.all(np.isfinite(out)):
+    winding = np.zeros((n, m, n_samples))
+    line = np.zeros((n, m, n_samples))
+    for idx in _groups(circ_list, extra, grid):
+        _run_group(idx, cases, grid, plan, winding, line)
+    if not (np.all(np.isfinite(winding)) and np.all(np.isfinite(line))):
         raise ParameterError(
             "circuit", "non-finite current", "a circuit whose simulated current stays finite"
         )
-    # delta: i_a = c_ab - c_ca, i_b = c_bc - c_ab, i_c = c_ca - c_bc
-    line = out - np.roll(out, 1, axis=1) if topo == 2 else out
     time: FloatArray = np.arange(n_samples, dtype=float) * (h * decimate)
     delays_used: FloatArray = grid.pole_step.astype(float) * h
     step_ms = f"{h * 1e3:.4g} ms"
     return Simulation(
         time_s=time,
-        winding_current_a=out,
+        winding_current_a=winding,
         line_current_a=line,
         samples_per_cycle=samples_per_cycle,
         steps_per_cycle=spc,
@@ -399,111 +338,74 @@ def simulate(
     )
 
 
-def _source_emf(
-    circ_list: Sequence[EquivalentCircuit], alpha: FloatArray, m: int
-) -> tuple[FloatArray, FloatArray]:
-    """Peak EMF of each winding's circuit [V] and its phase at t = 0 [rad], shape (cases, m).
+def _groups(
+    circ_list: Sequence[EquivalentCircuit], extra: FloatArray, grid: energize_plan.Grid
+) -> list[IntArray]:
+    """Indices of the cases that share a network: circuit, added resistance, pre-insertion
+    resistor and its bypass step, and the ramp (each group is one kernel call)."""
+    ids: dict[int, int] = {}
+    circ_idx = np.array([ids.setdefault(id(c), len(ids)) for c in circ_list], dtype=float)
+    key = np.column_stack((circ_idx, extra, grid.mit_f, grid.mit_i[:, :3].astype(float)))
+    if np.all(key == key[0]):
+        return [np.arange(len(circ_list))]
+    _, inverse = np.unique(key, axis=0, return_inverse=True)
+    inverse = inverse.ravel()
+    return [np.flatnonzero(inverse == g) for g in range(int(inverse.max()) + 1)]
 
-    Single phase: the winding voltage at the closing angle alpha; three phase: the phase
-    voltage V_LL/sqrt(3) at alpha, alpha - 120 deg, alpha + 120 deg (Notes of :func:`simulate`).
+
+def _run_group(
+    idx: IntArray,
+    cases: energize_plan.Cases,
+    grid: energize_plan.Grid,
+    plan: energize_plan.Plan,
+    winding: FloatArray,
+    line: FloatArray,
+) -> None:
+    """Simulate the cases ``idx`` (one network) into ``winding`` and ``line`` [A].
+
+    Each case is one unit alone on its circuit's Thevenin source (:func:`core.network.
+    run_single_unit`): the circuit's R_s and L_s, its winding resistance plus the added one,
+    the pre-insertion resistor in each line, the EMF ramp. A single-phase circuit is the
+    grounded-wye unit with its winding on phase a, at the winding's EMF, whose poles b and c
+    never close: those windings carry no current and their lines none, so phase a is the
+    single-phase loop e = (R_s + R_w)*i + L_s*di/dt + d(lambda)/dt exactly.
     """
-    alpha_rad = np.deg2rad(alpha)
+    first = int(idx[0])
+    c = cases.circuits[first]
+    n_g = idx.size
+    m = cases.residual_flux_pu.shape[1]
+    phase = np.deg2rad(cases.closing_angle_deg[idx])[:, None] + _PHASE_SHIFT[None, :]
+    close = np.full((n_g, 3), plan.n_steps + 1, dtype=np.int64)
+    close[:, :m] = grid.pole_step[idx]
+    lam0 = np.zeros((n_g, 3))
+    lam0[:, :m] = cases.residual_flux_pu[idx] * c.nominal_flux_wb
     if m == 1:
-        vpk = np.array([math.sqrt(2.0) * c.winding_voltage_v for c in circ_list])[:, None]
-        phase = alpha_rad[:, None]
+        connection, emf = "wye_grounded", math.sqrt(2.0) * c.winding_voltage_v
     else:
-        vpk = np.repeat(
-            np.array([math.sqrt(2.0) * c.line_voltage_v / math.sqrt(3.0) for c in circ_list])[
-                :, None
-            ],
-            3,
-            axis=1,
-        )
-        phase = alpha_rad[:, None] + _PHASE_SHIFT[None, :]
-    return vpk, phase
-
-
-def _run_independent(
-    circ_list: Sequence[EquivalentCircuit],
-    topo: int,
-    plan: energize_plan.Plan,
-    grid: energize_plan.Grid,
-    omega: float,
-    vpk: FloatArray,
-    phase: FloatArray,
-    r_el: FloatArray,
-    l_s: FloatArray,
-    lam0: FloatArray,
-    out: FloatArray,
-) -> None:
-    """Integrate windings that are independent circuits into ``out`` [A] (kernel_independent)."""
-    n, m = lam0.shape
-    n_steps, decimate, h = plan.n_steps, plan.decimate, plan.step_s
-    n_samples = out.shape[2]
-    close_step, mit_f, mit_i = grid.close_step, grid.mit_f, grid.mit_i
-    if topo == 2:  # delta on an ideal source: each winding sees a line-to-line voltage
-        vpk = vpk * math.sqrt(3.0)
-        phase = phase + math.pi / 6.0
-    kind_e, par_e, flux_e, cur_e, npts_e = energize_plan.element_curves(circ_list)
-    # piecewise-linear curves: integrate the loop flux psi = lambda + L_s*i (see
-    # energize_plan.element_curves), so the kernel sees no source inductance and starts
-    # from psi_0
-    pwl = np.array([isinstance(c.curve, PiecewiseLinearCurve) for c in circ_list])
-    l_el = np.where(pwl, 0.0, l_s)
-    state0 = lam0.copy()
-    for idx, c in enumerate(circ_list):
-        if pwl[idx] and l_s[idx] > 0.0:
-            state0[idx] = lam0[idx] + l_s[idx] * c.curve.current(lam0[idx])
-    rep = lambda a: np.ascontiguousarray(np.repeat(a, m, axis=0))  # noqa: E731
-    kernel = (
-        kernel_independent.integrate_parallel
-        if n * m >= PARALLEL_MIN_ELEMENTS
-        else kernel_independent.integrate
+        connection, emf = c.connection, math.sqrt(2.0) * c.line_voltage_v / math.sqrt(3.0)
+    r_s = np.array([cases.circuits[i].source_resistance_ohm for i in idx])
+    l_s = np.array([cases.circuits[i].source_inductance_h for i in idx])
+    mit_f, mit_i = grid.mit_f[first], grid.mit_i[first]
+    i_line, i_wind = run_single_unit(
+        c,
+        connection,
+        emf_peak_v=emf,
+        winding_resistance_ohm=c.winding_resistance_ohm + float(cases.extra_resistance_ohm[first]),
+        source_resistance_ohm=r_s,
+        source_inductance_h=l_s,
+        phase_rad=phase,
+        close_step=close,
+        flux_wb=lam0,
+        insertion_resistance_ohm=float(mit_f[0]),
+        bypass_step=int(mit_i[0]),
+        substeps=grid.mit_i[idx, 3],
+        ramp=(float(mit_f[1]), float(mit_f[2]), int(mit_i[1]), int(mit_i[2])),
+        n_steps=plan.n_steps,
+        decimate=plan.decimate,
+        step_s=plan.step_s,
     )
-    kernel(
-        n_steps, decimate, h, omega,
-        np.ascontiguousarray(vpk, dtype=float).ravel(),
-        np.ascontiguousarray(phase, dtype=float).ravel(),
-        np.ascontiguousarray(r_el).ravel(), np.repeat(l_el, m),
-        np.ascontiguousarray(close_step).ravel(), np.ascontiguousarray(state0).ravel(),
-        rep(kind_e), rep(par_e), rep(flux_e), rep(cur_e), rep(npts_e),
-        rep(mit_f), rep(mit_i),
-        out.reshape(n * m, n_samples),
-    )  # fmt: skip
-
-
-def _run_coupled(
-    circ_list: Sequence[EquivalentCircuit],
-    topo: int,
-    plan: energize_plan.Plan,
-    grid: energize_plan.Grid,
-    omega: float,
-    vpk: FloatArray,
-    phase: FloatArray,
-    r_el: FloatArray,
-    r_s: FloatArray,
-    l_s: FloatArray,
-    lam0: FloatArray,
-    out: FloatArray,
-) -> None:
-    """Integrate windings coupled through the source (floating wye, delta) into ``out`` [A]."""
-    n_steps, decimate, h = plan.n_steps, plan.decimate, plan.step_s
-    close_step, mit_f, mit_i = grid.close_step, grid.mit_f, grid.mit_i
-    kind_c, par_c, flux_c, cur_c, npts_c = energize_plan.element_curves(circ_list, loop_flux=False)
-    tol = NEWTON_TOLERANCE_PU * np.array([c.nominal_flux_wb for c in circ_list])
-    failed = kernel_coupled.integrate(
-        topo, n_steps, decimate, h, omega,
-        np.ascontiguousarray(vpk, dtype=float), np.ascontiguousarray(phase, dtype=float),
-        np.ascontiguousarray(r_el), r_s, l_s, np.ascontiguousarray(close_step),
-        np.ascontiguousarray(lam0), tol, kind_c, par_c, flux_c, cur_c, npts_c,
-        mit_f, mit_i, out,
-    )  # fmt: skip
-    if failed:
-        raise ParameterError(
-            "circuit",
-            f"{failed} flux solves without convergence",
-            f"a circuit on which Newton's method converges in {NEWTON_MAX_ITERATIONS} iterations",
-        )
+    line[idx] = i_line[:, :m]
+    winding[idx] = i_wind[:, :m]
 
 
 def _approximations(

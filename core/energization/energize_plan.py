@@ -1,13 +1,13 @@
-"""Input checks, step plan and kernel inputs behind :func:`core.energization.energize.simulate`.
+"""Input checks and step plan behind :func:`core.energization.energize.simulate`.
 
 :func:`check_cases` broadcasts and validates the per-case inputs (closing angle, residual flux,
 pole instants, added resistance, pre-insertion resistor, reduced-voltage ramp);
-:func:`plan_steps` chooses the fixed Runge-Kutta step (:func:`step_plan`: at least
-MIN_STEPS_PER_CYCLE per cycle and at most a quarter of the shortest saturated time constant);
-:func:`on_step_grid` puts the pole closings, the resistor's bypass and the ramp's corners on
-that step; :func:`element_curves` lays the magnetising curves out for the compiled kernels
-(:mod:`core.energization.kernel_independent`, :mod:`core.energization.kernel_coupled`). The
-equations and their approximations are in the module docstring of :mod:`core.energization.energize`.
+:func:`plan_steps` chooses the fixed Runge-Kutta step (:func:`core.network.step_rule`, the
+network solver's rule: at least MIN_STEPS_PER_CYCLE per cycle and at most a quarter of the
+shortest saturated time constant); :func:`on_step_grid` puts the pole closings, the resistor's
+bypass and the ramp's corners on that step, as the network solver's kernel takes them. The
+equations and their approximations are in the module docstring of
+:mod:`core.energization.energize`.
 """
 
 from __future__ import annotations
@@ -20,34 +20,24 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core.errors import ParameterError
+from core.network.solver import MAX_STEPS_PER_CYCLE, step_rule
 from core.transformer.circuit_model import EquivalentCircuit
-from core.transformer.magnetizing import PiecewiseLinearCurve
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
 __all__ = [
-    "MAX_STEPS_PER_CYCLE",
-    "MIN_STEPS_PER_CYCLE",
     "MITIGATION_PARAMETERS",
     "Cases",
     "Grid",
     "Plan",
     "check_cases",
-    "element_curves",
     "on_step_grid",
     "plan_steps",
     "saturated_time_constant",
     "search_offsets",
-    "step_plan",
 ]
 
-# Bounds of the fixed step, per cycle: the floor keeps RK4's error small on the smooth stretches
-# (the accuracy measured with it is in core.energization.energize's docstring), the ceiling is a
-# guard against a circuit so resistive when saturated that its step would be absurdly small; both
-# are this project's choices, not published values.
-MIN_STEPS_PER_CYCLE = 128
-MAX_STEPS_PER_CYCLE = 16384
 # simulate's per-case mitigation parameters, their defaults (no resistor, full voltage) and
 # ranges, one row each
 MITIGATION_PARAMETERS = (
@@ -99,65 +89,11 @@ class Grid:
     """Instants on the step grid, per case: see :func:`on_step_grid`."""
 
     pole_step: IntArray
-    close_step: IntArray
     mit_f: FloatArray
     mit_i: IntArray
     insertion_time_s: FloatArray
     voltage_ramp_s: FloatArray
-    any_inserted: bool
     any_ramp: bool
-
-
-def step_plan(
-    frequency_hz: float,
-    duration_s: float,
-    samples_per_cycle: int,
-    min_time_constant_s: float = math.inf,
-) -> tuple[int, int, int]:
-    """Internal steps per cycle, decimation and total step count for a simulation.
-
-    Parameters
-    ----------
-    frequency_hz : float
-        Source frequency [Hz].
-    duration_s : float
-        Simulated time [s].
-    samples_per_cycle : int
-        Output samples per cycle [-].
-    min_time_constant_s : float
-        Shortest time constant of the circuit, (L_air + L_s)/R; the step is kept at or below a
-        quarter of it (accuracy and stability of the explicit integrator) [s].
-
-    Returns
-    -------
-    tuple of int
-        (steps per cycle, decimation, number of steps).
-
-    Raises
-    ------
-    ParameterError
-        When the time constant is so short that more than MAX_STEPS_PER_CYCLE steps per cycle
-        would be needed.
-    """
-    if not (isinstance(samples_per_cycle, int) and 4 <= samples_per_cycle <= 100_000):
-        raise ParameterError("samples_per_cycle", samples_per_cycle, "an integer in [4, 100000]")
-    if not (math.isfinite(duration_s) and duration_s > 0.0):
-        raise ParameterError("duration_s", duration_s, "a finite number > 0")
-    need = float(MIN_STEPS_PER_CYCLE)
-    if min_time_constant_s < math.inf:
-        need = max(need, 4.0 / (frequency_hz * min_time_constant_s))
-    if need > MAX_STEPS_PER_CYCLE:
-        raise ParameterError(
-            "resistance_ohm",
-            min_time_constant_s,
-            "a saturated-loop time constant (L_air + L_s)/R of at least "
-            f"{4.0 / (frequency_hz * MAX_STEPS_PER_CYCLE):.3g} s; this circuit is almost purely "
-            "resistive when saturated",
-        )
-    decimate = max(1, math.ceil(need / samples_per_cycle))
-    spc = samples_per_cycle * decimate
-    n_steps = max(decimate, round(duration_s * frequency_hz * samples_per_cycle) * decimate)
-    return spc, decimate, n_steps
 
 
 def search_offsets() -> tuple[FloatArray, ...]:
@@ -268,7 +204,7 @@ def check_cases(
     delay = np.asarray(pole_delay_s, dtype=float)
     extra = np.atleast_1d(np.asarray(extra_resistance_ohm, dtype=float))
     # all at their defaults (no resistor, g = 1), the usual call, told from plain numbers
-    # without building arrays; the kernels then get the arrays the general path would compute
+    # without building arrays; the kernel then gets the arrays the general path would compute
     mit_off = all(
         isinstance(v, int | float) and v == d
         for v, d in zip(mitigation, _MITIGATION_DEFAULT[:, 0], strict=True)
@@ -335,15 +271,15 @@ def check_cases(
 def plan_steps(cases: Cases, topology: int, duration_s: float, samples_per_cycle: int) -> Plan:
     """The fixed step of a batch, and each case's sub-steps while its resistor is in.
 
-    The step is :func:`step_plan`'s for the batch's shortest saturated time constant without a
-    pre-insertion resistor, (L_air + L_s)/R over the cases, R = R_w + 2*R_s + R_extra. While a
-    case's resistor is in, its loop is faster, tau_ins = (L_air + L_s)/(R + k*R_ins), with
-    k = 3 for a delta (``topology`` 2: the line resistance enters its windings' loops through M,
-    whose non-zero eigenvalue is 3) and 1 for a winding in its own line; each of that case's
-    steps is then split into m equal sub-steps, the fewest that keep the sub-step at or below a
-    quarter of tau_ins (the rule of the step itself): m = ceil(4/(f*tau_ins)/spc), spc the steps
-    per cycle, which is 1 whenever the step already meets it. m depends on the case alone, so a
-    case gives the same result in any batch.
+    The step is :func:`core.network.step_rule`'s for the batch's shortest saturated time constant
+    without a pre-insertion resistor, (L_air + L_s)/R over the cases, R = R_w + 2*R_s + R_extra.
+    While a case's resistor is in, its loop is faster, tau_ins = (L_air + L_s)/(R + k*R_ins), with k
+    = 3 for a delta (``topology`` 2: the line resistance enters its windings' loops through M, whose
+    non-zero eigenvalue is 3) and 1 for a winding in its own line; each of that case's steps is then
+    split into m equal sub-steps, the fewest that keep the sub-step at or below a quarter of tau_ins
+    (the rule of the step itself): m = ceil(4/(f*tau_ins)/spc), spc the steps per cycle, which is 1
+    whenever the step already meets it. m depends on the case alone, so a case gives the same result
+    in any batch.
 
     Parameters
     ----------
@@ -360,15 +296,15 @@ def plan_steps(cases: Cases, topology: int, duration_s: float, samples_per_cycle
     ------
     ParameterError
         Naming ``insertion_resistance_ohm``, with the largest resistor the circuit allows, when
-        m*spc would exceed MAX_STEPS_PER_CYCLE; naming ``resistance_ohm`` (:func:`step_plan`)
-        when the loop without the resistor would need more than that.
+        m*spc would exceed MAX_STEPS_PER_CYCLE; naming ``resistance_ohm``
+        (:func:`core.network.step_rule`) when the loop without the resistor would need more.
     """
     circ_list = cases.circuits
     extra = cases.extra_resistance_ohm
     r_ins, t_ins = cases.mitigation[0], cases.mitigation[1]
     f = circ_list[0].frequency_hz
     tau = min(saturated_time_constant(c, float(ex)) for c, ex in zip(circ_list, extra, strict=True))
-    spc, decimate, n_steps = step_plan(f, duration_s, samples_per_cycle, tau)
+    spc, decimate, n_steps = step_rule(f, duration_s, samples_per_cycle, tau)
     k_line = 3.0 if topology == 2 else 1.0
     with_resistor = (
         [] if cases.mitigation_off else np.flatnonzero((r_ins > 0.0) & (t_ins > 0.0)).tolist()
@@ -407,12 +343,12 @@ def plan_steps(cases: Cases, topology: int, duration_s: float, samples_per_cycle
     return Plan(spc, decimate, n_steps, 1.0 / (f * spc), bool(with_resistor), substeps)
 
 
-def on_step_grid(cases: Cases, topology: int, plan: Plan) -> Grid:
+def on_step_grid(cases: Cases, plan: Plan) -> Grid:
     """Pole closings, the resistor's bypass and the ramp's corners on the step grid, per case.
 
     Each instant is rounded to the nearest step; an instant after the record (or too large to
     count in steps) is clipped to just after it, while the slope of the rise keeps its unclipped
-    length. A delta winding closes with the later of its two poles. For the kernels: mit_f =
+    length. For the network kernel (:func:`core.network.run_single_unit`): mit_f =
     (R_ins [ohm], g_0 [pu], slope of g per step [pu]), mit_i = (bypass step, end of hold, end of
     rise, sub-steps per step while the resistor is in); the instants used are returned in
     seconds.
@@ -421,26 +357,19 @@ def on_step_grid(cases: Cases, topology: int, plan: Plan) -> Grid:
     ----------
     cases : Cases
         The checked cases of one batch [-].
-    topology : int
-        Kernel topology code (2: delta) [-].
     plan : Plan
         The batch's step plan from :func:`plan_steps` [-].
     """
     n = len(cases.circuits)
     h = plan.step_s
     pole_step = np.rint(cases.pole_delay_s / h).astype(np.int64)
-    if topology == 2:
-        # winding ab energised by poles a and b, bc by b and c, ca by c and a
-        close_step = np.maximum(pole_step, np.roll(pole_step, -1, axis=1))
-    else:
-        close_step = pole_step.copy()
     mit_f = np.zeros((n, 3))
     mit_f[:, 1] = 1.0
     mit_i = np.zeros((n, 4), dtype=np.int64)
     mit_i[:, 3] = 1
     ins_used: FloatArray = np.zeros(n)
     ramp_used: FloatArray = np.zeros((n, 2))
-    any_inserted = any_ramp = False
+    any_ramp = False
     if not cases.mitigation_off:
         r_ins, t_ins, g_start, t_hold, t_rise = cases.mitigation
         with np.errstate(over="ignore", invalid="ignore"):
@@ -461,74 +390,5 @@ def on_step_grid(cases: Cases, topology: int, plan: Plan) -> Grid:
             ins_used = np.where(np.isfinite(ins_f), ins_f * h, t_ins)
             ramp_used[:, 0] = np.where(np.isfinite(hold_f), hold_f * h, t_hold)
             ramp_used[:, 1] = np.where(np.isfinite(end_f), end_f * h, t_hold + t_rise)
-        any_inserted = bool(np.any((r_ins > 0.0) & (mit_i[:, 0] > 0)))
         any_ramp = bool(np.any((g_start < 1.0) & (mit_i[:, 2] > 0)))
-    return Grid(pole_step, close_step, mit_f, mit_i, ins_used, ramp_used, any_inserted, any_ramp)
-
-
-def element_curves(
-    circuits: Sequence[EquivalentCircuit], *, loop_flux: bool = True
-) -> tuple[IntArray, FloatArray, FloatArray, FloatArray, IntArray]:
-    """Curve parameters for the kernels, one row per circuit.
-
-    With ``loop_flux`` (for :mod:`core.energization.kernel_independent`) a piecewise-linear curve is
-    returned as current against the loop flux psi = lambda + L_s*i (breakpoints shifted by
-    L_s*i_k, final inductance L_final + L_s), the state that
-    :func:`core.energization.energize.simulate` integrates for it: d(psi)/dt = e - R*i(psi) is
-    continuous at the knee, whereas d(lambda)/dt = (e - R*i)/(1 + L_s*f') jumps there when L_s > 0
-    and a fixed-step Runge-Kutta step across the jump loses its order (errors of several per cent in
-    the decay for a weak source). Without it (for :mod:`core.energization.kernel_coupled`, which
-    does its own loop-flux solve) the curve is against lambda itself.
-
-    Parameters
-    ----------
-    circuits : sequence of EquivalentCircuit
-        One per case [-].
-    loop_flux : bool
-        Piecewise-linear curves against the loop flux (independent kernel) rather than lambda [-].
-    """
-    n = len(circuits)
-    width = max(
-        (c.curve.flux_wb.size if isinstance(c.curve, PiecewiseLinearCurve) else 2) for c in circuits
-    )
-    kind = np.zeros(n, dtype=np.int64)
-    par = np.zeros((n, 5))
-    flux = np.zeros((n, width))
-    cur = np.zeros((n, width))
-    npts = np.full(n, 2, dtype=np.int64)
-    done: dict[int, int] = {}  # a circuit repeated over many cases is laid out once
-    for idx, circ in enumerate(circuits):
-        seen = done.setdefault(id(circ), idx)
-        if seen != idx:
-            kind[idx], par[idx], flux[idx], cur[idx], npts[idx] = (
-                kind[seen],
-                par[seen],
-                flux[seen],
-                cur[seen],
-                npts[seen],
-            )
-            continue
-        cv = circ.curve
-        if isinstance(cv, PiecewiseLinearCurve):
-            p = cv.flux_wb.size
-            ls = circ.source_inductance_h if loop_flux else 0.0
-            psi = cv.flux_wb + ls * cv.current_a
-            flux[idx, :p] = psi
-            cur[idx, :p] = cv.current_a
-            flux[idx, p:] = psi[-1]
-            cur[idx, p:] = cv.current_a[-1]
-            npts[idx] = p
-            final = 1.0 / (cv.final_inductance_h + ls)
-            if p == 2:
-                a = cv.current_a[1] / psi[1]
-                par[idx] = (a, psi[1], final, cv.current_a[1], 0.0)
-            else:
-                kind[idx] = 2
-                par[idx, 0] = final
-        else:
-            kind[idx] = 1
-            a = 1.0 / cv.unsaturated_inductance_h
-            e = cv.knee_width_wb
-            g0 = 0.5 * (-cv.knee_flux_wb + math.hypot(cv.knee_flux_wb, e))
-            par[idx] = (a, 1.0 / cv.saturated_inductance_h - a, cv.knee_flux_wb, e, g0)
-    return kind, par, flux, cur, npts
+    return Grid(pole_step, mit_f, mit_i, ins_used, ramp_used, any_ramp)

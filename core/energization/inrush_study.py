@@ -2,7 +2,7 @@
 
 These functions combine the closed forms (:mod:`core.energization.closed_form`), the time-domain
 solver (:mod:`core.energization.energize`) and the waveform analysis
-(:mod:`core.energization.waveform`) into the answers the service returns, so that an HTTP handler
+(:mod:`core.waveform`) into the answers the service returns, so that an HTTP handler
 calls exactly one function. Warnings are returned as (code, message) pairs; nothing here formats
 HTTP.
 """
@@ -16,7 +16,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from core.energization import closed_form, energize, energize_plan, peaks, waveform
+from core import waveform
+from core.energization import closed_form, energize, energize_plan, peaks
 from core.energization.switching_event import SwitchingEvent, plain_event_arrays
 from core.errors import ParameterError
 from core.transformer.circuit_model import EquivalentCircuit
@@ -565,7 +566,7 @@ def envelope_study(
         Compute limit, see :func:`core.energization.energize.simulate` [-].
     equivalent_rms_times_s : array_like or None
         Times at which I_eq(t) is tabulated, within the record; None for
-        :data:`core.energization.waveform.STANDARD_TIMES_S` up to the simulated time [s].
+        :data:`core.waveform.STANDARD_TIMES_S` up to the simulated time [s].
 
     Returns
     -------
@@ -574,7 +575,7 @@ def envelope_study(
     Notes
     -----
     Per-cycle peaks are read exactly (:func:`core.energization.peaks.cycle_peaks`). I_eq(t) is
-    tabulated at :data:`core.energization.waveform.STANDARD_TIMES_S` up to the simulated time, or at
+    tabulated at :data:`core.waveform.STANDARD_TIMES_S` up to the simulated time, or at
     the times given. The analytic envelope is
     :func:`core.energization.closed_form.peak_envelope_holcomb` per winding, and per line
     :func:`core.energization.closed_form.line_first_peaks` on each cycle's decayed flux offsets

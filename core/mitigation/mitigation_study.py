@@ -36,7 +36,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from core.energization import energize, inrush_study, waveform
+from core import waveform
+from core.energization import energize, inrush_study
 from core.energization.switching_event import (
     SwitchingEvent,
     plain_event_arrays,

@@ -13,8 +13,10 @@ from core.network.solver import (
     Source,
     Unit,
     insertion_substeps,
+    run_single_unit,
     simulate_network,
     step_plan,
+    step_rule,
 )
 
 __all__ = [
@@ -26,6 +28,8 @@ __all__ = [
     "Source",
     "Unit",
     "insertion_substeps",
+    "run_single_unit",
     "simulate_network",
     "step_plan",
+    "step_rule",
 ]

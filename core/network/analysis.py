@@ -5,7 +5,7 @@ Every function takes a record as :func:`core.network.simulate_network` returns i
 uniformly spaced from t = 0 with a whole number of samples per cycle of the power frequency,
 three lines (or phases) on the second-to-last axis and time on the last. Cycle n covers
 [n*T, (n+1)*T) with T = 1/f, counted from the reference closing t = 0. The per-cycle peaks,
-I_eq(t) and harmonic ratios are those of :mod:`core.energization.waveform`, so a network reading
+I_eq(t) and harmonic ratios are those of :mod:`core.waveform`, so a network reading
 and a single unit's reading are the same number for the same waveform.
 
 Limits: the readings are of the sampled record; a peak between samples is refined by a parabola
@@ -22,8 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from core import checks
-from core.energization import waveform
+from core import checks, waveform
 from core.errors import ParameterError
 
 FloatArray = NDArray[np.float64]
@@ -65,7 +64,7 @@ class CurrentReadings:
     cycle_mean_a : ndarray, shape (3, n_cycles)
         Mean of each line's current over each whole cycle (its direct component) [A].
     equivalent_rms_times_s : ndarray, shape (n_times,)
-        The times of :data:`core.energization.waveform.STANDARD_TIMES_S` within the record [s].
+        The times of :data:`core.waveform.STANDARD_TIMES_S` within the record [s].
     equivalent_rms_a : ndarray, shape (n_times,)
         I_eq(t) of the line with the largest per-cycle peak at those times [A].
     second_harmonic_ratio : ndarray, shape (n_cycles,)
@@ -381,18 +380,18 @@ def current_readings(
 
     Notes
     -----
-    First peak: :func:`first_peaks`. Per-cycle peak: :func:`core.energization.waveform.
+    First peak: :func:`first_peaks`. Per-cycle peak: :func:`core.waveform.
     cycle_peaks`, the largest line each cycle. Mean of line k over cycle n:
     (1/N) sum_{j=0}^{N-1} i_k[nN + j], N samples per cycle. I_eq(t) =
     sqrt((1/t) integral_0^t i^2 dt) of the line whose largest per-cycle peak is largest
-    (:func:`core.energization.waveform.equivalent_rms`). Second harmonic: |I2|/|I1| of a
-    one-cycle DFT (:func:`core.energization.waveform.harmonic_ratio`), the smallest line each
+    (:func:`core.waveform.equivalent_rms`). Second harmonic: |I2|/|I1| of a
+    one-cycle DFT (:func:`core.waveform.harmonic_ratio`), the smallest line each
     cycle (the line a cross-blocking relay would release on first).
 
     References
     ----------
     I_eq(t) against a time-current characteristic and the one-cycle DFT of a differential
-    relay's harmonic restraint: common practice (see :mod:`core.energization.waveform`).
+    relay's harmonic restraint: common practice (see :mod:`core.waveform`).
     """
     t, i = _record(time_s, current_a, "current_a")
     if i.ndim != 2:
@@ -457,7 +456,7 @@ def sympathetic_current(
 
     Notes
     -----
-    p_n = max over lines of the cycle-n peak (:func:`core.energization.waveform.cycle_peaks`);
+    p_n = max over lines of the cycle-n peak (:func:`core.waveform.cycle_peaks`);
     the peak is max_n p_n at cycle m (the first of equal ones), on the line largest in that
     cycle. The cycles with p_n >= fraction x p_m run
     from a to b (first and last); above_from = a/f, above_until = min((b + 1)/f, record end),
@@ -596,7 +595,7 @@ def rule_of_thumb(
     Notes
     -----
     I_eq(t) = sqrt((1/t) integral_0^t i^2 dt) of the line whose largest |i| over the record
-    is largest (:func:`core.energization.waveform.equivalent_rms`), against m x I_r.
+    is largest (:func:`core.waveform.equivalent_rms`), against m x I_r.
 
     References
     ----------

@@ -55,11 +55,12 @@ windings at the secant inductance of their steady peak flux (exact for a curve l
 peak, e.g. a two-slope curve below its knee); its residual flux is not used.
 
 Numerics: classical fourth-order Runge-Kutta (Kutta 1901) at a fixed step, the step chosen by
-the rule of :mod:`core.energize` (at least 128 per cycle, at most a quarter of the fastest
-saturated loop's time constant), compiled with numba and looped over cases. For a single unit
-on a Thevenin source the states are those of :func:`core.energize.simulate` for a grounded wye
-and a delta (psi = lambda + L_s*i, psi = lambda + L_s*M*c) and equivalent to its floating-wye
-state, so the two agree to rounding and the Newton tolerances.
+:func:`step_rule` (at least 128 per cycle, at most a quarter of the fastest saturated loop's
+time constant), compiled with numba and looped over cases. This is the project's one
+time-domain solver: :func:`core.energization.energize.simulate`, behind every single-unit
+operation (peak, envelope, batch, sheet, statistics, clearance, mitigation, the exact peak
+reading), runs each of its cases as one unit on a Thevenin source through
+:func:`run_single_unit`; :func:`simulate_network` runs networks and the generator dip.
 
 Accuracy, measured over the first ten cycles at 128 samples per cycle against an independent
 reference written from Kirchhoff's laws (winding fluxes and load currents from one dense
@@ -70,10 +71,14 @@ one in service 1.6e-5), a delta beside a floating wye in service 3.5e-6 (4.3e-5)
 units with a bus load 1.1e-5 (3.0e-4 for the delta whose pre-insertion resistor is bypassed
 after 2.5 cycles), staggered poles on a delta 1.9e-5, on a grounded wye 6.9e-6, on a floating
 wye 1.1e-5; source currents within 2e-5, bus voltages within 8e-6 of their amplitude. One unit
-on a Thevenin source agrees with :func:`core.energize.simulate` within 1e-11 of the largest
-current for the three connections and the three curve kinds, but for a grounded wye on the
-smooth knee, where that solver integrates lambda itself (2.8e-4 apart; against a 2048-step
-solution this solver is within 4.5e-7, that one 2.8e-4).
+on a Thevenin source agreed with the single-unit kernels this project had before within 1e-11
+of the largest current for the three connections and the three curve kinds, but for a grounded
+wye on the smooth knee, where those integrated lambda itself (2.8e-4 apart; against a 2048-step
+solution this solver is within 4.5e-7, they 2.8e-4), and for staggered poles on a delta or a
+floating wye (a delta's series path with one pole open, which they neglected; 1.3e-3 for the
+floating wye while two poles are closed). The source current is recovered as Phi/L_s, so its
+error is the Newton tolerance on Phi over L_s: negligible for a physical source, 5e-4 of the
+peak at L_s = 1e-12 H (an ideal source, L_s = 0, takes no solve).
 
 Approximations: phases magnetically independent (bank of single-phase cores); no hysteresis or
 core loss; a source of equal zero- and positive-sequence impedance; an ideal breaker and
@@ -118,12 +123,14 @@ __all__ = [
     "Source",
     "Unit",
     "insertion_substeps",
+    "run_single_unit",
     "simulate_network",
     "step_plan",
+    "step_rule",
 ]
 
-# Step bounds per cycle, the rule of core.energize (this project's choice): the floor keeps
-# RK4's error small on the smooth stretches, the ceiling guards against an absurd step.
+# Step bounds per cycle of step_rule (this project's choice): the floor keeps RK4's error small
+# on the smooth stretches, the ceiling guards against an absurd step.
 MIN_STEPS_PER_CYCLE = 128
 MAX_STEPS_PER_CYCLE = 16384
 # Newton tolerance on Phi and on a floating node's flux [pu of the unit's lambda_N]
@@ -373,21 +380,20 @@ APPROXIMATIONS = (
 
 
 def _curve_arrays(
-    units: Sequence[Unit],
+    circuits: Sequence[EquivalentCircuit],
 ) -> tuple[IntArray, FloatArray, FloatArray, FloatArray, IntArray]:
-    """Curve parameters per unit for the kernel (see :func:`core.network.kernel._curve`)."""
-    n = len(units)
+    """Curve parameters per unit for the kernel (see :func:`core.network.kernel._curve_seg_s`)."""
+    n = len(circuits)
     width = max(
-        (u.circuit.curve.flux_wb.size if isinstance(u.circuit.curve, PiecewiseLinearCurve) else 2)
-        for u in units
+        (c.curve.flux_wb.size if isinstance(c.curve, PiecewiseLinearCurve) else 2) for c in circuits
     )
     kind = np.zeros(n, dtype=np.int64)
     par = np.zeros((n, 5))
     flux = np.zeros((n, width))
     cur = np.zeros((n, width))
     npts = np.full(n, 2, dtype=np.int64)
-    for idx, unit in enumerate(units):
-        cv = unit.circuit.curve
+    for idx, circuit in enumerate(circuits):
+        cv = circuit.curve
         if isinstance(cv, PiecewiseLinearCurve):
             p = cv.flux_wb.size
             flux[idx, :p] = cv.flux_wb
@@ -607,9 +613,8 @@ def step_plan(
     tau_min the shortest of (L_air + L_s)/(R_w + 2*R_s + k*R_ins) over the units (k = 3 for a
     delta, 1 otherwise) and (L_L + L_s)/(R_L + R_s) for the load, over every case of a
     machine source (and its T''_do, T_A and T_R when they evolve); steps =
-    round(duration*f*samples_per_cycle)*decimation (at least one sample). The same rule as
-    :mod:`core.energization.energize_plan`, over every loop of the network; the work estimate
-    (:mod:`core.cost`) counts with it.
+    round(duration*f*samples_per_cycle)*decimation (at least one sample): :func:`step_rule`
+    over every loop of the network; the work estimate (:mod:`core.cost`) counts with it.
 
     References
     ----------
@@ -631,17 +636,75 @@ def step_plan(
     if load is not None:
         t_load = (load.inductance_h + l_s) / np.maximum(load.resistance_ohm + r_s, 1e-300)
         taus.append(float(np.min(t_load)))
-    need = max(float(MIN_STEPS_PER_CYCLE), 4.0 / (f * min(taus)))
+    spc, decimate, n_steps = step_rule(f, duration_s, samples_per_cycle, min(taus))
+    return decimate, spc, n_steps
+
+
+def step_rule(
+    frequency_hz: float,
+    duration_s: float,
+    samples_per_cycle: int,
+    min_time_constant_s: float = math.inf,
+) -> tuple[int, int, int]:
+    """The fixed Runge-Kutta step from the fastest loop's time constant: the one rule.
+
+    :func:`step_plan` applies it to every loop of a network, :func:`core.energization.energize.
+    simulate` to its cases' saturated loops, and :mod:`core.cost` counts with it.
+
+    Parameters
+    ----------
+    frequency_hz : float
+        Source frequency [Hz].
+    duration_s : float
+        Simulated time [s].
+    samples_per_cycle : int
+        Output samples per cycle, in [4, 100000] [-].
+    min_time_constant_s : float
+        Shortest time constant L/R of the loops; the step is kept at or below a quarter of it
+        (accuracy and stability of the explicit integrator) [s].
+
+    Returns
+    -------
+    tuple of int
+        (steps per cycle, steps per output sample, number of steps) [-].
+
+    Raises
+    ------
+    ParameterError
+        Naming ``samples_per_cycle`` or ``duration_s`` out of range; naming ``resistance_ohm``
+        when the time constant would need more than MAX_STEPS_PER_CYCLE steps per cycle.
+
+    Notes
+    -----
+    need = max(MIN_STEPS_PER_CYCLE, 4/(f*tau_min)); decimation = ceil(need/samples_per_cycle);
+    spc = samples_per_cycle*decimation; steps = round(duration*f*samples_per_cycle)*decimation,
+    at least one sample.
+
+    References
+    ----------
+    This project's choice: RK4's error small on the smooth stretches at 128 steps per cycle;
+    four steps per time constant of the fastest loop (stability of classical Runge-Kutta on a
+    decaying mode needs h/tau < 2.78, Butcher, Numerical Methods for ODEs, 2008, from memory).
+    """
+    if not (isinstance(samples_per_cycle, int) and 4 <= samples_per_cycle <= 100_000):
+        raise ParameterError("samples_per_cycle", samples_per_cycle, "an integer in [4, 100000]")
+    if not (math.isfinite(duration_s) and duration_s > 0.0):
+        raise ParameterError("duration_s", duration_s, "a finite number > 0")
+    f = float(frequency_hz)
+    need = float(MIN_STEPS_PER_CYCLE)
+    if min_time_constant_s < math.inf:
+        need = max(need, 4.0 / (f * min_time_constant_s))
     if need > MAX_STEPS_PER_CYCLE:
         raise ParameterError(
             "resistance_ohm",
-            min(taus),
-            f"a saturated-loop time constant of at least {4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s",
+            min_time_constant_s,
+            f"a saturated-loop time constant L/R of at least "
+            f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s; this loop is almost purely resistive",
         )
     decimate = max(1, math.ceil(need / samples_per_cycle))
     spc = samples_per_cycle * decimate
     n_steps = max(decimate, round(duration_s * f * samples_per_cycle) * decimate)
-    return decimate, spc, n_steps
+    return spc, decimate, n_steps
 
 
 def insertion_substeps(
@@ -884,7 +947,7 @@ def simulate_network(
     )
     if load is None:
         il0 = np.zeros((n, 3))
-    kind, par, flux, cur, npts = _curve_arrays(units)
+    kind, par, flux, cur, npts = _curve_arrays([u.circuit for u in units])
     n_samples = n_steps // decimate + 1
     kept = n_samples if mode == kernel.RECORD_ALL else 0
     out_src = np.zeros((n, 3, n_samples if mode != kernel.RECORD_FIRST_PEAKS else 0))
@@ -986,3 +1049,132 @@ def _ramp(source: Source | Machine) -> tuple[float, float, float]:
     t_hold = _finite("source.voltage_hold_s", source.voltage_hold_s, 0.0)
     t_rise = _finite("source.voltage_rise_s", source.voltage_rise_s, 0.0)
     return g0, t_hold, t_rise
+
+
+# Cases per kernel call of run_single_unit: bounds the scratch records (source current, bus
+# voltage, fluxes, machine states) it does not return to a few of these cases' worth
+_SINGLE_UNIT_CHUNK = 256
+
+
+def run_single_unit(
+    circuit: EquivalentCircuit,
+    connection: str,
+    *,
+    emf_peak_v: float,
+    winding_resistance_ohm: float,
+    source_resistance_ohm: FloatArray,
+    source_inductance_h: FloatArray,
+    phase_rad: FloatArray,
+    close_step: IntArray,
+    flux_wb: FloatArray,
+    insertion_resistance_ohm: float,
+    bypass_step: int,
+    substeps: IntArray,
+    ramp: tuple[float, float, int, int],
+    n_steps: int,
+    decimate: int,
+    step_s: float,
+) -> tuple[FloatArray, FloatArray]:
+    """One unit alone on a Thevenin source, many cases, on a step already planned.
+
+    The entry below :func:`simulate_network` for a caller that has checked its inputs and put
+    its instants on the step (:func:`core.energization.energize.simulate`): the network of one
+    unit, no bus load, each case with its own source impedance, EMF phases, pole steps and
+    initial fluxes.
+
+    Parameters
+    ----------
+    circuit : EquivalentCircuit
+        The unit: its magnetising curve and lambda_N (its own resistance and source are not
+        used) [-].
+    connection : str
+        ``"wye_grounded"``, ``"wye"`` or ``"delta"`` [-].
+    emf_peak_v : float
+        Crest of the source EMF of each phase, sqrt(2)*V_LL/sqrt(3) for a three-phase unit [V].
+    winding_resistance_ohm : float
+        Resistance in series with each winding [ohm].
+    source_resistance_ohm : ndarray, shape (n_cases,)
+        Source resistance per phase, per case [ohm].
+    source_inductance_h : ndarray, shape (n_cases,)
+        Source inductance per phase, per case [H].
+    phase_rad : ndarray, shape (n_cases, 3)
+        Phase of each EMF at t = 0, e_k = g*emf_peak_v*sin(omega*t + phase_k) [rad].
+    close_step : ndarray of int, shape (n_cases, 3)
+        Step at which each pole closes; beyond ``n_steps`` it never closes [-].
+    flux_wb : ndarray, shape (n_cases, 3)
+        Flux linkage of each winding at t = 0 [Wb-turn].
+    insertion_resistance_ohm : float
+        Pre-insertion resistor in each line until ``bypass_step`` [ohm].
+    bypass_step : int
+        Step at which the resistor is shorted (0: never in) [-].
+    substeps : ndarray of int, shape (n_cases,)
+        Equal sub-steps of each step before ``bypass_step`` [-].
+    ramp : tuple
+        EMF factor g: start [pu], slope per step [pu], end of the hold and of the rise [steps].
+    n_steps : int
+        Steps of the record [-].
+    decimate : int
+        Steps per output sample [-].
+    step_s : float
+        The step [s].
+
+    Returns
+    -------
+    tuple of ndarray
+        Line currents and winding currents, each shape (n_cases, 3, n_samples) [A].
+
+    Raises
+    ------
+    ParameterError
+        Naming ``circuit`` when an algebraic solve does not converge.
+
+    Notes
+    -----
+    The equations of the module docstring with one unit and no load; the kernel runs on chunks
+    of at most 256 cases, so that the records not returned stay small.
+
+    References
+    ----------
+    Kirchhoff's laws; classical Runge-Kutta (Kutta 1901).
+    """
+    n = phase_rad.shape[0]
+    n_samples = n_steps // decimate + 1
+    line = np.zeros((n, 1, 3, n_samples))
+    wind = np.zeros((n, 1, 3, n_samples))
+    kind, par, flux, cur, npts = _curve_arrays([circuit])
+    lam_n = circuit.nominal_flux_wb
+    g0, slope, kh, ke = ramp
+    chunk = min(n, _SINGLE_UNIT_CHUNK)
+    scratch_3 = [np.zeros((chunk, 3, n_samples)) for _ in range(2)]
+    scratch_flux = np.zeros((chunk, 1, 3, n_samples))
+    scratch_mach = np.zeros((chunk, 2, n_samples))
+    failed = 0
+    for lo in range(0, n, chunk):
+        hi = min(n, lo + chunk)
+        m = hi - lo
+        src, m0 = _machine.thevenin_pack(
+            np.ascontiguousarray(source_resistance_ohm[lo:hi], dtype=float),
+            np.ascontiguousarray(source_inductance_h[lo:hi], dtype=float),
+        )
+        failed += kernel.integrate(
+            n_steps, decimate, step_s, 2.0 * math.pi * circuit.frequency_hz, emf_peak_v,
+            np.ascontiguousarray(phase_rad[lo:hi], dtype=float), np.array([g0, slope]),
+            np.array([kh, ke], dtype=np.int64), src, m0, 0.0, 1.0, False,
+            np.array([CONNECTION_CODE[connection]], dtype=np.int64),
+            np.array([winding_resistance_ohm]), np.array([insertion_resistance_ohm]),
+            np.array([bypass_step], dtype=np.int64), kind, par, flux, cur, npts,
+            np.ascontiguousarray(close_step[lo:hi, None, :], dtype=np.int64),
+            np.ascontiguousarray(flux_wb[lo:hi, None, :], dtype=float), np.zeros((m, 3)),
+            np.array([NEWTON_TOLERANCE_PU * lam_n]), NEWTON_TOLERANCE_PU * lam_n,
+            scratch_3[0][:m], scratch_3[1][:m], line[lo:hi], wind[lo:hi], scratch_flux[:m],
+            scratch_mach[:m], np.zeros((m, 1)), bypass_step,
+            np.ascontiguousarray(substeps[lo:hi], dtype=np.int64),
+            kernel.RECORD_ALL, np.zeros(0, dtype=np.int64), np.zeros((0, 0, 3, kernel.NPEAK)),
+        )  # fmt: skip
+    if failed:
+        raise ParameterError(
+            "circuit",
+            f"{failed} flux solves without convergence",
+            f"a circuit on which Newton's method converges in {kernel.MAX_ITERATIONS} iterations",
+        )
+    return line[:, 0], wind[:, 0]

@@ -13,8 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from core import checks
-from core.energization import waveform
+from core import checks, waveform
 from core.errors import ParameterError
 
 FloatArray = npt.NDArray[np.float64]
@@ -111,7 +110,7 @@ def inrush_from_waveform(
     Notes
     -----
     With E(t) = ∫₀ᵗ i² (trapezoid, linear between samples) and T = 1/f: I_eq(t) = √(E/t)
-    (:func:`core.energization.waveform.equivalent_rms`); relay rms(t) = √((E(t) − E(t − T))/T), the
+    (:func:`core.waveform.equivalent_rms`); relay rms(t) = √((E(t) − E(t − T))/T), the
     window of a full-cycle numerical relay (common practice), zero current before t = 0; half-cycle
     rms alike with T/2; window I²t = max over t of E(t) − E(t − n·T/2). The peak is the largest
     |i| sample refined by a parabola through it and its neighbours.

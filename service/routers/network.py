@@ -12,8 +12,7 @@ import numpy as np
 from fastapi import APIRouter, Body
 from fastapi.responses import Response
 
-from core import cost
-from core.energization import waveform
+from core import cost, waveform
 from core.energization.switching_event import RESIDUAL_DEFAULT_SOURCE, switching_event
 from core.errors import ParameterError
 from core.network import Breaker, BusLoad, NetworkResult, Source, Unit, analysis, simulate_network

@@ -21,7 +21,8 @@ import time
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from core.energization import energize, waveform
+from core import waveform
+from core.energization import energize
 from core.transformer import circuit_model
 
 

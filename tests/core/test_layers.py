@@ -1,8 +1,10 @@
 """Imports inside core/ run one way: each domain package uses only the packages below it.
 
-The order (DEVELOPERS.md, Layout): ``core.errors`` and ``core.checks`` at the bottom, then
-``transformer``, ``energization``, ``protection`` beside ``network`` (neither imports the other),
-``supply`` (its dip runs on ``network``), ``statistics``, ``mitigation``; ``core.cost`` spans every
+The order (DEVELOPERS.md, Layout): ``core.errors`` at the bottom, ``core.checks`` and
+``core.waveform`` above it, then ``transformer``, ``network`` (the one time-domain solver),
+``energization`` (single-unit simulation and studies on it), ``protection`` beside ``supply``
+(neither imports the other; the dip runs on ``network``), ``statistics``, ``mitigation``;
+``core.cost`` spans every
 domain and sits on top. A
 module may always import its own package. No module imports a private name (``_foo``) from
 another module.
@@ -20,10 +22,11 @@ CORE = Path(__file__).resolve().parents[2] / "core"
 RANK = {
     "errors": 0,
     "checks": 1,
+    "waveform": 1,  # readings of a sampled current, used by energization, network, protection
     "transformer": 2,
-    "energization": 3,
-    "network": 4,  # above energization: its record readings use core.energization.waveform
-    "protection": 4,
+    "network": 3,  # the one time-domain solver
+    "energization": 4,  # above network: its single-unit simulation runs on core.network
+    "protection": 5,  # its study simulates through core.energization
     "supply": 5,  # above network: the dip family runs on core.network
     "statistics": 6,
     "mitigation": 7,

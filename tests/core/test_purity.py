@@ -23,7 +23,7 @@ def test_core_modules_are_found() -> None:
         "energization/energize.py",
         "transformer/magnetizing.py",
         "transformer/circuit_model.py",
-        "energization/waveform.py",
+        "waveform.py",
     } <= names
 
 

@@ -17,7 +17,7 @@ largest of 256 points per piece. Kirchhoff's laws, per connection (winding curre
   K (e - R_s*i - L_s*i') = R_w*c + lambda' (KVL around each winding and its two lines).
 
 Measured (worst of the first ten per-cycle peaks, relative to the first peak): before, with
-the parabola through 128 samples per cycle (core.energization.waveform.cycle_peaks), grounded wye
+the parabola through 128 samples per cycle (core.waveform.cycle_peaks), grounded wye
 3.7e-6, floating neutral 2.2e-3 (ideal source) and 1.6e-3 (20 MVA), delta 2.4e-4 (20 MVA); read
 exactly (core.energization.peaks) 3.7e-6, 6.3e-6, 4.3e-6, 4.2e-6 and 4.6e-6 (delta, 250 MVA, 40
 degrees), the solver's own error at 128 steps per cycle; of a small late peak the parabola erred by
@@ -36,7 +36,8 @@ from numpy.typing import NDArray
 from scipy.integrate import solve_ivp
 from scipy.optimize import minimize_scalar
 
-from core.energization import closed_form, energize, peaks, waveform
+from core import waveform
+from core.energization import closed_form, energize, peaks
 from core.transformer import circuit_model, magnetizing
 
 Array = NDArray[np.float64]

@@ -10,7 +10,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from core.energization import energize, waveform
+from core import waveform
+from core.energization import energize
 from core.transformer import circuit_model
 
 F_HZ = 60.0

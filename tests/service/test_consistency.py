@@ -8,10 +8,13 @@ The same unit, source, closing angle and residual flux (0.8, -0.4, -0.4 pu) go t
 
 References, and how independent each is:
 
-- Two solvers. The single-unit kernels (core.energization.energize.simulate) behind peak,
-  envelope, batch, the sheet, clearance and mitigation; the network kernel (core.network) behind
-  network-energization, its statistics and the dip. They are separate implementations; their
-  waveforms agree to ~1e-11, each checked against scipy's integrators in tests/references/.
+- One solver. Every operation here simulates on the network kernel (core.network): peak,
+  envelope, batch, the sheet, clearance and mitigation through the single-unit entry
+  core.energization.energize.simulate (one unit on a Thevenin source), network-energization,
+  its statistics and the dip through simulate_network. The two entries build the same network
+  in different code (one unit and its per-case inputs, or units and breakers), so their
+  waveforms agree to rounding, ~1e-11; the solver is checked against scipy's integrators in
+  tests/references/.
 - Three peak readings. /v1/inrush/peak, its batch, the envelope and the sheet read each peak
   exactly (re-integrating around the largest sample on a finer step): one reading, so 1e-9.
   Clearance, the mitigation baseline and every network-solver operation read the parabola
@@ -20,8 +23,8 @@ References, and how independent each is:
   are measured at most 2.7e-7 apart (first peaks) and 8.1e-7 (later per-cycle peaks) over this
   family, so the tolerance across readings is a little above that, and far below what a
   different source, angle or residual flux moves a peak (percent).
-- Same reading on both solvers (clearance against the network; I_eq, an integral of the samples
-  with no peak reading at all): the solvers' own agreement, so 1e-9.
+- Same reading through both entries (clearance against the network; I_eq, an integral of the samples
+  with no peak reading at all): the entries' own agreement, so 1e-9.
 
 A generator whose EMF cannot change is not expressible over HTTP: /v1/generator-dip requires
 x_d2_pu < x_d1_pu < x_d_pu strictly (equal reactances would freeze the EMF), and long time
@@ -56,12 +59,12 @@ SOURCES = {"fault_level": FAULT_LEVEL, "impedance": IMPEDANCE}
 CONNECTIONS = ("wye_grounded", "wye", "delta")
 ANGLES_DEG = (0.0, 75.0)
 
-# One reading of one waveform, or one solver's samples read the same way.
+# One reading of one waveform, or the solver's samples read the same way through either entry.
 SAME = 1e-9
 # The exact reading against the parabola through 128 samples a cycle, measured over this family:
 # at most 2.68e-7 on a first peak (delta, 40 MVA X/R 3, 75 deg) and 8.10e-7 on a later per-cycle
 # peak (floating wye, 40 MVA X/R 3, 0 deg, the sixth cycle). The tolerances sit just above; a
-# solver or model difference (source, angle, residual flux) moves a peak by percent.
+# model difference (source, angle, residual flux) moves a peak by percent.
 FIRST_PEAK_READING = 4e-7
 CYCLE_PEAK_READING = 1e-6
 
@@ -231,9 +234,9 @@ def test_exact_peak_readings_agree(
 def test_clearance_reads_the_parabola_of_the_same_waveform(
     case: Case, post: Callable[[str, dict[str, Any]], Any]
 ) -> None:
-    """/v1/clearance at the given angle: the single-unit kernel read by the parabola through the
-    samples. Against /v1/inrush/peak (same kernel, exact reading): within the readings' spread.
-    Against /v1/network-energization (the other solver, the same parabola reading): 1e-9."""
+    """/v1/clearance at the given angle: the single-unit entry read by the parabola through the
+    samples. Against /v1/inrush/peak (same entry, exact reading): within the readings' spread.
+    Against /v1/network-energization (the network entry, the same parabola reading): 1e-9."""
     body = _study(case) | {
         "devices": [RING_RELAY],
         "options": {"closing": "given", "duration_s": 0.15, "coordination_window": False},
@@ -251,8 +254,8 @@ def test_network_solver_operations_agree(
     case: Case, post: Callable[[str, dict[str, Any]], Any]
 ) -> None:
     """Network energisation of one unit, its statistics with nothing left to draw, and the dip
-    with a utility feeder: one network kernel and one reading, so 1e-9 among them. Against the
-    single-unit operations (an independent solver) within the readings' spread on peaks, and
+    with a utility feeder: one entry and one reading, so 1e-9 among them. Against the
+    single-unit operations (the single-unit entry) within the readings' spread on peaks, and
     1e-9 on I_eq (an integral of the samples: no peak reading)."""
     net = post("/v1/network-energization", _network(case))
     cur = net["units"][0]["current"]
@@ -293,7 +296,7 @@ def test_network_solver_operations_agree(
         assert util["inrush_peak_a"] == pytest.approx(want, rel=SAME)
         assert util["dip_percent"] == pytest.approx(dip["dip_percent"], rel=SAME)
 
-    # against the single-unit solver read exactly
+    # against the single-unit entry read exactly
     peak = post("/v1/inrush/peak", _study(case) | {"method": "simulated"})
     assert want == pytest.approx(peak["first_peak_a"], rel=FIRST_PEAK_READING)
     # one nameplate, one rated current S/(sqrt(3)*V_LL) behind every x_rated

@@ -10,7 +10,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core.energization import closed_form, energize, waveform
+from core import waveform
+from core.energization import closed_form, energize
 from core.errors import ParameterError
 from core.transformer import circuit_model, magnetizing
 

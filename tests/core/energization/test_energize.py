@@ -15,8 +15,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core.energization import closed_form, energize, waveform
+from core import waveform
+from core.energization import closed_form, energize
 from core.errors import LimitError, ParameterError
+from core.network import solver
 from core.transformer import circuit_model, magnetizing
 
 F_HZ = 60.0
@@ -146,15 +148,16 @@ def test_pole_delay_keeps_a_phase_at_zero_until_it_closes() -> None:
         assert np.all(np.abs(sim.line_current_a[0, k, after][:5]) > 0.0)
 
 
-def test_delta_winding_waits_for_both_of_its_poles() -> None:
-    # winding ab is energised by poles a and b: with b late, ab carries no current until then
+def test_delta_with_one_pole_open_carries_the_series_path() -> None:
+    # pole b late: terminal b floats, so by Kirchhoff's current law there (line b carries
+    # nothing) windings ab and bc carry one current in series across lines c-a, beside ca
     circuit = _demo_unit("delta", 13.8e3, "outer")
     sim = energize.simulate(circuit, 0.0, 0.0, (0.0, 5e-3, 0.0), duration_s=2.0 / F_HZ)
     t_b = sim.pole_delay_s[0, 1]
     early = sim.time_s < t_b - 1e-12
     ab, bc, ca = sim.winding_current_a[0]
-    assert np.all(ab[early] == 0.0)
-    assert np.all(bc[early] == 0.0)
+    np.testing.assert_allclose(ab[early], bc[early], rtol=0.0, atol=1e-9 * np.abs(ca).max())
+    assert np.any(ab[early] != 0.0)
     assert np.any(ca[early] != 0.0)  # poles c and a closed at t = 0
     assert np.all(sim.line_current_a[0, 1, early] == 0.0)  # line b: open pole, no current
 
@@ -197,18 +200,17 @@ def test_grounded_wye_phases_are_independent_single_phase_circuits() -> None:
 @pytest.mark.parametrize(
     ("connection", "r_source_ohm"),
     [("delta", 0.1), ("delta", 0.0), ("wye", 0.1)],
-    ids=["delta-coupled-kernel", "delta-ideal-source-kernel", "wye"],
+    ids=["delta-resistive-source", "delta-ideal-source", "wye"],
 )
 def test_a_vanishing_source_inductance_is_the_limit_of_a_small_one(
     connection: str, r_source_ohm: float
 ) -> None:
-    # Limiting case L_s -> 0: the loop-flux state psi = lambda + L_s*M*c (delta; wye:
-    # lambda_k + L_s*i_k) becomes lambda and the flux solve becomes the identity, so
-    # L_s = 1e-12 H must give what L_s = 0 gives. For the delta with R_s = 0 the L_s = 0 case
-    # takes the independent-winding kernel (each winding on its line-to-line voltage) and the
-    # 1e-12 H case the coupled one, so this also ties the two kernels together. The physical
-    # difference is ~L_s/L_air ~ 1e-11 of the current and the flux solve stops at 1e-12 pu;
-    # measured 2.8e-11 of the peak at most, so 1e-9 of the peak leaves ample margin.
+    # Limiting case L_s -> 0: the loop-flux states (lambda plus the source-inductor flux)
+    # become lambda and the bus solve disappears, so L_s = 1e-9 H must give what L_s = 0 gives
+    # but for the physical difference, ~L_s/L_air ~ 2e-8 of the current; measured 5.2e-7 of
+    # the peak at most (delta, staggered poles), so 2e-6 of the peak. (Much smaller L_s is
+    # outside what the bus solve resolves: it recovers the source current as Phi/L_s, whose
+    # error is its tolerance on Phi over L_s, 5e-4 of the peak at 1e-12 H.)
     circuit = _demo_unit(connection, 13.8e3, "outer")
     residual = np.array([0.8, -0.4, -0.4])
     sims = [
@@ -221,11 +223,11 @@ def test_a_vanishing_source_inductance_is_the_limit_of_a_small_one(
             (0.0, 1.3e-3, 2.9e-3),
             duration_s=3.0 / F_HZ,
         )
-        for ls in (0.0, 1e-12)
+        for ls in (0.0, 1e-9)
     ]
     exact, tiny = (s.line_current_a for s in sims)
     assert np.max(np.abs(exact)) > 2.0 * circuit.rated_line_current_a  # real inrush
-    np.testing.assert_allclose(tiny, exact, rtol=0.0, atol=1e-9 * np.max(np.abs(exact)))
+    np.testing.assert_allclose(tiny, exact, rtol=0.0, atol=2e-6 * np.max(np.abs(exact)))
 
 
 # ------------------------------------------------------------------ properties
@@ -806,7 +808,7 @@ def test_a_resistor_too_large_to_integrate_is_named() -> None:
         insertion_time_s=0.01,
     )  # fmt: skip
     assert ok.steps_per_cycle == SPC
-    assert 1 < ok.insertion_substeps[0] * ok.steps_per_cycle <= energize.MAX_STEPS_PER_CYCLE
+    assert 1 < ok.insertion_substeps[0] * ok.steps_per_cycle <= solver.MAX_STEPS_PER_CYCLE
     with pytest.raises(ParameterError) as info:
         energize.simulate(
             wye, 0.0, 0.5, duration_s=0.05, insertion_resistance_ohm=1.01 * limit,
@@ -824,7 +826,7 @@ def test_simulation_shapes_and_time_axis() -> None:
     assert sim.line_current_a.shape == (2, 3, 2 * 32 + 1)
     assert sim.winding_current_a.shape == (2, 3, 2 * 32 + 1)
     np.testing.assert_allclose(np.diff(sim.time_s), 1.0 / (F_HZ * 32), rtol=1e-12)
-    assert sim.steps_per_cycle >= energize.MIN_STEPS_PER_CYCLE
+    assert sim.steps_per_cycle >= solver.MIN_STEPS_PER_CYCLE
     assert any("independent" in a for a in sim.approximations)
 
 

@@ -1,9 +1,10 @@
 """Analysis of a sampled inrush current: per-cycle peaks, decay, rms over time, harmonics.
 
 Every function takes currents sampled uniformly from t = 0 with a whole number of samples per
-cycle of the power frequency, as :func:`core.energization.energize.simulate` returns them, with time
-on the last axis; leading axes (cases, phases) are carried through. Cycle n covers
-[n*T, (n+1)*T) with T = 1/f, counted from the closing command.
+cycle of the power frequency, as :func:`core.energization.energize.simulate` and
+:func:`core.network.simulate_network` return them, with time on the last axis; leading axes
+(cases, phases) are carried through. Cycle n covers [n*T, (n+1)*T) with T = 1/f, counted from
+the closing command.
 """
 
 from __future__ import annotations

@@ -1,4 +1,4 @@
-"""Tests of core.energization.waveform on synthetic signals whose answers are known in closed
+"""Tests of core.waveform on synthetic signals whose answers are known in closed
 form."""
 
 from __future__ import annotations
@@ -8,7 +8,7 @@ import math
 import numpy as np
 import pytest
 
-from core.energization import waveform
+from core import waveform
 from core.errors import ParameterError
 
 F_HZ = 60.0
