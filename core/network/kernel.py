@@ -7,7 +7,10 @@ psi_L of each bus-load phase; at every Runge-Kutta stage the source-inductor flu
 Phi = L_s*i_s follow from Kirchhoff's current law at the bus by Newton's method on the 3-vector
 Phi (each unit contributing its own 3x3 block, so one iteration costs O(n_units)), and each unit
 with a floating node (the neutral of an ungrounded wye, the terminal of a delta whose pole is
-still open) solves one monotone scalar equation for that node's flux.
+still open) solves one monotone scalar equation for that node's flux. Where every curve is
+piecewise linear the stage starts with the Newton step from the previous stage's accepted point
+on the pieces held there (affine in Phi and in the loop fluxes, so no curve evaluation is
+needed) and accepts it when the one evaluation at that Phi finds every winding on those pieces.
 
 Compiled with numba (``cache=True``). Everything the kernel inlines is defined in this file:
 numba keys its cache by the file of the cached function only.
@@ -70,7 +73,7 @@ NPEAK = 4
 # the algebra was split into array-taking helpers.
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _curve_seg_s(
     lam: float, kd: int, p0: float, p1: float, p2: float, p3: float, p4: float
 ) -> tuple[float, float, int]:  # pragma: no cover - compiled
@@ -96,7 +99,7 @@ def _curve_seg_s(
     return (i if lam >= 0.0 else -i), d, seg
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _curve_s(
     lam: float, kd: int, p0: float, p1: float, p2: float, p3: float, p4: float
 ) -> tuple[float, float]:  # pragma: no cover - compiled
@@ -105,7 +108,7 @@ def _curve_s(
     return i, d
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _curve_seg_table(
     lam: float, flux: FloatArray, cur: FloatArray, u: int, top: int, final: float
 ) -> tuple[float, float, int]:  # pragma: no cover - compiled
@@ -131,7 +134,7 @@ def _curve_seg_table(
     return (i if lam >= 0.0 else -i), d, (seg if lam >= 0.0 else -seg)
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _curve_table(
     lam: float, flux: FloatArray, cur: FloatArray, u: int, top: int, final: float
 ) -> tuple[float, float]:  # pragma: no cover - compiled
@@ -140,7 +143,7 @@ def _curve_table(
     return i, d
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _solve3(
     m00: float,
     m01: float,
@@ -163,7 +166,56 @@ def _solve3(
     return x0, x1, x2
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
+def _inverse3(
+    m00: float, m01: float, m02: float, m11: float, m12: float, m22: float
+) -> tuple[float, float, float, float, float, float]:  # pragma: no cover - compiled
+    # The six entries (00, 01, 02, 11, 12, 22) of m^-1 for a symmetric 3x3 m, by cofactors
+    c00 = m11 * m22 - m12 * m12
+    c01 = m12 * m02 - m01 * m22
+    c02 = m01 * m12 - m11 * m02
+    det = m00 * c00 + m01 * c01 + m02 * c02
+    return (
+        c00 / det,
+        c01 / det,
+        c02 / det,
+        (m00 * m22 - m02 * m02) / det,
+        (m02 * m01 - m00 * m12) / det,
+        (m00 * m11 - m01 * m01) / det,
+    )
+
+
+@numba.njit(cache=True, inline="always")
+def _line_change(
+    floating: bool,
+    delta: bool,
+    e0: float,
+    e1: float,
+    e2: float,
+    a0: float,
+    a1: float,
+    a2: float,
+    k0: float,
+    k1: float,
+    k2: float,
+) -> tuple[float, float, float]:  # pragma: no cover - compiled
+    # C D~ k: a unit's line currents' change for a change k of its loop fluxes at fixed Phi,
+    # D = diag(e) the slopes f', D~ = D - (D a)(D a)^T/(a^T D a) with a floating node of
+    # incidence a, C the winding-to-line incidence (the unit's closed poles S applied after)
+    y0, y1, y2 = e0 * k0, e1 * k1, e2 * k2
+    if floating:
+        den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
+        if den > 0.0:
+            f = (a0 * e0 * k0 + a1 * e1 * k1 + a2 * e2 * k2) / den
+            y0 -= a0 * e0 * f
+            y1 -= a1 * e1 * f
+            y2 -= a2 * e2 * f
+    if delta:
+        y0, y1, y2 = y0 - y2, y1 - y0, y2 - y1
+    return y0, y1, y2
+
+
+@numba.njit(cache=True, inline="always")
 def _source_scale(x: float, j: int, g0: float, slope: float, kh: int, ke: int) -> float:
     # EMF amplitude factor at step position x (in steps) of step j: the piece is the step's
     if j >= ke:
@@ -346,6 +398,26 @@ def integrate(
     inv_ll = 1.0 / l_l if has_load else 0.0
     failed = 0
     sq2 = math.sqrt(2.0)
+    # sin and cos of omega*t at every half step, the stage instants of an unsplit step, shared
+    # by the cases: by rotation through omega*h/2, exact every 64 half steps (a rotation adds
+    # about an ulp)
+    trig = np.empty((2 * n_steps + 3, 2))
+    chh = math.cos(0.5 * omega * h)
+    shh = math.sin(0.5 * omega * h)
+    ts = tc = 0.0
+    for m in range(2 * n_steps + 3):
+        if m % 64 == 0:
+            ts = math.sin(omega * (0.5 * m) * h)
+            tc = math.cos(omega * (0.5 * m) * h)
+        else:
+            ts, tc = ts * chh + tc * shh, tc * chh - ts * shh
+        trig[m, 0] = ts
+        trig[m, 1] = tc
+    # every curve piecewise linear: the stage algebra may start from the held pieces
+    linear = True
+    for u in range(n_units):
+        if kind[u] == 1:
+            linear = False
     for c in range(n_cases):
         r_s = src[c, RS]
         l_s = src[c, LS]
@@ -377,6 +449,8 @@ def integrate(
         segn = np.zeros((n_units, 3), dtype=np.int64)  # and at the trial
         segf = np.zeros(3, dtype=np.int64)  # at a floating node's previous iterate
         line = np.zeros((n_units, 3))
+        psa = np.zeros((n_units, 3))  # the loop fluxes and load fluxes at the accepted Phi
+        psa_l = np.zeros(3)
         r_now = np.zeros(n_units)
         phi = np.zeros(3)
         trial = np.zeros(3)
@@ -397,6 +471,11 @@ def integrate(
             l_l, kind, par, flux, cur, npts,
         )  # fmt: skip
         j00 = j01 = j02 = j11 = j12 = j22 = 0.0
+        # J^-1 (symmetric) and the residual R at the accepted Phi; held: the pieces there are
+        # linear and J, R, the pieces, psa and the units' lambda, c, f' are those of that point
+        v00 = v01 = v02 = v11 = v12 = v22 = 0.0
+        fr0 = fr1 = fr2 = 0.0
+        held = False
         x_trig = -1.0  # the stage instant of swt, cwt [steps]
         swt = cwt = 0.0
         stop = False  # RECORD_FIRST_PEAKS: the case's window and the sample after it are read
@@ -410,6 +489,7 @@ def integrate(
                     for k in range(3):
                         if close_step[c, u, k] == j:
                             pending = True
+            sample_step = j % decimate == 0 or j == n_steps
             nsub = sub[c] if (j < n_in and j < n_steps) else 1
             hh = h / nsub
             for sb in range(nsub):
@@ -425,13 +505,41 @@ def integrate(
                     tstep = 1.0
                     d0 = d1 = d2 = 0.0
                     converged = False
-                    for it in range(4 * MAX_ITERATIONS):
+                    pred = held and l_s > 0.0
+                    if pred:
+                        # R is affine in Phi and in the loop fluxes on the accepted point's
+                        # pieces: R(Phi; psi) = R_acc + J*(Phi - Phi_acc) - sum S C D~ dpsi -
+                        # dpsi_L/L_L, so the Newton step from the accepted point with the new
+                        # psi needs no curve evaluation; the evaluation at the trial checks
+                        # the pieces (each floating node's sigma predicted likewise)
+                        b0 = fr0 - (psi_l[0] - psa_l[0]) * inv_ll
+                        b1 = fr1 - (psi_l[1] - psa_l[1]) * inv_ll
+                        b2 = fr2 - (psi_l[2] - psa_l[2]) * inv_ll
+                        for u in range(n_units):
+                            md = mode[u]
+                            if md == 0:
+                                continue
+                            y0, y1, y2 = _line_change(
+                                md == 2, conn[u] == DELTA, dw[u, 0], dw[u, 1], dw[u, 2],
+                                avec[u, 0], avec[u, 1], avec[u, 2], psi[u, 0] - psa[u, 0],
+                                psi[u, 1] - psa[u, 1], psi[u, 2] - psa[u, 2],
+                            )  # fmt: skip
+                            b0 -= y0 if closed[u, 0] else 0.0
+                            b1 -= y1 if closed[u, 1] else 0.0
+                            b2 -= y2 if closed[u, 2] else 0.0
+                        trial[0] = phi[0] - (v00 * b0 + v01 * b1 + v02 * b2)
+                        trial[1] = phi[1] - (v01 * b0 + v11 * b1 + v12 * b2)
+                        trial[2] = phi[2] - (v02 * b0 + v12 * b1 + v22 * b2)
+                    newton = 0  # evaluations of the Newton iteration proper
+                    for _it in range(4 * MAX_ITERATIONS):
                         r0 = r1 = r2 = 0.0  # sum of the line currents into the units
                         g00 = g01 = g02 = g11 = g12 = g22 = 0.0
                         bad = 0
                         # every winding on the linear piece of the accepted point's: the full
                         # Newton step from there solved KCL exactly (the system is linear between)
-                        same = it > 0 and tstep == 1.0
+                        same = pred or (newton > 0 and tstep == 1.0)
+                        if not pred:
+                            newton += 1
                         for u in range(n_units):
                             md = mode[u]
                             if md == 0:
@@ -456,7 +564,25 @@ def integrate(
                                 xs[1] = psi[u, 1] - q1
                                 xs[2] = psi[u, 2] - q2
                             s = 0.0
-                            if md == 2:
+                            if md == 2 and pred:
+                                # sigma on the held pieces: sum_k a_k*(c_k + f'_k*(x_k + a_k*s -
+                                # lambda_k)) = q, exact where the evaluation below finds them
+                                s = sig[u]
+                                num = q[u]
+                                den = 0.0
+                                for k in range(3):
+                                    ak = avec[u, k]
+                                    if ak != 0.0:
+                                        num -= ak * (
+                                            cw[u, k] + dw[u, k] * (xs[k] + ak * s - lam[u, k])
+                                        )
+                                        den += ak * ak * dw[u, k]
+                                if den > 0.0:
+                                    s += num / den
+                                else:
+                                    same = False
+                                sig[u] = s
+                            elif md == 2:
                                 # floating node: sum_k a_k*f(x_k + a_k*s) = q, increasing in s
                                 s = sig[u]
                                 lo = -math.inf
@@ -557,7 +683,22 @@ def integrate(
                             # the Jacobian at trial is the accepted point's, bit for bit
                             phi[0], phi[1], phi[2] = trial[0], trial[1], trial[2]
                             converged = True
+                            if linear:
+                                held = True
+                                fr0 = trial[0] / l_s - r0 - i_l[0]
+                                fr1 = trial[1] / l_s - r1 - i_l[1]
+                                fr2 = trial[2] / l_s - r2 - i_l[2]
+                                for u in range(n_units):
+                                    for k in range(3):
+                                        psa[u, k] = psi[u, k]
+                                for k in range(3):
+                                    psa_l[k] = psi_l[k]
                             break
+                        if pred:
+                            # a winding left its piece: Newton's method from the accepted point
+                            pred = False
+                            trial[0], trial[1], trial[2] = phi[0], phi[1], phi[2]
+                            continue
                         # G = sum over the units of S C D~ C^T S, D~ = D - (D a)(D a)^T/(a^T D a)
                         for u in range(n_units):
                             md = mode[u]
@@ -615,9 +756,18 @@ def integrate(
                         j00, j11, j22 = diag + g00, diag + g11, diag + g22
                         j01, j02, j12 = g01, g02, g12
                         d0, d1, d2 = _solve3(j00, j01, j02, j11, j12, j22, f0, f1, f2)
+                        v00, v01, v02, v11, v12, v22 = _inverse3(j00, j01, j02, j11, j12, j22)
+                        fr0, fr1, fr2 = f0, f1, f2
                         if max(abs(d0), abs(d1), abs(d2)) <= tol_phi or norm == 0.0:
                             failed += bad
                             converged = True
+                            if linear and bad == 0:
+                                held = True
+                                for u in range(n_units):
+                                    for k in range(3):
+                                        psa[u, k] = psi[u, k]
+                                for k in range(3):
+                                    psa_l[k] = psi_l[k]
                             break
                         tstep = 1.0
                         trial[0] = phi[0] - d0
@@ -640,12 +790,17 @@ def integrate(
                             conn, closed, on, avec, mode, lam, cw, line, sig, q, psi, phi, psi_l,
                             i_l, l_s, l_l, kind, par, flux, cur, npts,
                         )  # fmt: skip
+                        held = False
                         continue
                     # ---- derivatives: KVL around every loop ----
                     gsc = _source_scale(x_st, j, g0, slope, kh, ke)
-                    if x_st != x_trig:
-                        # the two middle stages, and a step's end and the next one's start, are
-                        # the same instant: its sine and cosine are computed once
+                    if nsub == 1:
+                        m = 2 * j + (0 if st == 0 else (2 if st == 3 else 1))
+                        swt = trig[m, 0]
+                        cwt = trig[m, 1]
+                    elif x_st != x_trig:
+                        # the two middle stages, and a sub-step's end and the next one's start,
+                        # are the same instant: its sine and cosine are computed once
                         x_trig = x_st
                         wt = omega * x_st * h
                         swt = math.sin(wt)
@@ -684,7 +839,7 @@ def integrate(
                             else:
                                 kpsi[u, k] = drv[k] - rw * cw[u, k]
                     # ---- bus voltage, regulator, outputs at the sample instants ----
-                    sample = st == 0 and sb == 0 and (j % decimate == 0 or j == n_steps)
+                    sample = st == 0 and sb == 0 and sample_step
                     v0 = v1 = v2 = 0.0
                     if (sample and record != RECORD_FIRST_PEAKS) or avr:
                         # bus voltage v = e - R_s*i_s - Phi', J*Phi' = sum S C D~ psi' + psi_L'/L_L
@@ -697,23 +852,17 @@ def integrate(
                                 md = mode[u]
                                 if md == 0:
                                     continue
-                                e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
-                                k0, k1, k2 = kpsi[u, 0], kpsi[u, 1], kpsi[u, 2]
-                                y0, y1, y2 = e0 * k0, e1 * k1, e2 * k2
-                                if md == 2:
-                                    a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
-                                    den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
-                                    if den > 0.0:
-                                        f = (a0 * e0 * k0 + a1 * e1 * k1 + a2 * e2 * k2) / den
-                                        y0 -= a0 * e0 * f
-                                        y1 -= a1 * e1 * f
-                                        y2 -= a2 * e2 * f
-                                if conn[u] == DELTA:
-                                    y0, y1, y2 = y0 - y2, y1 - y0, y2 - y1
+                                y0, y1, y2 = _line_change(
+                                    md == 2, conn[u] == DELTA, dw[u, 0], dw[u, 1], dw[u, 2],
+                                    avec[u, 0], avec[u, 1], avec[u, 2], kpsi[u, 0], kpsi[u, 1],
+                                    kpsi[u, 2],
+                                )  # fmt: skip
                                 b0 += y0 if closed[u, 0] else 0.0
                                 b1 += y1 if closed[u, 1] else 0.0
                                 b2 += y2 if closed[u, 2] else 0.0
-                            p0, p1, p2 = _solve3(j00, j01, j02, j11, j12, j22, b0, b1, b2)
+                            p0 = v00 * b0 + v01 * b1 + v02 * b2
+                            p1 = v01 * b0 + v11 * b1 + v12 * b2
+                            p2 = v02 * b0 + v12 * b1 + v22 * b2
                         v0 = e[0] - r_s * i_s[0] - p0
                         v1 = e[1] - r_s * i_s[1] - p1
                         v2 = e[2] - r_s * i_s[2] - p2

@@ -3,8 +3,11 @@
     python tests/benchmarks/bench_network.py [--cases 200] [--cycles 10] [--samples 10000]
 
 1. One unit on a Thevenin source, each connection, a batch of cases (closing angles spread over
-   a cycle, residual flux 0.8/-0.4/-0.4 pu): core.network.simulate_network against
-   core.energize.simulate on the same cases, the baseline measured in this run.
+   a cycle, residual flux 0.8/-0.4/-0.4 pu), then one case alone: core.network.simulate_network
+   against core.energize.simulate on the same cases, the baseline measured in this run. Both
+   use the cores for a batch (energize spreads its windings with numba's prange, the network
+   solver its cases over threads, core.network.solver.case_chunks); a single case runs on one
+   core in both, so that line compares the per-case cost and the Python set-up around it.
 2. Cost against the number of units: 1, 4, 16 and 64 units (grounded wye, delta and floating
    wye in turn, one in service for every four, the rest energised at t = 0) on one bus with a
    load, behind a 50 MVA source; time per unit-step relative to the single unit's, which
@@ -231,6 +234,7 @@ def main() -> None:
     parser.add_argument("--events", type=int, default=200)
     args = parser.parse_args()
     single_unit(args.cases, args.cycles)
+    single_unit(1, args.cycles)
     scaling(args.cycles)
     statistics(args.samples, args.events)
 

@@ -246,6 +246,41 @@ def test_cost_grows_with_units_not_faster() -> None:
     )
 
 
+@pytest.mark.parametrize("threads", [2, 3])
+def test_chunked_cases_are_bit_identical(monkeypatch: pytest.MonkeyPatch, threads: int) -> None:
+    # a batch split over threads gives every case exactly what it gives alone: the cases are
+    # integrated independently, so chunking must not move a single bit (this module's
+    # requirement of core.network.solver.case_chunks)
+    import numba
+
+    from core.network import solver
+
+    monkeypatch.setattr(solver, "PARALLEL_MIN_CHUNK_STEPS", 1)
+    monkeypatch.setattr(numba.config, "NUMBA_NUM_THREADS", threads)
+    src = _thevenin(_circuit("delta"))
+    angles = np.array([0.0, 40.0, 95.0, 170.0, 250.0])
+    poles = np.array([[0.0, 0.002, 0.004], [0.001, 0.0, 0.0], [0.0] * 3, [0.003] * 3, [0.0] * 3])
+    units = [
+        Unit(_circuit("wye"), breaker=Breaker(poles), residual_flux_pu=[0.7, -0.3, -0.4]),
+        Unit(_circuit("delta", 0.5e6), residual_flux_pu=[-0.5, 0.6, -0.1]),
+        Unit(_circuit("wye_grounded", 0.5e6), in_service=True),
+    ]
+    load = BusLoad.from_power(V_LL, F, 1e6, 0.5e6)
+    assert len(solver.case_chunks(angles.size, 10**6)) == threads
+    batch = simulate_network(src, units, closing_angle_deg=angles, duration_s=0.04, load=load)
+    for k, angle in enumerate(angles):
+        alone_units = [
+            Unit(units[0].circuit, breaker=Breaker(poles[k]), residual_flux_pu=[0.7, -0.3, -0.4]),
+            units[1],
+            units[2],
+        ]
+        alone = simulate_network(
+            src, alone_units, closing_angle_deg=angle, duration_s=0.04, load=load
+        )
+        for name in ("source_current_a", "bus_voltage_v", "line_current_a", "flux_linkage_wb"):
+            assert np.array_equal(getattr(batch, name)[k], getattr(alone, name)[0]), name
+
+
 @pytest.mark.parametrize(
     ("kwargs", "name"),
     [
