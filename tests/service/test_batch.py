@@ -43,7 +43,9 @@ def test_domain_error_is_per_item(client: TestClient) -> None:
     good = {**PEAK_REQUESTS["northgate_lighting"], "method": "analytic"}
     body = client.post(URL, json={"cases": [bad, good]}).json()
     assert [r["status"] for r in body["results"]] == [422, 200]
-    assert body["results"][0]["problem"]["errors"][0]["field"] == "saturated_inductance_h"
+    assert body["results"][0]["problem"]["errors"][0]["field"] == (
+        "circuit.magnetizing.saturated_inductance_h"
+    )
 
 
 def test_too_many_cases_is_a_limit_problem(
