@@ -24,18 +24,22 @@ os.environ.setdefault("FIRSTCYCLE_WARMUP", "false")
 os.environ.setdefault("FIRSTCYCLE_REQUEST_DEADLINE_S", "3600")
 
 
-# The longest files, started first. .ci/check runs `--dist loadfile --no-loadscope-reorder`, so
-# pytest-xdist hands the files to its two workers in this order, the rest in collection order
+# The longest files, started first, longest first (measured with --durations on the 2-core
+# machine: the scipy references of the solver and of the generator, the live-server schemathesis
+# run, the service's consistency checks). .ci/check runs `--dist loadfile --no-loadscope-reorder`,
+# so pytest-xdist hands the files to its two workers in this order, the rest in collection order
 # after them; a long file left to the end keeps one worker busy while the other idles (xdist's
 # default orders files by their number of tests, which put the one-test live-server fuzz last).
 # Only the order changes: every test still runs.
 FIRST = (
-    "tests/contract/test_live_server.py",
-    "tests/contract/test_fuzz.py",
-    "tests/service/test_consistency.py",
     "tests/references/test_solver_vs_scipy.py",
+    "tests/contract/test_live_server.py",
     "tests/references/test_generator_references.py",
+    "tests/service/test_consistency.py",
+    "tests/references/test_machine_vs_scipy.py",
     "tests/contract/test_generated_client.py",
+    "tests/service/test_warmup.py",
+    "tests/contract/test_fuzz.py",
 )
 
 
