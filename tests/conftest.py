@@ -9,6 +9,7 @@ import sys
 import time
 import urllib.request
 from collections.abc import Iterator
+from pathlib import Path
 
 import pytest
 
@@ -21,6 +22,34 @@ os.environ.setdefault("FIRSTCYCLE_WARMUP", "false")
 # answer 503. The deadline is lifted for every app the tests build; the deadline itself is
 # tested with its own setting in tests/service/test_bounded_work.py.
 os.environ.setdefault("FIRSTCYCLE_REQUEST_DEADLINE_S", "3600")
+
+
+# The longest files, started first, longest first (measured with --durations on the 2-core
+# machine: the scipy references of the solver and of the generator, the live-server schemathesis
+# run, the service's consistency checks). .ci/check runs `--dist loadfile --no-loadscope-reorder`,
+# so pytest-xdist hands the files to its two workers in this order, the rest in collection order
+# after them; a long file left to the end keeps one worker busy while the other idles (xdist's
+# default orders files by their number of tests, which put the one-test live-server fuzz last).
+# Only the order changes: every test still runs.
+FIRST = (
+    "tests/references/test_solver_vs_scipy.py",
+    "tests/contract/test_live_server.py",
+    "tests/references/test_generator_references.py",
+    "tests/service/test_consistency.py",
+    "tests/references/test_machine_vs_scipy.py",
+    "tests/contract/test_generated_client.py",
+    "tests/service/test_warmup.py",
+    "tests/contract/test_fuzz.py",
+)
+
+
+def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
+    rank = {path: n for n, path in enumerate(FIRST)}
+
+    def key(item: pytest.Item) -> int:
+        return rank.get(Path(item.path).relative_to(config.rootpath).as_posix(), len(FIRST))
+
+    items.sort(key=key)  # stable: each file's tests, and the other files, keep their order
 
 
 def _free_port() -> int:
