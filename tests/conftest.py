@@ -35,6 +35,7 @@ FIRST = (
     "tests/references/test_solver_vs_scipy.py",
     "tests/contract/test_live_server.py",
     "tests/references/test_generator_references.py",
+    "tests/references/test_solver_vs_scipy_substeps.py",
     "tests/service/test_consistency.py",
     "tests/references/test_machine_vs_scipy.py",
     "tests/contract/test_generated_client.py",
