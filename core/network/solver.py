@@ -92,7 +92,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -116,9 +116,12 @@ __all__ = [
     "BusLoad",
     "NetworkResult",
     "Source",
+    "StepGrid",
     "Unit",
+    "WindowRecord",
     "insertion_substeps",
     "simulate_network",
+    "simulate_windows",
     "step_plan",
 ]
 
@@ -354,6 +357,47 @@ class NetworkResult:
     emf_pu: FloatArray = field(default_factory=lambda: np.ones((0, 0)))
     field_voltage_pu: FloatArray = field(default_factory=lambda: np.ones((0, 0)))
     insertion_energy_j: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
+    grid: StepGrid | None = None
+
+
+@dataclass(frozen=True)
+class StepGrid:
+    """What a restart of a run from one of its samples needs beside the recorded states.
+
+    Attributes
+    ----------
+    step_s : float
+        Internal step h [s].
+    decimate : int
+        Internal steps per output sample [-].
+    phase_rad : ndarray, shape (n_cases, 3)
+        Angle of each phase's EMF at t = 0 [rad].
+    source_columns : ndarray, shape (n_cases, kernel.NSRC)
+        The source's per-case parameters as the kernel takes them [-].
+    close_step : ndarray of int, shape (n_cases, n_units, 3)
+        Pole closings [steps] (<= 0: closed at t = 0).
+    bypass_step : ndarray of int, shape (n_units,)
+        Resistor bypass of each unit [steps] (0: none).
+    ramp : tuple of (float, float, int, int)
+        The EMF ramp: start [pu], slope [pu per step], end of the hold and of the rise [steps].
+    insertion_steps : int
+        Steps split into sub-steps while a resistor is in [steps].
+    substeps : ndarray of int, shape (n_cases,)
+        Sub-steps per such step [-].
+    machine_state_pu : ndarray, shape (n_cases, 4, n_samples)
+        The machine's E''_q, E_fd, E'_q and V_s at every sample (1 for a :class:`Source`) [pu].
+    """
+
+    step_s: float
+    decimate: int
+    phase_rad: FloatArray
+    source_columns: FloatArray
+    close_step: IntArray
+    bypass_step: IntArray
+    ramp: tuple[float, float, int, int]
+    insertion_steps: int
+    substeps: IntArray
+    machine_state_pu: FloatArray
 
 
 APPROXIMATIONS = (
@@ -790,10 +834,8 @@ def simulate_network(
         raise ParameterError("units", 0, "at least one unit")
     connections = [_check_unit(k, u, source) for k, u in enumerate(units)]
     if load is not None:
-        r_l = _finite("load.resistance_ohm", load.resistance_ohm, 0.0)
-        l_l = _finite("load.inductance_h", load.inductance_h, 0.0, low_open=True)
-    else:
-        r_l, l_l = 0.0, 1.0
+        _finite("load.resistance_ohm", load.resistance_ohm, 0.0)
+        _finite("load.inductance_h", load.inductance_h, 0.0, low_open=True)
     alpha = np.atleast_1d(np.asarray(closing_angle_deg, dtype=float))
     if alpha.ndim != 1 or not np.all(np.isfinite(alpha)):
         raise ParameterError("closing_angle_deg", "shape or value", "finite, scalar or 1-D")
@@ -861,6 +903,52 @@ def simulate_network(
     )
     if load is None:
         il0 = np.zeros((n, 3))
+    sub = np.ascontiguousarray(
+        np.broadcast_to(insertion_substeps(source, units, spc), (n,))
+        if substep_insertion
+        else np.ones(n, dtype=np.int64)
+    )
+    grid = StepGrid(
+        step_s=h,
+        decimate=decimate,
+        phase_rad=np.ascontiguousarray(phase),
+        source_columns=np.ascontiguousarray(src),
+        close_step=np.ascontiguousarray(close_step),
+        bypass_step=bypass,
+        ramp=(g0, slope, kh, ke),
+        insertion_steps=int(bypass.max()) if substep_insertion else 0,
+        substeps=sub,
+        machine_state_pu=np.zeros((n, 4, 0)),
+    )
+    return _run(source, units, connections, load, grid, n_steps, lam0, il0, m0, spc)[0]
+
+
+def _run(
+    source: Source | Machine,
+    units: Sequence[Unit],
+    connections: Sequence[str],
+    load: BusLoad | None,
+    grid: StepGrid,
+    n_steps: int,
+    lam0: FloatArray,
+    il0: FloatArray,
+    m0: FloatArray,
+    spc: int,
+) -> tuple[NetworkResult, FloatArray]:
+    """One kernel call from the given states at t = 0 on the given grid; the record and the
+    machine's four states at every sample."""
+    f = float(source.frequency_hz)
+    n = grid.phase_rad.shape[0]
+    n_units = len(units)
+    h, decimate = grid.step_s, grid.decimate
+    g0, slope, kh, ke = grid.ramp
+    bypass = grid.bypass_step
+    lam_n = np.array([u.circuit.nominal_flux_wb for u in units])
+    if load is not None:
+        r_l, l_l = load.resistance_ohm, load.inductance_h
+    else:
+        r_l, l_l = 0.0, 1.0
+        il0 = np.zeros((n, 3))
     kind, par, flux, cur, npts = _curve_arrays(units)
     n_samples = n_steps // decimate + 1
     out_src = np.zeros((n, 3, n_samples))
@@ -868,27 +956,22 @@ def simulate_network(
     out_line = np.zeros((n, n_units, 3, n_samples))
     out_wind = np.zeros((n, n_units, 3, n_samples))
     out_flux = np.zeros((n, n_units, 3, n_samples))
-    out_mach = np.zeros((n, 2, n_samples))
+    out_mach = np.zeros((n, 4, n_samples))
     out_energy = np.zeros((n, n_units))
     failed = kernel.integrate(
         n_steps, decimate, h, 2.0 * math.pi * f,
         math.sqrt(2.0) * source.line_voltage_v / math.sqrt(3.0),
-        np.ascontiguousarray(phase), np.array([g0, slope]), np.array([kh, ke], dtype=np.int64),
-        np.ascontiguousarray(src), np.ascontiguousarray(m0), r_l, l_l, load is not None,
+        grid.phase_rad, np.array([g0, slope]), np.array([kh, ke], dtype=np.int64),
+        grid.source_columns, np.ascontiguousarray(m0), r_l, l_l, load is not None,
         np.array([CONNECTION_CODE[c] for c in connections], dtype=np.int64),
         np.array([u.circuit.winding_resistance_ohm for u in units]),
         np.array([u.breaker.insertion_resistance_ohm for u in units]),
         bypass, kind, par, flux, cur, npts,
-        np.ascontiguousarray(close_step), np.ascontiguousarray(lam0),
+        grid.close_step, np.ascontiguousarray(lam0),
         np.ascontiguousarray(il0, dtype=float),
         NEWTON_TOLERANCE_PU * lam_n, NEWTON_TOLERANCE_PU * float(lam_n.min()),
         out_src, out_bus, out_line, out_wind, out_flux, out_mach, out_energy,
-        int(bypass.max()) if substep_insertion else 0,
-        np.ascontiguousarray(
-            np.broadcast_to(insertion_substeps(source, units, spc), (n,))
-            if substep_insertion
-            else np.ones(n, dtype=np.int64)
-        ),
+        grid.insertion_steps, grid.substeps,
     )  # fmt: skip
     if failed:
         raise ParameterError(
@@ -909,13 +992,162 @@ def simulate_network(
         flux_linkage_wb=out_flux,
         load_current_a=i_load if load is not None else np.zeros_like(out_src),
         steps_per_cycle=spc,
-        closing_time_s=close_step.astype(float) * h,
+        closing_time_s=grid.close_step.astype(float) * h,
         approximations=APPROXIMATIONS,
         emf_pu=out_mach[:, 0],
         field_voltage_pu=out_mach[:, 1],
         insertion_energy_j=out_energy
         * np.array([u.breaker.insertion_resistance_ohm for u in units]),
+        grid=replace(grid, machine_state_pu=out_mach),
+    ), out_mach
+
+
+@dataclass(frozen=True)
+class WindowRecord:
+    """Records of :func:`simulate_windows`, one case per window, every step a sample.
+
+    Attributes
+    ----------
+    time_s : ndarray, shape (n_samples,)
+        Instants from each window's start [s].
+    source_current_a, load_current_a : ndarray, shape (n_windows, 3, n_samples)
+        As in :class:`NetworkResult` [A].
+    line_current_a, flux_linkage_wb : ndarray, shape (n_windows, n_units, 3, n_samples)
+        As in :class:`NetworkResult` [A] [Wb-turn].
+    machine_state_pu : ndarray, shape (n_windows, 4, n_samples)
+        As in :class:`StepGrid` [pu].
+    """
+
+    time_s: FloatArray
+    source_current_a: FloatArray
+    load_current_a: FloatArray
+    line_current_a: FloatArray
+    flux_linkage_wb: FloatArray
+    machine_state_pu: FloatArray
+
+
+def _clamp(step: int, length: int) -> int:
+    # a switching instant relative to a window: before its start as at it, after its end as
+    # just after it (the window cannot tell them apart)
+    return min(max(step, 0), length + 1)
+
+
+def simulate_windows(
+    source: Source | Machine,
+    units: Sequence[Unit],
+    load: BusLoad | None,
+    grid: StepGrid,
+    case: IntArray,
+    start: IntArray,
+    scale: int,
+    n_steps: int,
+    flux_linkage_wb: FloatArray,
+    load_current_a: FloatArray,
+    machine_state_pu: FloatArray,
+) -> WindowRecord:
+    """Integrate the network again over short windows of a run, from given states, finer.
+
+    Parameters
+    ----------
+    source, units, load
+        The network of the run, as given to :func:`simulate_network` [-].
+    grid : StepGrid
+        The run's step grid (:attr:`NetworkResult.grid`) [-].
+    case : ndarray of int, shape (n_windows,)
+        The run's case of each window [-].
+    start : ndarray of int, shape (n_windows,)
+        Start of each window in steps of h/scale from the run's t = 0 [-].
+    scale : int
+        Steps of the windows per step of the run, >= 1 [-].
+    n_steps : int
+        Steps of each window (each a sample) [-].
+    flux_linkage_wb : ndarray, shape (n_windows, n_units, 3)
+        Winding fluxes at each window's start [Wb-turn].
+    load_current_a : ndarray, shape (n_windows, 3)
+        Load currents there [A].
+    machine_state_pu : ndarray, shape (n_windows, 4)
+        The machine's E''_q, E_fd, E'_q and V_s there (as :attr:`StepGrid.machine_state_pu`)
+        [pu].
+
+    Returns
+    -------
+    WindowRecord
+
+    Notes
+    -----
+    The state of the run at an instant is the winding fluxes lambda, the load currents, the
+    machine's four states and which poles are closed and resistors in: a restart from them
+    with the pole closings, the bypass, the EMF's phase and its ramp moved to the window's
+    start (t_k - t_0, on the finer step h/scale exactly, the run's instants being on its own
+    step) continues the same trajectory; the floating nodes' held currents are rebuilt from
+    lambda, which is Kirchhoff's current law there. Windows sharing the instants that matter to
+    them (a bypass, a ramp corner or the sub-stepping's end inside the window) run as the cases
+    of one kernel call.
+
+    References
+    ----------
+    The equations of this module's docstring; classical Runge-Kutta (Kutta 1901).
+    """
+    m = int(scale)
+    if m < 1:
+        raise ParameterError("scale", scale, "an integer >= 1")
+    connections = [u.connection or u.circuit.connection for u in units]
+    omega = 2.0 * math.pi * float(source.frequency_hz)
+    h = grid.step_s / m
+    g0, slope, kh, ke = grid.ramp
+    length = int(n_steps)
+    w_all = case.size
+    keys: dict[tuple[int, ...], list[int]] = {}
+    for w in range(w_all):
+        p0 = int(start[w])
+        byp = tuple(0 if b == 0 else _clamp(int(b) * m - p0, length) for b in grid.bypass_step)
+        if g0 == 1.0:
+            rk: tuple[int, int] = (0, 0)
+        else:
+            a, b = int(kh) * m - p0, int(ke) * m - p0
+            rk = (0, 0) if b <= 0 else ((length + 1, length + 1) if a > length else (a, b))
+        n_in = _clamp(grid.insertion_steps * m - p0, length) if grid.insertion_steps else 0
+        keys.setdefault((*byp, *rk, n_in), []).append(w)
+    n_samples = length + 1
+    n_units = len(units)
+    out = WindowRecord(
+        time_s=np.arange(n_samples, dtype=float) * h,
+        source_current_a=np.zeros((w_all, 3, n_samples)),
+        load_current_a=np.zeros((w_all, 3, n_samples)),
+        line_current_a=np.zeros((w_all, n_units, 3, n_samples)),
+        flux_linkage_wb=np.zeros((w_all, n_units, 3, n_samples)),
+        machine_state_pu=np.zeros((w_all, 4, n_samples)),
     )
+    for key, members in keys.items():
+        idx = np.array(members, dtype=np.int64)
+        c = case[idx]
+        pos = start[idx].astype(np.int64)
+        bypass_w = np.array(key[:n_units], dtype=np.int64)
+        kh_w, ke_w, n_in_w = key[n_units], key[n_units + 1], key[n_units + 2]
+        sub = np.maximum(1, -(-grid.substeps[c] // m)).astype(np.int64)
+        g = StepGrid(
+            step_s=h,
+            decimate=1,
+            phase_rad=np.ascontiguousarray(grid.phase_rad[c] + (omega * h * pos)[:, None]),
+            source_columns=np.ascontiguousarray(grid.source_columns[c]),
+            close_step=np.ascontiguousarray(grid.close_step[c] * m - pos[:, None, None]),
+            bypass_step=bypass_w,
+            ramp=(g0, slope / m, kh_w, ke_w),
+            insertion_steps=n_in_w,
+            substeps=np.ascontiguousarray(sub),
+            machine_state_pu=np.zeros((idx.size, 4, 0)),
+        )
+        m0 = machine_state_pu[idx][:, [0, 2, 1, 3]]
+        res, mach = _run(
+            source, units, connections, load, g, length, flux_linkage_wb[idx],
+            load_current_a[idx], m0, 0,
+        )  # fmt: skip
+        out.source_current_a[idx] = res.source_current_a
+        out.load_current_a[idx] = res.load_current_a
+        out.line_current_a[idx] = res.line_current_a
+        out.flux_linkage_wb[idx] = res.flux_linkage_wb
+        out.machine_state_pu[idx] = mach
+    return out
 
 
 def _ramp(source: Source | Machine) -> tuple[float, float, float]:

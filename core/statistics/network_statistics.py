@@ -5,8 +5,8 @@ and the residual flux of every unit being energised on one bus.
 :func:`core.statistics.monte_carlo.peak_distribution` draws them for one unit (closing angle
 uniform over a cycle, normal pole scatter, residual flux fixed or uniform per winding), simulates
 them as cases of :func:`core.network.simulate_network` in chunks, and reads each event's first
-peaks at the source and in every unit being energised with
-:func:`core.network.analysis.first_peaks` -- the reading the single network operation gives, so
+peaks at the source and in every unit being energised exactly
+(:func:`core.network.peaks.signal_peaks`) -- the reading the single network operation gives, so
 a sample replayed through it gives the same peak. :func:`network_device_odds` judges the feeder's
 devices on the first events of the sample, each simulated over the whole record, as the single
 operation judges one event (:func:`core.protection.coordination.evaluate` on the source
@@ -29,6 +29,7 @@ from numpy.typing import NDArray
 from core import checks
 from core.errors import ParameterError
 from core.network import BusLoad, Source, Unit, analysis, simulate_network, step_plan
+from core.network import peaks as network_peaks
 from core.protection import coordination, device_operation
 from core.statistics import event_outcomes, monte_carlo
 from core.statistics.event_outcomes import DeviceOdds
@@ -266,7 +267,8 @@ def network_peak_distribution(
     :func:`core.statistics.monte_carlo.peak_distribution`'s convention and its draws, in the
     same order. Every event is simulated over cycles/f + max t_uk + two samples; its first
     peaks are read up to t_end = max_{u,k} t_uk (rounded to the step) + cycles/f
-    (:func:`core.network.analysis.first_peaks`). The result does not depend on the chunking.
+    (read exactly, :func:`core.network.peaks.signal_peaks`). The result does not depend on the
+    chunking.
 
     References
     ----------
@@ -322,9 +324,10 @@ def network_peak_distribution(
         if checkpoint is not None:
             checkpoint()
         part = slice(start, min(start + size, n))
+        case_units = _case_units(sim_units, part, res, closing)
         sim = simulate_network(
             source,
-            _case_units(sim_units, part, res, closing),
+            case_units,
             closing_angle_deg=angles[part],
             duration_s=duration,
             load=load,
@@ -332,11 +335,12 @@ def network_peak_distribution(
             max_steps=max_steps,
         )
         ends = analysis.first_peak_window_end(sim.closing_time_s, energized, f, window)
-        src_peaks[part] = analysis.first_peaks(sim.time_s, sim.source_current_a, ends)[0]
-        for k in idx:
-            unit_peaks[part, k] = analysis.first_peaks(sim.time_s, sim.line_current_a[:, k], ends)[
-                0
-            ]
+        # read exactly, as the single network operation reads them
+        first = network_peaks.signal_peaks(
+            source, case_units, load, sim, [*idx, network_peaks.SOURCE], ends, cycles=False
+        ).first_peak_a
+        src_peaks[part] = first[:, -1]
+        unit_peaks[part, list(idx)] = first[:, :-1]
         approximations = tuple(dict.fromkeys(approximations + sim.approximations))
     return NetworkPeakDistribution(
         source=_statistics(src_peaks),
