@@ -12,7 +12,8 @@ References, and how independent each is:
   envelope, batch, the sheet, clearance and mitigation; the network kernel (core.network) behind
   network-energization, its statistics and the dip. They are separate implementations; their
   waveforms agree to ~1e-11, each checked against scipy's integrators in tests/references/.
-- One peak reading. Every operation reads each peak exactly: from the state at the sample
+- One peak reading. Every operation here but /v1/inrush/statistics (which still reads the
+  parabola through the samples; a bound only) reads each peak exactly: from the state at the sample
   before each candidate (the largest sample of a line in the cycle or the window) the solver
   itself integrates the two sample intervals around it again on a step 16 times finer, then
   once more finer around the largest of those (core/energization/peaks.py on the single-unit
