@@ -24,6 +24,7 @@ from scipy import special
 from core.energization import energize_plan, peaks
 from core.errors import ParameterError
 from core.network import BusLoad, Source, Unit, step_plan, step_rule
+from core.network import peaks as network_peaks
 from core.supply import dip_cases as dip_solver
 from core.transformer import EquivalentCircuit
 
@@ -257,7 +258,9 @@ def simulation_steps(
     return float(cases) * circuit.phases * n_steps
 
 
-def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) -> float:
+def dip_run_steps(
+    frequency_hz: float, duration_s: float, cases: float = 1.0, exact_peaks: bool = True
+) -> float:
     """Winding-steps of one generator-dip run (:func:`core.supply.dip.energize_from_source`).
 
     Parameters
@@ -268,12 +271,15 @@ def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) ->
         Simulated time [s].
     cases : float
         Cases run together (a sizing sweep) [-].
+    exact_peaks : bool
+        Whether the transformer's per-cycle peaks are read exactly (every line, every cycle:
+        :func:`core.network.peaks.reading_steps`; a sizing sweep does not read them) [-].
 
     Returns
     -------
     float
-        cases x (DIP_STEP_WEIGHT x (steps of the record + the one-cycle ideal-source run) +
-        DIP_RUN_WEIGHT) [-].
+        cases x (DIP_STEP_WEIGHT x (steps of the record + the one-cycle ideal-source run + the
+        exact reading's steps) + DIP_RUN_WEIGHT) [-].
 
     Notes
     -----
@@ -285,9 +291,13 @@ def dip_run_steps(frequency_hz: float, duration_s: float, cases: float = 1.0) ->
     ----------
     The dip solver's own step plan (this project).
     """
-    main = dip_solver.cycle_steps(frequency_hz, duration_s, dip_solver.MIN_STEPS_PER_CYCLE)
-    first = dip_solver.MIN_STEPS_PER_CYCLE
-    return float(cases) * (DIP_STEP_WEIGHT * (main + first) + DIP_RUN_WEIGHT)
+    spc = dip_solver.MIN_STEPS_PER_CYCLE
+    main = dip_solver.cycle_steps(frequency_hz, duration_s, spc)
+    first = spc
+    read = 0
+    if exact_peaks:
+        read = network_peaks.reading_steps(1, 3 * (main // spc), main + 1, spc, 1, 1)
+    return float(cases) * (DIP_STEP_WEIGHT * (main + first + read) + DIP_RUN_WEIGHT)
 
 
 def _line_samples(circuit: EquivalentCircuit, duration_s: float, samples_per_cycle: int) -> float:
@@ -435,7 +445,7 @@ def statistics_work(
     sigma the largest pole spread; devices: events x steps over device_duration_s + d, each
     event's record read (EVENT_WEIGHT + EVENT_SAMPLE_WEIGHT x lines x samples) and each device
     judged on it (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT x lines x samples); dip:
-    events x :func:`dip_run_steps`.
+    events x :func:`dip_run_steps` (the dip only, its peaks not read).
 
     References
     ----------
@@ -452,7 +462,7 @@ def statistics_work(
         parts.append(("device events read", read))
         parts.append(("device events judged", _judging(circuit, devices, span, events)))
     if dip_duration_s is not None:
-        parts.append(("dip events", events * dip_run_steps(f, dip_duration_s)))
+        parts.append(("dip events", events * dip_run_steps(f, dip_duration_s, exact_peaks=False)))
     return _work(parts)
 
 
@@ -495,7 +505,8 @@ def clearance_work(
     Notes
     -----
     Search: :func:`search_cases` x steps over 2 cycles + the latest pole; the event: steps over
-    duration_s, its record read (RECORD_SAMPLE_WEIGHT x lines x samples); judging: devices x
+    duration_s, its record read (RECORD_SAMPLE_WEIGHT x lines x samples) and each line's first
+    peak read exactly (:func:`core.energization.peaks.refinement_stages`); judging: devices x
     (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT x lines x samples), times
     (1 + WINDOW_JUDGEMENTS) with the window search, plus differentials x
     (DIFFERENTIAL_SAMPLE_WEIGHT - DEVICE_SAMPLE_WEIGHT) x lines x samples; the figure
@@ -510,6 +521,7 @@ def clearance_work(
         parts.append(("worst closing angle", _search(circuit, pole_delay_max_s)))
     parts.append(("inrush record", simulation_steps(circuit, 1, duration_s)))
     parts.append(("record read", RECORD_SAMPLE_WEIGHT * _line_samples(circuit, duration_s, 128)))
+    parts.append(("first peaks read exactly", _exact_reading(circuit, circuit.phases, 128)))
     judged = _judging(circuit, devices, duration_s, 1.0) * (
         1 + (WINDOW_JUDGEMENTS if windows else 0)
     )
@@ -553,7 +565,8 @@ def dip_study_work(
     Notes
     -----
     :func:`dip_run_steps` for the event; with sizing, SIZING_EVALUATIONS runs of
-    SIZING_DURATION_S and the recovery check of recovery_limit_s + 1 s; the figure
+    SIZING_DURATION_S and the recovery check of recovery_limit_s + 1 s (their peaks not read);
+    the figure
     DIP_FIGURE_WEIGHT.
 
     References
@@ -565,10 +578,12 @@ def dip_study_work(
     if sizing:
         parts.append(
             ("generator sizing", SIZING_EVALUATIONS * dip_run_steps(frequency_hz,
-                                                                     SIZING_DURATION_S))
+                                                                     SIZING_DURATION_S,
+                                                                     exact_peaks=False))
         )  # fmt: skip
         if recovery_limit_s is not None:
-            parts.append(("recovery check", dip_run_steps(frequency_hz, recovery_limit_s + 1.0)))
+            recovery = dip_run_steps(frequency_hz, recovery_limit_s + 1.0, exact_peaks=False)
+            parts.append(("recovery check", recovery))
     if figure:
         parts.append(("figure", DIP_FIGURE_WEIGHT))
     return _work(parts)
@@ -620,7 +635,9 @@ def mitigation_work(
     -----
     Per option and the baseline: OPTION_SEARCHES x RESISTOR_SUBSTEPS worst-angle searches over
     2 cycles (the sizing searches, which need no more than this), the design-basis event over
-    max(0.1 s, device_duration_s), its devices judged, and the dip (with the resistor's sizing
+    max(0.1 s, device_duration_s), its peaks read exactly at the angle found (the window
+    simulated again and each line's peak re-integrated), its devices judged, and the dip (with
+    the resistor's sizing
     dips, one 1 s run per search); per sweep point one search. The mitigation study's searches
     depend on the case (how many trial resistances a bracket needs), so this bound is looser
     than the other operations'.
@@ -638,11 +655,16 @@ def mitigation_work(
         ("worst-angle searches", plans * OPTION_SEARCHES * RESISTOR_SUBSTEPS * one_search),
         ("residual sweep", sweep * one_search),
         ("design-basis events", plans * simulation_steps(circuit, 1, record)),
+        (
+            "design-basis peaks read exactly",
+            plans * (simulation_steps(circuit, 1, window) + _exact_reading(circuit, 3, 128)),
+        ),
     ]
     if devices > 0:
         parts.append(("devices judged", plans * _judging(circuit, devices, record, 1.0)))
     if dip_duration_s is not None:
-        dips = plans * dip_run_steps(f, dip_duration_s) + OPTION_SEARCHES * dip_run_steps(f, 1.0)
+        sizing = OPTION_SEARCHES * dip_run_steps(f, 1.0, exact_peaks=False)
+        dips = plans * dip_run_steps(f, dip_duration_s) + sizing
         parts.append(("dips", dips))
     return _work(parts)
 
@@ -685,9 +707,12 @@ def network_work(
     Simulation: NETWORK_STEP_WEIGHT x units x 3 windings x steps, the steps from
     :func:`core.network.step_plan` (the solver's own plan); reading: ENVELOPE_SAMPLE_WEIGHT x
     3 lines x (units + 1) x samples (per-cycle peaks, I_eq(t), harmonics of every unit and of
-    the source); judging: devices x (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT x 3 lines x
-    samples), plus the source record read for the devices (EVENT_SAMPLE_WEIGHT x 3 x samples);
-    each unit's differential: its record read (EVENT_SAMPLE_WEIGHT) and filtered
+    the source), and the peaks read exactly, NETWORK_STEP_WEIGHT x 3 windings x
+    :func:`core.network.peaks.reading_steps` for (units + 1) currents x (whole cycles + the
+    first peak) -- it grows as units^2, every window integrating every unit; judging:
+    devices x (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT x 3 lines x samples), plus the
+    source record read for the devices (EVENT_SAMPLE_WEIGHT x 3 x samples); each unit's
+    differential: its record read (EVENT_SAMPLE_WEIGHT) and filtered
     (DIFFERENTIAL_SAMPLE_WEIGHT) per line-sample.
 
     References
@@ -695,11 +720,15 @@ def network_work(
     Counts the network solver's step plan (this project).
     """
     units = list(units)
-    _, _, n_steps = step_plan(source, units, duration_s, load, samples_per_cycle)
+    decimate, spc, n_steps = step_plan(source, units, duration_s, load, samples_per_cycle)
     samples = 3.0 * (duration_s * source.frequency_hz * samples_per_cycle + 1)
+    n_out = n_steps // decimate + 1
+    readings = (len(units) + 1) * (n_steps // spc + 1)
+    exact = network_peaks.reading_steps(len(units), readings, n_out, spc, decimate)
     parts = [
         ("network simulation", NETWORK_STEP_WEIGHT * len(units) * 3.0 * n_steps),
         ("currents read", ENVELOPE_SAMPLE_WEIGHT * samples * (len(units) + 1)),
+        ("peaks read exactly", NETWORK_STEP_WEIGHT * 3.0 * exact),
     ]
     if devices:
         parts.append(

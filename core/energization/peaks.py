@@ -14,8 +14,11 @@ the winding currents, the magnetising curves being strictly increasing: lambda =
 energised winding, its residual flux before it is energised.
 
 Limits: cases without a pre-insertion resistor or a reduced-voltage ramp (the studies that use
-this have none); the re-integration uses :func:`core.energization.energize.simulate` itself, so its
-accuracy is that of the solver at the finer step.
+this have none); a pole that closes after a window is closed at the window's last instant (the
+solver takes no closing beyond its record), which can move that one sample of the other lines
+of a floating wye or a delta; the re-integration uses
+:func:`core.energization.energize.simulate` itself, so its accuracy is that of the solver at the
+finer step.
 """
 
 from __future__ import annotations
@@ -199,7 +202,7 @@ def _refine(
         circ,
         closing_angle_deg[case] + 360.0 * f * t0,
         res,
-        np.maximum(poles - t0[:, None], 0.0),
+        np.clip(poles - t0[:, None], 0.0, 2.0 * sample_s),
         duration_s=2.0 * sample_s,
         samples_per_cycle=fine,
     )

@@ -8,7 +8,10 @@ case, and every option -- and the case as it is, the baseline -- is judged by th
   leaves possible (over the closing angle for an uncontrolled breaker; over the closing-time
   error band for a controlled or pre-magnetised closing), simulated
   (:func:`core.energization.inrush_study.worst_closing_angles`,
-  :func:`core.energization.energize.simulate`);
+  :func:`core.energization.energize.simulate`), the angle searched on samples and, for an
+  option with neither a resistor nor a ramp (the baseline among them), its peaks then read
+  exactly at the angle found (:func:`core.energization.peaks.first_peaks`, as the peak
+  operation reads them);
 * at that same event: the equivalent rms over the first 0.1 s, the ride-through and protection
   margins of the caller's devices (:func:`core.protection.coordination.evaluate`) and, with a
   generator, the voltage dip and its verdict (:func:`core.supply.dip.energize_from_source`).
@@ -37,7 +40,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from core import waveform
-from core.energization import energize, inrush_study
+from core.energization import energize, inrush_study, peaks
 from core.energization.switching_event import (
     SwitchingEvent,
     plain_event_arrays,
@@ -217,7 +220,7 @@ def _search(plans: list[Plan], max_steps: int | None) -> None:
             k: np.array([p.extras.get(k, pre_insertion.NEUTRAL_EXTRAS[k]) for p in members])
             for k in names
         }
-        angles, peaks = inrush_study.worst_closing_angles(
+        angles, found = inrush_study.worst_closing_angles(
             [p.circuit for p in members],
             np.stack([p.residual for p in members]),
             np.stack([p.delay for p in members]),
@@ -225,10 +228,35 @@ def _search(plans: list[Plan], max_steps: int | None) -> None:
             max_steps=max_steps,
             per_case=per_case,
         )
-        for p, a, pk in zip(members, angles, peaks, strict=True):
+        for p, a, pk in zip(members, angles, found, strict=True):
             p.angle_deg = float(np.mod(np.round(a, 6), 360.0))
             p.event_delay = p.delay
             p.peaks = pk
+        _read_exactly(members, window, max_steps)
+
+
+def _read_exactly(members: list[Plan], window_s: float, max_steps: int | None) -> None:
+    """Re-read the design-basis peaks of the plain plans (no resistor, no ramp) exactly.
+
+    The search reads its trial peaks from samples; at the angles found the peaks of the plans
+    :func:`core.energization.peaks.first_peaks` can re-integrate (every mitigation argument
+    neutral) are read as the peak operation reads them, so the baseline's peak is that
+    operation's worst-case peak of the same event.
+    """
+    neutral = pre_insertion.NEUTRAL_EXTRAS
+    plain = [p for p in members if all(p.extras.get(k, v) == v for k, v in neutral.items())]
+    if not plain:
+        return
+    circuits = [p.circuit for p in plain]
+    angles = np.array([p.angle_deg for p in plain], dtype=float)
+    residual = np.stack([p.residual for p in plain])
+    sim = energize.simulate(
+        circuits, angles, residual, np.stack([p.delay for p in plain]),
+        duration_s=window_s, samples_per_cycle=128, max_steps=max_steps,
+    )  # fmt: skip
+    exact = peaks.first_peaks(circuits, angles, residual, sim).peak_a
+    for p, pk in zip(plain, exact, strict=True):
+        p.peaks = pk
 
 
 def _simulate(

@@ -316,6 +316,7 @@ def _resistor(opt: PreInsertionResistor, ctx: Context, warnings: list[tuple[str,
                             excitation=sup.excitation,
                             bus_load=sup.bus_load,
                             duration_s=1.0,
+                            exact_peaks=False,
                         ).dip_percent
                         for a, x in zip(angles, rs, strict=True)
                     ]

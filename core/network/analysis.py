@@ -10,7 +10,8 @@ and a single unit's reading are the same number for the same waveform.
 
 Limits: the readings are of the sampled record; a peak between samples is refined by a parabola
 through the largest sample and its neighbours (its error is of the order of the curvature's
-change over a sample).
+change over a sample), unless the exact readings of :mod:`core.network.peaks` are passed in
+(the network operations do).
 """
 
 from __future__ import annotations
@@ -353,6 +354,7 @@ def current_readings(
     samples_per_cycle: int,
     window_end_s: float,
     harmonic_cycles: int,
+    exact: tuple[float, int, FloatArray] | None = None,
 ) -> CurrentReadings:
     """First peak, per-cycle peaks and means, I_eq(t) and second harmonic of three lines.
 
@@ -368,6 +370,10 @@ def current_readings(
         End of the first peak's window (:func:`first_peak_window_end`) [s].
     harmonic_cycles : int
         First cycles over which the smallest second-harmonic ratio is taken, >= 1 [-].
+    exact : tuple or None
+        The first peak [A], its line [-] and the per-cycle peaks (largest line) [A] read
+        exactly (:func:`core.network.peaks.signal_peaks`), which then replace the readings of
+        the samples; None reads the samples [-].
 
     Returns
     -------
@@ -411,10 +417,16 @@ def current_readings(
     h2_min = np.where(np.isfinite(h2_min), h2_min, np.nan)
     head = h2_min[:hc]
     head = head[np.isfinite(head)]
+    per_cycle = cyc.max(axis=0)
+    first_a, first_line = float(peak), int(line)
+    if exact is not None:
+        first_a, first_line, per_cycle = float(exact[0]), int(exact[1]), exact[2]
+        if per_cycle.shape != (n_cyc,):
+            raise ParameterError("exact", per_cycle.shape, f"({n_cyc},) per-cycle peaks")
     return CurrentReadings(
-        first_peak_a=float(peak),
-        first_peak_line=int(line),
-        cycle_peaks_a=cyc.max(axis=0),
+        first_peak_a=first_a,
+        first_peak_line=first_line,
+        cycle_peaks_a=np.asarray(per_cycle, dtype=float),
         cycle_mean_a=means,
         equivalent_rms_times_s=times.astype(float),
         equivalent_rms_a=np.asarray(ieq, dtype=float),
@@ -429,6 +441,7 @@ def sympathetic_current(
     frequency_hz: float,
     record_end_s: float,
     fraction: float,
+    exact: tuple[FloatArray, IntArray] | None = None,
 ) -> Sympathetic:
     """Peak, line, polarity-free timing of a unit in service's sympathetic current.
 
@@ -444,6 +457,9 @@ def sympathetic_current(
         End of the record (the cycles may stop short of it) [s].
     fraction : float
         Fraction of the peak over which the current is timed, in (0, 1] [-].
+    exact : tuple of ndarray or None
+        The per-cycle peaks (largest line) [A] and their lines [-] read exactly
+        (:func:`core.network.peaks.signal_peaks`), used instead of the samples' [-].
 
     Returns
     -------
@@ -480,6 +496,12 @@ def sympathetic_current(
     per = cyc.max(axis=0)
     k = int(np.argmax(per))
     line = int(np.argmax(cyc[:, k]))
+    if exact is not None:
+        if exact[0].shape != per.shape:
+            raise ParameterError("exact", exact[0].shape, f"{per.shape} per-cycle peaks")
+        per = np.asarray(exact[0], dtype=float)
+        k = int(np.argmax(per))
+        line = int(exact[1][k])
     peak = float(per[k])
     above = np.nonzero(per >= frac * peak)[0]
     start = float(above[0]) / f

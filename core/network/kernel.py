@@ -380,16 +380,17 @@ def integrate(
     NMACH) the machine states at t = 0 [pu]; per unit conn, r_w [ohm], r_ins [ohm],
     bypass_step, curve (kind, par, flux, cur, npts); close_step (n_cases, n_units, 3) [steps];
     lam0 (n_cases, n_units, 3) [Wb-turn]; il0 (n_cases, 3) [A]; outputs (n_cases, 3,
-    n_samples), (n_cases, n_units, 3, n_samples), out_mach (n_cases, 2, n_samples) E''_q and
-    E_fd [pu], out_energy (n_cases, n_units) the integral of the summed squared line currents
-    while the unit's pre-insertion resistor is in [A^2*s]; the steps j < n_in are each split
-    into ``sub[c]`` equal Runge-Kutta sub-steps (a resistor's short time constant while it is in),
-    the samples staying on the step. ``record`` (RECORD_ALL, RECORD_SOURCE, RECORD_FIRST_PEAKS)
-    says what is written at the samples; with RECORD_FIRST_PEAKS, peak_last (n_cases,) is the
-    last sample of each case's first-peak window and out_peak (n_cases, 1 + n_units, 3, NPEAK)
-    receives the running maxima (columns above; set to -1 on entry), the record arrays are not
-    touched and each case stops after sample peak_last + 1 (or the last step); a non-finite
-    source current sets out_peak[c, 0, 0, PEAK_MAX] to nan.
+    n_samples), (n_cases, n_units, 3, n_samples), out_mach (n_cases, 2 or 4, n_samples) E''_q
+    and E_fd, then (with 4 rows) E'_q and V_s [pu], out_energy (n_cases, n_units) the integral
+    of the summed squared line currents while the unit's pre-insertion resistor is in [A^2*s];
+    the steps j < n_in are each split into ``sub[c]`` equal Runge-Kutta sub-steps (a
+    resistor's short time constant while it is in), the samples staying on the step. ``record``
+    (RECORD_ALL, RECORD_SOURCE, RECORD_FIRST_PEAKS) says what is written at the samples; with
+    RECORD_FIRST_PEAKS, peak_last (n_cases,) is the last sample of each case's first-peak window
+    and out_peak (n_cases, 1 + n_units, 3, NPEAK) receives the running maxima (columns above; set
+    to -1 on entry), the record arrays are not touched and each case stops after sample
+    peak_last + 1 (or the last step); a non-finite source current sets out_peak[c, 0, 0,
+    PEAK_MAX] to nan.
     """
     n_cases = phase.shape[0]
     n_units = conn.shape[0]
@@ -914,6 +915,10 @@ def integrate(
                         out_bus[c, 2, s_idx] = v2
                         out_mach[c, 0, s_idx] = ms[0]
                         out_mach[c, 1, s_idx] = ms[2]
+                        if out_mach.shape[1] > 2:
+                            # E'_q and V_s as well: every state, for a restart at the sample
+                            out_mach[c, 2, s_idx] = ms[1]
+                            out_mach[c, 3, s_idx] = ms[3]
                         for k in range(3):
                             out_src[c, k, s_idx] = i_s[k]
                             for u in range(n_units):

@@ -108,7 +108,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numba
 import numpy as np
@@ -134,11 +134,14 @@ __all__ = [
     "BusLoad",
     "NetworkResult",
     "Source",
+    "StepGrid",
     "Unit",
+    "WindowRecord",
     "case_chunks",
     "insertion_substeps",
     "run_single_unit",
     "simulate_network",
+    "simulate_windows",
     "step_plan",
     "step_rule",
 ]
@@ -384,6 +387,47 @@ class NetworkResult:
     field_voltage_pu: FloatArray = field(default_factory=lambda: np.ones((0, 0)))
     insertion_energy_j: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
     first_peak_a: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
+    grid: StepGrid | None = None
+
+
+@dataclass(frozen=True)
+class StepGrid:
+    """What a restart of a run from one of its samples needs beside the recorded states.
+
+    Attributes
+    ----------
+    step_s : float
+        Internal step h [s].
+    decimate : int
+        Internal steps per output sample [-].
+    phase_rad : ndarray, shape (n_cases, 3)
+        Angle of each phase's EMF at t = 0 [rad].
+    source_columns : ndarray, shape (n_cases, kernel.NSRC)
+        The source's per-case parameters as the kernel takes them [-].
+    close_step : ndarray of int, shape (n_cases, n_units, 3)
+        Pole closings [steps] (<= 0: closed at t = 0).
+    bypass_step : ndarray of int, shape (n_units,)
+        Resistor bypass of each unit [steps] (0: none).
+    ramp : tuple of (float, float, int, int)
+        The EMF ramp: start [pu], slope [pu per step], end of the hold and of the rise [steps].
+    insertion_steps : int
+        Steps split into sub-steps while a resistor is in [steps].
+    substeps : ndarray of int, shape (n_cases,)
+        Sub-steps per such step [-].
+    machine_state_pu : ndarray, shape (n_cases, 4, n_samples)
+        The machine's E''_q, E_fd, E'_q and V_s at every sample (1 for a :class:`Source`) [pu].
+    """
+
+    step_s: float
+    decimate: int
+    phase_rad: FloatArray
+    source_columns: FloatArray
+    close_step: IntArray
+    bypass_step: IntArray
+    ramp: tuple[float, float, int, int]
+    insertion_steps: int
+    substeps: IntArray
+    machine_state_pu: FloatArray
 
 
 APPROXIMATIONS = (
@@ -894,10 +938,8 @@ def simulate_network(
         raise ParameterError("units", 0, "at least one unit")
     connections = [_check_unit(k, u, source) for k, u in enumerate(units)]
     if load is not None:
-        r_l = _finite("load.resistance_ohm", load.resistance_ohm, 0.0)
-        l_l = _finite("load.inductance_h", load.inductance_h, 0.0, low_open=True)
-    else:
-        r_l, l_l = 0.0, 1.0
+        _finite("load.resistance_ohm", load.resistance_ohm, 0.0)
+        _finite("load.inductance_h", load.inductance_h, 0.0, low_open=True)
     alpha = np.atleast_1d(np.asarray(closing_angle_deg, dtype=float))
     if alpha.ndim != 1 or not np.all(np.isfinite(alpha)):
         raise ParameterError("closing_angle_deg", "shape or value", "finite, scalar or 1-D")
@@ -965,6 +1007,69 @@ def simulate_network(
     )
     if load is None:
         il0 = np.zeros((n, 3))
+    sub = np.ascontiguousarray(
+        np.broadcast_to(insertion_substeps(source, units, spc), (n,))
+        if substep_insertion
+        else np.ones(n, dtype=np.int64)
+    )
+    grid = StepGrid(
+        step_s=h,
+        decimate=decimate,
+        phase_rad=np.ascontiguousarray(phase),
+        source_columns=np.ascontiguousarray(src),
+        close_step=np.ascontiguousarray(close_step),
+        bypass_step=bypass,
+        ramp=(g0, slope, kh, ke),
+        insertion_steps=int(bypass.max()) if substep_insertion else 0,
+        substeps=sub,
+        machine_state_pu=np.zeros((n, 4, 0)),
+    )
+    return _run(
+        source,
+        units,
+        connections,
+        load,
+        grid,
+        n_steps,
+        lam0,
+        il0,
+        m0,
+        spc,
+        mode=mode,
+        first_peak_cycles=first_peak_cycles,
+    )[0]
+
+
+def _run(
+    source: Source | Machine,
+    units: Sequence[Unit],
+    connections: Sequence[str],
+    load: BusLoad | None,
+    grid: StepGrid,
+    n_steps: int,
+    lam0: FloatArray,
+    il0: FloatArray,
+    m0: FloatArray,
+    spc: int,
+    *,
+    mode: int = kernel.RECORD_ALL,
+    first_peak_cycles: float = 0.0,
+) -> tuple[NetworkResult, FloatArray]:
+    """The kernel from the given states at t = 0 on the given grid, the cases in chunks on
+    threads (:func:`case_chunks`); the record ``mode`` asks for and, with the whole record, the
+    machine's four states at every sample."""
+    f = float(source.frequency_hz)
+    n = grid.phase_rad.shape[0]
+    n_units = len(units)
+    h, decimate = grid.step_s, grid.decimate
+    g0, slope, kh, ke = grid.ramp
+    bypass = grid.bypass_step
+    lam_n = np.array([u.circuit.nominal_flux_wb for u in units])
+    if load is not None:
+        r_l, l_l = load.resistance_ohm, load.inductance_h
+    else:
+        r_l, l_l = 0.0, 1.0
+        il0 = np.zeros((n, 3))
     kind, par, flux, cur, npts = _curve_arrays([u.circuit for u in units])
     n_samples = n_steps // decimate + 1
     kept = n_samples if mode == kernel.RECORD_ALL else 0
@@ -973,23 +1078,20 @@ def simulate_network(
     out_line = np.zeros((n, n_units, 3, kept))
     out_wind = np.zeros((n, n_units, 3, kept))
     out_flux = np.zeros((n, n_units, 3, kept))
-    out_mach = np.zeros((n, 2, kept))
+    out_mach = np.zeros((n, 4, kept))
     peak_last, out_peak = _first_peak_window(
-        mode, units, close_step.astype(float) * h, f, first_peak_cycles, n_samples, h * decimate
-    )
+        mode, units, grid.close_step.astype(float) * h, f, first_peak_cycles, n_samples,
+        h * decimate,
+    )  # fmt: skip
     out_energy = np.zeros((n, n_units))
     # the per-case inputs (first axis the case; the outputs above too), then the shared ones
-    phase_c = np.ascontiguousarray(phase)
-    src_c = np.ascontiguousarray(src)
+    phase_c = np.ascontiguousarray(grid.phase_rad)
+    src_c = np.ascontiguousarray(grid.source_columns)
     m0_c = np.ascontiguousarray(m0)
-    close_c = np.ascontiguousarray(close_step)
+    close_c = np.ascontiguousarray(grid.close_step)
     lam0_c = np.ascontiguousarray(lam0)
     il0_c = np.ascontiguousarray(il0, dtype=float)
-    sub_c: IntArray = np.ascontiguousarray(
-        np.broadcast_to(insertion_substeps(source, units, spc), (n,))
-        if substep_insertion
-        else np.ones(n, dtype=np.int64)
-    )
+    sub_c: IntArray = np.ascontiguousarray(grid.substeps)
     ramp = np.array([g0, slope])
     ramp_steps = np.array([kh, ke], dtype=np.int64)
     conn_code = np.array([CONNECTION_CODE[c] for c in connections], dtype=np.int64)
@@ -997,7 +1099,7 @@ def simulate_network(
     r_ins = np.array([u.breaker.insertion_resistance_ohm for u in units])
     tol_u = NEWTON_TOLERANCE_PU * lam_n
     tol_phi = NEWTON_TOLERANCE_PU * float(lam_n.min())
-    n_in = int(bypass.max()) if substep_insertion else 0
+    n_in = grid.insertion_steps
     vpk = math.sqrt(2.0) * source.line_voltage_v / math.sqrt(3.0)
 
     def run(lo: int, hi: int) -> int:
@@ -1012,7 +1114,7 @@ def simulate_network(
         )  # fmt: skip
         return failed
 
-    bounds = case_chunks(n, work)
+    bounds = case_chunks(n, n * n_units * n_steps)
     if len(bounds) == 1:
         failed = run(0, n)
     else:
@@ -1037,7 +1139,7 @@ def simulate_network(
         flux_linkage_wb=out_flux,
         load_current_a=i_load if load is not None else np.zeros((n, 3, kept)),
         steps_per_cycle=spc,
-        closing_time_s=close_step.astype(float) * h,
+        closing_time_s=grid.close_step.astype(float) * h,
         approximations=APPROXIMATIONS,
         emf_pu=out_mach[:, 0],
         field_voltage_pu=out_mach[:, 1],
@@ -1046,7 +1148,156 @@ def simulate_network(
         first_peak_a=analysis.first_peaks_of_maxima(out_peak, n_samples)[0]
         if mode == kernel.RECORD_FIRST_PEAKS
         else np.zeros((0, 0)),
+        grid=replace(grid, machine_state_pu=out_mach),
+    ), out_mach
+
+
+@dataclass(frozen=True)
+class WindowRecord:
+    """Records of :func:`simulate_windows`, one case per window, every step a sample.
+
+    Attributes
+    ----------
+    time_s : ndarray, shape (n_samples,)
+        Instants from each window's start [s].
+    source_current_a, load_current_a : ndarray, shape (n_windows, 3, n_samples)
+        As in :class:`NetworkResult` [A].
+    line_current_a, flux_linkage_wb : ndarray, shape (n_windows, n_units, 3, n_samples)
+        As in :class:`NetworkResult` [A] [Wb-turn].
+    machine_state_pu : ndarray, shape (n_windows, 4, n_samples)
+        As in :class:`StepGrid` [pu].
+    """
+
+    time_s: FloatArray
+    source_current_a: FloatArray
+    load_current_a: FloatArray
+    line_current_a: FloatArray
+    flux_linkage_wb: FloatArray
+    machine_state_pu: FloatArray
+
+
+def _clamp(step: int, length: int) -> int:
+    # a switching instant relative to a window: before its start as at it, after its end as
+    # just after it (the window cannot tell them apart)
+    return min(max(step, 0), length + 1)
+
+
+def simulate_windows(
+    source: Source | Machine,
+    units: Sequence[Unit],
+    load: BusLoad | None,
+    grid: StepGrid,
+    case: IntArray,
+    start: IntArray,
+    scale: int,
+    n_steps: int,
+    flux_linkage_wb: FloatArray,
+    load_current_a: FloatArray,
+    machine_state_pu: FloatArray,
+) -> WindowRecord:
+    """Integrate the network again over short windows of a run, from given states, finer.
+
+    Parameters
+    ----------
+    source, units, load
+        The network of the run, as given to :func:`simulate_network` [-].
+    grid : StepGrid
+        The run's step grid (:attr:`NetworkResult.grid`) [-].
+    case : ndarray of int, shape (n_windows,)
+        The run's case of each window [-].
+    start : ndarray of int, shape (n_windows,)
+        Start of each window in steps of h/scale from the run's t = 0 [-].
+    scale : int
+        Steps of the windows per step of the run, >= 1 [-].
+    n_steps : int
+        Steps of each window (each a sample) [-].
+    flux_linkage_wb : ndarray, shape (n_windows, n_units, 3)
+        Winding fluxes at each window's start [Wb-turn].
+    load_current_a : ndarray, shape (n_windows, 3)
+        Load currents there [A].
+    machine_state_pu : ndarray, shape (n_windows, 4)
+        The machine's E''_q, E_fd, E'_q and V_s there (as :attr:`StepGrid.machine_state_pu`)
+        [pu].
+
+    Returns
+    -------
+    WindowRecord
+
+    Notes
+    -----
+    The state of the run at an instant is the winding fluxes lambda, the load currents, the
+    machine's four states and which poles are closed and resistors in: a restart from them
+    with the pole closings, the bypass, the EMF's phase and its ramp moved to the window's
+    start (t_k - t_0, on the finer step h/scale exactly, the run's instants being on its own
+    step) continues the same trajectory; the floating nodes' held currents are rebuilt from
+    lambda, which is Kirchhoff's current law there. Windows sharing the instants that matter to
+    them (a bypass, a ramp corner or the sub-stepping's end inside the window) run as the cases
+    of one kernel call.
+
+    References
+    ----------
+    The equations of this module's docstring; classical Runge-Kutta (Kutta 1901).
+    """
+    m = int(scale)
+    if m < 1:
+        raise ParameterError("scale", scale, "an integer >= 1")
+    connections = [u.connection or u.circuit.connection for u in units]
+    omega = 2.0 * math.pi * float(source.frequency_hz)
+    h = grid.step_s / m
+    g0, slope, kh, ke = grid.ramp
+    length = int(n_steps)
+    w_all = case.size
+    keys: dict[tuple[int, ...], list[int]] = {}
+    for w in range(w_all):
+        p0 = int(start[w])
+        byp = tuple(0 if b == 0 else _clamp(int(b) * m - p0, length) for b in grid.bypass_step)
+        if g0 == 1.0:
+            rk: tuple[int, int] = (0, 0)
+        else:
+            a, b = int(kh) * m - p0, int(ke) * m - p0
+            rk = (0, 0) if b <= 0 else ((length + 1, length + 1) if a > length else (a, b))
+        n_in = _clamp(grid.insertion_steps * m - p0, length) if grid.insertion_steps else 0
+        keys.setdefault((*byp, *rk, n_in), []).append(w)
+    n_samples = length + 1
+    n_units = len(units)
+    out = WindowRecord(
+        time_s=np.arange(n_samples, dtype=float) * h,
+        source_current_a=np.zeros((w_all, 3, n_samples)),
+        load_current_a=np.zeros((w_all, 3, n_samples)),
+        line_current_a=np.zeros((w_all, n_units, 3, n_samples)),
+        flux_linkage_wb=np.zeros((w_all, n_units, 3, n_samples)),
+        machine_state_pu=np.zeros((w_all, 4, n_samples)),
     )
+    for key, members in keys.items():
+        idx = np.array(members, dtype=np.int64)
+        c = case[idx]
+        pos = start[idx].astype(np.int64)
+        bypass_w = np.array(key[:n_units], dtype=np.int64)
+        kh_w, ke_w, n_in_w = key[n_units], key[n_units + 1], key[n_units + 2]
+        sub = np.maximum(1, -(-grid.substeps[c] // m)).astype(np.int64)
+        g = StepGrid(
+            step_s=h,
+            decimate=1,
+            phase_rad=np.ascontiguousarray(grid.phase_rad[c] + (omega * h * pos)[:, None]),
+            source_columns=np.ascontiguousarray(grid.source_columns[c]),
+            close_step=np.ascontiguousarray(grid.close_step[c] * m - pos[:, None, None]),
+            bypass_step=bypass_w,
+            ramp=(g0, slope / m, kh_w, ke_w),
+            insertion_steps=n_in_w,
+            substeps=np.ascontiguousarray(sub),
+            machine_state_pu=np.zeros((idx.size, 4, 0)),
+        )
+        m0 = machine_state_pu[idx][:, [0, 2, 1, 3]]
+        res, mach = _run(
+            source, units, connections, load, g, length, flux_linkage_wb[idx],
+            load_current_a[idx], m0, 0,
+        )  # fmt: skip
+        out.source_current_a[idx] = res.source_current_a
+        out.load_current_a[idx] = res.load_current_a
+        out.line_current_a[idx] = res.line_current_a
+        out.flux_linkage_wb[idx] = res.flux_linkage_wb
+        out.machine_state_pu[idx] = mach
+    return out
 
 
 def _first_peak_window(

@@ -78,6 +78,7 @@ def inrush_from_waveform(
     lines: Sequence[str] | None = None,
     points: int = 200,
     i2t_half_cycles: int = 1,
+    peak: Extreme | None = None,
 ) -> InrushCurves:
     """Derive the curves devices are compared with from sampled line currents.
 
@@ -97,6 +98,9 @@ def inrush_from_waveform(
         Log-spaced I_eq times from a half cycle to the last sample, 2-10 000 [-].
     i2t_half_cycles : int
         Width of the I²t window, 1-20 half cycles; 1 by default (the first lobe) [-].
+    peak : Extreme or None
+        Each line's peak read elsewhere (e.g. exactly, :func:`core.energization.peaks.
+        first_peaks`), taken as it is; None reads it from the samples [-].
 
     Returns
     -------
@@ -112,8 +116,8 @@ def inrush_from_waveform(
     With E(t) = ∫₀ᵗ i² (trapezoid, linear between samples) and T = 1/f: I_eq(t) = √(E/t)
     (:func:`core.waveform.equivalent_rms`); relay rms(t) = √((E(t) − E(t − T))/T), the
     window of a full-cycle numerical relay (common practice), zero current before t = 0; half-cycle
-    rms alike with T/2; window I²t = max over t of E(t) − E(t − n·T/2). The peak is the largest
-    |i| sample refined by a parabola through it and its neighbours.
+    rms alike with T/2; window I²t = max over t of E(t) − E(t − n·T/2). The peak, unless given,
+    is the largest |i| sample refined by a parabola through it and its neighbours.
 
     References
     ----------
@@ -158,7 +162,7 @@ def inrush_from_waveform(
         eq_current_a=waveform.equivalent_rms(i, dt, eq_t),
         rms_time_s=t,
         rms_current_a=np.sqrt(_window(t, energy, period) / period),
-        peak=Extreme(np.maximum(vertex, a[rows, k]), t[k]),
+        peak=Extreme(np.maximum(vertex, a[rows, k]), t[k]) if peak is None else peak,
         half_cycle_rms=extreme(np.sqrt(_window(t, energy, 0.5 * period) / (0.5 * period))),
         window_i2t=extreme(_window(t, energy, n_half * 0.5 * period)),
         sampled_current_a=i,

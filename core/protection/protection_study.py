@@ -2,11 +2,13 @@
 
 One call for the ``/v1/clearance`` operation: simulate the energisation (at the worst closing
 angle for the given residual flux, or at the given angle), derive the curves devices are compared
-with (:func:`core.protection.device_operation.inrush_from_waveform`), build the through-fault damage
-curve of the transformer (:mod:`core.protection.damage_curves`), evaluate every device on both sides
-(:func:`core.protection.coordination.evaluate`), search the coordination window of each inverse-time
-relay (:func:`core.protection.coordination.coordination_window`), and tabulate each device's curves
-for the TCC figure. The devices are taken to sit on the energised side, seeing its line currents.
+with (:func:`core.protection.device_operation.inrush_from_waveform`, its first peaks read
+exactly by :func:`core.energization.peaks.first_peaks` as the peak operation reads them), build
+the through-fault damage curve of the transformer (:mod:`core.protection.damage_curves`),
+evaluate every device on both sides (:func:`core.protection.coordination.evaluate`), search the
+coordination window of each inverse-time relay (:func:`core.protection.coordination.
+coordination_window`), and tabulate each device's curves for the TCC figure. The devices are
+taken to sit on the energised side, seeing its line currents.
 """
 
 from __future__ import annotations
@@ -19,7 +21,7 @@ from typing import Any, Literal
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from core.energization import energize
+from core.energization import energize, peaks
 from core.energization.switching_event import SwitchingEvent, plain_event_arrays
 from core.errors import ParameterError
 from core.protection import coordination, damage_curves, device_operation, fuse_breaker_curves
@@ -312,12 +314,17 @@ def clearance_study(
         max_steps=max_steps,
     )
     lines = ("A",) if circuit.phases == 1 else ("A", "B", "C")
+    # the first peak of each line read exactly, as the peak and envelope operations read it
+    exact = peaks.first_peaks(
+        [circuit], np.array([angle]), np.asarray(residual_flux_pu, dtype=float)[None, :], sim
+    )
     inrush = device_operation.inrush_from_waveform(
         sim.time_s,
         sim.line_current_a[0],
         f,
         rated_current_a=circuit.rated_line_current_a,
         lines=lines,
+        peak=device_operation.Extreme(exact.peak_a[0], exact.time_s[0]),
     )
     z_pu = impedance_percent / 100.0
     curve = damage_curves.through_fault_damage_curve(

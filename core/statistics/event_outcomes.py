@@ -257,8 +257,9 @@ def dip_exceedance_odds(
         if checkpoint is not None:
             checkpoint()
         study = dip.energize_from_source(
-            gen, circuit, event, excitation=excitation, bus_load=bus_load, duration_s=span
-        )
+            gen, circuit, event, excitation=excitation, bus_load=bus_load, duration_s=span,
+            exact_peaks=False,
+        )  # fmt: skip
         dips[k] = study.dip_percent
         # each event states its own pole instants: say it once, in general
         own = tuple(a for a in study.approximations if not a.startswith(_POLES_STATED))

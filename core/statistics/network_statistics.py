@@ -334,9 +334,10 @@ def network_peak_distribution(
         if checkpoint is not None:
             checkpoint()
         part = slice(start, min(start + size, n))
+        case_units = _case_units(sim_units, part, res, closing)
         sim = simulate_network(
             source,
-            _case_units(sim_units, part, res, closing),
+            case_units,
             closing_angle_deg=angles[part],
             duration_s=duration,
             load=load,

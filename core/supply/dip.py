@@ -203,9 +203,11 @@ class DipStudy:
     recovery_reference_pu : float
         Centre of the band [pu].
     inrush_peak_a : float
-        Largest transformer line current with this source [A].
+        Largest transformer line current with this source, read exactly [A].
     cycle_peak_current_a : ndarray, shape (3, n_cycles)
-        Per-cycle peak of each transformer line current [A].
+        Per-cycle peak of each transformer line current, read exactly (the network integrated
+        again around each cycle's largest sample, :func:`core.network.peaks.
+        line_cycle_peaks`) [A].
     emf_pu, field_voltage_pu : ndarray, shape (n_cycles,)
         Per-cycle mean of E''_q and E_fd [pu].
     hand_method_load_va : float
@@ -425,6 +427,7 @@ def run_on_sources(
     duration_s: float,
     steps_per_cycle: int,
     waveform_points: int,
+    exact_peaks: bool = False,
 ) -> tuple[list[dip_cases.SourceParameters], dip_cases.Raw, list[tuple[str, str]]]:
     """One dip case per source, the same energisation of each, checked and integrated at once.
 
@@ -454,6 +457,9 @@ def run_on_sources(
         Steps per cycle, at least 128 [-].
     waveform_points : int
         Waveform samples kept, 0 for none [-].
+    exact_peaks : bool
+        Read the transformer's per-cycle peaks, exactly (the network integrated again around
+        each cycle's largest sample); False leaves them NaN [-].
 
     Returns
     -------
@@ -478,7 +484,10 @@ def run_on_sources(
     params = [source_parameters(s, excitation, 2.0 * math.pi * f) for s in sources]
     cases = [dip_cases.build_case(p, circuit, event, load, v0) for p in params]
     v_ph = sources[0].line_voltage_v / math.sqrt(3.0)
-    raw = dip_cases.run(cases, f, v_ph, duration_s, steps_per_cycle, waveform_points, event=event)
+    raw = dip_cases.run(
+        cases, f, v_ph, duration_s, steps_per_cycle, waveform_points, event=event,
+        exact_peaks=exact_peaks,
+    )  # fmt: skip
     return params, raw, warnings
 
 
@@ -496,6 +505,7 @@ def energize_from_source(
     recovery_reference: Literal["pre_event", "final"] = "pre_event",
     voltage_measure: Measure = "worst",
     waveform_points: int = 0,
+    exact_peaks: bool = True,
 ) -> DipStudy:
     """Energise a transformer from a generator or weak utility source: dip and recovery.
 
@@ -538,6 +548,10 @@ def energize_from_source(
         zero-sequence simplification, what a regulator senses) or ``"phase"`` [-].
     waveform_points : int
         Return the waveforms decimated to about this many points (0: none) [-].
+    exact_peaks : bool
+        Read the inrush's per-cycle peaks exactly (the network integrated again around each
+        cycle's largest sample); False leaves ``inrush_peak_a`` and ``cycle_peak_current_a``
+        NaN, for callers that use the dip only [-].
 
     Returns
     -------
@@ -593,6 +607,7 @@ def energize_from_source(
         duration_s=duration_s,
         steps_per_cycle=steps_per_cycle,
         waveform_points=waveform_points,
+        exact_peaks=exact_peaks,
     )
     warnings = [*circuit.warnings, *checked]
     low = _lowest(raw, v0, voltage_measure)

@@ -240,6 +240,7 @@ def run(
     wave_points: int,
     *,
     event: SwitchingEvent | None = None,
+    exact_peaks: bool = False,
 ) -> Raw:
     """Integrate every case over whole cycles.
 
@@ -265,6 +266,9 @@ def run(
         when that is 0 or every case's resistor is 0); poles a, b and c close at
         ``event.pole_delay_s``, each in [0, duration_s) (see :func:`check_poles`), rounded to
         the nearest step. None for all poles at t = 0 and no resistor [-].
+    exact_peaks : bool
+        Read each line's per-cycle peak exactly (:func:`core.network.peaks.line_cycle_peaks`);
+        False leaves ``peaks_a`` NaN [-].
 
     Returns
     -------
@@ -312,7 +316,7 @@ def run(
         )
     stride = max(1, math.ceil((n_steps + 1) / wave_points)) if wave_points > 0 else 0
     poles_s = np.asarray(pole_step * h, dtype=np.float64)
-    out = dip_network.simulate(cases, f, spc, n_cyc, poles_s, n_in * h, stride)
+    out = dip_network.simulate(cases, f, spc, n_cyc, poles_s, n_in * h, stride, exact_peaks)
     if not np.all(np.isfinite(out.v2)):
         raise ParameterError("circuit", "non-finite result", "a circuit that stays finite")
     return _raw(cases, out, spc, voltage_base_v, h * stride, n_in * h)

@@ -36,6 +36,7 @@ from core.network import (
     step_plan,
 )
 from core.network import machine as network_machine
+from core.network import peaks as network_peaks
 from core.network.solver import MAX_STEPS_PER_CYCLE
 from core.transformer.circuit_model import EquivalentCircuit
 
@@ -327,23 +328,9 @@ def plan(
     return spc
 
 
-def _peaks(a: FloatArray, spc: int, n_cyc: int) -> FloatArray:
-    # per-cycle peak of |i|, each local maximum refined by the parabola through it and its
-    # neighbours (vertex p1 + (p0 - p2)^2/(8*(2*p1 - p0 - p2)))
-    n = n_cyc * spc
-    shape = (*a.shape[:-1], n_cyc, spc)
-    p0, p1, p2 = a[..., :-2], a[..., 1:-1], a[..., 2:]
-    den = 2.0 * p1 - p0 - p2
-    ok = (p1 >= p0) & (p1 >= p2) & (den > 0.0)
-    vert = np.where(ok, p1 + (p0 - p2) ** 2 / (8.0 * np.where(ok, den, 1.0)), 0.0)
-    full = np.zeros((*a.shape[:-1], n))
-    m = min(n, a.shape[-1] - 1)  # sample j's vertex is vert[j - 1], j = 1 ... m - 1
-    full[..., 1:m] = vert[..., : m - 1]
-    out: FloatArray = np.maximum(a[..., :n].reshape(shape).max(-1), full.reshape(shape).max(-1))
-    return out
-
-
-def _reduce(res: NetworkResult, spc: int, n_cyc: int, stride: int) -> list[FloatArray]:
+def _reduce(
+    res: NetworkResult, spc: int, n_cyc: int, stride: int, peaks: FloatArray
+) -> list[FloatArray]:
     # the chunk's record to per-cycle sums and the decimated waveforms
     n = n_cyc * spc
     v = res.bus_voltage_v
@@ -357,7 +344,7 @@ def _reduce(res: NetworkResult, spc: int, n_cyc: int, stride: int) -> list[Float
     wave_v = v[..., ::stride] if stride else v[..., :0]
     wave_i = i[..., ::stride] if stride else i[..., :0]
     return [
-        cyc(v * v), cyc(vll * vll), cyc(i * i), _peaks(np.abs(i), spc, n_cyc),
+        cyc(v * v), cyc(vll * vll), cyc(i * i), peaks,
         cyc(res.emf_pu), cyc(res.field_voltage_pu), wave_v, wave_i,
         res.insertion_energy_j[:, 0],
     ]  # fmt: skip
@@ -371,6 +358,7 @@ def simulate(
     poles_s: FloatArray,
     bypass_s: float,
     stride: int,
+    exact_peaks: bool = True,
 ) -> Cycles:
     """Run the cases on the network solver in chunks and reduce each to per-cycle values.
 
@@ -390,6 +378,9 @@ def simulate(
         The resistor's bypass instant on the step, 0 for no resistor [s].
     stride : int
         Keep every stride-th step in the waveforms, 0 for none [-].
+    exact_peaks : bool
+        Read the per-cycle peaks (exactly); False leaves them NaN, for callers that do not
+        use them [-].
 
     Returns
     -------
@@ -399,8 +390,9 @@ def simulate(
     -----
     Every step is a sample (samples_per_cycle = spc); a chunk holds at most CHUNK_BYTES of
     record, so the memory does not grow with the number of cases. The per-cycle sums are over
-    the samples of [nT, (n+1)T); the peak is the largest |i| of the cycle or the vertex of the
-    parabola through a local maximum of |i| and its two neighbours.
+    the samples of [nT, (n+1)T); the peak of each line and cycle is read exactly, the network
+    integrated again around the cycle's largest sample (:func:`core.network.peaks.
+    line_cycle_peaks`).
 
     References
     ----------
@@ -423,7 +415,14 @@ def simulate(
         )  # fmt: skip
         if res.steps_per_cycle != spc:
             raise ParameterError("steps_per_cycle", res.steps_per_cycle, f"the planned {spc}")
-        parts.append(_reduce(res, spc, n_cycles, stride))
+        # the transformer's per-cycle peaks read exactly (the network re-integrated around
+        # each cycle's largest sample of each line)
+        load = chunk[0].state.load
+        if exact_peaks:
+            exact = network_peaks.line_cycle_peaks(machine, units, load, res, 0, n_cycles)
+        else:
+            exact = np.full((len(chunk), 3, n_cycles), np.nan)
+        parts.append(_reduce(res, spc, n_cycles, stride, exact))
         subs.append(_substeps(machine, units, spc, bypass_s))
         closing = res.closing_time_s[0, 0]
     v2, vll2, i2, peaks, emf, fld, wave_v, wave_i, energy = (

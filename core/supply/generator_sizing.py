@@ -304,6 +304,7 @@ def smallest_generator(
             bus_load=bus_load,
             duration_s=lim.max_recovery_s + 1.0,
             voltage_measure=voltage_measure,
+            exact_peaks=False,
         )
         count += 1
         rec = study.recovery_time_s

@@ -16,6 +16,7 @@ from core import cost, waveform
 from core.energization.switching_event import RESIDUAL_DEFAULT_SOURCE, switching_event
 from core.errors import ParameterError
 from core.network import Breaker, BusLoad, NetworkResult, Source, Unit, analysis, simulate_network
+from core.network import peaks as network_peaks
 from core.protection import coordination, device_operation, differential
 from core.protection.inrush_curves import inrush_from_waveform
 from core.transformer import circuit_model, plausibility
@@ -330,9 +331,10 @@ def _current(
     rated: float | None,
     first_end_s: float,
     harmonic_cycles: int,
+    exact: tuple[float, int, np.ndarray],
 ) -> CurrentOut:
-    """Readings of three line currents i, shape (3, n)."""
-    r = analysis.current_readings(time, i, spc, first_end_s, harmonic_cycles)
+    """Readings of three line currents i, shape (3, n), with the peaks read exactly."""
+    r = analysis.current_readings(time, i, spc, first_end_s, harmonic_cycles, exact)
     first = r.first_peak_a
     return CurrentOut(
         first_peak_a=first,
@@ -347,10 +349,15 @@ def _current(
 
 
 def _sympathetic(
-    line: np.ndarray, spc: int, rated: float, f: float, duration: float
+    line: np.ndarray,
+    spc: int,
+    rated: float,
+    f: float,
+    duration: float,
+    exact: tuple[np.ndarray, np.ndarray],
 ) -> SympatheticOut:
-    """line: the unit's line currents, shape (3, n)."""
-    s = analysis.sympathetic_current(line, spc, f, duration, SYMPATHETIC_FRACTION)
+    """line: the unit's line currents, shape (3, n); exact: its per-cycle peaks and lines."""
+    s = analysis.sympathetic_current(line, spc, f, duration, SYMPATHETIC_FRACTION, exact)
     return SympatheticOut(
         peak_a=s.peak_a,
         peak_x_rated=s.peak_a / rated,
@@ -441,6 +448,8 @@ class _Simulated:
     assumptions: list[Assumption]
     warns: list[tuple[str, str]]
     load: BusLoad | None
+    source: Source
+    units: list[Unit]
 
 
 def _simulate(body: NetworkRequest, settings: Settings, figure: bool = False) -> _Simulated:
@@ -484,7 +493,7 @@ def _simulate(body: NetworkRequest, settings: Settings, figure: bool = False) ->
             f"a source whose saturated loops keep {exc.allowed} (the step would be too short): "
             "a larger X/R or a smaller resistance",
         ) from None
-    return _Simulated(res, net.rated_current_a, net.assumptions, net.warnings, load)
+    return _Simulated(res, net.rated_current_a, net.assumptions, net.warnings, load, source, units)
 
 
 def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
@@ -500,12 +509,29 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
     first_end = float(analysis.first_peak_window_end(res.closing_time_s[0], is_energized, f))
     hc = body.options.harmonic_cycles
     i_rated_sum = float(sum(rated[k] for k in energized))
+    n_units = len(body.units)
+    # every unit's and the source's peaks, read exactly (one set of re-integrated windows)
+    exact = network_peaks.signal_peaks(
+        run.source, run.units, load, res, [*range(n_units), network_peaks.SOURCE],
+        np.array([first_end]),
+    )  # fmt: skip
+
+    def read(k: int) -> tuple[float, int, np.ndarray]:
+        return (
+            float(exact.first_peak_a[0, k]),
+            int(exact.first_peak_line[0, k]),
+            exact.cycle_peaks_a[0, k],
+        )
+
     out_units = []
     for k, u in enumerate(body.units):
         line = res.line_current_a[0, k]
         sym = None
         if u.state == "in_service":
-            sym = _sympathetic(line, spc, rated[k], f, float(res.time_s[-1]))
+            sym = _sympathetic(
+                line, spc, rated[k], f, float(res.time_s[-1]),
+                (exact.cycle_peaks_a[0, k], exact.cycle_peak_line[0, k]),
+            )  # fmt: skip
         diff, diff_notes = _differential(u, res.time_s, line, f, rated[k])
         assumptions += diff_notes
         out_units.append(
@@ -513,13 +539,13 @@ def _study(body: NetworkRequest, settings: Settings) -> NetworkResponse:
                 name=u.name,
                 state=u.state,
                 rated_current_a=rated[k],
-                current=_current(res.time_s, line, spc, rated[k], first_end, hc),
+                current=_current(res.time_s, line, spc, rated[k], first_end, hc, read(k)),
                 sympathetic=sym,
                 differential=diff,
             )
         )
     src_i = res.source_current_a[0]
-    src_out = _current(res.time_s, src_i, spc, i_rated_sum, first_end, hc)
+    src_out = _current(res.time_s, src_i, spc, i_rated_sum, first_end, hc, read(n_units))
     curves = inrush_from_waveform(res.time_s, src_i, f, rated_current_a=i_rated_sum, lines=LINES)
     rule = [
         RuleOfThumbOut(

@@ -33,6 +33,7 @@ from hypothesis import strategies as st
 from core import cost
 from core.energization import energize, energize_plan, inrush_study, peaks, switching_event
 from core.mitigation import mitigation_options, mitigation_study
+from core.network import peaks as network_peaks
 from core.protection import coordination, device_operation, fuse_breaker_curves, protection_study
 from core.statistics import event_outcomes, monte_carlo
 from core.supply import dip_cases, dip_limits, dip_study, sources
@@ -321,9 +322,20 @@ def test_statistics_estimate_with_event_checks_counts_each_part(tally: Tally) ->
 
 
 @pytest.mark.parametrize("duration_s", [0.5, 1.0, 2.51])
-def test_dip_estimate_is_the_solver_steps(tally: Tally, duration_s: float) -> None:
+def test_dip_estimate_is_the_solver_steps(
+    tally: Tally, duration_s: float, monkeypatch: pytest.MonkeyPatch
+) -> None:
     # exact: whole cycles of the event at the solver's 128 steps per cycle (these circuits do
-    # not raise it) and the one-cycle run on an ideal source
+    # not raise it) and the one-cycle run on an ideal source; the exact reading of the event's
+    # peaks (every line, every cycle) at most its estimate, one window per peak and stage
+    windows: list[int] = []
+    simulate_windows = network_peaks.simulate_windows
+
+    def counted_windows(*a: Any, **k: Any) -> Any:
+        windows.append(int(a[4].size) * int(a[7]))  # windows x steps, one unit
+        return simulate_windows(*a, **k)
+
+    monkeypatch.setattr(network_peaks, "simulate_windows", counted_windows)
     dip_study.dip_study(
         NORTHGATE,
         _circuit("wye_grounded"),
@@ -334,7 +346,13 @@ def test_dip_estimate_is_the_solver_steps(tally: Tally, duration_s: float) -> No
     assert len(tally.dips) == 2
     work = cost.dip_study_work(F_HZ, duration_s, sizing=False, recovery_limit_s=None)
     steps = (work.steps - cost.DIP_RUN_WEIGHT) / cost.DIP_STEP_WEIGHT
-    assert steps == pytest.approx(sum(tally.dips), rel=1e-12)
+    n_cyc = tally.dips[0] // dip_cases.MIN_STEPS_PER_CYCLE
+    reading = network_peaks.reading_steps(
+        1, 3 * n_cyc, tally.dips[0] + 1, dip_cases.MIN_STEPS_PER_CYCLE, 1, 1
+    )
+    assert steps - reading == pytest.approx(sum(tally.dips), rel=1e-12)
+    # windows shared by lines peaking at one sample only lower it
+    assert 0.5 * reading <= sum(windows) <= reading
 
 
 def test_dip_sizing_estimate_is_near_the_evaluations_made(tally: Tally) -> None:
@@ -377,9 +395,11 @@ def test_clearance_estimate_counts_the_search_record_and_judging(
     work = cost.clearance_work(
         circuit, worst_angle=closing is None, duration_s=1.0, devices=3, windows=windows
     )
-    searched = sum(tally.sims[:-1])
+    # the search, the record, then the exact reading's two stages (core.energization.peaks)
+    searched = sum(tally.sims[:-3])
     assert (_part(work, "worst closing angle") if closing is None else 0.0) == searched
-    assert _part(work, "inrush record") == tally.sims[-1]
+    assert _part(work, "inrush record") == tally.sims[-3]
+    assert _part(work, "first peaks read exactly") == sum(tally.sims[-2:])
     record = 3 * (round(1.0 * F_HZ * 128) + 1)
     assert _part(work, "record read") == cost.RECORD_SAMPLE_WEIGHT * record
     factor = 1.0 + (cost.WINDOW_JUDGEMENTS if windows else 0.0)

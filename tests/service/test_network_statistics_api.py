@@ -84,9 +84,11 @@ def test_one_unit_equals_the_single_unit_statistics(client: TestClient) -> None:
     """Same unit, source and random state through both operations: the same events drawn (one
     unit's draws are /v1/inrush/statistics' draws, in its order), so the percentiles agree to the
     two solvers' rounding and their peak readings: /v1/inrush/statistics reads the largest line
-    sample over 2 cycles after the latest pole of the whole sample, this operation within 2
-    cycles after the event's own last pole (the first peak falls in the first cycle, so the two
-    windows hold the same peak; measured 5e-13 apart on 500 events)."""
+    sample over 2 cycles after the latest pole of the whole sample refined by the parabola
+    through it and its neighbours, this operation reads each first peak exactly (the network
+    integrated again around it) within 2 cycles after the event's own last pole (the first peak
+    falls in the first cycle, so the two windows hold the same peak). The readings differ by the
+    parabola's error on these rounded peaks, measured 8.8e-8 at most here: 1e-6."""
     t = copy.deepcopy(NETWORK_REQUESTS["northgate_ring_reclose"]["units"][0]["transformer"])
     sampling = {"samples": 300, "random_state": 5}
     single = client.post(
@@ -105,8 +107,8 @@ def test_one_unit_equals_the_single_unit_statistics(client: TestClient) -> None:
     assert want["p99_high_a"] is None  # unbounded at 300 samples, in both
     assert net["source"]["p99_high_a"] is None
     for key in ("p50_a", "p95_a", "p99_a", "max_a", "p99_low_a"):
-        assert net["source"][key] == pytest.approx(want[key], rel=1e-9)
-        assert net["units"][0]["first_peak"][key] == pytest.approx(want[key], rel=1e-9)
+        assert net["source"][key] == pytest.approx(want[key], rel=1e-6)
+        assert net["units"][0]["first_peak"][key] == pytest.approx(want[key], rel=1e-6)
     assert net["source"]["convergence"]["samples"] == single["convergence"]["samples"]
 
 
