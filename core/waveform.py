@@ -20,12 +20,16 @@ from core.errors import ParameterError
 FloatArray = NDArray[np.float64]
 
 __all__ = [
+    "MAX_SAMPLES_PER_CYCLE",
+    "STAGE_FACTOR",
     "STANDARD_TIMES_S",
     "DecayFit",
     "cycle_peaks",
     "decay_time_constant",
     "equivalent_rms",
+    "finer_samples_per_cycle",
     "harmonic_ratio",
+    "refinement_stages",
     "time_below",
 ]
 
@@ -245,3 +249,61 @@ def harmonic_ratio(current_a: ArrayLike, samples_per_cycle: int, order: int = 2)
     with np.errstate(divide="ignore", invalid="ignore"):
         out: FloatArray = np.where(h1 > 0.0, hk / h1, np.nan)
     return out
+
+
+# Finest re-integration, samples (= steps) per cycle; the solver accepts at most 100 000
+# samples per cycle. Stage factors: 16, then what brings the total closest below this.
+MAX_SAMPLES_PER_CYCLE = 100_000
+STAGE_FACTOR = 16
+
+
+def finer_samples_per_cycle(samples_per_cycle: int) -> int:
+    """Samples per cycle of the re-integration one stage finer than ``samples_per_cycle``.
+
+    Parameters
+    ----------
+    samples_per_cycle : int
+        Samples per cycle of the record refined [-].
+
+    Returns
+    -------
+    int
+        16 times as many, capped at :data:`MAX_SAMPLES_PER_CYCLE` (never fewer) [-].
+
+    References
+    ----------
+    The exact peak reading's plan (:mod:`core.energization.peaks`).
+    """
+    return samples_per_cycle * max(1, min(STAGE_FACTOR, MAX_SAMPLES_PER_CYCLE // samples_per_cycle))
+
+
+def refinement_stages(samples_per_cycle: int) -> tuple[tuple[int, int], ...]:
+    """Samples per cycle of each re-integration stage, before and after it.
+
+    Parameters
+    ----------
+    samples_per_cycle : int
+        Output samples per cycle of the simulation read [-].
+
+    Returns
+    -------
+    tuple of (int, int)
+        For each stage, (samples per cycle of the record it refines, of its own record) [-];
+        each stage re-integrates two intervals of the first around each candidate.
+
+    Notes
+    -----
+    A stage is 16 times finer, capped at :data:`MAX_SAMPLES_PER_CYCLE`; the second stage runs
+    when it can be at least twice finer than the first. The exact readings
+    (:mod:`core.energization.peaks`, :mod:`core.network.peaks`) run exactly these stages, so a
+    work estimate can count them.
+
+    References
+    ----------
+    The exact peak reading's plan (:mod:`core.energization.peaks`, :mod:`core.network.peaks`).
+    """
+    first = finer_samples_per_cycle(samples_per_cycle)
+    stages = [(samples_per_cycle, first)]
+    if MAX_SAMPLES_PER_CYCLE // first >= 2:
+        stages.append((first, finer_samples_per_cycle(first)))
+    return tuple(stages)

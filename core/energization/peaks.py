@@ -32,16 +32,20 @@ from numpy.typing import NDArray
 from core.energization import energize
 from core.transformer.circuit_model import EquivalentCircuit
 from core.transformer.magnetizing import MagnetizingCurve, PiecewiseLinearCurve
+from core.waveform import MAX_SAMPLES_PER_CYCLE, finer_samples_per_cycle, refinement_stages
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
-__all__ = ["MAX_SAMPLES_PER_CYCLE", "ExactPeaks", "cycle_peaks", "first_peaks", "flux_of_current"]
+__all__ = [
+    "MAX_SAMPLES_PER_CYCLE",
+    "ExactPeaks",
+    "cycle_peaks",
+    "first_peaks",
+    "flux_of_current",
+    "refinement_stages",
+]
 
-# Finest re-integration, samples (= steps) per cycle; the solver accepts at most 100 000
-# samples per cycle. Stage factors: 16, then what brings the total closest below this.
-MAX_SAMPLES_PER_CYCLE = 100_000
-_STAGE_FACTOR = 16
 # residual flux the solver accepts (core.energization.energize_plan.check_cases) [pu of lambda_N]
 _MAX_FLUX_PU = 5.0
 
@@ -122,44 +126,6 @@ def _vertex(y0: FloatArray, y1: FloatArray, y2: FloatArray) -> tuple[FloatArray,
     return np.maximum(y1 - 0.25 * (y0 - y2) * off, y1), off
 
 
-def _finer(samples_per_cycle: int) -> int:
-    """Samples per cycle of the re-integration one stage finer than ``samples_per_cycle``."""
-    return samples_per_cycle * max(
-        1, min(_STAGE_FACTOR, MAX_SAMPLES_PER_CYCLE // samples_per_cycle)
-    )
-
-
-def refinement_stages(samples_per_cycle: int) -> tuple[tuple[int, int], ...]:
-    """Samples per cycle of each re-integration stage, before and after it.
-
-    Parameters
-    ----------
-    samples_per_cycle : int
-        Output samples per cycle of the simulation read [-].
-
-    Returns
-    -------
-    tuple of (int, int)
-        For each stage, (samples per cycle of the record it refines, of its own record) [-];
-        each stage re-integrates two intervals of the first around each candidate.
-
-    Notes
-    -----
-    A stage is 16 times finer, capped at :data:`MAX_SAMPLES_PER_CYCLE`; the second stage runs
-    when it can be at least twice finer than the first. :func:`first_peaks` and
-    :func:`cycle_peaks` run exactly these stages, so a work estimate can count them.
-
-    References
-    ----------
-    This module's own plan (module docstring).
-    """
-    first = _finer(samples_per_cycle)
-    stages = [(samples_per_cycle, first)]
-    if MAX_SAMPLES_PER_CYCLE // first >= 2:
-        stages.append((first, _finer(first)))
-    return tuple(stages)
-
-
 def _refine(
     circuits: Sequence[EquivalentCircuit],
     closing_angle_deg: FloatArray,
@@ -183,7 +149,7 @@ def _refine(
     """
     first = circuits[0]
     f = first.frequency_hz
-    fine = _finer(samples_per_cycle)
+    fine = finer_samples_per_cycle(samples_per_cycle)
     factor = fine // samples_per_cycle
     t0 = start * sample_s
     circ = [circuits[c] for c in case]

@@ -9,7 +9,7 @@ the state of the whole network at the sample before each candidate (every unit's
 lambda, the load currents, the machine's four states, and which poles are closed and resistors
 in), the network is integrated again over the two sample intervals around it with a step 16
 times finer (:func:`core.network.solver.simulate_windows`), then once more around the largest of
-those samples, finer again -- the stages of :func:`core.energization.peaks.refinement_stages`
+those samples, finer again -- the stages of :func:`core.waveform.refinement_stages`
 on the run's internal step, so for a run whose step is its sample (the usual 128 a cycle) both
 solvers read a peak through the same instants and step sizes -- and the peak is read from that
 dense record with the parabola on its last three samples around the largest.
@@ -40,7 +40,6 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from core.energization.peaks import refinement_stages
 from core.errors import ParameterError
 from core.network.machine import Machine
 from core.network.solver import (
@@ -52,6 +51,7 @@ from core.network.solver import (
     WindowRecord,
     simulate_windows,
 )
+from core.waveform import refinement_stages
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -177,7 +177,7 @@ def read_peaks(
     -----
     Stage 1: from the state at sample s0 = clip(center - 1, 0, n_samples - 3), 2*d steps of the
     run (d steps a sample) at h/F1; stage 2: from the stage-1 sample before its largest, two
-    stage-1 steps at h/(F1*F2); F1, F2 those of :func:`core.energization.peaks.
+    stage-1 steps at h/(F1*F2); F1, F2 those of :func:`core.waveform.
     refinement_stages` at the run's steps per cycle. Each stage's largest |i| within
     [t_lo, t_hi) is refined by the parabola on the three samples around it; the result is never
     below the candidate sample.

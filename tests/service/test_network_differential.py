@@ -129,7 +129,7 @@ def test_over_budget_names_the_differentials(monkeypatch: pytest.MonkeyPatch) ->
     """The differential's filter is most of the sympathetic example's work (a one-cycle Fourier
     estimate of three orders at every line-sample): a budget between the work with and without
     it names units.differential, and the request without it fits."""
-    monkeypatch.setenv("FIRSTCYCLE_MAX_REQUEST_STEPS", "2000000")
+    monkeypatch.setenv("FIRSTCYCLE_MAX_REQUEST_STEPS", "2500000")
     get_settings.cache_clear()
     try:
         with TestClient(create_app(), raise_server_exceptions=False) as c:

@@ -25,6 +25,12 @@ from service.settings import get_settings
 URL = "/v1/network-energization/statistics"
 SINGLE = "/v1/network-energization"
 
+# The statistics read each event's first peaks from its samples (the parabola through the
+# largest of 128 a cycle and its neighbours, kept while the kernel runs: no record);
+# /v1/network-energization reads them exactly (re-integrating around the peak). Measured at most
+# 2.7e-7 apart (tests/service/test_consistency.py); a different event moves a peak by percent.
+READING = 4e-7
+
 
 @pytest.fixture(autouse=True)
 def _fresh_settings() -> Iterator[None]:
@@ -67,10 +73,10 @@ def test_a_fixed_event_has_no_spread_and_equals_the_single_answer(client: TestCl
     out = stats.json()
     src = out["source"]
     assert src["p50_a"] == src["p99_a"] == src["max_a"]
-    assert src["max_a"] == pytest.approx(one["source"]["first_peak_a"], rel=1e-9)
+    assert src["max_a"] == pytest.approx(one["source"]["first_peak_a"], rel=READING)
     for got, want in zip(out["units"], one["units"], strict=True):
         assert got["first_peak"]["max_a"] == pytest.approx(
-            want["current"]["first_peak_a"], rel=1e-9
+            want["current"]["first_peak_a"], rel=READING
         )
         assert got["first_peak"]["p50_a"] == got["first_peak"]["max_a"]
     # the event given back is the one sent
@@ -84,11 +90,9 @@ def test_one_unit_equals_the_single_unit_statistics(client: TestClient) -> None:
     """Same unit, source and random state through both operations: the same events drawn (one
     unit's draws are /v1/inrush/statistics' draws, in its order), so the percentiles agree to the
     two solvers' rounding and their peak readings: /v1/inrush/statistics reads the largest line
-    sample over 2 cycles after the latest pole of the whole sample refined by the parabola
-    through it and its neighbours, this operation reads each first peak exactly (the network
-    integrated again around it) within 2 cycles after the event's own last pole (the first peak
-    falls in the first cycle, so the two windows hold the same peak). The readings differ by the
-    parabola's error on these rounded peaks, measured 8.8e-8 at most here: 1e-6."""
+    sample over 2 cycles after the latest pole of the whole sample, this operation within 2
+    cycles after the event's own last pole (the first peak falls in the first cycle, so the two
+    windows hold the same peak; measured 5e-13 apart on 500 events)."""
     t = copy.deepcopy(NETWORK_REQUESTS["northgate_ring_reclose"]["units"][0]["transformer"])
     sampling = {"samples": 300, "random_state": 5}
     single = client.post(
@@ -107,8 +111,8 @@ def test_one_unit_equals_the_single_unit_statistics(client: TestClient) -> None:
     assert want["p99_high_a"] is None  # unbounded at 300 samples, in both
     assert net["source"]["p99_high_a"] is None
     for key in ("p50_a", "p95_a", "p99_a", "max_a", "p99_low_a"):
-        assert net["source"][key] == pytest.approx(want[key], rel=1e-6)
-        assert net["units"][0]["first_peak"][key] == pytest.approx(want[key], rel=1e-6)
+        assert net["source"][key] == pytest.approx(want[key], rel=1e-9)
+        assert net["units"][0]["first_peak"][key] == pytest.approx(want[key], rel=1e-9)
     assert net["source"]["convergence"]["samples"] == single["convergence"]["samples"]
 
 
@@ -135,7 +139,7 @@ def test_golden_example_worst_events_replay(client: TestClient) -> None:
         else:
             got = next(u for u in one["units"] if u["name"] == ev["worst_of"])["current"]
             got = got["first_peak_a"]
-        assert got == pytest.approx(ev["first_peak_a"], rel=1e-9)
+        assert got == pytest.approx(ev["first_peak_a"], rel=READING)
 
 
 def test_units_in_service_have_no_first_peak(client: TestClient) -> None:
@@ -242,4 +246,4 @@ def test_a_four_unit_feeder_without_a_record_succeeds_within_the_budget(
     got = client.post(SINGLE, json=single)
     assert got.status_code == 200, got.text
     assert worst["worst_of"] == "source"
-    assert got.json()["source"]["first_peak_a"] == pytest.approx(worst["first_peak_a"], rel=1e-9)
+    assert got.json()["source"]["first_peak_a"] == pytest.approx(worst["first_peak_a"], rel=READING)
