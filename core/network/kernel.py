@@ -12,7 +12,13 @@ piecewise linear the stage starts with the Newton step from the previous stage's
 on the pieces held there (affine in Phi and in the loop fluxes, so no curve evaluation is
 needed) and accepts it when the one evaluation at that Phi finds every winding on those pieces.
 
-Compiled with numba (``cache=True``). Everything the kernel inlines is defined in this file:
+A lone grounded-wye unit on a Thevenin source without bus load has decoupled phases: KCL at the
+bus is Phi_k = L_s*f(lambda_k) per phase, and :func:`integrate_lone` integrates the same loop
+fluxes with each phase's scalar equation psi_k = lambda_k + L_s*f(lambda_k) solved in closed
+form on each linear piece (by Newton's method for the smooth knee), one element per case and
+phase, serially or spread over the cores (:func:`integrate_lone_parallel`).
+
+Compiled with numba (``cache=True``). Everything the kernels inline is defined in this file:
 numba keys its cache by the file of the cached function only.
 """
 
