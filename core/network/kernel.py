@@ -12,13 +12,21 @@ piecewise linear the stage starts with the Newton step from the previous stage's
 on the pieces held there (affine in Phi and in the loop fluxes, so no curve evaluation is
 needed) and accepts it when the one evaluation at that Phi finds every winding on those pieces.
 
-Compiled with numba (``cache=True``). Everything the kernel inlines is defined in this file:
+A lone grounded-wye unit on a Thevenin source without bus load has decoupled phases: KCL at the
+bus is Phi_k = L_s*f(lambda_k) per phase, and :func:`integrate_lone` integrates the same loop
+fluxes with each phase's scalar equation psi_k = lambda_k + L_s*f(lambda_k) solved in closed
+form on each linear piece (by Newton's method for the smooth knee), one element per case and
+phase, serially or spread over the cores (:func:`integrate_lone_parallel`).
+
+Compiled with numba (``cache=True``). Everything the kernels inline is defined in this file:
 numba keys its cache by the file of the cached function only.
 """
 
 from __future__ import annotations
 
 import math
+import types
+from collections.abc import Callable
 
 import numba
 import numpy as np
@@ -33,10 +41,13 @@ __all__ = [
     "GROUNDED_WYE",
     "MAX_ITERATIONS",
     "NSRC",
+    "PARALLEL_MIN_ELEMENTS",
     "RECORD_ALL",
     "RECORD_FIRST_PEAKS",
     "RECORD_SOURCE",
     "integrate",
+    "integrate_lone",
+    "integrate_lone_parallel",
 ]
 
 GROUNDED_WYE, FLOATING_WYE, DELTA = 0, 1, 2
@@ -226,6 +237,52 @@ def _source_scale(x: float, j: int, g0: float, slope: float, kh: int, ke: int) -
 
 
 @numba.njit(cache=True)
+def _trig_table(n_steps: int, omega: float, h: float) -> FloatArray:  # pragma: no cover
+    # sin and cos of omega*t at every half step t = m*h/2, the stage instants of an unsplit
+    # step: by rotation through omega*h/2, exact every 64 half steps (a rotation adds about an
+    # ulp); shape (2*n_steps + 3, 2)
+    trig = np.empty((2 * n_steps + 3, 2))
+    chh = math.cos(0.5 * omega * h)
+    shh = math.sin(0.5 * omega * h)
+    ts = tc = 0.0
+    for m in range(2 * n_steps + 3):
+        if m % 64 == 0:
+            ts = math.sin(omega * (0.5 * m) * h)
+            tc = math.cos(omega * (0.5 * m) * h)
+        else:
+            ts, tc = ts * chh + tc * shh, tc * chh - ts * shh
+        trig[m, 0] = ts
+        trig[m, 1] = tc
+    return trig
+
+
+@numba.njit(cache=True, inline="always")
+def _stage_trig(
+    trig: FloatArray,
+    j: int,
+    st: int,
+    nsub: int,
+    x_st: float,
+    x_trig: float,
+    omega: float,
+    h: float,
+    swt: float,
+    cwt: float,
+) -> tuple[float, float, float]:  # pragma: no cover - compiled
+    # sin and cos of omega*t at stage st of step j (instant x_st [steps]) and the instant they
+    # are of: from the table for an unsplit step; for a sub-step computed, once per instant
+    # (the two middle stages, and a sub-step's end and the next one's start, are the same
+    # instant), swt and cwt being those of x_trig
+    if nsub == 1:
+        m = 2 * j + (0 if st == 0 else (2 if st == 3 else 1))
+        return trig[m, 0], trig[m, 1], x_trig
+    if x_st != x_trig:
+        wt = omega * x_st * h
+        return math.sin(wt), math.cos(wt), x_st
+    return swt, cwt, x_trig
+
+
+@numba.njit(cache=True)
 def _status(
     conn: int, closed: NDArray[np.bool_], on: NDArray[np.bool_], avec: FloatArray
 ) -> int:  # pragma: no cover - compiled
@@ -399,21 +456,8 @@ def integrate(
     inv_ll = 1.0 / l_l if has_load else 0.0
     failed = 0
     sq2 = math.sqrt(2.0)
-    # sin and cos of omega*t at every half step, the stage instants of an unsplit step, shared
-    # by the cases: by rotation through omega*h/2, exact every 64 half steps (a rotation adds
-    # about an ulp)
-    trig = np.empty((2 * n_steps + 3, 2))
-    chh = math.cos(0.5 * omega * h)
-    shh = math.sin(0.5 * omega * h)
-    ts = tc = 0.0
-    for m in range(2 * n_steps + 3):
-        if m % 64 == 0:
-            ts = math.sin(omega * (0.5 * m) * h)
-            tc = math.cos(omega * (0.5 * m) * h)
-        else:
-            ts, tc = ts * chh + tc * shh, tc * chh - ts * shh
-        trig[m, 0] = ts
-        trig[m, 1] = tc
+    # sin and cos of omega*t at every half step, shared by the cases
+    trig = _trig_table(n_steps, omega, h)
     # every curve piecewise linear: the stage algebra may start from the held pieces
     linear = True
     for u in range(n_units):
@@ -795,17 +839,9 @@ def integrate(
                         continue
                     # ---- derivatives: KVL around every loop ----
                     gsc = _source_scale(x_st, j, g0, slope, kh, ke)
-                    if nsub == 1:
-                        m = 2 * j + (0 if st == 0 else (2 if st == 3 else 1))
-                        swt = trig[m, 0]
-                        cwt = trig[m, 1]
-                    elif x_st != x_trig:
-                        # the two middle stages, and a sub-step's end and the next one's start,
-                        # are the same instant: its sine and cosine are computed once
-                        x_trig = x_st
-                        wt = omega * x_st * h
-                        swt = math.sin(wt)
-                        cwt = math.cos(wt)
+                    swt, cwt, x_trig = _stage_trig(
+                        trig, j, st, nsub, x_st, x_trig, omega, h, swt, cwt
+                    )
                     for k in range(3):
                         sa[k] = swt * cph[k] + cwt * sph[k]
                         ca[k] = cwt * cph[k] - swt * sph[k]
@@ -980,3 +1016,247 @@ def integrate(
             if stop:
                 break
     return failed
+
+
+# ---- one grounded-wye unit alone on a Thevenin source: the phases are decoupled ----
+
+
+@numba.njit(cache=True, inline="always")
+def _lone_invert(
+    psi: float,
+    l_s: float,
+    lam: float,
+    seg: int,
+    kd: int,
+    p0: float,
+    p1: float,
+    p2: float,
+    p3: float,
+    p4: float,
+    flux: FloatArray,
+    cur: FloatArray,
+    pb: FloatArray,
+    top: int,
+    tol: float,
+) -> tuple[float, float, int, bool]:  # pragma: no cover - compiled
+    # The winding's flux lambda and current i = f(lambda) for its loop flux psi = lambda +
+    # L_s*f(lambda) (closed pole, one winding on the phase). Two-slope (kind 0) and table
+    # (kind 2): on the piece [F, F'] of slope d, lambda = F + (|psi| - P)/(1 + L_s*d) with the
+    # piece's start P = F + L_s*f(F) in psi (pb, the table's breakpoints in psi; the table
+    # searched from the previous piece, seg); smooth knee (kind 1): Newton's method on
+    # lambda + L_s*f(lambda) = psi from the previous lambda, kept in a bracket (the left side
+    # increases with slope 1 + L_s*f' >= 1). Returns lambda, i, the piece, convergence.
+    x = abs(psi)
+    if kd == 0:
+        ps = p1 + l_s * p3  # the knee in psi
+        if x > ps:
+            lm = p1 + (x - ps) / (1.0 + l_s * p2)
+            i = p3 + (lm - p1) * p2
+        else:
+            lm = x / (1.0 + l_s * p0)
+            i = lm * p0
+        return (lm, i, seg, True) if psi >= 0.0 else (-lm, -i, seg, True)
+    if kd == 2:
+        if x >= pb[top]:
+            lm = flux[0, top] + (x - pb[top]) / (1.0 + l_s * p0)
+            i = cur[0, top] + (lm - flux[0, top]) * p0
+        else:
+            while seg > 1 and pb[seg - 1] > x:
+                seg -= 1
+            while pb[seg] <= x:
+                seg += 1
+            d = (cur[0, seg] - cur[0, seg - 1]) / (flux[0, seg] - flux[0, seg - 1])
+            lm = flux[0, seg - 1] + (x - pb[seg - 1]) / (1.0 + l_s * d)
+            i = cur[0, seg - 1] + (lm - flux[0, seg - 1]) * d
+        return (lm, i, seg, True) if psi >= 0.0 else (-lm, -i, seg, True)
+    lm = lam
+    lo = -math.inf
+    hi = math.inf
+    ok = False
+    i = 0.0
+    for _it in range(MAX_ITERATIONS):
+        i, d = _curve_s(lm, 1, p0, p1, p2, p3, p4)
+        g = lm + l_s * i - psi
+        if g == 0.0:
+            ok = True
+            break
+        if g < 0.0:
+            lo = lm
+        else:
+            hi = lm
+        step = -g / (1.0 + l_s * d)
+        new = lm + step
+        if not (lo < new < hi) and math.isfinite(lo) and math.isfinite(hi):
+            new = 0.5 * (lo + hi)
+            step = new - lm
+        if abs(step) <= tol:
+            # the current at the root to first order: its error, f''*step^2/2, is far below
+            # rounding at this step
+            i += d * step
+            lm = new
+            ok = True
+            break
+        lm = new
+    return lm, i, seg, ok
+
+
+def _lone(
+    n_steps: int,
+    decimate: int,
+    h: float,
+    omega: float,
+    vpk: float,
+    phase: FloatArray,
+    ramp: FloatArray,
+    ramp_steps: IntArray,
+    r_src: FloatArray,
+    l_src: FloatArray,
+    r_w: float,
+    r_ins: float,
+    bypass_step: int,
+    kd: int,
+    par: FloatArray,
+    flux: FloatArray,
+    cur: FloatArray,
+    npts: int,
+    close_step: IntArray,
+    lam0: FloatArray,
+    tol: float,
+    n_in: int,
+    sub: IntArray,
+    out: FloatArray,
+) -> int:  # pragma: no cover - compiled
+    """Integrate one grounded-wye unit alone on a Thevenin source; returns the failed solves.
+
+    The network of :func:`integrate` with one grounded-wye unit, no bus load and no machine:
+    KCL at the bus gives Phi_k = L_s*f(lambda_k) on each closed phase, so the loop flux of
+    winding k is psi_k = lambda_k + L_s*f(lambda_k), a scalar equation per phase (solved by
+    :func:`_lone_invert`), and d(psi_k)/dt = e_k - (R_s + R_ins + R_w)*f(lambda_k). The states,
+    the Runge-Kutta stages, the step, the sub-steps, the EMF (its sine and cosine by the same
+    rotation) and the switching are those of :func:`integrate`, so the two agree to rounding.
+    One element is one phase of one case; the elements are independent (numba's prange in the
+    parallel build). Shapes: phase, close_step, lam0 (n_cases, 3); r_src, l_src, sub
+    (n_cases,); one curve (kind kd, par (5,), flux, cur (1, width), npts points); out (n_cases,
+    3, n_samples) the line current of each phase, which is its winding's current [A].
+    """
+    n_cases = phase.shape[0]
+    n_el = 3 * n_cases
+    g0, slope = ramp[0], ramp[1]
+    kh, ke = ramp_steps[0], ramp_steps[1]
+    p0, p1, p2, p3, p4 = par[0], par[1], par[2], par[3], par[4]
+    top = npts - 1
+    trig = _trig_table(n_steps, omega, h)
+    fails = np.zeros(n_el, dtype=np.int64)
+    for el in numba.prange(n_el):
+        c = el // 3
+        k = el - 3 * c
+        r_s = r_src[c]
+        l_s = l_src[c]
+        sph = math.sin(phase[c, k])
+        cph = math.cos(phase[c, k])
+        start = close_step[c, k]
+        pb = np.empty(top + 1)  # the table's breakpoints in psi
+        for m in range(top + 1):
+            pb[m] = flux[0, m] + l_s * cur[0, m]
+        lam = lam0[c, k]
+        seg = 1
+        psi = 0.0
+        i = 0.0
+        closed = start <= 0
+        if closed:
+            if kd == 2:
+                i = _curve_table(lam, flux, cur, 0, top, p0)[0]
+            else:
+                i = _curve_s(lam, kd, p0, p1, p2, p3, p4)[0]
+            psi = lam + l_s * i
+        base = acc = 0.0
+        x_trig = -1.0
+        swt = cwt = 0.0
+        bad = 0
+        for j in range(n_steps + 1):
+            sample_step = j % decimate == 0 or j == n_steps
+            if not closed:
+                if j > 0 and start == j:
+                    # the pole closes: lambda continuous, the loop flux rebuilt from it
+                    closed = True
+                    if kd == 2:
+                        i = _curve_table(lam, flux, cur, 0, top, p0)[0]
+                    else:
+                        i = _curve_s(lam, kd, p0, p1, p2, p3, p4)[0]
+                    psi = lam + l_s * i
+                else:
+                    if sample_step:
+                        out[c, k, j // decimate] = 0.0
+                    continue
+            r_now = r_ins if j < bypass_step else 0.0
+            nsub = sub[c] if (j < n_in and j < n_steps) else 1
+            hh = h / nsub
+            done = False
+            for sb in range(nsub):
+                for st in range(4):
+                    x_st = j + (sb + (0.0 if st == 0 else (1.0 if st == 3 else 0.5))) / nsub
+                    # ---- algebra: the winding's flux and current from its loop flux ----
+                    if l_s > 0.0:
+                        lam, i, seg, ok = _lone_invert(
+                            psi, l_s, lam, seg, kd, p0, p1, p2, p3, p4, flux, cur, pb, top, tol
+                        )
+                        if not ok:
+                            bad += 1
+                    else:
+                        lam = psi
+                        if kd == 2:
+                            i = _curve_table(lam, flux, cur, 0, top, p0)[0]
+                        else:
+                            i = _curve_s(lam, kd, p0, p1, p2, p3, p4)[0]
+                    if st == 0 and sb == 0 and sample_step:
+                        out[c, k, j // decimate] = i
+                        if j == n_steps:
+                            done = True
+                            break
+                    # ---- derivative: KVL around the loop ----
+                    gsc = _source_scale(x_st, j, g0, slope, kh, ke)
+                    swt, cwt, x_trig = _stage_trig(
+                        trig, j, st, nsub, x_st, x_trig, omega, h, swt, cwt
+                    )
+                    sa = swt * cph + cwt * sph
+                    kk = gsc * vpk * sa - r_s * i - r_now * i - r_w * i
+                    # ---- Runge-Kutta ----
+                    if st == 0:
+                        base = psi
+                        acc = kk
+                    else:
+                        acc += (1.0 if st == 3 else 2.0) * kk
+                    if st < 3:
+                        psi = base + (hh if st == 2 else 0.5 * hh) * kk
+                    else:
+                        psi = base + hh / 6.0 * acc
+                if done:
+                    break
+        fails[el] = bad
+    return int(fails.sum())
+
+
+def _renamed(fn: Callable[..., int], name: str) -> Callable[..., int]:
+    # A copy of fn under another name: numba's cache keys an entry by the function's qualified
+    # name and signature, not by its compile options, so the serial and the parallel builds of
+    # one function would load each other's machine code from the cache.
+    copy = types.FunctionType(fn.__code__, fn.__globals__, name, fn.__defaults__, fn.__closure__)
+    copy.__qualname__ = name
+    copy.__doc__ = fn.__doc__
+    return copy
+
+
+# The same kernel compiled twice: serially for small batches and with its elements spread over
+# the cores (numba's prange) for large ones; elements are independent, so both give the same
+# result bit for bit. error_model="numpy": a division does not test its divisor for zero (none
+# of these can be zero: 1 + L_s*f' >= 1, a table's breakpoints increase strictly, nsub >= 1);
+# with Python's check the serial build measured three times slower (its loops not optimised).
+integrate_lone = numba.njit(cache=True, nogil=True, error_model="numpy")(
+    _renamed(_lone, "_lone_serial")
+)
+integrate_lone_parallel = numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")(
+    _renamed(_lone, "_lone_parallel")
+)
+# Fewest elements (cases x 3 phases) for the parallel build: below, starting the threads costs
+# more than it saves (measured for the single-unit kernels this replaces).
+PARALLEL_MIN_ELEMENTS = 64

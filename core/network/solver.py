@@ -62,8 +62,19 @@ alone, so its result is the same bit for bit whatever the chunking). This is the
 time-domain solver: :func:`core.energization.energize.simulate`, behind every single-unit
 operation (peak, envelope, batch, sheet, statistics, clearance, mitigation, the exact peak
 reading), runs each of its cases as one unit on a Thevenin source through
-:func:`run_single_unit`; :func:`simulate_network` runs networks and the generator dip. The stage
-algebra starts from the accepted point of the previous stage: where every curve is piecewise
+:func:`run_single_unit`; :func:`simulate_network` runs networks and the generator dip. One
+model, one set of states; where the network's structure decouples the phases -- a lone
+grounded-wye unit on a Thevenin source without bus load (and so the single-phase circuits, a
+grounded wye whose poles b and c never close) -- :func:`run_single_unit` runs it on a kernel of
+its own (:func:`core.network.kernel.integrate_lone`): KCL at the bus is Phi_k = L_s*f(lambda_k)
+per phase, so each closed phase's loop flux psi_k = lambda_k + L_s*f(lambda_k) is one scalar
+equation, solved in closed form on each piece of a piecewise-linear curve (its breakpoints
+mapped to psi, the table searched from the previous piece) and by scalar Newton's method in
+lambda for the smooth knee, one element per phase and case, spread over the cores (numba's
+prange) from 64 elements; the same stages, step, sub-steps and EMF as the general kernel, with
+which it agrees to 3e-14 of the largest current (tests/core/network/test_lone_unit.py; the
+general kernel at a Newton tolerance of 1e-14 pu, 2.4e-12 at its default on the smooth knee). The
+stage algebra starts from the accepted point of the previous stage: where every curve is piecewise
 linear, R(Phi) is affine in Phi and in the loop fluxes on the pieces held there, so the Newton
 step from that point with the new loop fluxes, Phi = Phi_a - J^-1*(R_a - sum S C D~ dpsi -
 dpsi_L/L_L), and each floating node's sigma likewise, need no curve evaluation; one evaluation
@@ -1394,6 +1405,7 @@ def run_single_unit(
     n_steps: int,
     decimate: int,
     step_s: float,
+    _general: bool = False,
 ) -> tuple[FloatArray, FloatArray]:
     """One unit alone on a Thevenin source, many cases, on a step already planned.
 
@@ -1437,6 +1449,8 @@ def run_single_unit(
         Steps per output sample [-].
     step_s : float
         The step [s].
+    _general : bool
+        Run a grounded wye on the general kernel too (for the tests that compare the two) [-].
 
     Returns
     -------
@@ -1450,8 +1464,14 @@ def run_single_unit(
 
     Notes
     -----
-    The equations of the module docstring with one unit and no load; the kernel runs on chunks
-    of at most 256 cases, so that the records not returned stay small.
+    The equations of the module docstring with one unit and no load. A grounded wye runs on
+    the kernel of decoupled phases (:func:`core.network.kernel.integrate_lone`): KCL at the bus
+    is Phi_k = L_s*f(lambda_k), so each closed phase's loop flux psi_k = lambda_k +
+    L_s*f(lambda_k) is one scalar equation, solved in closed form on each piece of a
+    piecewise-linear curve and by Newton's method for the smooth knee; the cases' phases are
+    spread over the cores (numba's prange) from kernel.PARALLEL_MIN_ELEMENTS of them. The other
+    connections run on the general kernel in chunks of at most 256 cases, so that the records
+    not returned stay small.
 
     References
     ----------
@@ -1459,11 +1479,33 @@ def run_single_unit(
     """
     n = phase_rad.shape[0]
     n_samples = n_steps // decimate + 1
+    kind, par, flux, cur, npts = _curve_arrays([circuit])
+    g0, slope, kh, ke = ramp
+    if connection == "wye_grounded" and not _general:
+        out = np.zeros((n, 3, n_samples))
+        lone = (
+            kernel.integrate_lone_parallel
+            if 3 * n >= kernel.PARALLEL_MIN_ELEMENTS
+            else kernel.integrate_lone
+        )
+        failed = lone(
+            n_steps, decimate, step_s, 2.0 * math.pi * circuit.frequency_hz, emf_peak_v,
+            np.ascontiguousarray(phase_rad, dtype=float), np.array([g0, slope]),
+            np.array([kh, ke], dtype=np.int64),
+            np.ascontiguousarray(source_resistance_ohm, dtype=float),
+            np.ascontiguousarray(source_inductance_h, dtype=float), float(winding_resistance_ohm),
+            float(insertion_resistance_ohm), int(bypass_step), int(kind[0]), par[0], flux[:1],
+            cur[:1], int(npts[0]), np.ascontiguousarray(close_step, dtype=np.int64),
+            np.ascontiguousarray(flux_wb, dtype=float),
+            NEWTON_TOLERANCE_PU * circuit.nominal_flux_wb, int(bypass_step),
+            np.ascontiguousarray(substeps, dtype=np.int64), out,
+        )  # fmt: skip
+        _raise_unconverged(failed)
+        # a grounded wye: each line current is its winding's current
+        return out, out.copy()
     line = np.zeros((n, 1, 3, n_samples))
     wind = np.zeros((n, 1, 3, n_samples))
-    kind, par, flux, cur, npts = _curve_arrays([circuit])
     lam_n = circuit.nominal_flux_wb
-    g0, slope, kh, ke = ramp
     chunk = min(n, _SINGLE_UNIT_CHUNK)
     scratch_3 = [np.zeros((chunk, 3, n_samples)) for _ in range(2)]
     scratch_flux = np.zeros((chunk, 1, 3, n_samples))
@@ -1491,10 +1533,15 @@ def run_single_unit(
             np.ascontiguousarray(substeps[lo:hi], dtype=np.int64),
             kernel.RECORD_ALL, np.zeros(0, dtype=np.int64), np.zeros((0, 0, 3, kernel.NPEAK)),
         )  # fmt: skip
+    _raise_unconverged(failed)
+    return line[:, 0], wind[:, 0]
+
+
+def _raise_unconverged(failed: int) -> None:
+    """:func:`run_single_unit`'s error when ``failed`` algebraic solves did not converge."""
     if failed:
         raise ParameterError(
             "circuit",
             f"{failed} flux solves without convergence",
             f"a circuit on which Newton's method converges in {kernel.MAX_ITERATIONS} iterations",
         )
-    return line[:, 0], wind[:, 0]

@@ -3,11 +3,14 @@
     python tests/benchmarks/bench_network.py [--cases 200] [--cycles 10] [--samples 10000]
 
 1. One unit on a Thevenin source, each connection, a batch of cases (closing angles spread over
-   a cycle, residual flux 0.8/-0.4/-0.4 pu), then one case alone: core.network.simulate_network
-   against core.energize.simulate on the same cases, the baseline measured in this run. Both
-   use the cores for a batch (energize spreads its windings with numba's prange, the network
-   solver its cases over threads, core.network.solver.case_chunks); a single case runs on one
-   core in both, so that line compares the per-case cost and the Python set-up around it.
+   a cycle, residual flux 0.8/-0.4/-0.4 pu), then one case alone: the time per case of
+   core.energize.simulate (the single-unit entry; a grounded wye on the kernel of decoupled
+   phases, the others on the general kernel) and of core.network.simulate_network (the general
+   kernel for every connection), against the baseline measured in this run: scipy's LSODA
+   (solve_ivp, rtol 1e-8) on the grounded-wye case, written here from Kirchhoff's laws (the
+   three loop fluxes psi_k = lambda_k + L_s*i_k, the curve re-expressed against psi so that the
+   right-hand side is continuous at the knee), the median over five closing angles. Both of
+   ours use the cores for a batch; a single case runs on one core.
 2. Cost against the number of units: 1, 4, 16 and 64 units (grounded wye, delta and floating
    wye in turn, one in service for every four, the rest energised at t = 0) on one bus with a
    load, behind a 50 MVA source; time per unit-step relative to the single unit's, which
@@ -29,17 +32,20 @@ Each timing is the best of three after a warm-up call (compilation excluded).
 from __future__ import annotations
 
 import argparse
+import math
 import time
 import tracemalloc
 from collections.abc import Callable
 
 import numpy as np
+from scipy.integrate import solve_ivp
 
 from core import cost, transformer
 from core.energization import energize
 from core.network import Breaker, BusLoad, Source, Unit, simulate_network
 from core.protection import device_operation
 from core.statistics import monte_carlo, network_statistics
+from core.transformer.magnetizing import PiecewiseLinearCurve
 from service.settings import Settings
 
 F = 50.0
@@ -65,23 +71,62 @@ def _circuit(connection: str, rating_va: float = 1e6) -> transformer.EquivalentC
     )
 
 
-def single_unit(n_cases: int, cycles: float) -> None:
-    print(f"1. one unit, {n_cases} cases, {cycles:g} cycles (energize = baseline, this run)")
+def _lsoda_per_case(c: transformer.EquivalentCircuit, cycles: float, cases: int = 5) -> float:
+    """Median seconds of scipy's LSODA (rtol 1e-8) on the grounded-wye unit ``c``, one case."""
+    cv = c.curve
+    assert isinstance(cv, PiecewiseLinearCurve)
+    l_s, r = c.source_inductance_h, c.source_resistance_ohm + c.winding_resistance_ohm
+    # the curve against the loop flux psi = lambda + L_s*i: breakpoints psi_m = lambda_m +
+    # L_s*i_m, final slope 1/(L_final + L_s) (Kirchhoff's current law at the bus of one unit)
+    psi_bp = cv.flux_wb + l_s * cv.current_a
+    final = 1.0 / (cv.final_inductance_h + l_s)
+    top_psi, top_i = psi_bp[-1], cv.current_a[-1]
+    w = 2.0 * math.pi * F
+    v = math.sqrt(2.0) * V_LL / math.sqrt(3.0)
+    shift = np.array([0.0, -2.0 * math.pi / 3.0, 2.0 * math.pi / 3.0])
+    times = []
+    for alpha in np.linspace(0.0, 360.0, cases, endpoint=False):
+        ph = math.radians(alpha) + shift
+
+        def rhs(t: float, y: np.ndarray, ph: np.ndarray = ph) -> np.ndarray:
+            x = np.abs(y)
+            i = np.where(
+                x > top_psi, top_i + (x - top_psi) * final, np.interp(x, psi_bp, cv.current_a)
+            )
+            out: np.ndarray = v * np.sin(w * t + ph) - r * np.sign(y) * i
+            return out
+
+        lam0 = np.array([0.8, -0.4, -0.4]) * c.nominal_flux_wb
+        psi0 = lam0 + l_s * np.sign(lam0) * np.interp(np.abs(lam0), cv.flux_wb, cv.current_a)
+        t0 = time.perf_counter()
+        sol = solve_ivp(rhs, (0.0, cycles / F), psi0, method="LSODA", rtol=1e-8,
+                        atol=1e-10 * c.nominal_flux_wb)  # fmt: skip
+        times.append(time.perf_counter() - t0)
+        assert sol.success
+    return float(np.median(times))
+
+
+def single_unit(n_cases: int, cycles: float, lsoda: float) -> None:
+    print(
+        f"1. one unit, {n_cases} cases, {cycles:g} cycles: time per case; baseline scipy LSODA "
+        f"rtol 1e-8 on the grounded wye, {lsoda * 1e3:.1f} ms per case (this run)"
+    )
     angles = np.linspace(0.0, 360.0, n_cases, endpoint=False)
     res = [0.8, -0.4, -0.4]
     for conn in ("wye_grounded", "delta", "wye"):
         c = _circuit(conn)
         src = Source(V_LL, F, c.source_resistance_ohm, c.source_inductance_h)
-        t_old = _best(lambda c=c: energize.simulate(c, angles, res, duration_s=cycles / F))
-        t_new = _best(
+        t_one = _best(lambda c=c: energize.simulate(c, angles, res, duration_s=cycles / F))
+        t_net = _best(
             lambda c=c, src=src: simulate_network(
                 src, [Unit(c, residual_flux_pu=res)], closing_angle_deg=angles,
                 duration_s=cycles / F,
             )
         )  # fmt: skip
+        e, nw = t_one / n_cases, t_net / n_cases
         print(
-            f"   {conn:13s} energize {t_old * 1e3:8.1f} ms  network {t_new * 1e3:8.1f} ms  "
-            f"ratio network/energize {t_new / t_old:6.2f}"
+            f"   {conn:13s} energize {e * 1e3:8.3f} ms ({lsoda / e:6.0f} x LSODA)  "
+            f"network {nw * 1e3:8.3f} ms ({lsoda / nw:6.0f} x LSODA)"
         )
 
 
@@ -233,8 +278,9 @@ def main() -> None:
     parser.add_argument("--samples", type=int, default=10_000)
     parser.add_argument("--events", type=int, default=200)
     args = parser.parse_args()
-    single_unit(args.cases, args.cycles)
-    single_unit(1, args.cycles)
+    lsoda = _lsoda_per_case(_circuit("wye_grounded"), args.cycles)
+    single_unit(args.cases, args.cycles, lsoda)
+    single_unit(1, args.cycles, lsoda)
     scaling(args.cycles)
     statistics(args.samples, args.events)
 

@@ -1,9 +1,8 @@
 """core.network.simulate_network: one unit against core.energize, circuit laws, physics, inputs.
 
-Single unit on a Thevenin source: the network solver integrates the same loop fluxes as
-core.energize.simulate for a grounded wye and a delta (psi = lambda + L_s*i,
-psi = lambda + L_s*M*c) and an equivalent state for the floating wye, at the same step, so the
-two agree to rounding and the Newton tolerances (measured: at most 1e-12 of the largest
+Single unit on a Thevenin source: core.energize.simulate runs each case as one unit on this
+solver (a grounded wye on its kernel of decoupled phases, the others on the general kernel),
+so the two agree to rounding and the Newton tolerances (measured: at most 1e-12 of the largest
 current, all connections and curve kinds). That is a consistency check between two of our
 solvers; the independent references are in tests/references/test_network_vs_scipy.py.
 """
@@ -73,13 +72,9 @@ def test_single_unit_matches_core_energize(connection: str, curve: str) -> None:
     )
     assert new.steps_per_cycle == old.steps_per_cycle
     scale = np.max(np.abs(old.line_current_a))
-    # the same discretisation: 1e-9 of the largest current. Except one: core.energize
-    # integrates lambda itself for a grounded wye on the smooth knee, this solver its loop flux
-    # lambda + L_s*i there too, whose derivative varies less at the knee; they differ by
-    # core.energize's truncation error (measured 2.8e-4 of the largest current, 0.16 A of
-    # 556 A; against core.energize at 2048 steps per cycle, core.energize at 128 is off by
-    # 2.8e-4 and this solver by 4.5e-7)
-    tol = 1e-3 if (connection, curve) == ("wye_grounded", "smooth") else 1e-9
+    # the same discretisation: 1e-9 of the largest current (a grounded wye runs on the kernel
+    # of decoupled phases in core.energize, on the general kernel here: the same loop fluxes)
+    tol = 1e-9
     assert np.max(np.abs(new.line_current_a[:, 0] - old.line_current_a)) < tol * scale
     assert np.max(np.abs(new.winding_current_a[:, 0] - old.winding_current_a)) < tol * scale
     dp = np.abs(_peaks(new.line_current_a[:, 0], 128) - _peaks(old.line_current_a, 128))
