@@ -117,6 +117,7 @@ Kirchhoff's laws otherwise. Integrator: classical Runge-Kutta (Kutta 1901).
 from __future__ import annotations
 
 import math
+import queue
 from collections.abc import Sequence
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
@@ -1470,8 +1471,9 @@ def run_single_unit(
     L_s*f(lambda_k) is one scalar equation, solved in closed form on each piece of a
     piecewise-linear curve and by Newton's method for the smooth knee; the cases' phases are
     spread over the cores (numba's prange) from kernel.PARALLEL_MIN_ELEMENTS of them. The other
-    connections run on the general kernel in chunks of at most 256 cases, so that the records
-    not returned stay small.
+    connections run on the general kernel in chunks of cases spread over threads
+    (:func:`case_chunks`), at most 256 cases of scratch in all, so that the records not returned
+    stay small.
 
     References
     ----------
@@ -1506,33 +1508,55 @@ def run_single_unit(
     line = np.zeros((n, 1, 3, n_samples))
     wind = np.zeros((n, 1, 3, n_samples))
     lam_n = circuit.nominal_flux_wb
-    chunk = min(n, _SINGLE_UNIT_CHUNK)
-    scratch_3 = [np.zeros((chunk, 3, n_samples)) for _ in range(2)]
-    scratch_flux = np.zeros((chunk, 1, 3, n_samples))
-    scratch_mach = np.zeros((chunk, 2, n_samples))
-    failed = 0
-    for lo in range(0, n, chunk):
+    # the cases' chunks on threads (the kernel releases the GIL), each thread with its own
+    # scratch for the records not returned; the scratch in all stays at _SINGLE_UNIT_CHUNK cases
+    threads = len(case_chunks(n, n * n_steps))
+    chunk = max(1, min(n, _SINGLE_UNIT_CHUNK // threads))
+    pool: queue.SimpleQueue[list[FloatArray]] = queue.SimpleQueue()
+    for _ in range(threads):
+        pool.put(
+            [
+                np.zeros((chunk, 3, n_samples)),
+                np.zeros((chunk, 3, n_samples)),
+                np.zeros((chunk, 1, 3, n_samples)),
+                np.zeros((chunk, 2, n_samples)),
+            ]
+        )
+
+    def run(lo: int) -> int:
         hi = min(n, lo + chunk)
         m = hi - lo
         src, m0 = _machine.thevenin_pack(
             np.ascontiguousarray(source_resistance_ohm[lo:hi], dtype=float),
             np.ascontiguousarray(source_inductance_h[lo:hi], dtype=float),
         )
-        failed += kernel.integrate(
-            n_steps, decimate, step_s, 2.0 * math.pi * circuit.frequency_hz, emf_peak_v,
-            np.ascontiguousarray(phase_rad[lo:hi], dtype=float), np.array([g0, slope]),
-            np.array([kh, ke], dtype=np.int64), src, m0, 0.0, 1.0, False,
-            np.array([CONNECTION_CODE[connection]], dtype=np.int64),
-            np.array([winding_resistance_ohm]), np.array([insertion_resistance_ohm]),
-            np.array([bypass_step], dtype=np.int64), kind, par, flux, cur, npts,
-            np.ascontiguousarray(close_step[lo:hi, None, :], dtype=np.int64),
-            np.ascontiguousarray(flux_wb[lo:hi, None, :], dtype=float), np.zeros((m, 3)),
-            np.array([NEWTON_TOLERANCE_PU * lam_n]), NEWTON_TOLERANCE_PU * lam_n,
-            scratch_3[0][:m], scratch_3[1][:m], line[lo:hi], wind[lo:hi], scratch_flux[:m],
-            scratch_mach[:m], np.zeros((m, 1)), bypass_step,
-            np.ascontiguousarray(substeps[lo:hi], dtype=np.int64),
-            kernel.RECORD_ALL, np.zeros(0, dtype=np.int64), np.zeros((0, 0, 3, kernel.NPEAK)),
-        )  # fmt: skip
+        scratch = pool.get()
+        try:
+            failed: int = kernel.integrate(
+                n_steps, decimate, step_s, 2.0 * math.pi * circuit.frequency_hz, emf_peak_v,
+                np.ascontiguousarray(phase_rad[lo:hi], dtype=float), np.array([g0, slope]),
+                np.array([kh, ke], dtype=np.int64), src, m0, 0.0, 1.0, False,
+                np.array([CONNECTION_CODE[connection]], dtype=np.int64),
+                np.array([winding_resistance_ohm]), np.array([insertion_resistance_ohm]),
+                np.array([bypass_step], dtype=np.int64), kind, par, flux, cur, npts,
+                np.ascontiguousarray(close_step[lo:hi, None, :], dtype=np.int64),
+                np.ascontiguousarray(flux_wb[lo:hi, None, :], dtype=float), np.zeros((m, 3)),
+                np.array([NEWTON_TOLERANCE_PU * lam_n]), NEWTON_TOLERANCE_PU * lam_n,
+                scratch[0][:m], scratch[1][:m], line[lo:hi], wind[lo:hi], scratch[2][:m],
+                scratch[3][:m], np.zeros((m, 1)), bypass_step,
+                np.ascontiguousarray(substeps[lo:hi], dtype=np.int64),
+                kernel.RECORD_ALL, np.zeros(0, dtype=np.int64), np.zeros((0, 0, 3, kernel.NPEAK)),
+            )  # fmt: skip
+        finally:
+            pool.put(scratch)
+        return failed
+
+    starts = range(0, n, chunk)
+    if threads == 1 or len(starts) == 1:
+        failed = sum(run(lo) for lo in starts)
+    else:
+        with ThreadPoolExecutor(max_workers=threads) as ex:
+            failed = sum(ex.map(run, starts))
     _raise_unconverged(failed)
     return line[:, 0], wind[:, 0]
 
