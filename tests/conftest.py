@@ -24,13 +24,11 @@ os.environ.setdefault("FIRSTCYCLE_WARMUP", "false")
 os.environ.setdefault("FIRSTCYCLE_REQUEST_DEADLINE_S", "3600")
 
 
-# The longest files, started first, longest first (measured with --durations on the 2-core
-# machine: the scipy references of the solver and of the generator, the live-server schemathesis
-# run, the service's consistency checks). .ci/check runs `--dist loadfile --no-loadscope-reorder`,
-# so pytest-xdist hands the files to its two workers in this order, the rest in collection order
-# after them; a long file left to the end keeps one worker busy while the other idles (xdist's
-# default orders files by their number of tests, which put the one-test live-server fuzz last).
-# Only the order changes: every test still runs.
+# The longest files, first in collection order (measured with --durations on the 2-core machine:
+# the scipy references of the solver and of the generator, the live-server schemathesis run, the
+# service's consistency checks). Run without xdist, they start first; under .ci/check's
+# `-n auto --dist loadfile` xdist orders the files itself (largest first). Only the order
+# changes: every test still runs.
 FIRST = (
     "tests/references/test_solver_vs_scipy.py",
     "tests/contract/test_live_server.py",
