@@ -43,6 +43,18 @@ FIRST = (
 
 
 def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
+    # pytest-xdist keys the tests it schedules and reports by node id: two items with one id run
+    # and report as one, and the run still passes (schemathesis 4.32's parametrize under pytest
+    # 9.2 gave every operation of a fuzz test the same id, and 20 of 22 fuzz tests never ran).
+    seen: dict[str, int] = {}
+    for item in items:
+        seen[item.nodeid] = seen.get(item.nodeid, 0) + 1
+    repeated = sorted(node for node, count in seen.items() if count > 1)
+    if repeated:
+        raise pytest.UsageError(
+            f"{len(repeated)} test node ids are shared by several tests (under xdist only one "
+            f"of each would run): {', '.join(repeated[:5])}"
+        )
     rank = {path: n for n, path in enumerate(FIRST)}
 
     def key(item: pytest.Item) -> int:
