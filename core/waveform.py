@@ -21,6 +21,8 @@ FloatArray = NDArray[np.float64]
 
 __all__ = [
     "MAX_SAMPLES_PER_CYCLE",
+    "MAX_STEPS_PER_CYCLE",
+    "MIN_STEPS_PER_CYCLE",
     "STAGE_FACTOR",
     "STANDARD_TIMES_S",
     "DecayFit",
@@ -30,6 +32,7 @@ __all__ = [
     "finer_samples_per_cycle",
     "harmonic_ratio",
     "refinement_stages",
+    "shortest_time_constant",
     "time_below",
 ]
 
@@ -249,6 +252,35 @@ def harmonic_ratio(current_a: ArrayLike, samples_per_cycle: int, order: int = 2)
     with np.errstate(divide="ignore", invalid="ignore"):
         out: FloatArray = np.where(h1 > 0.0, hk / h1, np.nan)
     return out
+
+
+# Step bounds per cycle of the solver's step rule (core.network.step_rule; this project's
+# choice): the floor keeps RK4's error small on the smooth stretches, the ceiling guards against
+# an absurd step.
+MIN_STEPS_PER_CYCLE = 128
+MAX_STEPS_PER_CYCLE = 16384
+
+
+def shortest_time_constant(frequency_hz: float) -> float:
+    """Shortest saturated-loop time constant the solver's step rule can simulate.
+
+    Parameters
+    ----------
+    frequency_hz : float
+        Source frequency, > 0 [Hz].
+
+    Returns
+    -------
+    float
+        4/(f*MAX_STEPS_PER_CYCLE): four steps per time constant at the most steps a cycle [s].
+
+    References
+    ----------
+    This project's step rule (core.network.step_rule): four RK4 steps per time constant of the
+    fastest loop (classical Runge-Kutta is stable on a decaying mode for h/tau < 2.78; Butcher,
+    Numerical Methods for Ordinary Differential Equations, 2008, from memory).
+    """
+    return 4.0 / (float(frequency_hz) * MAX_STEPS_PER_CYCLE)
 
 
 # Finest re-integration, samples (= steps) per cycle; the solver accepts at most 100 000

@@ -133,6 +133,7 @@ from core.network.machine import Machine
 from core.transformer import EquivalentCircuit, source_impedance
 from core.transformer import Source as _NameplateSource
 from core.transformer.magnetizing import PiecewiseLinearCurve, SmoothKneeCurve
+from core.waveform import MAX_STEPS_PER_CYCLE, MIN_STEPS_PER_CYCLE, shortest_time_constant
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -158,10 +159,7 @@ __all__ = [
     "step_rule",
 ]
 
-# Step bounds per cycle of step_rule (this project's choice): the floor keeps RK4's error small
-# on the smooth stretches, the ceiling guards against an absurd step.
-MIN_STEPS_PER_CYCLE = 128
-MAX_STEPS_PER_CYCLE = 16384
+# Step bounds per cycle of step_rule: core.waveform's (MIN_ and MAX_STEPS_PER_CYCLE, imported).
 # Newton tolerance on Phi and on a floating node's flux [pu of the unit's lambda_N]
 NEWTON_TOLERANCE_PU = 1e-12
 # Least work (unit-steps) of one chunk of cases run on its own thread: starting the threads and
@@ -745,8 +743,9 @@ def step_rule(
     Raises
     ------
     ParameterError
-        Naming ``samples_per_cycle`` or ``duration_s`` out of range; naming ``resistance_ohm``
-        when the time constant would need more than MAX_STEPS_PER_CYCLE steps per cycle.
+        Naming ``samples_per_cycle`` or ``duration_s`` out of range; naming
+        ``saturated_time_constant_s`` when the time constant would need more than
+        MAX_STEPS_PER_CYCLE steps per cycle.
 
     Notes
     -----
@@ -769,11 +768,14 @@ def step_rule(
     if min_time_constant_s < math.inf:
         need = max(need, 4.0 / (f * min_time_constant_s))
     if need > MAX_STEPS_PER_CYCLE:
+        # the circuits given in SI are refused where they are built, naming their resistance
+        # (core.transformer); this guards what remains (a bus load, a machine's own loops)
         raise ParameterError(
-            "resistance_ohm",
+            "saturated_time_constant_s",
             min_time_constant_s,
-            f"a saturated-loop time constant L/R of at least "
-            f"{4.0 / (f * MAX_STEPS_PER_CYCLE):.3g} s; this loop is almost purely resistive",
+            f"at least {shortest_time_constant(f):.3g} s (the fastest loop's L/R; more "
+            f"resistance or less inductance in it needs over {MAX_STEPS_PER_CYCLE} steps a "
+            f"cycle): the loop is almost purely resistive",
         )
     decimate = max(1, math.ceil(need / samples_per_cycle))
     spc = samples_per_cycle * decimate

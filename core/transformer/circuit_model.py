@@ -28,6 +28,7 @@ from core import checks
 from core.errors import ParameterError
 from core.transformer import magnetizing, per_unit, plausibility
 from core.transformer.magnetizing import MagnetizingCurve
+from core.waveform import MAX_STEPS_PER_CYCLE, shortest_time_constant
 
 __all__ = [
     "MATERIALS",
@@ -646,6 +647,66 @@ def _magnetizing_curve(
     return curve, l_m, lam_s
 
 
+def check_saturated_loop(
+    frequency_hz: float,
+    inductance_h: float,
+    resistance_ohm: float,
+    source_resistance_ohm: float = 0.0,
+    *,
+    resistance_field: str = "resistance_ohm",
+    source_field: str = "source_resistance_ohm",
+) -> None:
+    """Refuse a circuit whose saturated loop is too fast for the solver's step rule.
+
+    Parameters
+    ----------
+    frequency_hz : float
+        Source frequency, > 0 [Hz].
+    inductance_h : float
+        The saturated loop's inductance, L_air + L_s, >= 0 [H].
+    resistance_ohm : float
+        The winding's (or the series) resistance R_w, >= 0 [ohm].
+    source_resistance_ohm : float
+        The source resistance per phase R_s, >= 0 [ohm].
+    resistance_field, source_field : str
+        Names of the two resistances in the error [-].
+
+    Raises
+    ------
+    ParameterError
+        Naming ``resistance_field`` (value R_w, allowed at most L/tau_min - 2*R_s), or
+        ``source_field`` when 2*R_s alone is too much, when (L_air + L_s)/(R_w + 2*R_s) is below
+        :func:`core.waveform.shortest_time_constant`.
+
+    Notes
+    -----
+    The loop of :func:`core.network.step_plan`: tau = (L_air + L_s)/(R_w + 2*R_s), the source
+    resistance counted twice (the return of a line through the source); the solver needs four
+    steps per tau and takes at most MAX_STEPS_PER_CYCLE steps a cycle.
+
+    References
+    ----------
+    This project's step rule (core.network.step_rule); Kirchhoff's voltage law for the loop.
+    """
+    tau_min = shortest_time_constant(frequency_hz)
+    r_loop = resistance_ohm + 2.0 * source_resistance_ohm
+    if r_loop <= 0.0 or inductance_h / r_loop >= tau_min:
+        return
+    r_max = inductance_h / tau_min - 2.0 * source_resistance_ohm
+    why = (
+        f"with a saturated loop inductance of {inductance_h:.6g} H its L/R would be under "
+        f"{tau_min:.3g} s, which needs over {MAX_STEPS_PER_CYCLE} steps a cycle: the loop is "
+        "almost purely resistive"
+    )
+    if r_max <= 0.0:
+        raise ParameterError(
+            source_field,
+            source_resistance_ohm,
+            f"at most {inductance_h / tau_min / 2.0:.6g} ohm; {why}",
+        )
+    raise ParameterError(resistance_field, resistance_ohm, f"at most {r_max:.6g} ohm; {why}")
+
+
 def circuit_from_si(
     voltage_rms_v: float,
     frequency_hz: float,
@@ -679,7 +740,9 @@ def circuit_from_si(
     Raises
     ------
     ParameterError
-        On values out of range.
+        On values out of range; naming ``resistance_ohm`` when the saturated loop's
+        (saturated + series inductance)/resistance is too short to simulate
+        (:func:`check_saturated_loop`).
     """
     v = checks.in_range("voltage_rms_v", voltage_rms_v, 0.0, 2e6)
     f = checks.in_range("frequency_hz", frequency_hz, 1.0, 1000.0)
@@ -696,6 +759,7 @@ def circuit_from_si(
         l_air = curve.saturated_inductance_h
         l_m = curve.unsaturated_inductance_h
         knee = curve.knee_flux_wb
+    check_saturated_loop(f, l_air + ls, r)
     given = "given"
     assumptions = (
         Assumption("voltage_rms_v", v, "V", given),

@@ -21,7 +21,12 @@ import math
 from core import checks
 from core.errors import ParameterError
 from core.transformer import per_unit
-from core.transformer.circuit_model import CONNECTIONS, Assumption, EquivalentCircuit
+from core.transformer.circuit_model import (
+    CONNECTIONS,
+    Assumption,
+    EquivalentCircuit,
+    check_saturated_loop,
+)
 from core.transformer.magnetizing import MagnetizingCurve, PiecewiseLinearCurve, SmoothKneeCurve
 
 __all__ = ["circuit_three_phase_from_si", "curve_key_values"]
@@ -102,7 +107,9 @@ def circuit_three_phase_from_si(
     Raises
     ------
     ParameterError
-        Naming the parameter (``magnetizing`` for the curve) when a value is out of range.
+        Naming the parameter (``magnetizing`` for the curve) when a value is out of range;
+        naming ``winding_resistance_ohm`` (or ``source_resistance_ohm``) when the saturated
+        loop is too fast to simulate (:func:`core.transformer.circuit_model.check_saturated_loop`).
 
     Notes
     -----
@@ -125,6 +132,7 @@ def circuit_three_phase_from_si(
     r_s = checks.in_range("source_resistance_ohm", source_resistance_ohm, 0.0, 1e9, open_low=False)
     l_s = checks.in_range("source_inductance_h", source_inductance_h, 0.0, 1e6, open_low=False)
     l_m, l_air, knee = curve_key_values(curve)
+    check_saturated_loop(f, l_air + l_s, r_w, r_s, resistance_field="winding_resistance_ohm")
     delta = connection == "delta"
     v_ll = v_w if delta else math.sqrt(3.0) * v_w
     i_line = math.nan

@@ -185,7 +185,18 @@ def test_stiff_circuit_is_rejected_not_hung(client: TestClient) -> None:
     req["circuit"]["magnetizing"]["saturated_inductance_h"] = 1e-9
     req["switching"] = {"closing_angle_deg": 0.0}
     body = _problem(client.post("/v1/inrush/peak", json=req), 422)
-    assert body["errors"][0]["field"] == "resistance_ohm"  # type: ignore[index]
+    err = body["errors"][0]  # type: ignore[index]
+    # the request's own field and value, and the largest resistance this circuit allows: L/R of
+    # the saturated loop at least 4/(f*16384) s (the step rule's ceiling, four steps per tau)
+    assert err["field"] == "circuit.resistance_ohm"
+    assert err["value"] == "10000.0"
+    l_loop = 1e-9 + req["circuit"]["inductance_h"]
+    r_max = l_loop * req["circuit"]["frequency_hz"] * 16384 / 4.0
+    assert err["allowed"].startswith(f"at most {r_max:.6g} ohm")
+    req["circuit"]["resistance_ohm"] = 0.99 * r_max  # just inside: answered
+    req["circuit"]["magnetizing"]["saturated_inductance_h"] = 1e-9
+    ok = client.post("/v1/inrush/peak", json=req)
+    assert ok.status_code == 200, ok.text
 
 
 def test_body_too_large_is_413(client: TestClient) -> None:

@@ -12,6 +12,7 @@ import math
 import pytest
 
 from core.errors import ParameterError
+from core.network import step_rule
 from core.transformer import magnetizing
 from core.transformer.three_phase_circuit import circuit_three_phase_from_si, curve_key_values
 
@@ -83,3 +84,28 @@ def test_errors_name_the_parameter(args: tuple[object, ...], name: str) -> None:
     with pytest.raises(ParameterError) as err:
         circuit_three_phase_from_si(*args)  # type: ignore[arg-type]
     assert err.value.parameter == name
+
+
+def test_a_loop_too_fast_to_simulate_names_the_resistance() -> None:
+    # CURVE's saturated inductance 0.1 H: the step rule's shortest L/R at 50 Hz is
+    # 4/(50*16384) = 4.8828e-6 s (four RK4 steps per tau at the most steps a cycle), so the
+    # loop's resistance R_w + 2*R_s may be at most 0.1/4.8828e-6 = 20480 ohm
+    with pytest.raises(ParameterError) as err:
+        circuit_three_phase_from_si("wye_grounded", 50.0, 1000.0, 30_000.0, CURVE)
+    assert err.value.parameter == "winding_resistance_ohm"
+    assert err.value.value == 30_000.0
+    assert err.value.allowed.startswith("at most 20480 ohm")
+    # with R_s = 10 ohm, R_w may be 20460 ohm
+    with pytest.raises(ParameterError) as err:
+        circuit_three_phase_from_si("delta", 50.0, 1000.0, 20_470.0, CURVE, None, 10.0)
+    assert err.value.allowed.startswith("at most 20460 ohm")
+    # the source's resistance alone too much: 2*R_s > 20480 names the source
+    with pytest.raises(ParameterError) as err:
+        circuit_three_phase_from_si("wye", 50.0, 1000.0, 0.0, CURVE, None, 10_300.0)
+    assert err.value.parameter == "source_resistance_ohm"
+    assert err.value.allowed.startswith("at most 10240 ohm")
+    # just inside: built, and the solver's step rule plans at most its 16384 steps a cycle
+    c = circuit_three_phase_from_si("wye_grounded", 50.0, 1000.0, 20_400.0, CURVE)
+    tau = c.air_core_inductance_h / c.winding_resistance_ohm
+    spc, _, _ = step_rule(50.0, 0.02, 128, tau)
+    assert 16_000 < spc <= 16_384
