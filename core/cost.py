@@ -63,8 +63,13 @@ __all__ = [
 
 # The weights below put every kind of work in winding-steps of core.energize. They are this
 # project's measurements on the reference machine (2 cores; tests/benchmarks/bench_heaviest.py,
-# CPU-time ratios in one run), where one winding-step of the kernel costs about 56 ns of CPU, so
-# the default budget of 35 million winding-steps is about 2 s of CPU for any operation.
+# CPU-time ratios in one run). On the one solver (core.network, every operation) a winding-step of
+# core.energize's heaviest requests costs about 100 ns of CPU there (the 56 ns of the kernels it
+# replaced no longer holds), and the heaviest legal request of each operation under the default
+# budget of 40 million took 1.7 to 4.3 s of CPU (bench_heaviest.py, one run, 2026-12-05: peak,
+# envelope, batch and the statistics with a generator 97 to 108 ns per estimated step; the
+# statistics with devices, the clearance and the dip 51 to 68 ns; the mitigation 42 ns; the
+# network 11 ns, its exact reading counted as if no window were shared).
 #
 # One step of a generator-dip run on the network solver (core.network with a machine source:
 # one unit's three windings, the bus fluxes by Newton's method at each of the four stages, the

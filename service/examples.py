@@ -377,7 +377,7 @@ MITIGATION_REQUESTS: dict[str, dict[str, Any]] = {
         "switching": {"residual_flux_pu": [0.8, -0.4, -0.4]},
         "dip_limit": "G2",
         # the options that act on the closing itself, each judged on a 2 s dip record: within
-        # the default work budget (about 2 s of CPU)
+        # the default work budget (2 to 4 s of CPU)
         "options": [
             {"kind": "controlled_closing"},
             {"kind": "pre_insertion_resistor"},

@@ -2,7 +2,7 @@
 
 Compute limits bound the work any single request can cause: the work budget
 (``max_request_steps``, estimated by core/cost.py before anything runs) keeps the heaviest legal
-request near 2 s of CPU on a 2-core machine; the deadline and the per-worker slots bound what
+request within 2 to 4 s of CPU on a 2-core machine (tests/benchmarks/bench_heaviest.py); the deadline and the per-worker slots bound what
 runs at once (service/compute.py).
 """
 
@@ -37,8 +37,8 @@ class Settings(BaseSettings):
         40_000_000,
         ge=10_000,
         description="Work budget of one request, in winding-steps (core/cost.py estimates it "
-        "before any simulation, every kind of work weighed in them; about 56 ns of CPU each on "
-        "a 2-core reference machine, so about 2 s); over it the request is refused with 422 "
+        "before any simulation, every kind of work weighed in them; about 100 ns of CPU each on "
+        "a 2-core reference machine, the heaviest legal request 2 to 4 s); over it the request is refused with 422 "
         "naming the fields to reduce",
     )
     request_deadline_s: float = Field(

@@ -28,6 +28,7 @@ from typing import Any
 from fastapi.testclient import TestClient
 
 from service.app import create_app
+from service.models.network import MAX_UNITS
 from service.settings import Settings, get_settings, settings_dependency
 
 EXAMPLES = Path(__file__).resolve().parents[2] / "openapi" / "v1" / "examples"
@@ -74,6 +75,11 @@ WARM_UP = (
     ("/v1/generator-dip", "generator_dip.northgate_backfeed"),
     ("/v1/clearance", "clearance.northgate_main_unit"),
     ("/v1/mitigation", "mitigation.northgate_backfeed"),
+    ("/v1/network-energization", "network_energization.northgate_ring_sympathetic"),
+    (
+        "/v1/network-energization/statistics",
+        "network_energization_statistics.northgate_ring_reclose",
+    ),
 )
 
 
@@ -148,6 +154,31 @@ def builders(s: Settings) -> dict[str, Callable[[], tuple[str, dict[str, Any]]]]
         body["options"] = [{"kind": k} for k in kinds]  # every default option, named
         return "/v1/mitigation", body
 
+    ring = _example("network_energization_statistics.northgate_ring_reclose")
+
+    def network() -> tuple[str, dict[str, Any]]:
+        body = _example("network_energization.northgate_ring_sympathetic")
+        body["units"] = [copy.deepcopy(body["units"][k % 2]) for k in range(MAX_UNITS)]
+        for k, unit in enumerate(body["units"]):
+            unit["name"] = f"unit {k + 1}"
+        # a source strong enough for 64 units' rated load (the service asks for twice their sum)
+        body["source"] = {"kind": "fault_level", "fault_mva": 500, "x_over_r": 10}
+        # the longest record within the sample limit (lines x samples): 64 units' lines and the
+        # source's at the default 128 samples a cycle
+        lines = 3 * (MAX_UNITS + 1)
+        duration = min(s.max_duration_s, 0.95 * s.max_total_samples / (lines * 60 * 128))
+        body["options"] = {"duration_s": round(duration, 2)}
+        return "/v1/network-energization", body
+
+    def network_statistics() -> tuple[str, dict[str, Any]]:
+        # the 4-unit feeder: the example's three pad units and a fourth like the first
+        body = copy.deepcopy(ring)
+        body["units"].append(copy.deepcopy(body["units"][0]))
+        body["units"][-1]["name"] = "pad 4 (1500 kVA)"
+        body.pop("devices")
+        body["sampling"] = {"samples": s.max_statistics_samples, "random_state": 1}
+        return "/v1/network-energization/statistics", body
+
     return {
         "peak": peak,
         "envelope": envelope,
@@ -160,6 +191,8 @@ def builders(s: Settings) -> dict[str, Callable[[], tuple[str, dict[str, Any]]]]
         "generator_dip": dip,
         "generator_dip_figure": dip_figure,
         "mitigation": mitigation,
+        "network": network,
+        "network_statistics": network_statistics,
     }
 
 
