@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import os
 import socket
 import subprocess
@@ -70,12 +71,12 @@ def _free_port() -> int:
         return port
 
 
-@pytest.fixture(scope="session")
-def live_server() -> Iterator[str]:
-    """Base URL of the service run by uvicorn on 127.0.0.1 for the whole session."""
+@contextlib.contextmanager
+def serve(extra_env: dict[str, str] | None = None) -> Iterator[str]:
+    """Run the service under uvicorn on a free loopback port; yields its base URL."""
     port = _free_port()
     # The contract is checked against this server, not the timing (deadline lifted, see above).
-    env = {**os.environ, "FIRSTCYCLE_REQUEST_DEADLINE_S": "3600"}
+    env = {**os.environ, "FIRSTCYCLE_REQUEST_DEADLINE_S": "3600", **(extra_env or {})}
     proc = subprocess.Popen(
         [sys.executable, "-m", "uvicorn", "service.app:app", "--host", "127.0.0.1",
          "--port", str(port), "--log-level", "warning"],
@@ -95,3 +96,18 @@ def live_server() -> Iterator[str]:
     finally:
         proc.terminate()
         proc.wait(timeout=10)
+
+
+@pytest.fixture(scope="session")
+def live_server() -> Iterator[str]:
+    """Base URL of the service run by uvicorn on 127.0.0.1 for the whole session."""
+    with serve() as url:
+        yield url
+
+
+@pytest.fixture(scope="session")
+def fuzz_server() -> Iterator[str]:
+    """Like ``live_server``, with a tenth of the default work budget (tests/contract/
+    test_live_server.py says why)."""
+    with serve({"FIRSTCYCLE_MAX_REQUEST_STEPS": "4000000"}) as url:
+        yield url

@@ -28,8 +28,9 @@ from service.settings import Settings, get_settings, settings_dependency
 # budget is a twentieth of the default's (2 M winding-steps, about 0.1 s of CPU): a generated
 # request heavier than that is answered with the budget's 422, a problem document the checks
 # below still hold to the contract, and the 22 operations' hundreds of cases stay within the
-# suite's CI time. Heavy legal requests are fuzzed at the default limits by the live-server run
-# (test_live_server.py) and measured in tests/benchmarks/bench_heaviest.py.
+# suite's CI time. The heaviest legal requests at the default limits are run by
+# tests/benchmarks/bench_heaviest.py; the budget itself is tested in
+# tests/service/test_bounded_work.py.
 FUZZ_TIMEOUT_S = 120.0
 FUZZ_SETTINGS = get_settings().model_copy(
     update={"request_deadline_s": 3600.0, "max_request_steps": 2_000_000.0}
@@ -45,7 +46,7 @@ app.dependency_overrides[settings_dependency] = _fuzz_settings
 schema = schemathesis.openapi.from_asgi("/v1/openapi.json", app)
 # Operations whose requests simulate seconds of machine dynamics or many events run each case for
 # up to seconds: 10 examples each keeps the suite within its CI budget (the live-server run in
-# test_live_server.py fuzzes them again).
+# test_live_server.py fuzzes them again, on a real server).
 HEAVY = [
     "mitigation",
     "inrush_statistics",
