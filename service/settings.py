@@ -2,8 +2,8 @@
 
 Compute limits bound the work any single request can cause: the work budget
 (``max_request_steps``, estimated by core/cost.py before anything runs) keeps the heaviest legal
-request within 2 to 4 s of CPU on a 2-core machine (tests/benchmarks/bench_heaviest.py); the deadline and the per-worker slots bound what
-runs at once (service/compute.py).
+request within 2 to 4 s of CPU on a 2-core machine (tests/benchmarks/bench_heaviest.py); the
+deadline and the per-worker slots bound what runs at once (service/compute.py).
 """
 
 from __future__ import annotations
@@ -38,8 +38,8 @@ class Settings(BaseSettings):
         ge=10_000,
         description="Work budget of one request, in winding-steps (core/cost.py estimates it "
         "before any simulation, every kind of work weighed in them; about 100 ns of CPU each on "
-        "a 2-core reference machine, the heaviest legal request 2 to 4 s); over it the request is refused with 422 "
-        "naming the fields to reduce",
+        "a 2-core reference machine, the heaviest legal request 2 to 4 s); over it the request "
+        "is refused with 422 naming the fields to reduce",
     )
     request_deadline_s: float = Field(
         30.0,

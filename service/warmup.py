@@ -31,6 +31,8 @@ from service.examples import (
     CLEARANCE_REQUESTS,
     DIP_REQUESTS,
     ENVELOPE_REQUESTS,
+    NETWORK_REQUESTS,
+    NETWORK_STATISTICS_REQUESTS,
     PEAK_REQUESTS,
     SHEET_REQUESTS,
     STATISTICS_REQUESTS,
@@ -66,6 +68,24 @@ REQUESTS: tuple[tuple[str, str, dict[str, Any] | None], ...] = (
         },
     ),
     ("GET", SHEET_REQUESTS["northgate_main_unit_envelope"][1], None),
+    # several units on one bus, one in service with its differential, and the current figure:
+    # the network kernel with a writable step array (a second signature of the one above), the
+    # exact peak reading's windows
+    (
+        "POST",
+        "/v1/network-energization/figure",
+        {**NETWORK_REQUESTS["northgate_ring_sympathetic"], "options": {"duration_s": 0.2}},
+    ),
+    # the network Monte Carlo without a record, and its device events
+    (
+        "POST",
+        "/v1/network-energization/statistics",
+        {
+            **NETWORK_STATISTICS_REQUESTS["northgate_ring_reclose"],
+            "options": {"duration_s": 0.2},
+            "sampling": {"samples": 40, "random_state": 1, "check_events": 10},
+        },
+    ),
 )
 
 

@@ -55,6 +55,11 @@ posts = [("/v1/inrush/peak", ex.PEAK_REQUESTS), ("/v1/inrush/envelope", ex.ENVEL
 stats = {k: {**v, "options": {**v["options"], "samples": 300, "check_events": 10}}
          for k, v in ex.STATISTICS_REQUESTS.items()}
 posts.append(("/v1/inrush/statistics", stats))
+posts += [("/v1/network-energization", ex.NETWORK_REQUESTS),
+          ("/v1/network-energization/figure", ex.NETWORK_REQUESTS)]
+net_stats = {k: {**v, "sampling": {**v["sampling"], "samples": 200}}
+             for k, v in ex.NETWORK_STATISTICS_REQUESTS.items()}
+posts.append(("/v1/network-energization/statistics", net_stats))
 status = {}
 for path, requests in posts:
     for name, body in requests.items():
@@ -77,7 +82,8 @@ def test_no_kernel_compiles_after_warmup() -> None:
     )  # fmt: skip
     got = json.loads(out.stdout.strip().splitlines()[-1])
     assert set(got["status"].values()) == {200}, got["status"]
-    kernels = ["core.network.kernel.integrate"]
+    kernels = ["core.network.kernel.integrate", "core.network.kernel.integrate_lone",
+               "core.network.kernel.integrate_lone_parallel"]  # fmt: skip
     for name in kernels:  # the warm-up reached every top-level kernel
         assert got["before"][name][0], name
     assert got["after"] == got["before"]  # no new signature, no new compilation
