@@ -25,21 +25,22 @@ os.environ.setdefault("FIRSTCYCLE_WARMUP", "false")
 os.environ.setdefault("FIRSTCYCLE_REQUEST_DEADLINE_S", "3600")
 
 
-# The longest files, first in collection order (measured with --durations on the 2-core machine:
-# the scipy references of the solver and of the generator, the live-server schemathesis run, the
-# service's consistency checks). Run without xdist, they start first; under .ci/check's
-# `-n auto --dist loadfile` xdist orders the files itself (largest first). Only the order
-# changes: every test still runs.
+# The longest files, first in collection order (measured with --durations on the 2-core machine,
+# longest first: the live-server schemathesis run, the in-process fuzz of every operation, the
+# scipy references of the solver and of the generator, the service's consistency checks). Under
+# .ci/check's `-n auto --dist loadfile --no-loadscope-reorder` xdist hands the files out in this
+# order, so the long ones do not end the run on one worker. Only the order changes: every test
+# still runs.
 FIRST = (
-    "tests/references/test_solver_vs_scipy.py",
     "tests/contract/test_live_server.py",
+    "tests/contract/test_fuzz.py",
+    "tests/references/test_solver_vs_scipy.py",
     "tests/references/test_generator_references.py",
     "tests/references/test_solver_vs_scipy_substeps.py",
     "tests/service/test_consistency.py",
     "tests/references/test_machine_vs_scipy.py",
     "tests/contract/test_generated_client.py",
     "tests/service/test_warmup.py",
-    "tests/contract/test_fuzz.py",
 )
 
 

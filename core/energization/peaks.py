@@ -32,7 +32,12 @@ from numpy.typing import NDArray
 from core.energization import energize
 from core.transformer.circuit_model import EquivalentCircuit
 from core.transformer.magnetizing import MagnetizingCurve, PiecewiseLinearCurve
-from core.waveform import MAX_SAMPLES_PER_CYCLE, finer_samples_per_cycle, refinement_stages
+from core.waveform import (
+    MAX_SAMPLES_PER_CYCLE,
+    finer_samples_per_cycle,
+    refinement_stages,
+    window_peak,
+)
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -118,14 +123,6 @@ def _line(topology: str, winding: FloatArray) -> FloatArray:
     return winding
 
 
-def _vertex(y0: FloatArray, y1: FloatArray, y2: FloatArray) -> tuple[FloatArray, FloatArray]:
-    """Parabola through three equally spaced values around a maximum: (value, offset in steps)."""
-    den = y0 - 2.0 * y1 + y2
-    with np.errstate(divide="ignore", invalid="ignore"):
-        off = np.where(den < 0.0, np.clip(0.5 * (y0 - y2) / den, -1.0, 1.0), 0.0)
-    return np.maximum(y1 - 0.25 * (y0 - y2) * off, y1), off
-
-
 def _refine(
     circuits: Sequence[EquivalentCircuit],
     closing_angle_deg: FloatArray,
@@ -175,17 +172,7 @@ def _refine(
     lines = _line(first.connection, sim.winding_current_a)
     y = np.abs(lines[np.arange(case.size), line])  # (n_windows, 2*factor + 1)
     t = t0[:, None] + np.arange(y.shape[1]) * (sample_s / factor)
-    inside = (t >= t_lo[:, None] - 1e-9 * sample_s) & (t < t_hi[:, None] - 1e-9 * sample_s)
-    y_in = np.where(inside, y, -1.0)
-    k = np.argmax(y_in, axis=1)
-    rows = np.arange(case.size)
-    km = np.clip(k, 1, y.shape[1] - 2)
-    y0 = np.where(inside[rows, km - 1], y[rows, km - 1], -np.inf)
-    y2 = np.where(inside[rows, km + 1], y[rows, km + 1], -np.inf)
-    v, off = _vertex(y[rows, km - 1], y[rows, km], y[rows, km + 1])
-    smooth = (km == k) & np.isfinite(y0) & np.isfinite(y2)
-    peak = np.where(smooth, v, y[rows, k])
-    when = t[rows, k] + np.where(smooth, off, 0.0) * (sample_s / factor)
+    peak, when, k = window_peak(y, t, t_lo, t_hi, sample_s / factor, 1e-9 * sample_s)
     # the window starting one fine sample before the fine maximum, for the next stage
     nxt = np.clip(k - 1, 0, y.shape[1] - 3)
     return peak, when, sim.winding_current_a, nxt.astype(np.int64), fine

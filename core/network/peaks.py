@@ -51,7 +51,7 @@ from core.network.solver import (
     WindowRecord,
     simulate_windows,
 )
-from core.waveform import refinement_stages
+from core.waveform import refinement_stages, window_peak
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -106,33 +106,6 @@ def _signal(record: NetworkResult | WindowRecord, case: IntArray, signal: IntArr
     units = record.line_current_a[case, np.maximum(signal, 0)]
     out: FloatArray = np.where((signal == SOURCE)[:, None, None], src, units)
     return out
-
-
-def _read(
-    y: FloatArray, t: FloatArray, t_lo: FloatArray, t_hi: FloatArray, dt: float
-) -> tuple[FloatArray, FloatArray, IntArray]:
-    """Largest y of each row within [t_lo, t_hi), by the parabola on the three samples around it.
-
-    Returns the value, its instant and the sample index of the largest sample (as
-    :func:`core.energization.peaks` reads a stage's record).
-    """
-    tol = 1e-9 * dt
-    inside = (t >= t_lo[:, None] - tol) & (t < t_hi[:, None] - tol)
-    y_in = np.where(inside, y, -1.0)
-    k = np.argmax(y_in, axis=1)
-    rows = np.arange(y.shape[0])
-    km = np.clip(k, 1, y.shape[1] - 2)
-    y0 = np.where(inside[rows, km - 1], y[rows, km - 1], -np.inf)
-    y2 = np.where(inside[rows, km + 1], y[rows, km + 1], -np.inf)
-    a, b, c = y[rows, km - 1], y[rows, km], y[rows, km + 1]
-    den = a - 2.0 * b + c
-    with np.errstate(divide="ignore", invalid="ignore"):
-        off = np.where(den < 0.0, np.clip(0.5 * (a - c) / den, -1.0, 1.0), 0.0)
-    v = np.maximum(b - 0.25 * (a - c) * off, b)
-    smooth = (km == k) & np.isfinite(y0) & np.isfinite(y2)
-    peak: FloatArray = np.where(smooth, v, y[rows, k])
-    when: FloatArray = t[rows, k] + np.where(smooth, off, 0.0) * dt
-    return peak, when, k.astype(np.int64)
 
 
 def _stages(grid: StepGrid, frequency_hz: float) -> list[int]:
@@ -239,7 +212,7 @@ def read_peaks(
             )
         )
         t = t0[:, None] + rec.time_s[None, :]
-        pk, tm, kmax = _read(y, t, t_lo, t_hi, dt)
+        pk, tm, kmax = window_peak(y, t, t_lo, t_hi, dt, 1e-9 * dt)
         peak, when = pk, tm
         # the next stage: two of this stage's steps from the sample before the largest
         nxt = np.clip(kmax - 1, 0, n_steps - 2).astype(np.int64)

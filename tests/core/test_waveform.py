@@ -161,3 +161,40 @@ def test_time_below_on_exponential_peaks() -> None:
     assert waveform.time_below(peaks, 100.0, F_HZ) == pytest.approx(35.0 / F_HZ, rel=1e-15)
     assert waveform.time_below(peaks, 2000.0, F_HZ) == 0.0  # never reached
     assert math.isnan(waveform.time_below(peaks, 1e-3, F_HZ))  # still above at the end
+
+
+# ------------------------------------------------------------------ a peak within a window
+
+
+def test_window_peak_is_exact_on_a_parabola_and_a_sample_at_the_window_edge() -> None:
+    # y = 5 - 2*(t - t*)^2 sampled every 0.1 s: the three-point parabola is the function itself,
+    # so the vertex (5 at t*) is read exactly wherever t* falls between the samples
+    dt = 0.1
+    t = np.tile(np.arange(11) * dt, (3, 1))
+    t_star = np.array([0.437, 0.5, 0.262])
+    y = 5.0 - 2.0 * (t - t_star[:, None]) ** 2
+    lo, hi = np.zeros(3), np.full(3, 1.05)
+    peak, when, k = waveform.window_peak(y, t, lo, hi, dt, 1e-9 * dt)
+    assert peak == pytest.approx([5.0, 5.0, 5.0], rel=1e-14)
+    assert when == pytest.approx(t_star, abs=1e-14)
+    assert k.tolist() == [4, 5, 3]
+    # the window closes before the crest: the largest sample inside, with no neighbour beyond
+    # the window to fit, is read as it is (a rising edge has no vertex inside)
+    hi = np.full(3, 0.25)
+    peak, when, k = waveform.window_peak(y, t, lo, hi, dt, 1e-9 * dt)
+    assert k.tolist() == [2, 2, 2]
+    assert peak == pytest.approx(y[:, 2], rel=0.0)
+    assert when == pytest.approx([0.2, 0.2, 0.2], abs=1e-15)
+
+
+def test_window_peak_never_reads_below_the_largest_sample_at_a_corner() -> None:
+    # a sharp top (a triangle, like a line current whose slope changes where a winding crosses
+    # its knee): the parabola's offset is clipped to one sample and its value never below the
+    # largest sample
+    dt = 0.1
+    t = (np.arange(9) * dt)[None, :]
+    tri = 1.0 - np.abs(t - 0.43) * 2.0
+    peak, when, k = waveform.window_peak(tri, t, np.zeros(1), np.ones(1), dt, 1e-9 * dt)
+    assert k.tolist() == [4]
+    assert peak[0] >= tri[0, 4]
+    assert abs(when[0] - 0.4) <= dt
