@@ -713,8 +713,10 @@ def network_work(
     :func:`core.network.step_plan` (the solver's own plan); reading: ENVELOPE_SAMPLE_WEIGHT x
     3 lines x (units + 1) x samples (per-cycle peaks, I_eq(t), harmonics of every unit and of
     the source), and the peaks read exactly, NETWORK_STEP_WEIGHT x 3 windings x
-    :func:`core.network.peaks.reading_steps` for (units + 1) currents x (whole cycles + the
-    first peak) -- it grows as units^2, every window integrating every unit; judging:
+    :func:`core.network.peaks.reading_steps` for (distinct units + 1) currents x (whole cycles
+    + the first peak), units equal in every input sharing their windows
+    (:func:`core.network.peaks.distinct_units`) -- it grows as units x distinct units, every
+    window integrating every unit; judging:
     devices x (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT x 3 lines x samples), plus the
     source record read for the devices (EVENT_SAMPLE_WEIGHT x 3 x samples); each unit's
     differential: its record read (EVENT_SAMPLE_WEIGHT) and filtered
@@ -728,7 +730,7 @@ def network_work(
     decimate, spc, n_steps = step_plan(source, units, duration_s, load, samples_per_cycle)
     samples = 3.0 * (duration_s * source.frequency_hz * samples_per_cycle + 1)
     n_out = n_steps // decimate + 1
-    readings = (len(units) + 1) * (n_steps // spc + 1)
+    readings = (network_peaks.distinct_units(units) + 1) * (n_steps // spc + 1)
     exact = network_peaks.reading_steps(len(units), readings, n_out, spc, decimate)
     parts = [
         ("network simulation", NETWORK_STEP_WEIGHT * len(units) * 3.0 * n_steps),

@@ -34,6 +34,7 @@ Limits: the record must carry its step grid (:attr:`core.network.NetworkResult.g
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -61,6 +62,7 @@ __all__ = [
     "LINES_PER_READING",
     "SOURCE",
     "SignalPeaks",
+    "distinct_units",
     "line_cycle_peaks",
     "read_peaks",
     "reading_steps",
@@ -405,6 +407,50 @@ def line_cycle_peaks(
     )  # fmt: skip
     out: FloatArray = peak.reshape(n, 3, n_cyc)
     return out
+
+
+def _fingerprint(value: object) -> object:
+    """A hashable image of a unit's inputs: dataclasses field by field, arrays by their bytes."""
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return (
+            type(value).__name__,
+            tuple(_fingerprint(getattr(value, f.name)) for f in dataclasses.fields(value)),
+        )
+    if isinstance(value, (list, tuple)):
+        return tuple(_fingerprint(v) for v in value)
+    if isinstance(value, (np.ndarray, float, int, np.floating)):
+        a = np.asarray(value, dtype=float)
+        return (a.shape, a.tobytes())
+    return repr(value)
+
+
+def distinct_units(units: Sequence[Unit]) -> int:
+    """How many of the units differ in any input (an estimate's count of distinct currents).
+
+    Parameters
+    ----------
+    units : sequence of Unit
+        The units on one bus [-].
+
+    Returns
+    -------
+    int
+        The number of classes of units equal in every input: circuit (every number and array of
+        its curve), connection, breaker, residual flux and state [-].
+
+    Notes
+    -----
+    Units equal in every input on one bus carry equal currents at every step (the solver treats
+    each unit by the same arithmetic from the same bus voltage), so their peaks fall on the same
+    samples and :func:`signal_peaks` runs one window for them all: the work estimate counts the
+    readings of distinct units only. A residual flux given as one number and the same as three
+    equal numbers count as different (a safe overcount).
+
+    References
+    ----------
+    This module's reading (windows shared per case and starting sample).
+    """
+    return len({_fingerprint(u) for u in units})
 
 
 def reading_steps(

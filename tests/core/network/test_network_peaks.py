@@ -224,3 +224,56 @@ def test_reading_estimate_covers_the_windows_run(monkeypatch: pytest.MonkeyPatch
         3, 4 * (n_cyc + 1), run.time_s.size, run.steps_per_cycle, run.grid.decimate
     )
     assert 3 * sum(windows) <= estimate
+
+
+def test_units_equal_in_every_input_count_once() -> None:
+    # two circuits built apart from one nameplate are equal; any input that differs (residual
+    # flux, state, breaker, rating) makes another class
+    a, b = _circuit("wye_grounded"), _circuit("wye_grounded")
+    assert a is not b
+    same = [
+        Unit(a, residual_flux_pu=[0.8, -0.4, -0.4]),
+        Unit(b, residual_flux_pu=[0.8, -0.4, -0.4]),
+    ]
+    assert network_peaks.distinct_units(same) == 1
+    assert network_peaks.distinct_units([*same, Unit(a, residual_flux_pu=[0.7, -0.4, -0.4])]) == 2
+    assert network_peaks.distinct_units([*same, Unit(a, in_service=True)]) == 2
+    assert network_peaks.distinct_units([*same, Unit(a, breaker=Breaker([0.0, 0.001, 0.0]))]) == 2
+    assert (
+        network_peaks.distinct_units([*same, Unit(_circuit("wye_grounded", impedance_percent=6.0))])
+        == 2
+    )
+
+
+def test_reading_estimate_with_equal_units_covers_the_windows_run(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    # five units on one source, four equal in every input: their currents are equal at every
+    # step, their peaks fall on the same samples and share one window; the estimate counts the
+    # readings of the two distinct units (and the source) and must still cover what is run
+    windows: list[int] = []
+    run_windows = network_peaks.simulate_windows
+
+    def counted(*a: object, **k: object) -> object:
+        windows.append(int(np.asarray(a[4]).size) * int(a[7]))  # type: ignore[call-overload]
+        return run_windows(*a, **k)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(network_peaks, "simulate_windows", counted)
+    src = Source.from_fault_level(V_LL, F, 50e6, 10.0)
+    units = [Unit(_circuit("wye_grounded"), residual_flux_pu=[0.8, -0.4, -0.4]) for _ in range(4)]
+    units.append(Unit(_circuit("delta"), residual_flux_pu=[-0.5, 0.6, -0.1]))
+    assert network_peaks.distinct_units(units) == 2
+    run = simulate_network(src, units, closing_angle_deg=10.0, duration_s=0.1)
+    assert run.grid is not None
+    # the four equal units carry equal currents, bit for bit
+    for k in (1, 2, 3):
+        assert np.array_equal(run.line_current_a[:, k], run.line_current_a[:, 0])
+    signals = [0, 1, 2, 3, 4, network_peaks.SOURCE]
+    got = network_peaks.signal_peaks(src, units, None, run, signals, np.array([0.1]))
+    for k in (1, 2, 3):
+        assert np.array_equal(got.cycle_peaks_a[:, k], got.cycle_peaks_a[:, 0])
+    n_cyc = (run.time_s.size - 1) // 128
+    estimate = network_peaks.reading_steps(
+        5, (2 + 1) * (n_cyc + 1), run.time_s.size, run.steps_per_cycle, run.grid.decimate
+    )
+    assert 3 * sum(windows) <= estimate
