@@ -346,9 +346,20 @@ def study_inputs(
 
 
 def check_work(
-    settings: Settings, lines: int, frequency_hz: float, duration_s: float, samples_per_cycle: int
+    settings: Settings,
+    lines: int,
+    frequency_hz: float,
+    duration_s: float,
+    samples_per_cycle: int,
+    *,
+    samples_field: str | None = None,
 ) -> None:
-    """Raise LimitError when a simulation would exceed the configured limits."""
+    """Raise LimitError when a simulation would exceed the configured limits.
+
+    Over the sample limit (lines x samples, a memory bound) the error lists the request's
+    fields that would fit: ``options.duration_s`` with its longest value, and
+    ``samples_field`` (when the request sets the samples per cycle) with its largest.
+    """
     if duration_s > settings.max_duration_s:
         raise LimitError("options.duration_s", duration_s, settings.max_duration_s)
     if samples_per_cycle > settings.max_samples_per_cycle:
@@ -357,10 +368,20 @@ def check_work(
         )
     total = lines * (duration_s * frequency_hz * samples_per_cycle + 1)
     if total > settings.max_total_samples:
+        per_line = settings.max_total_samples / lines - 1.0
+        knobs = []
+        longest = math.floor(per_line / (frequency_hz * samples_per_cycle) * 1e4) / 1e4
+        if longest > 0.0:
+            knobs.append(("options.duration_s", f"<= {longest:g} (now {duration_s:g})"))
+        most = math.floor(per_line / (frequency_hz * duration_s))
+        if samples_field is not None and most >= 16:
+            knobs.append((samples_field, f"<= {most} (now {samples_per_cycle})"))
         raise LimitError(
-            "lines x duration_s x frequency_hz x samples_per_cycle",
+            f"samples simulated ({lines} lines x samples per line)",
             total,
             settings.max_total_samples,
+            knobs=tuple(knobs),
+            detail="a memory bound (FIRSTCYCLE_MAX_TOTAL_SAMPLES); reduce one of the fields listed",
         )
 
 

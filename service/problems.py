@@ -333,7 +333,7 @@ async def _limit(request: Request, exc: Exception) -> JSONResponse:
     )
     # the fields that would bring the work within the limit (service/budget.py)
     knobs = [
-        FieldProblem(field=f, message="reduce this field to fit the work budget", allowed=a)
+        FieldProblem(field=f, message="reduce this field to fit the limit above", allowed=a)
         for f, a in exc.knobs
     ]
     return problem_response(

@@ -201,7 +201,12 @@ def _envelope(
     circuit, event, assumptions = convert.study_inputs(body)
     opt = body.options
     convert.check_work(
-        settings, circuit.phases, circuit.frequency_hz, opt.duration_s, opt.samples_per_cycle
+        settings,
+        circuit.phases,
+        circuit.frequency_hz,
+        opt.duration_s,
+        opt.samples_per_cycle,
+        samples_field="options.samples_per_cycle",
     )
 
     def estimate(o: Mapping[str, float]) -> cost.Work:

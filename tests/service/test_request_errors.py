@@ -219,3 +219,38 @@ def test_volts_typed_as_kilovolts_warn_in_dip_and_mitigation(client: TestClient)
     r = client.post("/v1/mitigation", json=req)
     assert r.status_code == 200, r.text
     assert "voltage_looks_like_volts" in _codes(r.json())
+
+
+def test_over_the_sample_limit_names_the_fields_that_fit(client: TestClient) -> None:
+    from service.examples import ENVELOPE_REQUESTS, NETWORK_REQUESTS
+
+    # 64 units on the ring over 5 s: 195 lines (each unit's three and the source's) x (5 s x
+    # 60 Hz x 128 + 1) samples = 7.49 M against the default 4 M; the longest record that fits is
+    # (4e6/195 - 1)/(60*128) = 2.6708 s
+    ring = copy.deepcopy(NETWORK_REQUESTS["northgate_ring_reclose"])
+    unit = ring["units"][0]
+    ring["units"] = [{**copy.deepcopy(unit), "name": f"unit {k}"} for k in range(64)]
+    ring["source"] = {"kind": "fault_level", "fault_mva": 500, "x_over_r": 10}
+    ring["options"] = {"duration_s": 5.0}
+    body = _problem(client.post("/v1/network-energization", json=ring), 422)
+    errors = body["errors"]
+    assert isinstance(errors, list)
+    assert errors[0]["field"] == "samples simulated (195 lines x samples per line)"
+    assert [e["field"] for e in errors[1:]] == ["options.duration_s"]  # no samples_per_cycle here
+    assert errors[1]["allowed"] == "<= 2.6708 (now 5)"
+    ring["options"] = {"duration_s": 2.6708}  # what it names fits the sample limit
+    r = client.post("/v1/network-energization", json=ring)
+    if r.status_code == 422:  # the work budget may still refuse it, but not the sample limit
+        assert not r.json()["errors"][0]["field"].startswith("samples simulated")
+    # an envelope at 400 Hz, 1024 samples a cycle over 5 s: 3 x 2 048 001 samples = 6.1 M; it
+    # sets its samples per cycle, so both fields are named
+    env = copy.deepcopy(ENVELOPE_REQUESTS["northgate_main_unit"])
+    env["transformer"]["frequency_hz"] = 400
+    env["options"] = {"duration_s": 5.0, "samples_per_cycle": 1024}
+    body = _problem(client.post("/v1/inrush/envelope", json=env), 422)
+    errors = body["errors"]
+    assert isinstance(errors, list)
+    fields = {e["field"]: e["allowed"] for e in errors[1:]}
+    # (4e6/3 - 1)/(400*1024) = 3.2552 s; (4e6/3 - 1)/(400*5) = 666 samples a cycle
+    assert fields == {"options.duration_s": "<= 3.2552 (now 5)",
+                      "options.samples_per_cycle": "<= 666 (now 1024)"}  # fmt: skip
