@@ -6,8 +6,9 @@ provenance; no physics lives here.
 
 from __future__ import annotations
 
+import contextlib
 import math
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from typing import Literal
 
 import numpy as np
@@ -158,6 +159,15 @@ def _source_error(exc: ParameterError, t: TransformerNameplate, src: SourceIn) -
     return exc
 
 
+@contextlib.contextmanager
+def under(where: str) -> Iterator[None]:
+    """Name a core ParameterError raised inside by its request path: ``where.parameter``."""
+    try:
+        yield
+    except ParameterError as exc:
+        raise ParameterError(f"{where}.{exc.parameter}", exc.value, exc.allowed) from None
+
+
 def _circuit(study: Study) -> EquivalentCircuit:
     if study.transformer is not None:
         try:
@@ -173,13 +183,9 @@ def _circuit(study: Study) -> EquivalentCircuit:
         return circuit_three_phase_of(three, "circuit_three_phase")
     assert study.circuit is not None
     ci = study.circuit
-    try:
+    with under("circuit.magnetizing"):
         curve = curve_of(ci.magnetizing)
-    except ParameterError as exc:
-        raise ParameterError(
-            f"circuit.magnetizing.{exc.parameter}", exc.value, exc.allowed
-        ) from None
-    try:
+    with under("circuit"):
         return circuit_model.circuit_from_si(
             ci.voltage_rms_v,
             ci.frequency_hz,
@@ -188,8 +194,6 @@ def _circuit(study: Study) -> EquivalentCircuit:
             curve,
             ci.rated_current_a,
         )
-    except ParameterError as exc:
-        raise ParameterError(f"circuit.{exc.parameter}", exc.value, exc.allowed) from None
 
 
 def curve_of(m: TwoSlopeCurve | SmoothCurve | TableCurve) -> magnetizing.MagnetizingCurve:
@@ -211,14 +215,10 @@ def circuit_three_phase_of(
     """The core circuit of a three-phase SI circuit; a core error names its field under
     ``where`` (the request path of the circuit). ``frequency_hz`` replaces the circuit's own
     (a network unit takes the bus's); its source fields are used when it has them."""
-    try:
+    with under(f"{where}.magnetizing"):
         curve = curve_of(ci.magnetizing)
-    except ParameterError as exc:
-        raise ParameterError(
-            f"{where}.magnetizing.{exc.parameter}", exc.value, exc.allowed
-        ) from None
     f = frequency_hz if frequency_hz is not None else getattr(ci, "frequency_hz", 60.0)
-    try:
+    with under(where):
         return three_phase_circuit.circuit_three_phase_from_si(
             ci.connection,
             f,
@@ -229,8 +229,6 @@ def circuit_three_phase_of(
             getattr(ci, "source_resistance_ohm", 0.0),
             getattr(ci, "source_inductance_h", 0.0),
         )
-    except ParameterError as exc:
-        raise ParameterError(f"{where}.{exc.parameter}", exc.value, exc.allowed) from None
 
 
 #: The source EMFs of the single-unit operations (core.energization.energize), as they are.

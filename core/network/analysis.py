@@ -227,6 +227,23 @@ def first_peak_window_end(
     return out
 
 
+def _vertex(
+    y0: FloatArray,
+    y1: FloatArray,
+    y2: FloatArray,
+    j: NDArray[np.float64] | NDArray[np.int64],
+    n: int,
+) -> FloatArray:
+    """The parabola's vertex through the largest sample y1 (index j of n) and its neighbours,
+    where it is an inner sample on a rounded top; y1 itself otherwise."""
+    den = y0 - 2.0 * y1 + y2
+    inner = (j > 0) & (j < n - 1) & (den < 0.0) & (y1 >= y0) & (y1 >= y2)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        vertex = y1 - 0.125 * (y2 - y0) ** 2 / den
+    peak: FloatArray = np.where(inner, vertex, y1)
+    return peak
+
+
 def first_peaks(
     time_s: ArrayLike, current_a: ArrayLike, window_end_s: ArrayLike
 ) -> tuple[FloatArray, IntArray]:
@@ -286,12 +303,7 @@ def first_peaks(
     y0 = np.take_along_axis(row, jm, -1)[..., 0]
     y1 = np.take_along_axis(row, j[..., None], -1)[..., 0]
     y2 = np.take_along_axis(row, jp, -1)[..., 0]
-    den = y0 - 2.0 * y1 + y2
-    inner = (j > 0) & (j < n - 1) & (den < 0.0) & (y1 >= y0) & (y1 >= y2)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        vertex = y1 - 0.125 * (y2 - y0) ** 2 / den
-    peak: FloatArray = np.where(inner, vertex, y1)
-    return peak, line.astype(np.int64)
+    return _vertex(y0, y1, y2, j, n), line.astype(np.int64)
 
 
 def first_peaks_of_maxima(maxima: ArrayLike, n_samples: int) -> tuple[FloatArray, IntArray]:
@@ -338,14 +350,7 @@ def first_peaks_of_maxima(maxima: ArrayLike, n_samples: int) -> tuple[FloatArray
     n = checks.integer("n_samples", n_samples, 1, 2**62)
     line = np.argmax(m[..., 0], axis=-1)
     row = np.take_along_axis(m, line[..., None, None], axis=-2)[..., 0, :]
-    y0, y1, y2 = row[..., 1], row[..., 0], row[..., 2]
-    j = row[..., 3]
-    den = y0 - 2.0 * y1 + y2
-    inner = (j > 0) & (j < n - 1) & (den < 0.0) & (y1 >= y0) & (y1 >= y2)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        vertex = y1 - 0.125 * (y2 - y0) ** 2 / den
-    peak: FloatArray = np.where(inner, vertex, y1)
-    return peak, line.astype(np.int64)
+    return _vertex(row[..., 1], row[..., 0], row[..., 2], row[..., 3], n), line.astype(np.int64)
 
 
 def current_readings(

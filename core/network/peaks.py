@@ -409,12 +409,21 @@ def line_cycle_peaks(
     return out
 
 
+# Fields that describe how a circuit was derived, not what the solver computes with.
+_DESCRIPTIVE = frozenset({"assumptions", "warnings"})
+
+
 def _fingerprint(value: object) -> object:
-    """A hashable image of a unit's inputs: dataclasses field by field, arrays by their bytes."""
+    """A hashable image of a unit's inputs: dataclasses field by field (their descriptive
+    fields left out), arrays by their bytes."""
     if dataclasses.is_dataclass(value) and not isinstance(value, type):
         return (
             type(value).__name__,
-            tuple(_fingerprint(getattr(value, f.name)) for f in dataclasses.fields(value)),
+            tuple(
+                _fingerprint(getattr(value, f.name))
+                for f in dataclasses.fields(value)
+                if f.name not in _DESCRIPTIVE
+            ),
         )
     if isinstance(value, (list, tuple)):
         return tuple(_fingerprint(v) for v in value)
@@ -436,7 +445,8 @@ def distinct_units(units: Sequence[Unit]) -> int:
     -------
     int
         The number of classes of units equal in every input: circuit (every number and array of
-        its curve), connection, breaker, residual flux and state [-].
+        its curve; not its assumptions and warnings, which only describe it), connection,
+        breaker, residual flux and state [-].
 
     Notes
     -----

@@ -203,9 +203,8 @@ def test_lines_left_out_cannot_be_the_largest(connection: str) -> None:
     assert 0.0 <= gap <= 0.05
 
 
-def test_reading_estimate_covers_the_windows_run(monkeypatch: pytest.MonkeyPatch) -> None:
-    # the work estimate (core.cost.network_work) counts one window per reading and stage; the
-    # windows run, shared per case and start, must not exceed it
+def _count_windows(monkeypatch: pytest.MonkeyPatch) -> list[int]:
+    """Unit-steps of every window the reading runs (windows x steps), appended per call."""
     windows: list[int] = []
     run_windows = network_peaks.simulate_windows
 
@@ -214,6 +213,13 @@ def test_reading_estimate_covers_the_windows_run(monkeypatch: pytest.MonkeyPatch
         return run_windows(*a, **k)  # type: ignore[arg-type]
 
     monkeypatch.setattr(network_peaks, "simulate_windows", counted)
+    return windows
+
+
+def test_reading_estimate_covers_the_windows_run(monkeypatch: pytest.MonkeyPatch) -> None:
+    # the work estimate (core.cost.network_work) counts one window per reading and stage; the
+    # windows run, shared per case and start, must not exceed it
+    windows = _count_windows(monkeypatch)
     gen, units, load = _busy_network()
     run = simulate_network(gen, units, closing_angle_deg=10.0, duration_s=0.1, load=load)
     assert run.grid is not None
@@ -251,14 +257,7 @@ def test_reading_estimate_with_equal_units_covers_the_windows_run(
     # five units on one source, four equal in every input: their currents are equal at every
     # step, their peaks fall on the same samples and share one window; the estimate counts the
     # readings of the two distinct units (and the source) and must still cover what is run
-    windows: list[int] = []
-    run_windows = network_peaks.simulate_windows
-
-    def counted(*a: object, **k: object) -> object:
-        windows.append(int(np.asarray(a[4]).size) * int(a[7]))  # type: ignore[call-overload]
-        return run_windows(*a, **k)  # type: ignore[arg-type]
-
-    monkeypatch.setattr(network_peaks, "simulate_windows", counted)
+    windows = _count_windows(monkeypatch)
     src = Source.from_fault_level(V_LL, F, 50e6, 10.0)
     units = [Unit(_circuit("wye_grounded"), residual_flux_pu=[0.8, -0.4, -0.4]) for _ in range(4)]
     units.append(Unit(_circuit("delta"), residual_flux_pu=[-0.5, 0.6, -0.1]))
