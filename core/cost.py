@@ -92,7 +92,10 @@ NETWORK_STEP_WEIGHT = 2.5
 # its estimate: tests/benchmarks/bench_network.py section 3, both in one run (4 units,
 # 10 000 samples: 6.7 s of CPU; the baseline's 2000 samples 0.24 s, 124 ns per estimated
 # winding-step; with 1.6 the ratio of the two per estimated winding-step was 1.01). The full
-# record it replaced cost 8.9 s (and 143 MB against 6 MB).
+# record it replaced cost 8.9 s (and 143 MB against 6 MB). Re-measured after the kernel's
+# stage loop was unrolled (core.network.kernel): that feeder's 10 000 samples 4.3 to 5.2 s of
+# CPU, but the demo ring's feeder (tests/benchmarks/bench_heaviest.py network_statistics)
+# still 102 ns per estimated winding-step with 1.6 (132 ns with 1.2): the weight stays.
 NETWORK_PEAK_STEP_WEIGHT = 1.6
 # One network step per winding of a statistics device event, which records only the source
 # current the devices are judged on (no bus voltage, no unit's currents or fluxes), against the

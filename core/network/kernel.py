@@ -93,14 +93,12 @@ def _curve_seg_s(
     # 1/L_air - 1/L_m, lambda_S, width, g0; no linear piece, NONLINEAR)
     x = abs(lam)
     if kd == 0:
-        if x > p1:
-            d = p2
-            i = p3 + (x - p1) * d
-            seg = 1 if lam >= 0.0 else -1
-        else:
-            d = p0
-            i = x * d
-            seg = 0
+        # both pieces computed and one selected: no branch on the data, which a winding's
+        # crossings of its knee make hard to predict (measured 5 % of the network kernel's time)
+        sat = x > p1
+        d = p2 if sat else p0
+        i = (p3 + (x - p1) * p2) if sat else x * p0
+        seg = (1 if lam >= 0.0 else -1) if sat else 0
     else:
         s = x - p2
         q = math.sqrt(s * s + p3 * p3)
@@ -152,6 +150,149 @@ def _curve_table(
     # Current and slope of a table curve (kind 2)
     i, d, _ = _curve_seg_table(lam, flux, cur, u, top, final)
     return i, d
+
+
+@numba.njit(cache=True, inline="always")
+def _winding(
+    lam: float,
+    on: bool,
+    kd: int,
+    flux: FloatArray,
+    cur: FloatArray,
+    u: int,
+    top: int,
+    p0: float,
+    p1: float,
+    p2: float,
+    p3: float,
+    p4: float,
+) -> tuple[float, float, int]:  # pragma: no cover - compiled
+    # Current, slope and piece of a winding at lambda (0, 0, piece 0 where it is not energised)
+    if not on:
+        return 0.0, 0.0, 0
+    if kd == 2:
+        return _curve_seg_table(lam, flux, cur, u, top, p0)
+    return _curve_seg_s(lam, kd, p0, p1, p2, p3, p4)
+
+
+@numba.njit(cache=True)
+def _floating_node(
+    x0: float,
+    x1: float,
+    x2: float,
+    u: int,
+    q_u: float,
+    s: float,
+    tol: float,
+    kd: int,
+    top: int,
+    avec: FloatArray,
+    par: FloatArray,
+    flux: FloatArray,
+    cur: FloatArray,
+    segf: IntArray,
+) -> tuple[float, bool]:  # pragma: no cover - compiled
+    # A floating node's sigma: sum_k a_k*f(x_k + a_k*sigma) = q (increasing in sigma), by
+    # Newton's method safeguarded by bisection, from sigma = s; returns sigma and whether it
+    # converged. Outside the stage loop (not inlined): it runs only while a floating node's
+    # pieces change, and keeping it out of the hot loop leaves the registers to the rest.
+    lo = -math.inf
+    hi = math.inf
+    ok = False
+    stepped = False  # s came from a full Newton step
+    for _i in range(MAX_ITERATIONS):
+        gs = -q_u
+        dg = 0.0
+        unchanged = stepped
+        for k in range(3):
+            ak = avec[u, k]
+            xs_k = x0 if k == 0 else (x1 if k == 1 else x2)
+            if ak != 0.0:
+                if kd == 2:
+                    ik, dk, sg = _curve_seg_table(xs_k + ak * s, flux, cur, u, top, par[u, 0])
+                else:
+                    ik, dk, sg = _curve_seg_s(
+                        xs_k + ak * s, kd, par[u, 0], par[u, 1],
+                        par[u, 2], par[u, 3], par[u, 4],
+                    )  # fmt: skip
+                gs += ak * ik
+                dg += dk
+                if sg != segf[k] or sg == NONLINEAR:
+                    unchanged = False
+                segf[k] = sg
+        if gs == 0.0 or unchanged:
+            # a root, or every winding on the piece of the point the
+            # Newton step came from: the step was exact
+            ok = True
+            break
+        if gs < 0.0:
+            lo = s
+        else:
+            hi = s
+        new = s - gs / dg
+        stepped = True
+        if not (lo < new < hi):
+            stepped = False
+            bracketed = math.isfinite(lo) and math.isfinite(hi)
+            new = 0.5 * (lo + hi) if bracketed else s - 2.0 * gs / dg
+        if abs(new - s) <= tol:
+            s = new
+            ok = True
+            break
+        s = new
+    return s, ok
+
+
+@numba.njit(cache=True)
+def _conductance(
+    mode: IntArray,
+    conn: IntArray,
+    closed: NDArray[np.bool_],
+    dw: FloatArray,
+    avec: FloatArray,
+) -> tuple[float, float, float, float, float, float]:  # pragma: no cover - compiled
+    # G = sum over the units of S C D~ C^T S (entries 00, 01, 02, 11, 12, 22), the units'
+    # part of the Jacobian of KCL at the bus. Not inlined: a full Newton iteration is rare
+    # (pieces held, the stages need none), and out of the stage loop it leaves the registers
+    # to the rest.
+    g00 = g01 = g02 = g11 = g12 = g22 = 0.0
+    for u in range(mode.shape[0]):
+        md = mode[u]
+        if md == 0:
+            continue
+        cu = conn[u]
+        c0, c1, c2 = closed[u, 0], closed[u, 1], closed[u, 2]
+        e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
+        t00, t11, t22 = e0, e1, e2
+        t01 = t02 = t12 = 0.0
+        if md == 2:
+            a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
+            den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
+            if den > 0.0:
+                b0, b1, b2 = a0 * e0, a1 * e1, a2 * e2
+                t00 -= b0 * b0 / den
+                t11 -= b1 * b1 / den
+                t22 -= b2 * b2 / den
+                t01 = -b0 * b1 / den
+                t02 = -b0 * b2 / den
+                t12 = -b1 * b2 / den
+        if cu == DELTA:
+            # (A T A^T)_ij = T_ij - T_i,j-1 - T_i-1,j + T_i-1,j-1
+            h00 = t00 - 2.0 * t02 + t22
+            h11 = t11 - 2.0 * t01 + t00
+            h22 = t22 - 2.0 * t12 + t11
+            h01 = t01 - t00 - t12 + t02
+            h02 = t02 - t01 - t22 + t12
+            h12 = t12 - t11 - t02 + t01
+        else:
+            h00, h11, h22, h01, h02, h12 = t00, t11, t22, t01, t02, t12
+        g00 += h00 if c0 else 0.0
+        g11 += h11 if c1 else 0.0
+        g22 += h22 if c2 else 0.0
+        g01 += h01 if (c0 and c1) else 0.0
+        g02 += h02 if (c0 and c2) else 0.0
+        g12 += h12 if (c1 and c2) else 0.0
+    return g00, g01, g02, g11, g12, g22
 
 
 @numba.njit(cache=True, inline="always")
@@ -506,8 +647,6 @@ def integrate(
         i_l = il0[c].copy()
         i_s = np.zeros(3)
         e = np.zeros(3)
-        xs = np.zeros(3)
-        drv = np.zeros(3)
         for u in range(n_units):
             for k in range(3):
                 closed[u, k] = close_step[c, u, k] <= 0
@@ -601,13 +740,14 @@ def integrate(
                             q1 = trial[1] if c1 else 0.0
                             q2 = trial[2] if c2 else 0.0
                             if cu == DELTA:
-                                xs[0] = psi[u, 0] - (q0 - q1)
-                                xs[1] = psi[u, 1] - (q1 - q2)
-                                xs[2] = psi[u, 2] - (q2 - q0)
+                                x0 = psi[u, 0] - (q0 - q1)
+                                x1 = psi[u, 1] - (q1 - q2)
+                                x2 = psi[u, 2] - (q2 - q0)
                             else:
-                                xs[0] = psi[u, 0] - q0
-                                xs[1] = psi[u, 1] - q1
-                                xs[2] = psi[u, 2] - q2
+                                x0 = psi[u, 0] - q0
+                                x1 = psi[u, 1] - q1
+                                x2 = psi[u, 2] - q2
+                            a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
                             s = 0.0
                             if md == 2 and pred:
                                 # sigma on the held pieces: sum_k a_k*(c_k + f'_k*(x_k + a_k*s -
@@ -615,13 +755,15 @@ def integrate(
                                 s = sig[u]
                                 num = q[u]
                                 den = 0.0
-                                for k in range(3):
-                                    ak = avec[u, k]
-                                    if ak != 0.0:
-                                        num -= ak * (
-                                            cw[u, k] + dw[u, k] * (xs[k] + ak * s - lam[u, k])
-                                        )
-                                        den += ak * ak * dw[u, k]
+                                if a0 != 0.0:
+                                    num -= a0 * (cw[u, 0] + dw[u, 0] * (x0 + a0 * s - lam[u, 0]))
+                                    den += a0 * a0 * dw[u, 0]
+                                if a1 != 0.0:
+                                    num -= a1 * (cw[u, 1] + dw[u, 1] * (x1 + a1 * s - lam[u, 1]))
+                                    den += a1 * a1 * dw[u, 1]
+                                if a2 != 0.0:
+                                    num -= a2 * (cw[u, 2] + dw[u, 2] * (x2 + a2 * s - lam[u, 2]))
+                                    den += a2 * a2 * dw[u, 2]
                                 if den > 0.0:
                                     s += num / den
                                 else:
@@ -629,90 +771,64 @@ def integrate(
                                 sig[u] = s
                             elif md == 2:
                                 # floating node: sum_k a_k*f(x_k + a_k*s) = q, increasing in s
-                                s = sig[u]
-                                lo = -math.inf
-                                hi = math.inf
-                                ok = False
-                                stepped = False  # s came from a full Newton step
-                                for _i in range(MAX_ITERATIONS):
-                                    gs = -q[u]
-                                    dg = 0.0
-                                    unchanged = stepped
-                                    for k in range(3):
-                                        ak = avec[u, k]
-                                        if ak != 0.0:
-                                            if kd == 2:
-                                                ik, dk, sg = _curve_seg_table(
-                                                    xs[k] + ak * s, flux, cur, u, top, par[u, 0]
-                                                )
-                                            else:
-                                                ik, dk, sg = _curve_seg_s(
-                                                    xs[k] + ak * s, kd, par[u, 0], par[u, 1],
-                                                    par[u, 2], par[u, 3], par[u, 4],
-                                                )  # fmt: skip
-                                            gs += ak * ik
-                                            dg += dk
-                                            if sg != segf[k] or sg == NONLINEAR:
-                                                unchanged = False
-                                            segf[k] = sg
-                                    if gs == 0.0 or unchanged:
-                                        # a root, or every winding on the piece of the point the
-                                        # Newton step came from: the step was exact
-                                        ok = True
-                                        break
-                                    if gs < 0.0:
-                                        lo = s
-                                    else:
-                                        hi = s
-                                    new = s - gs / dg
-                                    stepped = True
-                                    if not (lo < new < hi):
-                                        stepped = False
-                                        if math.isfinite(lo) and math.isfinite(hi):
-                                            new = 0.5 * (lo + hi)
-                                        else:
-                                            new = s - 2.0 * gs / dg
-                                    if abs(new - s) <= tol_u[u]:
-                                        s = new
-                                        ok = True
-                                        break
-                                    s = new
+                                s, ok = _floating_node(
+                                    x0, x1, x2, u, q[u], sig[u], tol_u[u], kd, top, avec, par, flux,
+                                    cur, segf,
+                                )  # fmt: skip
                                 if not ok:
                                     bad += 1
                                 sig[u] = s
-                            for k in range(3):
-                                if on[u, k]:
-                                    lk = xs[k] + avec[u, k] * s
-                                    lam[u, k] = lk
-                                    if kd == 2:
-                                        ik, dk, sg = _curve_seg_table(
-                                            lk, flux, cur, u, top, par[u, 0]
-                                        )
-                                    else:
-                                        ik, dk, sg = _curve_seg_s(
-                                            lk, kd, par[u, 0], par[u, 1], par[u, 2], par[u, 3],
-                                            par[u, 4],
-                                        )  # fmt: skip
-                                    cw[u, k] = ik
-                                    dw[u, k] = dk
-                                    if sg != segp[u, k] or sg == NONLINEAR:
-                                        same = False
-                                    segn[u, k] = sg
-                                else:
-                                    cw[u, k] = 0.0
-                                    dw[u, k] = 0.0
-                                    segn[u, k] = 0
-                            w0, w1, w2 = cw[u, 0], cw[u, 1], cw[u, 2]
+                            # every winding at lambda = x + a*sigma, unrolled (scalars in registers)
+                            on0, on1, on2 = on[u, 0], on[u, 1], on[u, 2]
+                            p0, p1, p2, p3, p4 = (
+                                par[u, 0],
+                                par[u, 1],
+                                par[u, 2],
+                                par[u, 3],
+                                par[u, 4],
+                            )
+                            l0 = x0 + a0 * s
+                            l1 = x1 + a1 * s
+                            l2 = x2 + a2 * s
+                            w0, e0, sg0 = _winding(
+                                l0, on0, kd, flux, cur, u, top, p0, p1, p2, p3, p4
+                            )
+                            w1, e1, sg1 = _winding(
+                                l1, on1, kd, flux, cur, u, top, p0, p1, p2, p3, p4
+                            )
+                            w2, e2, sg2 = _winding(
+                                l2, on2, kd, flux, cur, u, top, p0, p1, p2, p3, p4
+                            )
+                            # an energised winding off its accepted piece, or a smooth curve (no
+                            # linear piece; a unit in the network has a winding energised): one
+                            # test a unit, without branches (bitwise)
+                            moved = (
+                                (kd == 1)
+                                | (on0 & (sg0 != segp[u, 0]))
+                                | (on1 & (sg1 != segp[u, 1]))
+                                | (on2 & (sg2 != segp[u, 2]))
+                            )
+                            same = same & (not moved)
+                            if on0:
+                                lam[u, 0] = l0
+                            if on1:
+                                lam[u, 1] = l1
+                            if on2:
+                                lam[u, 2] = l2
+                            cw[u, 0], cw[u, 1], cw[u, 2] = w0, w1, w2
+                            dw[u, 0], dw[u, 1], dw[u, 2] = e0, e1, e2
+                            segn[u, 0], segn[u, 1], segn[u, 2] = sg0, sg1, sg2
                             if cu == DELTA:
                                 la, lb, lc = w0 - w2, w1 - w0, w2 - w1
                             else:
                                 la, lb, lc = w0, w1, w2
-                            line[u, 0] = la if c0 else 0.0
-                            line[u, 1] = lb if c1 else 0.0
-                            line[u, 2] = lc if c2 else 0.0
-                            r0 += line[u, 0]
-                            r1 += line[u, 1]
-                            r2 += line[u, 2]
+                            la = la if c0 else 0.0
+                            lb = lb if c1 else 0.0
+                            lc = lc if c2 else 0.0
+                            line[u, 0], line[u, 1], line[u, 2] = la, lb, lc
+                            r0 += la
+                            r1 += lb
+                            r2 += lc
                         if l_s <= 0.0:
                             failed += bad
                             for k in range(3):
@@ -745,42 +861,7 @@ def integrate(
                             trial[0], trial[1], trial[2] = phi[0], phi[1], phi[2]
                             continue
                         # G = sum over the units of S C D~ C^T S, D~ = D - (D a)(D a)^T/(a^T D a)
-                        for u in range(n_units):
-                            md = mode[u]
-                            if md == 0:
-                                continue
-                            cu = conn[u]
-                            c0, c1, c2 = closed[u, 0], closed[u, 1], closed[u, 2]
-                            e0, e1, e2 = dw[u, 0], dw[u, 1], dw[u, 2]
-                            t00, t11, t22 = e0, e1, e2
-                            t01 = t02 = t12 = 0.0
-                            if md == 2:
-                                a0, a1, a2 = avec[u, 0], avec[u, 1], avec[u, 2]
-                                den = a0 * a0 * e0 + a1 * a1 * e1 + a2 * a2 * e2
-                                if den > 0.0:
-                                    b0, b1, b2 = a0 * e0, a1 * e1, a2 * e2
-                                    t00 -= b0 * b0 / den
-                                    t11 -= b1 * b1 / den
-                                    t22 -= b2 * b2 / den
-                                    t01 = -b0 * b1 / den
-                                    t02 = -b0 * b2 / den
-                                    t12 = -b1 * b2 / den
-                            if cu == DELTA:
-                                # (A T A^T)_ij = T_ij - T_i,j-1 - T_i-1,j + T_i-1,j-1
-                                h00 = t00 - 2.0 * t02 + t22
-                                h11 = t11 - 2.0 * t01 + t00
-                                h22 = t22 - 2.0 * t12 + t11
-                                h01 = t01 - t00 - t12 + t02
-                                h02 = t02 - t01 - t22 + t12
-                                h12 = t12 - t11 - t02 + t01
-                            else:
-                                h00, h11, h22, h01, h02, h12 = t00, t11, t22, t01, t02, t12
-                            g00 += h00 if c0 else 0.0
-                            g11 += h11 if c1 else 0.0
-                            g22 += h22 if c2 else 0.0
-                            g01 += h01 if (c0 and c1) else 0.0
-                            g02 += h02 if (c0 and c2) else 0.0
-                            g12 += h12 if (c1 and c2) else 0.0
+                        g00, g01, g02, g11, g12, g22 = _conductance(mode, conn, closed, dw, avec)
                         f0 = trial[0] / l_s - r0 - i_l[0]
                         f1 = trial[1] / l_s - r1 - i_l[1]
                         f2 = trial[2] / l_s - r2 - i_l[2]
@@ -859,22 +940,45 @@ def integrate(
                     for k in range(3):
                         e[k] = gsc * vpk * (ms[0] * sa[k] - rate * ca[k])
                         kl[k] = e[k] - r_s * i_s[k] - r_l * i_l[k]
+                    # the bus side of every loop, e - R_s*i_s, then per unit: unrolled
+                    u0 = e[0] - r_s * i_s[0]
+                    u1 = e[1] - r_s * i_s[1]
+                    u2 = e[2] - r_s * i_s[2]
+                    # and the Runge-Kutta stage of every unit's loop fluxes (nothing below reads
+                    # them before the next stage's algebra)
+                    wgt = 1.0 if (st == 0 or st == 3) else 2.0
+                    hs = hh / 6.0 if st == 3 else (hh if st == 2 else 0.5 * hh)
                     for u in range(n_units):
-                        if mode[u] == 0:
-                            kpsi[u, 0] = kpsi[u, 1] = kpsi[u, 2] = 0.0
-                            continue
-                        for k in range(3):
-                            drv[k] = (
-                                e[k] - r_s * i_s[k] - r_now[u] * line[u, k] if closed[u, k] else 0.0
-                            )
-                        rw = r_w[u]
-                        for k in range(3):
-                            if not on[u, k]:
-                                kpsi[u, k] = 0.0
-                            elif conn[u] == DELTA:
-                                kpsi[u, k] = drv[k] - drv[(k + 1) % 3] - rw * cw[u, k]
-                            else:
-                                kpsi[u, k] = drv[k] - rw * cw[u, k]
+                        k0 = k1 = k2 = 0.0
+                        if mode[u] != 0:
+                            rn = r_now[u]
+                            z0 = u0 - rn * line[u, 0] if closed[u, 0] else 0.0
+                            z1 = u1 - rn * line[u, 1] if closed[u, 1] else 0.0
+                            z2 = u2 - rn * line[u, 2] if closed[u, 2] else 0.0
+                            rw = r_w[u]
+                            if conn[u] == DELTA:
+                                z0, z1, z2 = z0 - z1, z1 - z2, z2 - z0
+                            k0 = z0 - rw * cw[u, 0] if on[u, 0] else 0.0
+                            k1 = z1 - rw * cw[u, 1] if on[u, 1] else 0.0
+                            k2 = z2 - rw * cw[u, 2] if on[u, 2] else 0.0
+                        kpsi[u, 0], kpsi[u, 1], kpsi[u, 2] = k0, k1, k2
+                        if st == 0:
+                            b0, b1, b2 = psi[u, 0], psi[u, 1], psi[u, 2]
+                            base[u, 0], base[u, 1], base[u, 2] = b0, b1, b2
+                            acc[u, 0], acc[u, 1], acc[u, 2] = k0, k1, k2
+                        else:
+                            b0, b1, b2 = base[u, 0], base[u, 1], base[u, 2]
+                            acc[u, 0] += wgt * k0
+                            acc[u, 1] += wgt * k1
+                            acc[u, 2] += wgt * k2
+                        if st < 3:
+                            psi[u, 0] = b0 + hs * k0
+                            psi[u, 1] = b1 + hs * k1
+                            psi[u, 2] = b2 + hs * k2
+                        else:
+                            psi[u, 0] = b0 + hs * acc[u, 0]
+                            psi[u, 1] = b1 + hs * acc[u, 1]
+                            psi[u, 2] = b2 + hs * acc[u, 2]
                     # ---- bus voltage, regulator, outputs at the sample instants ----
                     sample = st == 0 and sb == 0 and sample_step
                     v0 = v1 = v2 = 0.0
@@ -964,7 +1068,6 @@ def integrate(
                         if j == n_steps:
                             break
                     # ---- Runge-Kutta ----
-                    wgt = 1.0 if (st == 0 or st == 3) else 2.0
                     for u in range(n_units):
                         if j < bypass_step[u]:
                             pw = line[u, 0] ** 2 + line[u, 1] ** 2 + line[u, 2] ** 2
@@ -976,27 +1079,16 @@ def integrate(
                         for k in range(3):
                             base_l[k] = psi_l[k]
                             acc_l[k] = kl[k]
-                        for u in range(n_units):
-                            for k in range(3):
-                                base[u, k] = psi[u, k]
-                                acc[u, k] = kpsi[u, k]
                     else:
                         for k in range(NMACH):
                             macc[k] += wgt * km[k]
                         for k in range(3):
                             acc_l[k] += wgt * kl[k]
-                        for u in range(n_units):
-                            for k in range(3):
-                                acc[u, k] += wgt * kpsi[u, k]
                     if st < 3:
-                        hs = hh if st == 2 else 0.5 * hh
                         for k in range(NMACH):
                             ms[k] = mbase[k] + hs * km[k]
                         for k in range(3):
                             psi_l[k] = base_l[k] + hs * kl[k]
-                        for u in range(n_units):
-                            for k in range(3):
-                                psi[u, k] = base[u, k] + hs * kpsi[u, k]
                     else:
                         for k in range(NMACH):
                             ms[k] = mbase[k] + hh / 6.0 * macc[k]
@@ -1007,9 +1099,6 @@ def integrate(
                                 out_energy[c, u] += hh / 6.0 * en_acc[u]
                         for k in range(3):
                             psi_l[k] = base_l[k] + hh / 6.0 * acc_l[k]
-                        for u in range(n_units):
-                            for k in range(3):
-                                psi[u, k] = base[u, k] + hh / 6.0 * acc[u, k]
                     st += 1
                 if stop:
                     break
