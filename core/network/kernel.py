@@ -175,7 +175,7 @@ def _winding(
     return _curve_seg_s(lam, kd, p0, p1, p2, p3, p4)
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _floating_node(
     x0: float,
     x1: float,
@@ -194,8 +194,7 @@ def _floating_node(
 ) -> tuple[float, bool]:  # pragma: no cover - compiled
     # A floating node's sigma: sum_k a_k*f(x_k + a_k*sigma) = q (increasing in sigma), by
     # Newton's method safeguarded by bisection, from sigma = s; returns sigma and whether it
-    # converged. Outside the stage loop (not inlined): it runs only while a floating node's
-    # pieces change, and keeping it out of the hot loop leaves the registers to the rest.
+    # converged.
     lo = -math.inf
     hi = math.inf
     ok = False
@@ -243,7 +242,7 @@ def _floating_node(
     return s, ok
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _conductance(
     mode: IntArray,
     conn: IntArray,
@@ -252,9 +251,7 @@ def _conductance(
     avec: FloatArray,
 ) -> tuple[float, float, float, float, float, float]:  # pragma: no cover - compiled
     # G = sum over the units of S C D~ C^T S (entries 00, 01, 02, 11, 12, 22), the units'
-    # part of the Jacobian of KCL at the bus. Not inlined: a full Newton iteration is rare
-    # (pieces held, the stages need none), and out of the stage loop it leaves the registers
-    # to the rest.
+    # part of the Jacobian of KCL at the bus.
     g00 = g01 = g02 = g11 = g12 = g22 = 0.0
     for u in range(mode.shape[0]):
         md = mode[u]
@@ -1067,7 +1064,8 @@ def integrate(
                                 out_flux[c, u, k, s_idx] = lam[u, k]
                         if j == n_steps:
                             break
-                    # ---- Runge-Kutta ----
+                    # ---- Runge-Kutta: the machine's and the load's states (the units' loop
+                    # fluxes were stepped with their derivatives), the resistors' energy ----
                     for u in range(n_units):
                         if j < bypass_step[u]:
                             pw = line[u, 0] ** 2 + line[u, 1] ** 2 + line[u, 2] ** 2
@@ -1091,14 +1089,14 @@ def integrate(
                             psi_l[k] = base_l[k] + hs * kl[k]
                     else:
                         for k in range(NMACH):
-                            ms[k] = mbase[k] + hh / 6.0 * macc[k]
+                            ms[k] = mbase[k] + hs * macc[k]
                         if avr:
                             ms[2] = min(max(ms[2], src[c, EMIN]), src[c, EMAX])
                         for u in range(n_units):
                             if j < bypass_step[u]:
-                                out_energy[c, u] += hh / 6.0 * en_acc[u]
+                                out_energy[c, u] += hs * en_acc[u]
                         for k in range(3):
-                            psi_l[k] = base_l[k] + hh / 6.0 * acc_l[k]
+                            psi_l[k] = base_l[k] + hs * acc_l[k]
                     st += 1
                 if stop:
                     break
