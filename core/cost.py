@@ -23,7 +23,7 @@ from scipy import special
 
 from core.energization import energize_plan, peaks
 from core.errors import ParameterError
-from core.network import BusLoad, Source, Unit, step_plan, step_rule
+from core.network import BusLoad, Source, Unit, phases_decoupled, step_plan, step_rule
 from core.network import peaks as network_peaks
 from core.supply import dip_cases as dip_solver
 from core.transformer import EquivalentCircuit
@@ -38,6 +38,8 @@ __all__ = [
     "ENVELOPE_SAMPLE_WEIGHT",
     "EVENT_SAMPLE_WEIGHT",
     "EVENT_WEIGHT",
+    "NETWORK_DECOUPLED_PEAK_STEP_WEIGHT",
+    "NETWORK_DECOUPLED_SOURCE_STEP_WEIGHT",
     "NETWORK_PEAK_STEP_WEIGHT",
     "NETWORK_SOURCE_STEP_WEIGHT",
     "NETWORK_STEP_WEIGHT",
@@ -69,7 +71,8 @@ __all__ = [
 # budget of 40 million took 1.7 to 4.3 s of CPU (bench_heaviest.py, one run, 2026-12-05: peak,
 # envelope, batch and the statistics with a generator 97 to 108 ns per estimated step; the
 # statistics with devices, the clearance and the dip 51 to 68 ns; the mitigation 42 ns; the
-# network 11 ns, its exact reading counted as if no window were shared).
+# network 11 ns, its exact reading counted as if no window were shared; the network statistics
+# of the demo ring's 4-unit feeder, phase by phase, 10 745 samples in 3.6 s, 90 ns).
 #
 # One step of a generator-dip run on the network solver (core.network with a machine source:
 # one unit's three windings, the bus fluxes by Newton's method at each of the four stages, the
@@ -95,13 +98,25 @@ NETWORK_STEP_WEIGHT = 2.5
 # record it replaced cost 8.9 s (and 143 MB against 6 MB). Re-measured after the kernel's
 # stage loop was unrolled (core.network.kernel): that feeder's 10 000 samples 4.3 to 5.2 s of
 # CPU, but the demo ring's feeder (tests/benchmarks/bench_heaviest.py network_statistics)
-# still 102 ns per estimated winding-step with 1.6 (132 ns with 1.2): the weight stays.
+# still 102 ns per estimated winding-step with 1.6 (132 ns with 1.2): the weight stays. Both
+# feeders are grounded wyes, which now run phase by phase (the weight below); this one holds
+# for every network with a delta or a floating wye.
 NETWORK_PEAK_STEP_WEIGHT = 1.6
 # One network step per winding of a statistics device event, which records only the source
 # current the devices are judged on (no bus voltage, no unit's currents or fluxes), against the
 # same baseline in one run: 60 events of the benchmark's 4 units over 1 s, 0.94 s of CPU for
 # 4.6 M winding-steps, 205 ns each against the baseline's 105 ns: 1.95.
 NETWORK_SOURCE_STEP_WEIGHT = 2.0
+# The same two kinds of step where every unit is a grounded wye on a Thevenin source, which the
+# network solver runs phase by phase (core.network.phases_decoupled: one scalar KCL per phase,
+# core.network.kernel.integrate_decoupled), as the ratio of its CPU time to the general
+# kernel's on the same work in one run (tests/benchmarks/bench_network.py section 3, the
+# general kernel forced, 2026-12-05) times the general kernel's weight: the Monte Carlo of
+# 10 000 samples of the 4-unit feeder 3.8-4.1 s against 5.5-6.0 s (0.69), 200 events of its
+# 4 units over 1 s with the source current recorded 1.70-1.82 s against 2.26-2.72 s (0.63 to
+# 0.80; the upper end taken).
+NETWORK_DECOUPLED_PEAK_STEP_WEIGHT = 1.1
+NETWORK_DECOUPLED_SOURCE_STEP_WEIGHT = 1.6
 # Judging one device against one event: per line-sample of the record (the sliding one-cycle
 # rms, I_eq(t), the relay integral and its reset) and per judgement (the device's curve built
 # and its verdict read): 45 ns a line-sample and 1.7 ms a judgement.
@@ -802,14 +817,16 @@ def network_statistics_work(
 
     Notes
     -----
-    Monte Carlo: samples x NETWORK_PEAK_STEP_WEIGHT x units x 3 windings x steps over
+    Monte Carlo: samples x NETWORK_PEAK_STEP_WEIGHT (NETWORK_DECOUPLED_PEAK_STEP_WEIGHT where
+    :func:`core.network.phases_decoupled`) x units x 3 windings x steps over
     cycles/f + d + 1 sample, d = pole_closing_max + E[R] x sigma the mean latest pole, E[R]
     the expected range of the 3 x (units being energised) normal pole draws
     (:func:`expected_normal_range`; each case is integrated only to the sample after its own
     window, so the sample's cost is its mean case's; :func:`core.network.step_plan`, the
     solver's own plan); the first peaks are read in the kernel (in the weight). Devices:
-    events x the network simulated over duration_s (NETWORK_SOURCE_STEP_WEIGHT: only the
-    source current recorded), each event's source
+    events x the network simulated over duration_s (NETWORK_SOURCE_STEP_WEIGHT, or
+    NETWORK_DECOUPLED_SOURCE_STEP_WEIGHT phase by phase: only the source current recorded),
+    each event's source
     record read (EVENT_WEIGHT + EVENT_SAMPLE_WEIGHT x 3 x samples) and each device judged on it
     (DEVICE_JUDGEMENT_WEIGHT + DEVICE_SAMPLE_WEIGHT x 3 x samples).
 
@@ -823,8 +840,13 @@ def network_statistics_work(
     spread = pole_closing_max_s + expected_normal_range(poles) * pole_scatter_ms * 1e-3
     window = cycles / f + spread + 1.0 / (f * samples_per_cycle)
     _, _, n_steps = step_plan(source, units, window, load, samples_per_cycle)
+    decoupled = phases_decoupled(source, units, "first_peaks")
+    peak_weight = NETWORK_DECOUPLED_PEAK_STEP_WEIGHT if decoupled else NETWORK_PEAK_STEP_WEIGHT
+    source_weight = (
+        NETWORK_DECOUPLED_SOURCE_STEP_WEIGHT if decoupled else NETWORK_SOURCE_STEP_WEIGHT
+    )
     parts = [
-        ("Monte Carlo events", NETWORK_PEAK_STEP_WEIGHT * samples * len(units) * 3.0 * n_steps),
+        ("Monte Carlo events", peak_weight * samples * len(units) * 3.0 * n_steps),
     ]
     if events and devices:
         _, _, full = step_plan(source, units, duration_s, load, samples_per_cycle)
@@ -833,7 +855,7 @@ def network_statistics_work(
         parts += [
             (
                 "device events simulated",
-                NETWORK_SOURCE_STEP_WEIGHT * events * len(units) * 3.0 * full,
+                source_weight * events * len(units) * 3.0 * full,
             ),
             ("device events read", events * (EVENT_WEIGHT + EVENT_SAMPLE_WEIGHT * line_samples)),
             ("device events judged", events * devices * per_event),

@@ -16,7 +16,10 @@ A lone grounded-wye unit on a Thevenin source without bus load has decoupled pha
 bus is Phi_k = L_s*f(lambda_k) per phase, and :func:`integrate_lone` integrates the same loop
 fluxes with each phase's scalar equation psi_k = lambda_k + L_s*f(lambda_k) solved in closed
 form on each linear piece (by Newton's method for the smooth knee), one element per case and
-phase, serially or spread over the cores (:func:`integrate_lone_parallel`).
+phase, serially or spread over the cores (:func:`integrate_lone_parallel`). Several grounded-wye
+units on a Thevenin source (a bus load allowed) decouple the phases too: :func:`integrate_decoupled`
+solves each phase's KCL, one scalar equation in Phi_k, for the records without the bus voltage
+(the first peaks, the source current), one element per case and phase.
 
 Compiled with numba (``cache=True``). Everything the kernels inline is defined in this file:
 numba keys its cache by the file of the cached function only.
@@ -46,6 +49,7 @@ __all__ = [
     "RECORD_FIRST_PEAKS",
     "RECORD_SOURCE",
     "integrate",
+    "integrate_decoupled",
     "integrate_lone",
     "integrate_lone_parallel",
 ]
@@ -1323,6 +1327,306 @@ def _lone(
     return int(fails.sum())
 
 
+# ---- grounded-wye units on a Thevenin source: the phases are decoupled ----
+
+
+def _decoupled(
+    n_steps: int,
+    decimate: int,
+    h: float,
+    omega: float,
+    vpk: float,
+    phase: FloatArray,
+    ramp: FloatArray,
+    ramp_steps: IntArray,
+    src: FloatArray,
+    r_l: float,
+    l_l: float,
+    has_load: bool,
+    r_w: FloatArray,
+    r_ins: FloatArray,
+    bypass_step: IntArray,
+    kind: IntArray,
+    par: FloatArray,
+    flux: FloatArray,
+    cur: FloatArray,
+    npts: IntArray,
+    close_step: IntArray,
+    lam0: FloatArray,
+    il0: FloatArray,
+    tol_phi: float,
+    n_in: int,
+    sub: IntArray,
+    record: int,
+    peak_last: IntArray,
+    out_src: FloatArray,
+    out_peak: FloatArray,
+    out_energy: FloatArray,
+) -> int:  # pragma: no cover - compiled
+    """Integrate grounded-wye units on a Thevenin source, phase by phase; returns the failed
+    solves.
+
+    The network of :func:`integrate` where every unit is a grounded wye and the source a
+    Thevenin EMF (no machine): phase k's windings, its source branch and its bus-load branch
+    meet only at bus node k and ground, so KCL at the bus is one scalar equation per phase,
+    g(Phi_k) = Phi_k/L_s - sum_u f_u(psi_uk - Phi_k) - (psi_Lk - Phi_k)/L_L = 0, increasing in
+    Phi_k (g' = 1/L_s + sum_u f_u' + 1/L_L > 0). It is solved by Newton's method kept in a
+    bracket; where every curve is piecewise linear, from the Newton step off the previous stage's
+    accepted point on the pieces held there (g is affine on them, so no curve evaluation is
+    needed), accepted when the one evaluation at that Phi_k finds every winding on those pieces.
+    The states, the stages, the step, the sub-steps, the EMF and the switching are those of
+    :func:`integrate`, so the two agree to rounding. ``record`` is RECORD_FIRST_PEAKS or
+    RECORD_SOURCE (out_src, (n_cases, 3, n_samples)); the other arguments are integrate's (src
+    read for R_s and L_s only). Each element, one phase of one case, is integrated alone.
+    """
+    n_cases = phase.shape[0]
+    n_units = r_w.shape[0]
+    g0, slope = ramp[0], ramp[1]
+    kh, ke = ramp_steps[0], ramp_steps[1]
+    inv_ll = 1.0 / l_l if has_load else 0.0
+    trig = _trig_table(n_steps, omega, h)
+    linear = True
+    for u in range(n_units):
+        if kind[u] == 1:
+            linear = False
+    failed = 0
+    # per element, per unit: the loop flux, its Runge-Kutta base and sum, the winding's flux,
+    # current, slope and piece at the accepted point, its pole, the resistor's energy sum
+    psi = np.zeros(n_units)
+    base = np.zeros(n_units)
+    acc = np.zeros(n_units)
+    lam = np.zeros(n_units)
+    cw = np.zeros(n_units)
+    dw = np.zeros(n_units)
+    seg = np.zeros(n_units, dtype=np.int64)
+    cl = np.zeros(n_units, dtype=np.bool_)
+    en_acc = np.zeros(n_units)
+    prev_abs = np.zeros(n_units + 1)
+    # the element's first-peak maxima (out_peak's columns), written out when it ends
+    p_max = np.zeros(n_units + 1)
+    p_before = np.zeros(n_units + 1)
+    p_after = np.zeros(n_units + 1)
+    p_index = np.zeros(n_units + 1, dtype=np.int64)
+    last_bypass = 0  # no resistor's energy to sum from this step on
+    for u in range(n_units):
+        last_bypass = max(last_bypass, bypass_step[u])
+    for el in range(3 * n_cases):
+        c = el // 3
+        k = el - 3 * c
+        r_s = src[c, RS]
+        l_s = src[c, LS]
+        sph = math.sin(phase[c, k])
+        cph = math.cos(phase[c, k])
+        last = peak_last[c] if record == RECORD_FIRST_PEAKS else -1
+        i_l = il0[c, k] if has_load else 0.0
+        for u in range(n_units):
+            lam[u] = lam0[c, u, k]
+            cl[u] = close_step[c, u, k] <= 0
+            cw[u] = 0.0
+            dw[u] = 0.0
+            seg[u] = 0
+            psi[u] = lam[u]
+        for r in range(n_units + 1):
+            p_max[r] = p_before[r] = p_after[r] = -1.0
+            p_index[r] = -1
+        switching = True  # the states rebuilt at t = 0, then after each closing
+        phi = psi_l = 0.0
+        i_s = 0.0
+        held = False
+        x_trig = -1.0
+        swt = cwt = 0.0
+        base_l = acc_l = 0.0
+        # held: the numerator and the slope sum of g's root on the accepted point's pieces,
+        # summed with the loop fluxes' Runge-Kutta stage
+        p_num = p_den = 0.0
+        stop = False
+        for j in range(n_steps + 1):
+            pending = False
+            if j > 0:
+                for u in range(n_units):
+                    if close_step[c, u, k] == j:
+                        pending = True
+            sample_step = j % decimate == 0 or j == n_steps
+            nsub = sub[c] if (j < n_in and j < n_steps) else 1
+            hh = h / nsub
+            for sb in range(nsub):
+                st = 0
+                while st < 4:
+                    x_st = j + (sb + (0.0 if st == 0 else (1.0 if st == 3 else 0.5))) / nsub
+                    if switching:
+                        # the windings' fluxes and the load current are continuous; the source
+                        # flux takes KCL's new sum and the loop fluxes are rebuilt from them
+                        switching = False
+                        held = False
+                        tot = 0.0
+                        for u in range(n_units):
+                            if cl[u]:
+                                i, d, sg = _winding(
+                                    lam[u], True, kind[u], flux, cur, u, npts[u] - 1, par[u, 0],
+                                    par[u, 1], par[u, 2], par[u, 3], par[u, 4],
+                                )  # fmt: skip
+                                cw[u], dw[u], seg[u] = i, d, sg
+                                tot += i
+                        phi = l_s * (tot + i_l) if l_s > 0.0 else 0.0
+                        psi_l = phi + l_l * i_l
+                        for u in range(n_units):
+                            if cl[u]:
+                                psi[u] = lam[u] + phi
+                    # ---- algebra: Phi_k from KCL at bus node k, every winding's current ----
+                    tot = 0.0
+                    if l_s > 0.0:
+                        gs = 1.0 / l_s + inv_ll
+                        exact = held
+                        # held: g is affine on the accepted point's pieces, its root needs no
+                        # evaluation; otherwise from the accepted point
+                        trial = (p_num + psi_l * inv_ll) / (gs + p_den) if held else phi
+                        lo = -math.inf
+                        hi = math.inf
+                        converged = False
+                        for _it in range(4 * MAX_ITERATIONS):
+                            tot = 0.0
+                            slopes = 0.0
+                            moved = not linear
+                            for u in range(n_units):
+                                if cl[u]:
+                                    x = psi[u] - trial
+                                    i, d, sg = _winding(
+                                        x, True, kind[u], flux, cur, u, npts[u] - 1, par[u, 0],
+                                        par[u, 1], par[u, 2], par[u, 3], par[u, 4],
+                                    )  # fmt: skip
+                                    moved = moved | (sg != seg[u])
+                                    lam[u], cw[u], dw[u], seg[u] = x, i, d, sg
+                                    tot += i
+                                    slopes += d
+                            if exact and not moved:
+                                # the step was taken on the pieces found here: g(trial) = 0
+                                converged = True
+                                break
+                            g = trial / l_s - tot - (psi_l - trial) * inv_ll
+                            if g > 0.0:
+                                hi = trial
+                            elif g < 0.0:
+                                lo = trial
+                            else:
+                                converged = True
+                                break
+                            step = -g / (gs + slopes)
+                            if abs(step) <= tol_phi:
+                                converged = True
+                                break
+                            new = trial + step
+                            exact = True
+                            if not (lo < new < hi):
+                                # past a bracket's end (both ends then known): bisect
+                                new = 0.5 * (lo + hi)
+                                exact = False
+                            trial = new
+                        if not converged:
+                            failed += 1
+                        held = linear and converged
+                        phi = trial
+                        i_l = (psi_l - phi) * inv_ll
+                        i_s = phi / l_s
+                    else:
+                        for u in range(n_units):
+                            if cl[u]:
+                                i, d, sg = _winding(
+                                    psi[u], True, kind[u], flux, cur, u, npts[u] - 1, par[u, 0],
+                                    par[u, 1], par[u, 2], par[u, 3], par[u, 4],
+                                )  # fmt: skip
+                                lam[u], cw[u], dw[u], seg[u] = psi[u], i, d, sg
+                                tot += i
+                        i_l = psi_l * inv_ll
+                        i_s = tot + i_l
+                    if st == 0 and pending:
+                        # poles close at this step: lambda and i_L are now those of t_j
+                        pending = False
+                        for u in range(n_units):
+                            if close_step[c, u, k] == j:
+                                cl[u] = True
+                        switching = True
+                        continue
+                    # ---- derivatives (KVL around every loop) and the Runge-Kutta stage ----
+                    gsc = _source_scale(x_st, j, g0, slope, kh, ke)
+                    swt, cwt, x_trig = _stage_trig(
+                        trig, j, st, nsub, x_st, x_trig, omega, h, swt, cwt
+                    )
+                    e = gsc * vpk * (swt * cph + cwt * sph)
+                    ub = e - r_s * i_s
+                    kl = ub - r_l * i_l
+                    wgt = 1.0 if (st == 0 or st == 3) else 2.0
+                    hs = hh / 6.0 if st == 3 else (hh if st == 2 else 0.5 * hh)
+                    p_num = p_den = 0.0
+                    for u in range(n_units):
+                        kk = 0.0
+                        ps = psi[u]
+                        if cl[u]:
+                            iw = cw[u]
+                            rn = r_ins[u] if j < bypass_step[u] else 0.0
+                            kk = ub - rn * iw - r_w[u] * iw
+                            if st == 0:
+                                base[u] = ps
+                                acc[u] = kk
+                                ps += hs * kk
+                            else:
+                                a = acc[u] + wgt * kk
+                                acc[u] = a
+                                ps = base[u] + (hs * kk if st < 3 else hs * a)
+                            psi[u] = ps
+                            d = dw[u]
+                            p_num += iw + d * (ps - lam[u])
+                            p_den += d
+                    # ---- outputs at the sample instants ----
+                    if st == 0 and sb == 0 and sample_step:
+                        s_idx = j // decimate
+                        if record == RECORD_FIRST_PEAKS:
+                            for r in range(n_units + 1):
+                                y = abs(i_s) if r == 0 else (abs(cw[r - 1]) if cl[r - 1] else 0.0)
+                                if s_idx > 0 and p_index[r] == s_idx - 1:
+                                    p_after[r] = y
+                                if s_idx <= last and y > p_max[r]:
+                                    p_max[r] = y
+                                    p_before[r] = prev_abs[r] if s_idx else y
+                                    p_after[r] = y
+                                    p_index[r] = s_idx
+                                prev_abs[r] = y
+                            if not math.isfinite(i_s):
+                                p_max[0] = math.nan
+                            if s_idx > last or j == n_steps:
+                                stop = True
+                                break
+                        else:
+                            out_src[c, k, s_idx] = i_s
+                            if j == n_steps:
+                                break
+                    # ---- Runge-Kutta: the load's loop flux, the resistors' energy ----
+                    if j < last_bypass:
+                        for u in range(n_units):
+                            if j < bypass_step[u]:
+                                pw = cw[u] * cw[u] if cl[u] else 0.0
+                                en_acc[u] = wgt * pw + (en_acc[u] if st > 0 else 0.0)
+                                if st == 3:
+                                    out_energy[c, u] += hs * en_acc[u]
+                    if st == 0:
+                        base_l = psi_l
+                        acc_l = kl
+                    else:
+                        acc_l += wgt * kl
+                    psi_l = base_l + (hs * kl if st < 3 else hs * acc_l)
+                    st += 1
+                if stop:
+                    break
+            if stop:
+                break
+        if record == RECORD_FIRST_PEAKS:
+            for r in range(n_units + 1):
+                out_peak[c, r, k, PEAK_MAX] = p_max[r]
+                out_peak[c, r, k, PEAK_BEFORE] = p_before[r]
+                out_peak[c, r, k, PEAK_AFTER] = p_after[r]
+                out_peak[c, r, k, PEAK_INDEX] = p_index[r]
+    return failed
+
+
 def _renamed(fn: Callable[..., int], name: str) -> Callable[..., int]:
     # A copy of fn under another name: numba's cache keys an entry by the function's qualified
     # name and signature, not by its compile options, so the serial and the parallel builds of
@@ -1347,3 +1651,7 @@ integrate_lone_parallel = numba.njit(cache=True, nogil=True, parallel=True, erro
 # Fewest elements (cases x 3 phases) for the parallel build: below, starting the threads costs
 # more than it saves (measured for the single-unit kernels this replaces).
 PARALLEL_MIN_ELEMENTS = 64
+# Grounded-wye units on a Thevenin source, phase by phase (see _decoupled); serial, the cases'
+# chunks spread over threads by the caller as for integrate. error_model="numpy" as above (its
+# divisors: L_s > 0, 1/L_s + sum f' + 1/L_L > 0, a table's increasing breakpoints, nsub >= 1).
+integrate_decoupled = numba.njit(cache=True, nogil=True, error_model="numpy")(_decoupled)

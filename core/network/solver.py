@@ -73,7 +73,17 @@ mapped to psi, the table searched from the previous piece) and by scalar Newton'
 lambda for the smooth knee, one element per phase and case, spread over the cores (numba's
 prange) from 64 elements; the same stages, step, sub-steps and EMF as the general kernel, with
 which it agrees to 3e-14 of the largest current (tests/core/network/test_lone_unit.py; the
-general kernel at a Newton tolerance of 1e-14 pu, 2.4e-12 at its default on the smooth knee). The
+general kernel at a Newton tolerance of 1e-14 pu, 2.4e-12 at its default on the smooth knee).
+Several grounded-wye units on a Thevenin source, with or without a bus load, decouple the
+phases too: where only the first peaks or the source current are kept (the statistics' Monte
+Carlo and device events; :func:`phases_decoupled`), :func:`core.network.kernel.
+integrate_decoupled` solves each phase's KCL, Phi_k/L_s = sum_u f_u(psi_uk - Phi_k) +
+(psi_Lk - Phi_k)/L_L, a scalar equation increasing in Phi_k, by Newton's method in a bracket
+(from the held pieces' affine root where the curves are piecewise linear, as below), one element
+per phase and case; it agrees with the general kernel within 1e-15 of the largest current on
+piecewise-linear curves and 2e-12 on the smooth knee (tests/core/network/
+test_decoupled_phases.py), and with the reference below within 1.5e-5
+(tests/references/test_network_vs_scipy.py). The
 stage algebra starts from the accepted point of the previous stage: where every curve is piecewise
 linear, R(Phi) is affine in Phi and in the loop fluxes on the pieces held there, so the Newton
 step from that point with the new loop fluxes, Phi = Phi_a - J^-1*(R_a - sum S C D~ dpsi -
@@ -152,6 +162,7 @@ __all__ = [
     "WindowRecord",
     "case_chunks",
     "insertion_substeps",
+    "phases_decoupled",
     "run_single_unit",
     "simulate_network",
     "simulate_windows",
@@ -642,6 +653,44 @@ def _check_unit(k: int, unit: Unit, source: Source | Machine) -> str:
     return conn
 
 
+def phases_decoupled(source: Source | Machine, units: Sequence[Unit], record: str) -> bool:
+    """Whether :func:`simulate_network` runs this network phase by phase.
+
+    Parameters
+    ----------
+    source : Source or Machine
+        The source [-].
+    units : sequence of Unit
+        The transformers on the bus [-].
+    record : {"all", "source", "first_peaks"}
+        What the simulation keeps [-].
+
+    Returns
+    -------
+    bool
+        True when every unit is a grounded wye, the source a :class:`Source` (a Thevenin EMF,
+        not a machine) and the record the first peaks or the source current: the kernel of
+        decoupled phases (:func:`core.network.kernel.integrate_decoupled`) runs it; False for
+        the general kernel (:func:`core.network.kernel.integrate`).
+
+    Notes
+    -----
+    Phase k's windings of grounded-wye units, its source branch and its bus-load branch meet
+    only at bus node k and ground, so KCL at the bus is one scalar equation per phase. A
+    machine's EMF depends on all three source currents (its d-axis current), and a floating
+    wye or a delta joins the phases.
+
+    References
+    ----------
+    Kirchhoff's laws.
+    """
+    return (
+        isinstance(source, Source)
+        and record in ("source", "first_peaks")
+        and all((u.connection or u.circuit.connection) == "wye_grounded" for u in units)
+    )
+
+
 def step_plan(
     source: Source | Machine,
     units: Sequence[Unit],
@@ -1116,8 +1165,21 @@ def _run(
     n_in = grid.insertion_steps
     vpk = math.sqrt(2.0) * source.line_voltage_v / math.sqrt(3.0)
 
+    records = {kernel.RECORD_SOURCE: "source", kernel.RECORD_FIRST_PEAKS: "first_peaks"}
+    decoupled = phases_decoupled(source, units, records.get(mode, "all"))
+
     def run(lo: int, hi: int) -> int:
         s = slice(lo, hi)
+        if decoupled:
+            return int(
+                kernel.integrate_decoupled(
+                    n_steps, decimate, h, 2.0 * math.pi * f, vpk, phase_c[s], ramp, ramp_steps,
+                    src_c[s], r_l, l_l, load is not None, r_w, r_ins, bypass, kind, par, flux,
+                    cur, npts, close_c[s], lam0_c[s], il0_c[s], tol_phi, n_in, sub_c[s], mode,
+                    peak_last[s] if peak_last.size else peak_last,
+                    out_src[s], out_peak[s] if out_peak.size else out_peak, out_energy[s],
+                )
+            )  # fmt: skip
         failed: int = kernel.integrate(
             n_steps, decimate, h, 2.0 * math.pi * f, vpk, phase_c[s], ramp, ramp_steps,
             src_c[s], m0_c[s], r_l, l_l, load is not None, conn_code, r_w, r_ins, bypass, kind,
@@ -1140,7 +1202,7 @@ def _run(
             f"{failed} algebraic solves without convergence",
             f"a network on which Newton's method converges in {kernel.MAX_ITERATIONS} iterations",
         )
-    if not (np.all(np.isfinite(out_src)) and np.all(np.isfinite(out_peak[:, :1, 0, 0]))):
+    if not (np.all(np.isfinite(out_src)) and np.all(np.isfinite(out_peak[:, :1, :, 0]))):
         raise ParameterError("units", "non-finite current", "a network whose currents stay finite")
     time: FloatArray = np.arange(n_samples, dtype=float) * (h * decimate)
     i_load = out_src - np.sum(out_line, axis=1) if kept else np.zeros((n, 3, kept))

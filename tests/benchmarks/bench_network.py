@@ -21,10 +21,13 @@
    first 200 events over the default 1 s record: the work estimate (core.cost) against the
    default request budget, the CPU time, and the CPU time per estimated winding-step against
    that of the single-unit Monte Carlo (core.statistics.peak_distribution, the baseline, this
-   run), for the whole and for each part (the Monte Carlo, the device events): the ratios
-   that calibrate core.cost's NETWORK_PEAK_STEP_WEIGHT and NETWORK_STEP_WEIGHT (a ratio of 1
-   is an honest estimate); the peak traced memory (tracemalloc) of each part, in a separate
-   run.
+   run), for the whole and for each part (the Monte Carlo, the device events); the peak traced
+   memory (tracemalloc) of each part, in a separate run. The feeder's units are grounded wyes,
+   which the solver runs phase by phase (core.network.phases_decoupled); the same work is then
+   run forced onto the general kernel, and the ratio of the two CPU times, times the general
+   kernel's weights (NETWORK_PEAK_STEP_WEIGHT, NETWORK_SOURCE_STEP_WEIGHT), calibrates
+   core.cost's NETWORK_DECOUPLED_PEAK_STEP_WEIGHT and NETWORK_DECOUPLED_SOURCE_STEP_WEIGHT (a
+   ratio of 1 to the baseline is an honest estimate). --only-statistics runs this part alone.
 
 Each timing is the best of three after a warm-up call (compilation excluded).
 """
@@ -42,7 +45,7 @@ from scipy.integrate import solve_ivp
 
 from core import cost, transformer
 from core.energization import energize
-from core.network import Breaker, BusLoad, Source, Unit, simulate_network
+from core.network import Breaker, BusLoad, Source, Unit, simulate_network, solver
 from core.protection import device_operation
 from core.statistics import monte_carlo, network_statistics
 from core.transformer.magnetizing import PiecewiseLinearCurve
@@ -50,6 +53,7 @@ from service.settings import Settings
 
 F = 50.0
 V_LL = 11_000.0
+DECOUPLED = solver.phases_decoupled
 
 
 def _best(fn: Callable[[], object], repeat: int = 3) -> float:
@@ -178,6 +182,47 @@ def statistics(samples: int, events: int) -> None:
     rated = 4 * ideal.rated_line_current_a
     relay = device_operation.Relay("51", "ieee_c37_112", "very_inverse", 3 * rated, 2.0)
     sigma = monte_carlo.DEFAULT_THREE_PHASE_POLE_SCATTER_MS
+    base_samples = 2000
+    base_work = cost.statistics_work(
+        c, samples=base_samples, pole_scatter_ms=sigma, events=0, devices=0,
+        device_duration_s=1.0, dip_duration_s=None,
+    )  # fmt: skip
+    # warm-up: 100 samples, enough for the parallel build of the kernel the timed run uses
+    monte_carlo.peak_distribution(c, samples=100, random_state=1)
+    t_base = _cpu(lambda: monte_carlo.peak_distribution(c, samples=base_samples, random_state=1))
+    per_base = t_base / base_work.steps
+    print(
+        f"   baseline single-unit Monte Carlo ({base_samples} samples): {t_base:6.2f} s, "
+        f"{per_base * 1e9:5.1f} ns per estimated winding-step"
+    )
+    # the feeder phase by phase (its own kernel), then forced onto the general kernel
+    for general in (False, True):
+        if general:
+            solver.phases_decoupled = lambda *a: False  # type: ignore[assignment]
+            cost.phases_decoupled = solver.phases_decoupled  # type: ignore[attr-defined]
+        try:
+            _statistics_kernel(
+                src, units, relay, rated, samples, events, sigma, budget, per_base, general
+            )
+        finally:
+            solver.phases_decoupled = DECOUPLED
+            cost.phases_decoupled = DECOUPLED  # type: ignore[attr-defined]
+
+
+def _statistics_kernel(
+    src: Source,
+    units: list[Unit],
+    relay: device_operation.Relay,
+    rated: float,
+    samples: int,
+    events: int,
+    sigma: float,
+    budget: int,
+    per_base: float,
+    general: bool,
+) -> None:
+    name = "general kernel (forced)" if general else "phase by phase (its own kernel)"
+    print(f"   -- {name}")
     work = cost.network_statistics_work(
         src, units, samples=samples, pole_closing_max_s=0.0, pole_scatter_ms=sigma,
         events=events, devices=1, duration_s=1.0,
@@ -189,8 +234,8 @@ def statistics(samples: int, events: int) -> None:
     print(
         f"   estimate {work.steps / 1e6:8.1f} M winding-steps; budget {budget / 1e6:.0f} M: {fits}"
     )
-    for name, steps in work.parts:
-        print(f"      {name:24s} {steps / 1e6:8.1f} M")
+    for part, steps in work.parts:
+        print(f"      {part:24s} {steps / 1e6:8.1f} M")
     alone = int(samples * budget / peaks_only.steps)
     events_work = work.steps - peaks_only.steps
     largest = int(samples * (budget - events_work) / peaks_only.steps)
@@ -232,25 +277,12 @@ def statistics(samples: int, events: int) -> None:
           f"{mem_dev / 1e6:6.1f} MB")  # fmt: skip
     p = holder["d"].source.percentiles
     print(f"   source first peak P50/P99/max {p.p50_a:.0f} / {p.p99_a:.0f} / {p.max_a:.0f} A")
-    base_samples = 2000
-    base_work = cost.statistics_work(
-        c, samples=base_samples, pole_scatter_ms=sigma, events=0, devices=0,
-        device_duration_s=1.0, dip_duration_s=None,
-    )  # fmt: skip
-    monte_carlo.peak_distribution(c, samples=20, random_state=1)
-    t_base = _cpu(lambda: monte_carlo.peak_distribution(c, samples=base_samples, random_state=1))
-    per_base = t_base / base_work.steps
-    per_net = total / work.steps
-    print(
-        f"   baseline single-unit Monte Carlo ({base_samples} samples): {t_base:6.2f} s, "
-        f"{per_base * 1e9:5.1f} ns per estimated winding-step; ratio network/baseline "
-        f"{per_net / per_base:5.2f}"
-    )
     mc = peaks_only.steps
     dev = work.steps - mc
     print(
-        f"   ratio network/baseline per estimated winding-step: Monte Carlo "
-        f"{t_peaks / mc / per_base:5.2f}, device events {t_dev / dev / per_base:5.2f}"
+        f"   ratio network/baseline per estimated winding-step: whole "
+        f"{total / work.steps / per_base:5.2f}, Monte Carlo {t_peaks / mc / per_base:5.2f}, "
+        f"device events {t_dev / dev / per_base:5.2f}"
     )
 
 
@@ -277,7 +309,11 @@ def main() -> None:
     parser.add_argument("--cycles", type=float, default=10.0)
     parser.add_argument("--samples", type=int, default=10_000)
     parser.add_argument("--events", type=int, default=200)
+    parser.add_argument("--only-statistics", action="store_true", help="section 3 alone")
     args = parser.parse_args()
+    if args.only_statistics:
+        statistics(args.samples, args.events)
+        return
     lsoda = _lsoda_per_case(_circuit("wye_grounded"), args.cycles)
     single_unit(args.cases, args.cycles, lsoda)
     single_unit(1, args.cycles, lsoda)

@@ -83,18 +83,31 @@ def test_plan_and_work_count_the_solvers_steps(name: str, samples_per_cycle: int
     assert np.isfinite(work.steps)
 
 
+@pytest.mark.parametrize(
+    ("name", "decoupled"),
+    [("delta beside wye in service, load", False), ("grounded wyes, load", True)],
+)
 def test_statistics_work_counts_the_steps_the_statistics_take(
-    monkeypatch: pytest.MonkeyPatch,
+    monkeypatch: pytest.MonkeyPatch, name: str, decoupled: bool
 ) -> None:
     # every simulate_network call of the Monte Carlo and of the device events, counted from
-    # what it returns: cases x units x 3 windings x internal steps; a Monte Carlo case (no
-    # record) is integrated to the sample after its own first-peak window, read off its
-    # returned pole instants
-    from core.network import analysis
+    # what it returns: cases x units x 3 windings x internal steps, at the weights of the
+    # kernel that runs it (grounded wyes on a Thevenin source: phase by phase); a Monte Carlo
+    # case (no record) is integrated to the sample after its own first-peak window, read off
+    # its returned pole instants
+    from core.network import analysis, phases_decoupled
     from core.statistics import monte_carlo
     from core.statistics import network_statistics as ns
 
-    units, load = CASES["delta beside wye in service, load"]
+    if decoupled:
+        units = [_unit("wye_grounded", 1e6), _unit("wye_grounded", 5e5, in_service=True)]
+        load = BusLoad.from_power(V_LL, F, 1e6, 5e5)
+        peak_weight = cost.NETWORK_DECOUPLED_PEAK_STEP_WEIGHT
+        source_weight = cost.NETWORK_DECOUPLED_SOURCE_STEP_WEIGHT
+    else:
+        units, load = CASES[name]
+        peak_weight, source_weight = cost.NETWORK_PEAK_STEP_WEIGHT, cost.NETWORK_SOURCE_STEP_WEIGHT
+    assert phases_decoupled(SOURCE, units, "first_peaks") is decoupled
     units = [
         dataclasses.replace(u, breaker=Breaker(np.zeros(3)), residual_flux_pu=np.zeros(3))
         if not u.in_service
@@ -112,11 +125,11 @@ def test_statistics_work_counts_the_steps_the_statistics_take(
             end = analysis.first_peak_window_end(res.closing_time_s, energized, F)
             last = np.searchsorted(res.time_s, end * (1 + 1e-12), side="right") - 1
             samples = np.minimum(last + 1, res.time_s.size - 1)
-            taken.append(cost.NETWORK_PEAK_STEP_WEIGHT * n_units * 3 * decimate * samples.sum())
+            taken.append(peak_weight * n_units * 3 * decimate * samples.sum())
             return res
         assert kw.get("record") == "source"  # the device events: the source current only
         steps = (res.time_s.size - 1) * decimate
-        taken.append(cost.NETWORK_SOURCE_STEP_WEIGHT * cases * n_units * 3 * steps)
+        taken.append(source_weight * cases * n_units * 3 * steps)
         return res
 
     monkeypatch.setattr(ns, "simulate_network", counted)
