@@ -13,6 +13,7 @@ from typing import Any
 
 from pydantic import Field, model_validator
 from pydantic_settings import BaseSettings, SettingsConfigDict
+from starlette.requests import Request
 
 
 class Settings(BaseSettings):
@@ -160,6 +161,29 @@ def default_limit(name: str) -> Any:
     return Settings.model_fields[name].default
 
 
+#: The compute limits a request is held to; an operator may lower any of them.
+WORK_LIMITS = (
+    "max_duration_s",
+    "max_samples_per_cycle",
+    "max_total_samples",
+    "max_total_steps",
+    "max_request_steps",
+    "max_waveform_points",
+    "max_statistics_samples",
+    "max_event_checks",
+    "max_cases",
+)
+#: Key of the ASGI scope the warm-up (service/warmup.py) sets on its own in-process requests; a
+#: client cannot set it (the server builds the scope of a request from the network).
+WARMUP_SCOPE_KEY = "firstcycle.warmup"
+
+
+def _warmup_settings(settings: Settings) -> Settings:
+    return settings.model_copy(
+        update={n: max(getattr(settings, n), default_limit(n)) for n in WORK_LIMITS}
+    )
+
+
 class KeySourceError(ValueError):
     """An API-key setting is present but yields no usable key."""
 
@@ -170,6 +194,14 @@ def get_settings() -> Settings:
     return Settings()
 
 
-async def settings_dependency() -> Settings:
-    """FastAPI dependency (async, so it costs no thread-pool hop per request)."""
-    return get_settings()
+async def settings_dependency(request: Request) -> Settings:
+    """FastAPI dependency (async, so it costs no thread-pool hop per request).
+
+    The warm-up's own requests (their scope carries WARMUP_SCOPE_KEY) are held to the default
+    compute limits where the operator lowered them: its fixed demo requests fit the defaults,
+    and a process whose warm-up is refused by a lowered limit would never become ready.
+    """
+    settings = get_settings()
+    if request.scope.get(WARMUP_SCOPE_KEY) is True:
+        return _warmup_settings(settings)
+    return settings

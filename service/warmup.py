@@ -37,7 +37,7 @@ from service.examples import (
     SHEET_REQUESTS,
     STATISTICS_REQUESTS,
 )
-from service.settings import get_settings
+from service.settings import WARMUP_SCOPE_KEY, get_settings
 
 log = logging.getLogger("firstcycle")
 
@@ -134,6 +134,8 @@ async def _call(
         "client": ("127.0.0.1", 0),
         "server": ("127.0.0.1", 0),
         "state": {},
+        # the default compute limits for these demo requests (service.settings)
+        WARMUP_SCOPE_KEY: True,
     }
     sent = False
     status = 0

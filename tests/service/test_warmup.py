@@ -153,3 +153,36 @@ def test_warmup_off_is_ready_at_once(monkeypatch: pytest.MonkeyPatch) -> None:
     with TestClient(create_app()) as c:
         assert c.get("/readyz").status_code == 200
     get_settings.cache_clear()
+
+
+def test_warmup_succeeds_under_lowered_limits_which_still_hold_for_callers(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    # An operator who lowers the compute limits below the demo requests the warm-up sends (a
+    # tenth of the work budget, 100 samples, 0.1 s) must still get a ready service: the
+    # warm-up's in-process requests are held to the default limits, a caller to the lowered
+    # ones, whatever it sends.
+    from service.examples import NETWORK_STATISTICS_REQUESTS
+
+    for name, value in (
+        ("FIRSTCYCLE_MAX_REQUEST_STEPS", "4000000"),
+        ("FIRSTCYCLE_MAX_STATISTICS_SAMPLES", "100"),
+        ("FIRSTCYCLE_MAX_DURATION_S", "0.1"),
+    ):
+        monkeypatch.setenv(name, value)
+    get_settings.cache_clear()
+    try:
+        app = create_app()
+        assert warmup.run(app) > 0.0  # raises when a warm-up request is refused
+        body = NETWORK_STATISTICS_REQUESTS["northgate_ring_reclose"]
+        r = TestClient(app).post(
+            "/v1/network-energization/statistics",
+            json=body,
+            headers={"host": "warmup", "x-request-id": "warmup-1"},
+        )
+        assert r.status_code == 422
+        err = r.json()["errors"][0]
+        assert err["field"] == "sampling.samples"
+        assert err["allowed"] == "<= 100"
+    finally:
+        get_settings.cache_clear()
